@@ -1,5 +1,128 @@
-/** Command-line entry point (placeholder while the runner is built). */
-export async function main(_argv: string[]): Promise<number> {
-  process.stdout.write('dendrolog\n');
-  return 0;
+import { availableParallelism } from 'node:os';
+import { relative } from 'node:path';
+import { parseArgs } from 'node:util';
+import { DendrologError, messages } from './messages.js';
+import { streamProgress } from './progress.js';
+import { loadRecipe } from './recipe.js';
+import { DEFAULT_CACHE, runRecipe } from './run.js';
+import { closest } from './suggest.js';
+
+const HELP = `dendrolog — run a tree and forest regression recipe and write an audit report
+
+Usage:
+  dendrolog run RECIPE [--out DIR] [--cache DIR] [--no-cache] [--workers N]
+  dendrolog check RECIPE
+  dendrolog --help | --version
+
+Commands:
+  run     plan the recipe's steps, take unchanged ones from the cache, run the rest,
+          and write report.html, summary.md and manifest.json
+  check   validate the recipe (schema, names, expressions, source files) without running it
+
+Options for run:
+  --out DIR      output folder (default: <recipe folder>/<report.folder>/<recipe name>)
+  --cache DIR    cache folder (default: ${DEFAULT_CACHE} under the current folder)
+  --no-cache     neither read nor write the cache
+  --workers N    threads for growing trees (default: the number of cores); results are
+                 identical for any N
+
+Exit codes:
+  0  success
+  1  the analysis failed (bad data, a step error)
+  2  bad usage or a bad recipe
+`;
+
+const COMMANDS = ['run', 'check'];
+
+/**
+ * Entry point: parses arguments, runs the command, prints errors as one line each, returns the exit code.
+ *
+ * Example: `await main(['check', 'recipes/lake-chlorophyll/recipe.yaml'])` returns 0 for a good recipe.
+ */
+export async function main(argv: string[]): Promise<number> {
+  const out = process.stdout;
+  const err = process.stderr;
+  try {
+    const [command, ...rest] = argv;
+    if (!command || command === '--help' || command === '-h' || command === 'help') {
+      out.write(HELP);
+      return command ? 0 : 2;
+    }
+    if (command === '--version') {
+      out.write(`${(await import('./environment.js')).environment().dendrolog}\n`);
+      return 0;
+    }
+    if (!COMMANDS.includes(command)) throw new DendrologError(messages.usageUnknownCommand(command, closest(command, COMMANDS)), 2);
+    if (rest.includes('--help') || rest.includes('-h')) {
+      out.write(HELP);
+      return 0;
+    }
+    if (command === 'check') {
+      const { positionals } = parse(rest, {}, command);
+      const recipe = onePositional(positionals, command);
+      const { recipe: r } = loadRecipe(recipe, { checkFiles: true });
+      out.write(`${recipe}: ok (${Object.keys(r.sources).length} sources, ${Object.keys(r.models).length} models)\n`);
+      return 0;
+    }
+    const { values, positionals } = parse(
+      rest,
+      { out: { type: 'string' }, cache: { type: 'string' }, 'no-cache': { type: 'boolean' }, workers: { type: 'string' } },
+      command,
+    );
+    const recipe = onePositional(positionals, command);
+    let workers = availableParallelism();
+    if (values.workers !== undefined) {
+      workers = Number(values.workers);
+      if (!Number.isInteger(workers) || workers < 1 || workers > 256) {
+        throw new DendrologError(messages.usageOptionValue('--workers', String(values.workers), 'a whole number from 1 to 256'), 2);
+      }
+    }
+    const t0 = performance.now();
+    const result = await runRecipe(recipe, {
+      out: values.out as string | undefined,
+      cache: values.cache as string | undefined,
+      noCache: Boolean(values['no-cache']),
+      workers,
+      progress: streamProgress(out),
+    });
+    const where = relative(process.cwd(), result.outDir) || '.';
+    const w = result.manifest.warnings.length;
+    out.write(
+      `\nReport: ${where}/report.html\nSummary: ${where}/summary.md\nManifest: ${where}/manifest.json\n` +
+        `${w} warning${w === 1 ? '' : 's'}; finished in ${((performance.now() - t0) / 1000).toFixed(1)} s\n`,
+    );
+    return 0;
+  } catch (e) {
+    if (e instanceof DendrologError) {
+      err.write(`${e.message}\n`);
+      return e.exitCode;
+    }
+    err.write(`dendrolog: unexpected internal error; please report it with the recipe that caused it\n${(e as Error).stack ?? e}\n`);
+    return 1;
+  }
+}
+
+type OptionSpec = Record<string, { type: 'string' | 'boolean' }>;
+
+function parse(
+  args: string[],
+  options: OptionSpec,
+  command: string,
+): { values: Record<string, string | boolean | undefined>; positionals: string[] } {
+  try {
+    const r = parseArgs({ args, options, allowPositionals: true, strict: true });
+    return { values: r.values as Record<string, string | boolean | undefined>, positionals: r.positionals };
+  } catch (e) {
+    const m = /'(--?[^']+)'/.exec((e as Error).message);
+    if (m && /Unknown option/.test((e as Error).message)) throw new DendrologError(messages.usageUnknownOption(m[1], command), 2);
+    throw new DendrologError(`${(e as Error).message}; run "dendrolog ${command} --help"`, 2);
+  }
+}
+
+function onePositional(positionals: string[], command: string): string {
+  if (positionals.length === 0) throw new DendrologError(messages.usageMissingArgument('a recipe file', command), 2);
+  if (positionals.length > 1) {
+    throw new DendrologError(`"dendrolog ${command}" takes one recipe file, but got ${positionals.length}: ${positionals.join(' ')}`, 2);
+  }
+  return positionals[0];
 }

@@ -1,0 +1,83 @@
+import { relative } from 'node:path';
+import type { Execution } from './execute.js';
+import { environment, gitState, type Environment } from './environment.js';
+import { sha256 } from './hash.js';
+import type { RecipeOrigin } from './recipe.js';
+import type { Recipe } from './recipe-types.js';
+import type { Results } from './results.js';
+import type { Warning } from './step-types.js';
+
+export interface Manifest {
+  manifest: 1;
+  recipe: { file: string; sha256: string; normalized: Recipe };
+  seed: number;
+  sources: { name: string; file: string; sha256: string; rows: number; columns: Results['sources'][number]['columns'] }[];
+  steps: { id: string; kind: string; key: string; output: string }[];
+  models: {
+    name: string;
+    kind: string;
+    chosen: Record<string, unknown>;
+    used: Record<string, unknown>;
+    cells: { cell: Record<string, unknown>; crossValidated: unknown; perFold: unknown }[];
+    metrics: { holdout: unknown; holdoutInterval90: unknown; crossValidated: unknown; training: unknown; outOfBag: { r2: number | null } };
+    skill: Record<string, number | null>;
+  }[];
+  headline: { model: string; metric: string; value: number | null; label: 'holdout' };
+  holdoutPredictionsSha256: string;
+  environment: Environment;
+  git: { commit: string; dirty: boolean } | null;
+  warnings: Warning[];
+  /** The only part that changes between reruns of the same recipe. */
+  timing: { started: string; seconds: number; steps: { id: string; status: 'ran' | 'cached'; seconds: number }[] };
+}
+
+/**
+ * The run's reproducibility record. Everything outside `timing` is identical across reruns of the
+ * same recipe, data and software.
+ */
+export function buildManifest(
+  recipe: Recipe,
+  origin: RecipeOrigin,
+  exec: Execution,
+  results: Results,
+  timing: { started: Date; seconds: number },
+): Manifest {
+  const headlineModel = results.models.find((m) => m.name === results.chosenModel)!;
+  return {
+    manifest: 1,
+    recipe: { file: relative(process.cwd(), origin.path) || origin.path, sha256: origin.sha256, normalized: recipe },
+    seed: recipe.seed,
+    sources: results.sources.map((s) => ({ name: s.name, file: s.file, sha256: s.sha256, rows: s.rows, columns: s.columns })),
+    steps: exec.records.map((r) => ({ id: r.id, kind: r.kind, key: r.key, output: r.output })),
+    models: results.models.map((m) => ({
+      name: m.name,
+      kind: m.kind,
+      chosen: m.cells[m.chosen].cell,
+      used: m.used,
+      cells: m.cells.map((c) => ({ cell: c.cell, crossValidated: c.pooled, perFold: c.perFold })),
+      metrics: {
+        holdout: m.holdout,
+        holdoutInterval90: m.intervals,
+        crossValidated: m.crossValidated,
+        training: m.training,
+        outOfBag: { r2: m.oobR2 },
+      },
+      skill: m.skill,
+    })),
+    headline: {
+      model: results.chosenModel,
+      metric: 'r2',
+      value: headlineModel.holdout.r2.value,
+      label: 'holdout',
+    },
+    holdoutPredictionsSha256: sha256(JSON.stringify(results.holdoutRows.predicted)),
+    environment: environment(),
+    git: gitState(origin.dir),
+    warnings: results.warnings,
+    timing: {
+      started: timing.started.toISOString(),
+      seconds: Number(timing.seconds.toFixed(3)),
+      steps: exec.records.map((r) => ({ id: r.id, status: r.status, seconds: Number(r.seconds.toFixed(3)) })),
+    },
+  };
+}

@@ -1,0 +1,117 @@
+/**
+ * Every message dendrolog shows a user, as functions named for the failure.
+ * Each quotes the bad value, says where it is, and says what to do.
+ * Tests compare against these functions, never against copied strings.
+ */
+
+/** An error meant for the user: message is complete, exitCode says whose fault it was. */
+export class DendrologError extends Error {
+  /** 2: bad usage or bad recipe; 1: the analysis failed. */
+  readonly exitCode: 1 | 2;
+  constructor(message: string, exitCode: 1 | 2) {
+    super(message);
+    this.name = 'DendrologError';
+    this.exitCode = exitCode;
+  }
+}
+
+/** Several recipe problems found at once, one line each. */
+export class RecipeErrors extends DendrologError {
+  readonly problems: string[];
+  constructor(problems: string[]) {
+    super(problems.join('\n'), 2);
+    this.problems = problems;
+  }
+}
+
+const q = (v: unknown): string => JSON.stringify(v);
+
+export const messages = {
+  // --- usage
+  usageUnknownCommand: (cmd: string, suggestion?: string) =>
+    `unknown command ${q(cmd)}${suggestion ? `; did you mean ${q(suggestion)}?` : ''}; run "dendrolog --help" for the commands`,
+  usageUnknownOption: (opt: string, cmd: string) =>
+    `unknown option ${q(opt)} for "dendrolog ${cmd}"; run "dendrolog ${cmd} --help" for its options`,
+  usageMissingArgument: (what: string, cmd: string) =>
+    `"dendrolog ${cmd}" needs ${what}; run "dendrolog ${cmd} --help" for an example`,
+  usageOptionValue: (opt: string, value: string, expected: string) =>
+    `option ${opt} got ${q(value)}; expected ${expected}`,
+  recipeFileMissing: (path: string) =>
+    `${path}: no such recipe file; give the path of a recipe.yaml (for example recipes/lake-chlorophyll/recipe.yaml)`,
+
+  // --- recipe syntax and schema (each prefixed by file:line:column by the caller)
+  yamlSyntax: (detail: string) => `YAML syntax error: ${detail}; fix the YAML at this position`,
+  yamlDuplicateKey: (key: string) => `key ${q(key)} appears twice in the same mapping; keep one of them`,
+  unknownKey: (key: string, where: string, suggestion: string | undefined, allowed: string[]) =>
+    `unknown key ${q(key)} in ${where}` +
+    (suggestion ? `; did you mean ${q(suggestion)}?` : `; allowed keys are ${allowed.join(', ')}`),
+  missingKey: (key: string, where: string) => `${where} needs the key ${q(key)}; add it`,
+  wrongType: (where: string, expected: string, got: unknown) =>
+    `${where} must be ${expected}, but is ${q(got)}; change the value`,
+  notInList: (where: string, got: unknown, allowed: unknown[], suggestion?: string) =>
+    `${where} is ${q(got)}, which is not one of ${allowed.map((a) => q(a)).join(', ')}` +
+    (suggestion ? `; did you mean ${q(suggestion)}?` : ''),
+  outOfRange: (where: string, got: unknown, rule: string) => `${where} is ${q(got)}, but it must be ${rule}`,
+  badPattern: (where: string, got: unknown, rule: string) => `${where} is ${q(got)}; ${rule}`,
+  schemaOther: (where: string, detail: string) => `${where}: ${detail}`,
+  unsupportedVersion: (got: unknown) =>
+    `dendrolog: ${q(got)} is not a recipe format this version reads; this version reads format 1 (write "dendrolog: 1")`,
+
+  // --- recipe meaning (checked after the schema)
+  sourcePathEscapes: (file: string) =>
+    `source file ${q(file)} leaves the recipe's folder; keep data inside the folder tree of the recipe (copy or link it there)`,
+  sourceFileMissing: (file: string, resolved: string) =>
+    `source file ${q(file)} was not found (looked for ${resolved}); check the path, which is relative to the recipe`,
+  sourceHashMismatch: (file: string, pinned: string, actual: string) =>
+    `source file ${q(file)} has SHA-256 ${actual}, but the recipe pins ${pinned}; the data changed: restore the pinned file, or update the sha256 if the change is intended`,
+  unknownSource: (name: string, known: string[], suggestion?: string) =>
+    `no source named ${q(name)}` + (suggestion ? `; did you mean ${q(suggestion)}?` : `; the sources are ${known.join(', ')}`),
+  unknownColumn: (column: string, step: string, known: string[], suggestion?: string) =>
+    `${step} names column ${q(column)}, which does not exist at that step` +
+    (suggestion ? `; did you mean ${q(suggestion)}?` : `; the columns are ${known.join(', ')}`),
+  expressionCompile: (expr: string, detail: string) =>
+    `expression ${q(expr)} does not compile: ${detail}; write an arquero expression over d.column_name, for example "d.depth_m <= 2"`,
+  duplicateColumn: (column: string, step: string) =>
+    `${step} would create column ${q(column)}, which already exists; choose another name`,
+  predictorIsTarget: (column: string) =>
+    `the target ${q(column)} is also listed as a predictor; remove it from predictors`,
+  categoryPredictorNeedsEncoding: (column: string) =>
+    `predictor ${q(column)} is text, which a model cannot use directly; add "- one_hot: {column: ${column}}" under features, or remove it from predictors`,
+  targetNotNumber: (column: string, type: string) =>
+    `the target ${q(column)} is declared as ${type}; a regression target must be a number column`,
+  gridTooLarge: (cells: number, limit: number) =>
+    `the models' grids have ${cells} cells in all, more than the limit of ${limit}; shrink the grids, or raise evaluation.max_cells if you mean it`,
+  groupsNeeded: (where: string) =>
+    `${where} splits by groups, but the recipe has no "groups" column; add "groups: <column>" or split at random`,
+  timeNeeded: (where: string) =>
+    `${where} splits by time, but the recipe has no "time" column; add "time: <column>" or split another way`,
+
+  // --- data
+  columnNotInFile: (file: string, column: string, header: string[], suggestion?: string) =>
+    `${file}: declared column ${q(column)} is not in the file's header` +
+    (suggestion ? `; did you mean ${q(suggestion)}?` : `; the header has ${header.join(', ')}`),
+  csvFieldCount: (file: string, line: number, expected: number, got: number) =>
+    `${file}:${line}: row has ${got} fields, but the header has ${expected}; fix the row (a stray delimiter or an unquoted comma?)`,
+  csvUnterminatedQuote: (file: string, line: number) =>
+    `${file}:${line}: a quoted field starts here and is never closed; add the closing quote`,
+  csvEmpty: (file: string) => `${file}: the file is empty; it needs a header row`,
+  csvDuplicateHeader: (file: string, column: string) =>
+    `${file}: the header names column ${q(column)} twice; rename one`,
+  valueParse: (file: string, line: number, column: string, value: string, type: string) =>
+    `${file}:${line}: column ${q(column)} holds ${q(value)}, which is not a ${type}; fix the value, list it under "missing", or declare the column with another type`,
+  targetAllMissing: (column: string) =>
+    `the target ${q(column)} has no values left after cleaning; check the cleaning steps and the missing-value tokens`,
+  tooFewRows: (rows: number, needed: number, what: string) =>
+    `only ${rows} rows are left for ${what}, but at least ${needed} are needed; loosen the cleaning steps or use fewer folds`,
+  holdoutEmpty: (side: string) =>
+    `the holdout split left the ${side} set empty; change evaluation.holdout.fraction`,
+  missingInPredictor: (column: string, rows: number) =>
+    `predictor ${q(column)} has ${rows} missing values in the modelling rows; drop them with "drop_missing" or fill them with an "impute" feature step`,
+  unseenCategory: (column: string, value: string, known: string[]) =>
+    `column ${q(column)} holds category ${q(value)}, which the training rows never had (they had ${known.join(', ')}); set "unseen: other" on its one_hot step to map it to a shared column, or drop those rows`,
+
+  // --- cache and output
+  cacheCorrupt: (key: string) =>
+    `cache entry ${key.slice(0, 12)} failed its checksum and was discarded; the step was recomputed`,
+  outputExists: (folder: string) => `output folder ${folder} exists and is not a dendrolog run; choose another --out`,
+} as const;

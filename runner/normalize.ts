@@ -1,0 +1,142 @@
+import type {
+  CleanStep,
+  Evaluation,
+  FeatureStep,
+  ModelKind,
+  ModelSpec,
+  Recipe,
+  SourceSpec,
+} from './recipe-types.js';
+
+/** Seed used when the recipe gives none; written into the normalized recipe and the manifest. */
+export const DEFAULT_SEED = 1;
+/** Tokens read as missing when a source lists none. */
+export const DEFAULT_MISSING = ['', 'NA'];
+/** Upper bound on grid cells across all models unless the recipe raises it. */
+export const DEFAULT_MAX_CELLS = 200;
+
+/**
+ * Hyperparameter defaults per model kind. `mtry: null` means one third of the predictors
+ * (after one-hot expansion), rounded down, at least 1; the value used is recorded per fit.
+ */
+export const MODEL_DEFAULTS: Record<ModelKind, Record<string, (number | boolean | null)[]>> = {
+  random_forest: { trees: [500], max_depth: [null], min_leaf: [5], mtry: [null], sample_fraction: [1], replace: [true] },
+  decision_tree: { max_depth: [null], min_leaf: [5] },
+  linear: {},
+  mean: {},
+};
+
+type Raw = Record<string, unknown>;
+
+/**
+ * Fills every default so the recipe says everything it means. Input has passed the schema.
+ *
+ * Example: a source without `missing` gets `missing: ["", "NA"]`.
+ */
+export function normalizeRecipe(raw: Raw): Recipe {
+  const groups = (raw.groups as string | undefined) ?? null;
+  const sources: Record<string, SourceSpec> = {};
+  for (const [name, s] of Object.entries(raw.sources as Record<string, Raw>)) {
+    const file = String(s.file);
+    sources[name] = {
+      file,
+      format: (s.format as 'csv' | 'tsv' | undefined) ?? (file.toLowerCase().endsWith('.tsv') ? 'tsv' : 'csv'),
+      sha256: (s.sha256 as string | undefined) ?? null,
+      columns: { ...(s.columns as SourceSpec['columns']) },
+      missing: ((s.missing as unknown[] | undefined) ?? DEFAULT_MISSING).map(String),
+    };
+  }
+  const models: Record<string, ModelSpec> = {};
+  for (const [name, m] of Object.entries(raw.models as Record<string, Raw>)) {
+    const kind = m.kind as ModelKind;
+    const grid: ModelSpec['grid'] = {};
+    const given = (m.grid as Raw | undefined) ?? {};
+    for (const [param, def] of Object.entries(MODEL_DEFAULTS[kind])) {
+      const v = given[param];
+      grid[param] = v === undefined ? [...def] : Array.isArray(v) ? [...v] : [v as number | boolean | null];
+    }
+    models[name] = { kind, grid };
+  }
+  const ev = (raw.evaluation as Raw | undefined) ?? {};
+  const holdout = (ev.holdout as Raw | undefined) ?? {};
+  const folds = (ev.folds as Raw | undefined) ?? {};
+  const evaluation: Evaluation = {
+    holdout: {
+      by: (holdout.by as Evaluation['holdout']['by'] | undefined) ?? (groups ? 'groups' : 'random'),
+      fraction: (holdout.fraction as number | undefined) ?? 0.2,
+    },
+    folds: {
+      k: (folds.k as number | undefined) ?? 5,
+      by: (folds.by as Evaluation['folds']['by'] | undefined) ?? (groups ? 'groups' : 'random'),
+    },
+    choose_by: (ev.choose_by as Evaluation['choose_by'] | undefined) ?? 'rmse',
+    metrics: (ev.metrics as Evaluation['metrics'] | undefined) ?? ['r2', 'rmse', 'mae', 'bias'],
+    max_cells: (ev.max_cells as number | undefined) ?? DEFAULT_MAX_CELLS,
+  };
+  return {
+    dendrolog: 1,
+    name: String(raw.name),
+    title: (raw.title as string | undefined) ?? String(raw.name),
+    seed: (raw.seed as number | undefined) ?? DEFAULT_SEED,
+    sources,
+    join: ((raw.join as Raw[] | undefined) ?? []).map((j) => ({
+      with: String(j.with),
+      on: Array.isArray(j.on) ? j.on.map(String) : [String(j.on)],
+      keep: (j.keep as 'matched' | 'all' | undefined) ?? 'matched',
+    })),
+    clean: ((raw.clean as Raw[] | undefined) ?? []).map(normalizeClean),
+    features: ((raw.features as Raw[] | undefined) ?? []).map(normalizeFeature),
+    target: String(raw.target),
+    predictors: (raw.predictors as string[]).map(String),
+    groups,
+    time: (raw.time as string | undefined) ?? null,
+    models,
+    evaluation,
+    report: { folder: ((raw.report as Raw | undefined)?.folder as string | undefined) ?? 'out' },
+  };
+}
+
+function normalizeClean(step: Raw): CleanStep {
+  const [kind, v] = Object.entries(step)[0] as [string, unknown];
+  switch (kind) {
+    case 'replace': {
+      const r = v as Raw;
+      return {
+        kind,
+        columns: r.columns as string[],
+        values: r.values as (string | number)[],
+        with: r.with as 'missing' | number,
+      };
+    }
+    case 'drop_missing':
+      return { kind, columns: v as string[] };
+    case 'keep_rows':
+      return { kind, expr: v as string };
+    case 'within': {
+      const r = v as Raw;
+      return {
+        kind,
+        column: r.column as string,
+        min: (r.min as number | undefined) ?? null,
+        max: (r.max as number | undefined) ?? null,
+      };
+    }
+  }
+  throw new Error(`normalizeClean: schema let through clean step ${kind}`);
+}
+
+function normalizeFeature(step: Raw): FeatureStep {
+  const [kind, v] = Object.entries(step)[0] as [string, unknown];
+  const r = v as Raw;
+  switch (kind) {
+    case 'derive':
+      return { kind, columns: { ...(v as Record<string, string>) } };
+    case 'impute':
+      return { kind, columns: r.columns as string[], with: (r.with as 'mean' | 'median' | undefined) ?? 'median' };
+    case 'one_hot':
+      return { kind, column: r.column as string, unseen: (r.unseen as 'error' | 'other' | undefined) ?? 'error' };
+    case 'standardize':
+      return { kind, columns: r.columns as string[] };
+  }
+  throw new Error(`normalizeFeature: schema let through feature step ${kind}`);
+}

@@ -1,0 +1,110 @@
+import { readFileSync } from 'node:fs';
+import { stepRegistry } from '../steps/index.js';
+import { cellLabel, gridCells } from '../steps/model-kinds.js';
+import { hashValue, sha256 } from './hash.js';
+import { DendrologError } from './messages.js';
+import type { RecipeOrigin } from './recipe.js';
+import { displayOf, resolveSourcePath } from './recipe.js';
+import type { Recipe } from './recipe-types.js';
+import type { StepInstance } from './step-types.js';
+
+/** Bootstrap resamples behind each holdout interval. */
+export const BOOTSTRAP_RESAMPLES = 1000;
+
+/** The planned steps in execution order, plus the ids the report needs to find outputs. */
+export interface Plan {
+  steps: StepInstance[];
+  sources: Record<string, string>;
+  /** Data steps in order, from the main source to the model table (for the cleaning table). */
+  dataSteps: string[];
+  modelTable: string;
+  holdout: string;
+  folds: string;
+  models: Record<string, { cells: string[]; choose: string; fit: string; score: string }>;
+}
+
+/**
+ * Turns a recipe into step instances, each keyed by the SHA-256 of its kind, version, params and
+ * its inputs' keys; a source's key covers its file's bytes and read options, not its path.
+ *
+ * Example: changing `clean[1]` changes the keys of clean[1] and everything after it, nothing before.
+ */
+export function planRecipe(recipe: Recipe, origin: RecipeOrigin): Plan {
+  const steps: StepInstance[] = [];
+  const keyOf = new Map<string, string>();
+  const add = (id: string, kind: string, params: unknown, inputs: string[], locator: Record<string, string> = {}) => {
+    const def = stepRegistry[kind];
+    const key = hashValue({ kind, version: def.version, params, inputs: inputs.map((i) => keyOf.get(i)) });
+    keyOf.set(id, key);
+    steps.push({ id, kind, params, inputs, locator, key });
+    return id;
+  };
+
+  const sources: Record<string, string> = {};
+  for (const [name, s] of Object.entries(recipe.sources)) {
+    const r = resolveSourcePath(origin, s.file);
+    if ('problem' in r) throw new DendrologError(`${origin.doc.where(['sources', name, 'file'])}: ${r.problem}`, 2);
+    const fileSha = sha256(readFileSync(r.path));
+    if (s.sha256 && s.sha256 !== fileSha) {
+      throw new DendrologError(
+        `${origin.doc.where(['sources', name, 'sha256'])}: source file "${s.file}" has SHA-256 ${fileSha}, but the recipe pins ${s.sha256}; restore the pinned file, or update the sha256 if the change is intended`,
+        2,
+      );
+    }
+    sources[name] = add(
+      `source ${name}`,
+      'source',
+      { sha256: fileSha, format: s.format, columns: s.columns, missing: s.missing },
+      [],
+      { path: r.path, display: displayOf(r.path), file: s.file },
+    );
+  }
+  const dataSteps: string[] = [sources[Object.keys(recipe.sources)[0]]];
+  let last = dataSteps[0];
+  recipe.join.forEach((j, i) => {
+    last = add(`join[${i}] ${j.with}`, 'join', j, [last, sources[j.with]]);
+    dataSteps.push(last);
+  });
+  recipe.clean.forEach((c, i) => {
+    const { kind, ...params } = c;
+    last = add(`clean[${i}] ${kind}`, kind, params, [last]);
+    dataSteps.push(last);
+  });
+  recipe.features.forEach((f, i) => {
+    if (f.kind !== 'derive') return;
+    last = add(`features[${i}] derive`, 'derive', { columns: f.columns }, [last]);
+    dataSteps.push(last);
+  });
+  const modelTable = add(
+    'model table',
+    'model_table',
+    { target: recipe.target, predictors: recipe.predictors, groups: recipe.groups, time: recipe.time },
+    [last],
+  );
+  dataSteps.push(modelTable);
+  const ev = recipe.evaluation;
+  const holdout = add('holdout', 'holdout', { ...ev.holdout, groups: recipe.groups }, [modelTable]);
+  const folds = add('folds', 'folds', { ...ev.folds, groups: recipe.groups }, [modelTable, holdout]);
+  const learned = recipe.features.filter((f) => f.kind !== 'derive');
+  const common = { target: recipe.target, predictors: recipe.predictors, features: learned };
+  const models: Plan['models'] = {};
+  for (const [name, m] of Object.entries(recipe.models)) {
+    const cells = gridCells(m.grid).map((cell) =>
+      add(`cv ${name} ${cellLabel(cell)}`, 'cross_validate', { model: name, kind: m.kind, cell, ...common }, [modelTable, holdout, folds]),
+    );
+    const choose = add(`choose ${name}`, 'choose', { target: recipe.target, choose_by: ev.choose_by, k: ev.folds.k }, [
+      modelTable,
+      holdout,
+      ...cells,
+    ]);
+    const fit = add(`fit ${name}`, 'fit', { model: name, kind: m.kind, ...common }, [modelTable, holdout, choose]);
+    const score = add(
+      `score ${name}`,
+      'score',
+      { target: recipe.target, groups: recipe.groups, resamples: BOOTSTRAP_RESAMPLES, byGroups: ev.holdout.by === 'groups' },
+      [modelTable, holdout, fit],
+    );
+    models[name] = { cells, choose, fit, score };
+  }
+  return { steps, sources, dataSteps, modelTable, holdout, folds, models };
+}

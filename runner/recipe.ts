@@ -1,0 +1,228 @@
+import * as aq from 'arquero';
+import { existsSync, readFileSync, realpathSync, statSync } from 'node:fs';
+import { dirname, isAbsolute, relative, resolve } from 'node:path';
+import { sha256 } from './hash.js';
+import { DendrologError, messages, RecipeErrors } from './messages.js';
+import { normalizeRecipe } from './normalize.js';
+import type { ColumnType, Recipe } from './recipe-types.js';
+import { closest } from './suggest.js';
+import { validateRecipe } from './validate.js';
+import { readYaml, type PositionedDocument } from './yaml-read.js';
+
+/** Where a recipe came from: its file, folder, bytes' hash and a locator for its positions. */
+export interface RecipeOrigin {
+  /** Absolute path of recipe.yaml. */
+  path: string;
+  /** Absolute path of the folder holding it; source paths are relative to this. */
+  dir: string;
+  /** The path as shown in messages. */
+  displayPath: string;
+  sha256: string;
+  text: string;
+  doc: PositionedDocument;
+}
+
+export interface LoadedRecipe {
+  recipe: Recipe;
+  origin: RecipeOrigin;
+}
+
+/**
+ * Reads, validates and normalizes a recipe; throws RecipeErrors listing every problem with file:line:column.
+ * With `checkFiles`, also checks that each source file exists inside the recipe's folder (and its pin).
+ *
+ * Example: `loadRecipe('recipes/lake-chlorophyll/recipe.yaml').recipe.seed === 7`
+ */
+export function loadRecipe(path: string, opts: { checkFiles?: boolean } = {}): LoadedRecipe {
+  const abs = resolve(path);
+  if (!existsSync(abs) || !statSync(abs).isFile()) throw new DendrologError(messages.recipeFileMissing(path), 2);
+  const displayPath = displayOf(abs);
+  const text = readFileSync(abs, 'utf8');
+  const { doc, problems } = readYaml(text, displayPath);
+  if (!doc) throw new RecipeErrors(problems);
+  const schemaProblems = validateRecipe(doc);
+  if (schemaProblems.length > 0) throw new RecipeErrors(schemaProblems);
+  const recipe = normalizeRecipe(doc.value as Record<string, unknown>);
+  const origin: RecipeOrigin = { path: abs, dir: dirname(abs), displayPath, sha256: sha256(text), text, doc };
+  const meaning = checkMeaning(recipe, doc);
+  if (opts.checkFiles) meaning.push(...checkFiles(recipe, origin));
+  if (meaning.length > 0) throw new RecipeErrors(meaning);
+  return { recipe, origin };
+}
+
+/** A path as the user should see it: relative to the working folder when inside it. */
+export function displayOf(abs: string): string {
+  const rel = relative(process.cwd(), abs);
+  return rel && !rel.startsWith('..') && !isAbsolute(rel) ? rel : abs;
+}
+
+/**
+ * Resolves a source path against the recipe's folder, refusing paths that leave it (also through links).
+ * Returns the absolute path, or a problem message.
+ */
+export function resolveSourcePath(origin: Pick<RecipeOrigin, 'dir'>, file: string): { path: string } | { problem: string } {
+  const abs = resolve(origin.dir, file);
+  const inside = (p: string, root: string) => {
+    const rel = relative(root, p);
+    return rel !== '' && !rel.startsWith('..') && !isAbsolute(rel);
+  };
+  if (!inside(abs, origin.dir)) return { problem: messages.sourcePathEscapes(file) };
+  if (!existsSync(abs)) return { problem: messages.sourceFileMissing(file, displayOf(abs)) };
+  if (!inside(realpathSync(abs), realpathSync(origin.dir))) return { problem: messages.sourcePathEscapes(file) };
+  return { path: abs };
+}
+
+function checkFiles(recipe: Recipe, origin: RecipeOrigin): string[] {
+  const problems: string[] = [];
+  for (const [name, s] of Object.entries(recipe.sources)) {
+    const r = resolveSourcePath(origin, s.file);
+    if ('problem' in r) {
+      problems.push(`${origin.doc.where(['sources', name, 'file'])}: ${r.problem}`);
+      continue;
+    }
+    if (s.sha256) {
+      const actual = sha256(readFileSync(r.path));
+      if (actual !== s.sha256) {
+        problems.push(`${origin.doc.where(['sources', name, 'sha256'])}: ${messages.sourceHashMismatch(s.file, s.sha256, actual)}`);
+      }
+    }
+  }
+  return problems;
+}
+
+/** Column names referenced as d.name or d["name"] in an arquero expression. */
+export function referencedColumns(expr: string): string[] {
+  const out = new Set<string>();
+  const re = /\bd\.([A-Za-z_$][\w$]*)|\bd\[\s*["']([^"']+)["']\s*\]/g;
+  for (let m = re.exec(expr); m; m = re.exec(expr)) out.add(m[1] ?? m[2]);
+  return [...out];
+}
+
+/** Compiles an arquero expression without data; returns the compiler's complaint, if any. */
+export function compileProblem(expr: string): string | undefined {
+  try {
+    aq.parse({ x: expr });
+    return undefined;
+  } catch (e) {
+    return (e as Error).message.split('\n')[0];
+  }
+}
+
+/**
+ * Checks what the schema cannot: names that must exist, expressions that must compile, and
+ * column types along the pipeline, all from the recipe alone (no data read).
+ */
+function checkMeaning(recipe: Recipe, doc: PositionedDocument): string[] {
+  const problems: string[] = [];
+  const add = (path: (string | number)[], msg: string) => problems.push(`${doc.where(path)}: ${msg}`);
+  const sourceNames = Object.keys(recipe.sources);
+  const primary = sourceNames[0];
+  const cols = new Map<string, ColumnType>(Object.entries(recipe.sources[primary].columns));
+  const need = (path: (string | number)[], column: string, step: string): boolean => {
+    if (cols.has(column)) return true;
+    add(path, messages.unknownColumn(column, step, [...cols.keys()], closest(column, cols.keys())));
+    return false;
+  };
+
+  recipe.join.forEach((j, i) => {
+    const other = recipe.sources[j.with];
+    if (!other) {
+      add(['join', i, 'with'], messages.unknownSource(j.with, sourceNames, closest(j.with, sourceNames)));
+      return;
+    }
+    if (j.with === primary) {
+      add(['join', i, 'with'], messages.schemaOther(`join[${i}].with`, `"${primary}" is the main table (the first source) and cannot be joined to itself`));
+      return;
+    }
+    for (const key of j.on) {
+      need(['join', i, 'on'], key, `join[${i}]`);
+      if (!(key in other.columns)) {
+        const known = Object.keys(other.columns);
+        add(['join', i, 'on'], messages.unknownColumn(key, `join[${i}] (source ${j.with})`, known, closest(key, known)));
+      }
+    }
+    for (const [c, t] of Object.entries(other.columns)) {
+      if (j.on.includes(c)) continue;
+      if (cols.has(c)) add(['join', i], messages.duplicateColumn(c, `join[${i}] with ${j.with}`));
+      else cols.set(c, t);
+    }
+  });
+
+  recipe.clean.forEach((step, i) => {
+    const label = `clean[${i}] (${step.kind})`;
+    switch (step.kind) {
+      case 'replace':
+        step.columns.forEach((c, k) => need(['clean', i, 'replace', 'columns', k], c, label));
+        break;
+      case 'drop_missing':
+        step.columns.forEach((c, k) => need(['clean', i, 'drop_missing', k], c, label));
+        break;
+      case 'within':
+        if (need(['clean', i, 'within', 'column'], step.column, label) && cols.get(step.column) !== 'number') {
+          add(['clean', i, 'within', 'column'], messages.schemaOther(label, `column "${step.column}" is ${cols.get(step.column)}, but within needs a number column`));
+        }
+        if (step.min === null && step.max === null) {
+          add(['clean', i, 'within'], messages.schemaOther(label, 'gives neither min nor max; add at least one'));
+        }
+        break;
+      case 'keep_rows':
+        checkExpression(['clean', i, 'keep_rows'], step.expr, label);
+        break;
+    }
+  });
+
+  const oneHot = new Set<string>();
+  recipe.features.forEach((step, i) => {
+    const label = `features[${i}] (${step.kind})`;
+    switch (step.kind) {
+      case 'derive':
+        for (const [name, expr] of Object.entries(step.columns)) {
+          checkExpression(['features', i, 'derive', name], expr, label);
+          if (cols.has(name)) add(['features', i, 'derive', name], messages.duplicateColumn(name, label));
+        }
+        for (const name of Object.keys(step.columns)) cols.set(name, 'number');
+        break;
+      case 'impute':
+      case 'standardize':
+        step.columns.forEach((c, k) => {
+          if (need(['features', i, step.kind, 'columns', k], c, label) && cols.get(c) !== 'number') {
+            add(['features', i, step.kind, 'columns', k], messages.schemaOther(label, `column "${c}" is ${cols.get(c)}, but ${step.kind} needs a number column`));
+          }
+        });
+        break;
+      case 'one_hot':
+        if (need(['features', i, 'one_hot', 'column'], step.column, label)) oneHot.add(step.column);
+        break;
+    }
+  });
+
+  if (need(['target'], recipe.target, 'target')) {
+    const t = cols.get(recipe.target) as ColumnType;
+    if (t !== 'number') add(['target'], messages.targetNotNumber(recipe.target, t));
+  }
+  recipe.predictors.forEach((p, i) => {
+    if (!need(['predictors', i], p, 'predictors')) return;
+    if (p === recipe.target) add(['predictors', i], messages.predictorIsTarget(p));
+    const t = cols.get(p);
+    if ((t === 'string' || t === 'category') && !oneHot.has(p)) add(['predictors', i], messages.categoryPredictorNeedsEncoding(p));
+  });
+  if (recipe.groups) need(['groups'], recipe.groups, 'groups');
+  if (recipe.time) need(['time'], recipe.time, 'time');
+  const ev = recipe.evaluation;
+  if (ev.holdout.by === 'groups' && !recipe.groups) add(['evaluation', 'holdout', 'by'], messages.groupsNeeded('evaluation.holdout'));
+  if (ev.folds.by === 'groups' && !recipe.groups) add(['evaluation', 'folds', 'by'], messages.groupsNeeded('evaluation.folds'));
+
+  let cells = 0;
+  for (const m of Object.values(recipe.models)) cells += Object.values(m.grid).reduce((n, v) => n * v.length, 1);
+  if (cells > ev.max_cells) add(['models'], messages.gridTooLarge(cells, ev.max_cells));
+  return problems;
+
+  function checkExpression(path: (string | number)[], expr: string, label: string) {
+    const problem = compileProblem(expr);
+    if (problem) {
+      add(path, messages.expressionCompile(expr, problem));
+      return;
+    }
+    for (const c of referencedColumns(expr)) need(path, c, label);
+  }
+}

@@ -1,0 +1,125 @@
+import type { MetricSet } from '../models/metrics.js';
+import { cellLabel } from '../steps/model-kinds.js';
+import { formatCount, formatNumber, formatSetting } from './format.js';
+import type { Manifest } from './manifest.js';
+import type { Recipe } from './recipe-types.js';
+import type { Results } from './results.js';
+
+const METRIC_LABELS: Record<string, string> = { r2: 'R²', rmse: 'RMSE', mae: 'MAE', bias: 'Bias (mean error)' };
+
+/** Everything the templates show, already formatted: templates only lay it out and escape it. */
+export function reportView(recipe: Recipe, results: Results, manifest: Manifest) {
+  const best = results.models.find((m) => m.name === results.chosenModel)!;
+  const metricRow = (label: string, source: string, m: MetricSet, interval?: Results['models'][number]['intervals']) => ({
+    label,
+    source,
+    n: formatCount(m.n),
+    values: recipe.evaluation.metrics.map((k) => ({
+      value: m[k].value === null ? `undefined (${m[k].reason})` : formatNumber(m[k].value),
+      interval: interval && interval[k].low !== null ? `${formatNumber(interval[k].low)} to ${formatNumber(interval[k].high)}` : '',
+    })),
+  });
+  return {
+    title: recipe.title,
+    name: recipe.name,
+    target: recipe.target,
+    metricHeads: recipe.evaluation.metrics.map((k) => METRIC_LABELS[k]),
+    headline: {
+      model: best.name,
+      kind: best.kind,
+      r2: formatNumber(best.holdout.r2.value),
+      r2Reason: best.holdout.r2.reason ?? '',
+      r2Interval: best.intervals.r2.low === null ? '' : `${formatNumber(best.intervals.r2.low)} to ${formatNumber(best.intervals.r2.high)}`,
+      rmse: formatNumber(best.holdout.rmse.value),
+      holdoutRows: formatCount(results.holdout.test),
+      skill: Object.entries(best.skill).map(([b, s]) => ({ baseline: b, value: formatNumber(s) })),
+      warnings: results.warnings.length,
+    },
+    sources: results.sources.map((s) => ({
+      name: s.name,
+      file: s.file,
+      sha256: s.sha256,
+      rows: formatCount(s.rows),
+      columns: s.columns.map((c) => ({
+        name: c.name,
+        type: c.type,
+        missing: formatCount(c.missing),
+        range:
+          c.min !== undefined
+            ? c.type === 'date'
+              ? `${new Date(c.min).toISOString().slice(0, 10)} to ${new Date(c.max!).toISOString().slice(0, 10)}`
+              : `${formatNumber(c.min)} to ${formatNumber(c.max)}`
+            : c.categories
+              ? `${c.distinct} distinct: ${c.categories.map((k) => `${k.value} (${k.count})`).join(', ')}${(c.distinct ?? 0) > c.categories.length ? ', …' : ''}`
+              : 'no values',
+      })),
+    })),
+    cleaning: results.cleaning.map((c) => ({
+      step: c.id,
+      rowsIn: formatCount(c.rowsIn),
+      rowsOut: formatCount(c.rowsOut),
+      removed: formatCount(c.rowsIn - c.rowsOut),
+      detail: c.detail,
+    })),
+    features: recipe.features.map((f) =>
+      f.kind === 'derive'
+        ? { kind: 'derive', where: 'all rows, row by row (nothing learned)', text: Object.entries(f.columns).map(([k, v]) => `${k} = ${v}`).join('; ') }
+        : {
+            kind: f.kind,
+            where: 'learned on the training rows of each fold, then on all training rows for the final fit',
+            text: f.kind === 'one_hot' ? `${f.column} (unseen categories: ${f.unseen})` : `${f.columns.join(', ')}${f.kind === 'impute' ? ` by ${f.with}` : ''}`,
+          },
+    ),
+    protocol: {
+      holdoutBy: results.holdout.by === 'groups' ? `by groups (${recipe.groups})` : 'at random',
+      fraction: formatNumber(results.holdout.fraction * 100, 0).replace(/\.0+$/, ''),
+      train: formatCount(results.holdout.train),
+      test: formatCount(results.holdout.test),
+      trainGroups: results.holdout.trainGroups,
+      testGroups: results.holdout.testGroups,
+      grouped: results.holdout.by === 'groups',
+      k: results.folds.k,
+      foldsBy: results.folds.by === 'groups' ? `by groups (${recipe.groups})` : 'at random',
+      chooseBy: METRIC_LABELS[recipe.evaluation.choose_by],
+    },
+    models: results.models.map((m) => ({
+      name: m.name,
+      kind: m.kind,
+      isHeadline: m.name === results.chosenModel,
+      chosen: m.chosenLabel,
+      params: Object.keys(m.cells[0].cell),
+      cells: m.cells.map((c, i) => ({
+        label: cellLabel(c.cell),
+        values: Object.values(c.cell).map(formatSetting),
+        chosen: i === m.chosen,
+        pooled: recipe.evaluation.metrics.map((k) => formatNumber(c.pooled[k].value)),
+        folds: recipe.evaluation.metrics.map((k) => {
+          const s = c.perFold[k];
+          return s.mean === null ? '—' : `${formatNumber(s.mean)} ± ${formatNumber(s.sd)}`;
+        }),
+      })),
+      used: Object.entries(m.used).map(([k, v]) => ({ name: k, value: formatSetting(v) })),
+      rows: [
+        metricRow('holdout', 'holdout rows, scored once', m.holdout, m.intervals),
+        metricRow('cross-validated', `pooled out-of-fold predictions, ${results.folds.k} folds`, m.crossValidated),
+        metricRow('training', 'in-sample: not skill', m.training),
+      ],
+      oob: m.oobR2 === null ? null : formatNumber(m.oobR2),
+    })),
+    warnings: results.warnings.map((w) => ({ ...w, repeated: w.count > 1 })),
+    manifest: {
+      recipeSha: manifest.recipe.sha256,
+      seed: manifest.seed,
+      node: manifest.environment.node,
+      dendrolog: manifest.environment.dendrolog,
+      platform: `${manifest.environment.platform}-${manifest.environment.arch}`,
+      dependencies: Object.entries(manifest.environment.dependencies).map(([k, v]) => `${k} ${v}`).join(', '),
+      git: manifest.git ? `${manifest.git.commit.slice(0, 12)}${manifest.git.dirty ? ' (with uncommitted changes)' : ''}` : 'not in a git repository',
+      started: manifest.timing.started,
+      seconds: formatNumber(manifest.timing.seconds, 1),
+      steps: manifest.steps.length,
+    },
+  };
+}
+
+export type ReportView = ReturnType<typeof reportView>;

@@ -1,0 +1,178 @@
+import type { MetricSet } from '../models/metrics.js';
+import type { ChooseOutput } from '../steps/choose.js';
+import type { FitOutput } from '../steps/fit.js';
+import type { FoldsOutput } from '../steps/folds.js';
+import type { HoldoutOutput } from '../steps/holdout.js';
+import { cellLabel } from '../steps/model-kinds.js';
+import type { ColumnProfile } from '../steps/profile.js';
+import { better } from '../steps/choose.js';
+import type { ScoreOutput } from '../steps/score.js';
+import type { Execution } from './execute.js';
+import type { Plan } from './plan.js';
+import type { Recipe } from './recipe-types.js';
+import type { FrameOutput, Warning } from './step-types.js';
+import { WarningLog } from './warnings.js';
+
+export interface SourceResult {
+  name: string;
+  file: string;
+  sha256: string;
+  rows: number;
+  columns: ColumnProfile[];
+}
+
+export interface ModelResult {
+  name: string;
+  kind: string;
+  chooseBy: string;
+  cells: ChooseOutput['cells'];
+  chosen: number;
+  chosenLabel: string;
+  used: Record<string, unknown>;
+  oobR2: number | null;
+  holdout: MetricSet;
+  intervals: ScoreOutput['intervals'];
+  training: MetricSet;
+  /** Cross-validated metrics of the chosen cell (pooled out-of-fold). */
+  crossValidated: MetricSet;
+  /** 1 − MSE(model) / MSE(baseline) on the holdout, per baseline model present. */
+  skill: Record<string, number | null>;
+}
+
+/** Everything the report and manifest say about a run, gathered from step outputs. */
+export interface Results {
+  sources: SourceResult[];
+  cleaning: { id: string; rowsIn: number; rowsOut: number; detail: string }[];
+  holdout: { by: string; fraction: number; train: number; test: number; trainGroups: number; testGroups: number };
+  folds: { k: number; by: string };
+  models: ModelResult[];
+  /** The model with the best cross-validated score; its holdout score is the headline. */
+  chosenModel: string;
+  warnings: Warning[];
+  /** Holdout observations and the chosen model's predictions, for the plots. */
+  holdoutRows: { observed: number[]; predicted: number[] };
+}
+
+/**
+ * Gathers results from the executed plan and adds the evaluation's own warnings.
+ *
+ * Example: `gatherResults(recipe, plan, execution).chosenModel === 'forest'`
+ */
+export function gatherResults(recipe: Recipe, plan: Plan, exec: Execution): Results {
+  const out = (id: string) => exec.outputs.get(id);
+  const sources: SourceResult[] = Object.entries(plan.sources).map(([name, id]) => {
+    const step = plan.steps.find((s) => s.id === id)!;
+    const o = out(id) as FrameOutput;
+    const extra = o.notes.extra as { profile: ColumnProfile[] };
+    return {
+      name,
+      file: recipe.sources[name].file,
+      sha256: (step.params as { sha256: string }).sha256,
+      rows: o.frame.rows,
+      columns: extra.profile,
+    };
+  });
+  const cleaning = plan.dataSteps.slice(1).map((id) => {
+    const n = (out(id) as FrameOutput).notes;
+    return { id, rowsIn: n.rowsIn, rowsOut: n.rowsOut, detail: n.detail };
+  });
+  const split = out(plan.holdout) as HoldoutOutput;
+  const folds = out(plan.folds) as FoldsOutput;
+  const baselines = Object.entries(recipe.models).filter(([, m]) => m.kind === 'mean' || m.kind === 'linear');
+  const scores = new Map(Object.entries(plan.models).map(([name, ids]) => [name, out(ids.score) as ScoreOutput]));
+  const mse = (m: MetricSet) => (m.rmse.value === null ? null : m.rmse.value ** 2);
+  const models: ModelResult[] = Object.entries(plan.models).map(([name, ids]) => {
+    const chosen = out(ids.choose) as ChooseOutput;
+    const fitted = out(ids.fit) as FitOutput;
+    const score = scores.get(name)!;
+    const skill: Record<string, number | null> = {};
+    for (const [b] of baselines) {
+      if (b === name) continue;
+      const mb = mse(scores.get(b)!.holdout);
+      const mm = mse(score.holdout);
+      skill[b] = mb === null || mm === null || mb === 0 ? null : 1 - mm / mb;
+    }
+    return {
+      name,
+      kind: recipe.models[name].kind,
+      chooseBy: chosen.choose_by,
+      cells: chosen.cells,
+      chosen: chosen.chosen,
+      chosenLabel: cellLabel(chosen.cells[chosen.chosen].cell),
+      used: fitted.used,
+      oobR2: fitted.oobR2,
+      holdout: score.holdout,
+      intervals: score.intervals,
+      training: score.training,
+      crossValidated: chosen.cells[chosen.chosen].pooled,
+      skill,
+    };
+  });
+  let best = models[0];
+  for (const m of models) if (better(m.crossValidated, best.crossValidated, recipe.evaluation.choose_by)) best = m;
+  const warnings = new WarningLog();
+  for (const w of exec.warnings) warnings.add(w.code, w.message, w.count);
+  evaluationWarnings(recipe, models, best, scores.get(best.name)!, warnings);
+  const bestScore = scores.get(best.name)!;
+  return {
+    sources,
+    cleaning,
+    holdout: {
+      by: split.by,
+      fraction: recipe.evaluation.holdout.fraction,
+      train: split.train.length,
+      test: split.test.length,
+      trainGroups: split.trainGroups,
+      testGroups: split.testGroups,
+    },
+    folds: { k: folds.k, by: folds.by },
+    models,
+    chosenModel: best.name,
+    warnings: warnings.list(),
+    holdoutRows: { observed: bestScore.observed, predicted: bestScore.predictions },
+  };
+}
+
+function evaluationWarnings(recipe: Recipe, models: ModelResult[], best: ModelResult, score: ScoreOutput, log: WarningLog) {
+  const ev = recipe.evaluation;
+  if (recipe.groups && (ev.folds.by === 'random' || ev.holdout.by === 'random')) {
+    log.add(
+      'random-split-with-groups',
+      `the recipe declares groups (${recipe.groups}) but ${ev.folds.by === 'random' ? 'the folds' : 'the holdout'} split rows at random; rows of one group on both sides make scores look better than they will be on new groups; split by groups`,
+    );
+  }
+  for (const m of models) {
+    const spec = recipe.models[m.name];
+    const cell = m.cells[m.chosen].cell;
+    for (const [param, values] of Object.entries(spec.grid)) {
+      const numeric = values.filter((v): v is number => typeof v === 'number');
+      if (numeric.length < 2 || values.length !== numeric.length) continue;
+      const v = cell[param];
+      if (v === Math.min(...numeric) || v === Math.max(...numeric)) {
+        log.add(
+          'grid-edge',
+          `model "${m.name}": the chosen ${param} = ${v} is at the edge of its grid (${numeric.join(', ')}); a value beyond it might score better; widen the grid`,
+        );
+      }
+    }
+  }
+  for (const [p, n] of Object.entries(score.outsideRange)) {
+    log.add(
+      'outside-training-range',
+      `${n} holdout row${n === 1 ? ' has' : 's have'} ${p} outside the training rows' range; there the model extrapolates, and a tree or forest cannot: it predicts as at the nearest edge of the training data`,
+    );
+  }
+  const linear = models.find((m) => m.kind === 'linear');
+  if (linear && best !== linear && !better(best.crossValidated, linear.crossValidated, ev.choose_by)) {
+    log.add('no-better-than-linear', `the chosen model "${best.name}" does not beat the linear baseline "${linear.name}"; prefer the simpler model`);
+  }
+  if (linear && best !== linear) {
+    const s = best.skill[linear.name];
+    if (s !== null && s !== undefined && s <= 0) {
+      log.add(
+        'holdout-no-better-than-linear',
+        `on the holdout, "${best.name}" does not beat the linear baseline "${linear.name}" (MSE skill ${s.toFixed(3)}); the extra complexity buys nothing here`,
+      );
+    }
+  }
+}

@@ -1,0 +1,73 @@
+import { resolve } from 'node:path';
+import { Cache } from './cache.js';
+import { localExecutor } from './execute.js';
+import { buildManifest, type Manifest } from './manifest.js';
+import { writeFolderAtomically } from './output.js';
+import { planRecipe } from './plan.js';
+import type { Progress } from './progress.js';
+import { loadRecipe } from './recipe.js';
+import { renderReport, renderSummary } from './render.js';
+import { reportView } from './report-view.js';
+import { gatherResults, type Results } from './results.js';
+
+export interface RunOptions {
+  /** Output folder; default `<recipe folder>/<report.folder>/<recipe name>`. */
+  out?: string;
+  /** Cache folder; default `.dendrolog/cache` under the working folder. */
+  cache?: string;
+  noCache?: boolean;
+  workers?: number;
+  progress: Progress;
+}
+
+export interface RunResult {
+  outDir: string;
+  manifest: Manifest;
+  results: Results;
+}
+
+/** Default cache folder, relative to the working folder. */
+export const DEFAULT_CACHE = '.dendrolog/cache';
+
+/**
+ * Runs a recipe end to end:
+ *
+ * ```
+ * recipe.yaml --1 read--> YAML with positions
+ *             --2 validate (schemas/recipe.v1.json)--> problems as file:line:column
+ *             --3 normalize--> Recipe, every default written out
+ *             --4 plan--> step instances, each with a content key
+ *             --5 execute--> each step from the cache, or run and stored
+ *             --6 gather--> results and evaluation warnings
+ *             --7 render--> report.html, summary.md, manifest.json, moved into place at once
+ * ```
+ *
+ * Example: `await runRecipe('recipes/lake-chlorophyll/recipe.yaml', {progress: silentProgress()})`
+ */
+export async function runRecipe(recipePath: string, opts: RunOptions): Promise<RunResult> {
+  const started = new Date();
+  const t0 = performance.now();
+  // 1–3: read, validate and normalize in one place; nothing later sees raw YAML
+  const { recipe, origin } = loadRecipe(recipePath, { checkFiles: true });
+  // 4: plan
+  const plan = planRecipe(recipe, origin);
+  // 5: execute
+  const cache = opts.noCache ? null : new Cache(resolve(opts.cache ?? DEFAULT_CACHE));
+  const executor = localExecutor({ cache, seed: recipe.seed, workers: opts.workers ?? 1, progress: opts.progress });
+  const execution = await executor.run(plan.steps);
+  // 6: gather
+  const results = gatherResults(recipe, plan, execution);
+  // 7: render and write
+  const manifest = buildManifest(recipe, origin, execution, results, {
+    started,
+    seconds: (performance.now() - t0) / 1000,
+  });
+  const view = reportView(recipe, results, manifest);
+  const outDir = resolve(opts.out ?? resolve(origin.dir, recipe.report.folder, recipe.name));
+  writeFolderAtomically(outDir, {
+    'report.html': renderReport(view),
+    'summary.md': renderSummary(view),
+    'manifest.json': JSON.stringify(manifest, null, 2) + '\n',
+  });
+  return { outDir, manifest, results };
+}

@@ -1,0 +1,193 @@
+import { Ajv, type ErrorObject } from 'ajv';
+import { readFileSync } from 'node:fs';
+import { join } from 'node:path';
+import { messages } from './messages.js';
+import { packageRoot } from './paths.js';
+import { closest } from './suggest.js';
+import type { PositionedDocument } from './yaml-read.js';
+
+let compiled: ReturnType<Ajv['compile']> | undefined;
+
+function validator(): ReturnType<Ajv['compile']> {
+  if (!compiled) {
+    const schema = JSON.parse(readFileSync(join(packageRoot(), 'schemas', 'recipe.v1.json'), 'utf8'));
+    const ajv = new Ajv({ allErrors: true, verbose: true, strict: false });
+    compiled = ajv.compile(schema);
+  }
+  return compiled;
+}
+
+/**
+ * Checks a recipe document against schemas/recipe.v1.json; returns one `file:line:column: message` per problem.
+ *
+ * Example: an unknown key `predictor:` gives `recipe.yaml:12:1: unknown key "predictor" in the recipe; did you mean "predictors"?`
+ */
+export function validateRecipe(doc: PositionedDocument): string[] {
+  const validate = validator();
+  if (validate(doc.value)) return [];
+  const errors = (validate.errors ?? []).filter((e) => e.keyword !== 'if');
+  const paths = errors.map((e) => e.instancePath);
+  // Branch errors of anyOf at a path are noise when a deeper path explains the failure.
+  const hasDeeper = (p: string): boolean => paths.some((q) => q.startsWith(p + '/'));
+  const byPath = new Map<string, ErrorObject[]>();
+  for (const e of errors) {
+    const structural = e.keyword === 'additionalProperties' || e.keyword === 'required';
+    if (!structural && hasDeeper(e.instancePath)) continue;
+    const list = byPath.get(e.instancePath) ?? [];
+    list.push(e);
+    byPath.set(e.instancePath, list);
+  }
+  const out: { pos: string; msg: string }[] = [];
+  for (const [pointer, list] of byPath) {
+    const path = splitPointer(pointer);
+    const name = describePath(path);
+    const anyOf = list.some((e) => e.keyword === 'anyOf');
+    if (anyOf) {
+      out.push({ pos: doc.where(path), msg: messages.wrongType(name, expectedOf(list), valueAt(doc.value, path)) });
+      continue;
+    }
+    for (const e of list) out.push(describeError(e, path, name, doc));
+  }
+  const seen = new Set<string>();
+  return out
+    .map((o) => `${o.pos}: ${o.msg}`)
+    .filter((s) => (seen.has(s) ? false : (seen.add(s), true)))
+    .sort(byPosition);
+}
+
+function describeError(e: ErrorObject, path: (string | number)[], name: string, doc: PositionedDocument) {
+  const value = valueAt(doc.value, path);
+  const p = e.params as Record<string, unknown>;
+  switch (e.keyword) {
+    case 'additionalProperties': {
+      const key = String(p.additionalProperty);
+      const props = Object.keys(((e.parentSchema as Record<string, unknown>)?.properties as object) ?? {});
+      const allowed = props;
+      return {
+        pos: doc.whereKey([...path, key]),
+        msg: messages.unknownKey(key, containerName(path), closest(key, allowed), allowed),
+      };
+    }
+    case 'required':
+      return { pos: doc.where(path), msg: messages.missingKey(String(p.missingProperty), containerName(path)) };
+    case 'type':
+      return { pos: doc.where(path), msg: messages.wrongType(name, article(String(p.type)), value) };
+    case 'enum': {
+      const allowed = (p.allowedValues as unknown[]) ?? [];
+      const sug = typeof value === 'string' ? closest(value, allowed.map(String)) : undefined;
+      return { pos: doc.where(path), msg: messages.notInList(name, value, allowed, sug) };
+    }
+    case 'const':
+      if (path.length === 1 && path[0] === 'dendrolog') {
+        return { pos: doc.where(path), msg: messages.unsupportedVersion(value) };
+      }
+      return { pos: doc.where(path), msg: messages.notInList(name, value, [p.allowedValue]) };
+    case 'minimum':
+    case 'maximum':
+    case 'exclusiveMinimum':
+    case 'exclusiveMaximum': {
+      const rule = {
+        minimum: 'at least',
+        maximum: 'at most',
+        exclusiveMinimum: 'greater than',
+        exclusiveMaximum: 'less than',
+      }[e.keyword];
+      return { pos: doc.where(path), msg: messages.outOfRange(name, value, `${rule} ${p.limit}`) };
+    }
+    case 'pattern':
+      return { pos: doc.where(path), msg: messages.badPattern(name, value, patternRule(path)) };
+    case 'minItems':
+      return { pos: doc.where(path), msg: messages.outOfRange(name, value, `a list of at least ${p.limit} item(s)`) };
+    case 'uniqueItems':
+      return { pos: doc.where(path), msg: messages.schemaOther(name, 'lists the same value twice; remove the repeat') };
+    case 'minProperties':
+      return { pos: doc.where(path), msg: messages.schemaOther(name, 'is empty; give at least one entry') };
+    case 'maxProperties':
+      return {
+        pos: doc.where(path),
+        msg: messages.schemaOther(name, 'holds more than one step; give each step its own list item ("- ")'),
+      };
+    case 'minLength':
+      return { pos: doc.where(path), msg: messages.schemaOther(name, 'is empty; give a value') };
+    case 'maxLength':
+      return { pos: doc.where(path), msg: messages.schemaOther(name, `is longer than ${p.limit} characters; shorten it`) };
+    case 'propertyNames':
+      return { pos: doc.where(path), msg: messages.schemaOther(name, 'has a name that is not a plain identifier') };
+    default:
+      return { pos: doc.where(path), msg: messages.schemaOther(name, `${e.message ?? 'is not valid'}`) };
+  }
+}
+
+function patternRule(path: (string | number)[]): string {
+  if (path[0] === 'name') return 'use lowercase letters, digits and dashes only, starting with a letter or digit';
+  if (path[path.length - 1] === 'sha256') return 'give the 64 lowercase hex digits of the SHA-256 (sha256sum prints it)';
+  return 'use letters, digits and underscores only, starting with a letter';
+}
+
+function expectedOf(list: ErrorObject[]): string {
+  const parts: string[] = [];
+  for (const e of list) {
+    const p = e.params as Record<string, unknown>;
+    if (e.keyword === 'type') parts.push(article(String(p.type)));
+    else if (e.keyword === 'const') parts.push(JSON.stringify(p.allowedValue));
+    else if (e.keyword === 'enum') parts.push(...((p.allowedValues as unknown[]) ?? []).map((v) => JSON.stringify(v)));
+    else if (e.keyword === 'minimum') parts.push(`at least ${p.limit}`);
+    else if (e.keyword === 'maximum') parts.push(`at most ${p.limit}`);
+  }
+  return [...new Set(parts)].join(' or ') || 'a valid value';
+}
+
+function article(type: string): string {
+  const names: Record<string, string> = {
+    integer: 'a whole number',
+    number: 'a number',
+    string: 'text',
+    boolean: 'true or false',
+    null: 'null',
+    array: 'a list',
+    object: 'a mapping of keys to values',
+  };
+  return type
+    .split(',')
+    .map((t) => names[t] ?? t)
+    .join(' or ');
+}
+
+function splitPointer(pointer: string): (string | number)[] {
+  if (pointer === '') return [];
+  return pointer
+    .slice(1)
+    .split('/')
+    .map((s) => s.replace(/~1/g, '/').replace(/~0/g, '~'))
+    .map((s) => (/^\d+$/.test(s) ? Number(s) : s));
+}
+
+/** `['models', 'forest', 'grid', 'mtry', 1]` → `models.forest.grid.mtry[1]` */
+export function describePath(path: (string | number)[]): string {
+  if (path.length === 0) return 'the recipe';
+  return path.map((s, i) => (typeof s === 'number' ? `[${s}]` : i === 0 ? s : `.${s}`)).join('');
+}
+
+function containerName(path: (string | number)[]): string {
+  if (path.length === 0) return 'the recipe';
+  if ((path[0] === 'clean' || path[0] === 'features') && path.length === 2) {
+    return `${describePath(path)} (a ${path[0] === 'clean' ? 'clean' : 'feature'} step)`;
+  }
+  return describePath(path);
+}
+
+function valueAt(root: unknown, path: (string | number)[]): unknown {
+  let v: unknown = root;
+  for (const s of path) {
+    if (v === null || typeof v !== 'object') return undefined;
+    v = (v as Record<string | number, unknown>)[s];
+  }
+  return v;
+}
+
+function byPosition(a: string, b: string): number {
+  const pa = /:(\d+):(\d+):/.exec(a);
+  const pb = /:(\d+):(\d+):/.exec(b);
+  if (!pa || !pb) return 0;
+  return Number(pa[1]) - Number(pb[1]) || Number(pa[2]) - Number(pb[2]);
+}

@@ -1,0 +1,36 @@
+import { column, isMissing, takeRows } from '../runner/frame.js';
+import type { FrameOutput, StepDefinition } from '../runner/step-types.js';
+
+export interface DropMissingParams {
+  columns: string[];
+}
+
+/** Drops rows missing a value in any listed column, counting the rows each column removed first. */
+export const dropMissing: StepDefinition<DropMissingParams, FrameOutput> = {
+  kind: 'drop_missing',
+  version: 1,
+  codec: 'frame',
+  run(inputs, params) {
+    const input = (inputs[0] as FrameOutput).frame;
+    const cols = params.columns.map((n) => column(input, n));
+    const keep: number[] = [];
+    const byColumn: Record<string, number> = {};
+    for (let i = 0; i < input.rows; i++) {
+      const gone = cols.find((c) => isMissing(c, i));
+      if (gone) byColumn[gone.name] = (byColumn[gone.name] ?? 0) + 1;
+      else keep.push(i);
+    }
+    const frame = takeRows(input, keep);
+    const dropped = input.rows - frame.rows;
+    const parts = Object.entries(byColumn).map(([k, v]) => `${k}: ${v}`);
+    return {
+      frame,
+      notes: {
+        rowsIn: input.rows,
+        rowsOut: frame.rows,
+        detail: `${dropped} rows dropped for a missing ${params.columns.join(' or ')}${parts.length > 1 ? ` (${parts.join(', ')})` : ''}`,
+      },
+    };
+  },
+  summary: (o) => `${o.notes.rowsIn - o.notes.rowsOut} rows dropped`,
+};

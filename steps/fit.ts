@@ -1,0 +1,54 @@
+import type { FeatureStep, ModelKind } from '../runner/recipe-types.js';
+import type { FrameOutput, StepDefinition } from '../runner/step-types.js';
+import type { ChooseOutput } from './choose.js';
+import { applyDesign, learnDesign, targetOf, type LearnedDesign } from './design.js';
+import type { HoldoutOutput } from './holdout.js';
+import { modelKinds, type Cell } from './model-kinds.js';
+
+export interface FitParams {
+  model: string;
+  kind: ModelKind;
+  target: string;
+  predictors: string[];
+  features: FeatureStep[];
+}
+
+export interface FitOutput {
+  model: string;
+  kind: ModelKind;
+  cell: Cell;
+  used: Record<string, unknown>;
+  design: LearnedDesign;
+  /** The serialized engine model, base64. */
+  bytes: string;
+  oobR2: number | null;
+  trainingRows: number;
+}
+
+/** Refits a model's chosen cell on all training rows (never the holdout), with features learned on the same rows. */
+export const fit: StepDefinition<FitParams, FitOutput> = {
+  kind: 'fit',
+  version: 1,
+  codec: 'json',
+  async run(inputs, params, ctx) {
+    const frame = (inputs[0] as FrameOutput).frame;
+    const split = inputs[1] as HoldoutOutput;
+    const chosen = inputs[2] as ChooseOutput;
+    const cell = chosen.cells[chosen.chosen].cell;
+    const design = learnDesign(frame, split.train, params.features, params.predictors);
+    const x = applyDesign(design, frame, split.train);
+    const y = targetOf(frame, params.target, split.train);
+    const fitted = await modelKinds[params.kind].fit(x, y, cell, { seed: ctx.seedFor('fit'), workers: ctx.workers });
+    return {
+      model: params.model,
+      kind: params.kind,
+      cell,
+      used: fitted.used,
+      design,
+      bytes: Buffer.from(fitted.bytes).toString('base64'),
+      oobR2: fitted.oobR2 ?? null,
+      trainingRows: split.train.length,
+    };
+  },
+  summary: (o) => `${o.trainingRows.toLocaleString('en')} training rows`,
+};

@@ -1,0 +1,117 @@
+import { metrics, type MetricSet } from '../models/metrics.js';
+import { column } from '../runner/frame.js';
+import type { FrameOutput, StepDefinition } from '../runner/step-types.js';
+import { applyDesign, targetOf } from './design.js';
+import type { FitOutput } from './fit.js';
+import type { HoldoutOutput } from './holdout.js';
+import { modelKinds } from './model-kinds.js';
+
+export interface ScoreParams {
+  target: string;
+  groups: string | null;
+  /** Bootstrap resamples for the holdout intervals. */
+  resamples: number;
+  /** Resample whole groups when the holdout was drawn by groups, so correlated rows move together. */
+  byGroups: boolean;
+}
+
+export interface Interval {
+  low: number | null;
+  high: number | null;
+}
+
+export interface ScoreOutput {
+  model: string;
+  /** Metrics on the holdout rows: the headline skill. */
+  holdout: MetricSet;
+  /** 90% bootstrap intervals of the holdout metrics (5th and 95th percentiles). */
+  intervals: Record<'r2' | 'rmse' | 'mae' | 'bias', Interval>;
+  /** In-sample metrics on the training rows: not skill, shown only for contrast. */
+  training: MetricSet;
+  /** Holdout predictions in holdout row order. */
+  predictions: number[];
+  observed: number[];
+  /** Per predictor, holdout rows whose value lies outside the training rows' range. */
+  outsideRange: Record<string, number>;
+}
+
+/** Scores a fitted model once on the holdout rows, with seeded bootstrap intervals. */
+export const score: StepDefinition<ScoreParams, ScoreOutput> = {
+  kind: 'score',
+  version: 1,
+  codec: 'json',
+  async run(inputs, params, ctx) {
+    const frame = (inputs[0] as FrameOutput).frame;
+    const split = inputs[1] as HoldoutOutput;
+    const fitted = inputs[2] as FitOutput;
+    const adapter = modelKinds[fitted.kind];
+    const bytes = new Uint8Array(Buffer.from(fitted.bytes, 'base64'));
+    const y = targetOf(frame, params.target, split.test);
+    const pred = await adapter.predict(bytes, applyDesign(fitted.design, frame, split.test));
+    const trainPred = await adapter.predict(bytes, applyDesign(fitted.design, frame, split.train));
+    const rand = ctx.rng('bootstrap');
+    const units: number[][] = [];
+    if (params.byGroups && params.groups) {
+      const g = column(frame, params.groups).values;
+      const byGroup = new Map<string, number[]>();
+      split.test.forEach((r, k) => {
+        const key = String(g[r]);
+        const list = byGroup.get(key);
+        if (list) list.push(k);
+        else byGroup.set(key, [k]);
+      });
+      units.push(...byGroup.values());
+    } else split.test.forEach((_, k) => units.push([k]));
+    const draws: Record<'r2' | 'rmse' | 'mae' | 'bias', number[]> = { r2: [], rmse: [], mae: [], bias: [] };
+    for (let b = 0; b < params.resamples; b++) {
+      const obs: number[] = [];
+      const pr: number[] = [];
+      for (let u = 0; u < units.length; u++) {
+        for (const k of units[Math.floor(rand() * units.length)]) {
+          obs.push(y[k]);
+          pr.push(pred[k]);
+        }
+      }
+      const m = metrics(obs, pr);
+      for (const name of ['r2', 'rmse', 'mae', 'bias'] as const) {
+        const v = m[name].value;
+        if (v !== null) draws[name].push(v);
+      }
+    }
+    const interval = (v: number[]): Interval =>
+      v.length < params.resamples / 2 ? { low: null, high: null } : { low: quantile(v, 0.05), high: quantile(v, 0.95) };
+    const outsideRange: Record<string, number> = {};
+    for (const p of fitted.design.predictors) {
+      const c = column(frame, p);
+      if (!(c.values instanceof Float64Array) || fitted.design.oneHot[p]) continue;
+      let lo = Infinity;
+      let hi = -Infinity;
+      for (const r of split.train) {
+        const v = c.values[r];
+        if (v < lo) lo = v;
+        if (v > hi) hi = v;
+      }
+      let n = 0;
+      for (const r of split.test) if (c.values[r] < lo || c.values[r] > hi) n++;
+      if (n > 0) outsideRange[p] = n;
+    }
+    return {
+      model: fitted.model,
+      holdout: metrics(y, pred),
+      intervals: { r2: interval(draws.r2), rmse: interval(draws.rmse), mae: interval(draws.mae), bias: interval(draws.bias) },
+      training: metrics(targetOf(frame, params.target, split.train), trainPred),
+      predictions: Array.from(pred),
+      observed: Array.from(y),
+      outsideRange,
+    };
+  },
+  summary: (o) => `holdout R² ${o.holdout.r2.value === null ? 'undefined' : o.holdout.r2.value.toFixed(3)}`,
+};
+
+/** Linear-interpolated quantile (type 7, R's default) of unsorted values. */
+export function quantile(values: number[], q: number): number {
+  const s = [...values].sort((a, b) => a - b);
+  const h = (s.length - 1) * q;
+  const lo = Math.floor(h);
+  return s[lo] + (h - lo) * ((s[Math.min(lo + 1, s.length - 1)] ?? s[lo]) - s[lo]);
+}

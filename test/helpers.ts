@@ -1,0 +1,45 @@
+import { mkdtempSync, mkdirSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { dirname, join } from 'node:path';
+
+/** A temporary folder holding the given files (paths relative to it); returns its path. */
+export function makeFolder(files: Record<string, string>): string {
+  const dir = mkdtempSync(join(tmpdir(), 'dendrolog-test-'));
+  for (const [name, text] of Object.entries(files)) {
+    mkdirSync(dirname(join(dir, name)), { recursive: true });
+    writeFileSync(join(dir, name), text);
+  }
+  return dir;
+}
+
+/** A small valid recipe over data/obs.csv (x1, x2, site, y), with optional extra text appended. */
+export const SMALL_RECIPE = `dendrolog: 1
+name: small
+seed: 3
+sources:
+  obs:
+    file: data/obs.csv
+    columns: {site: string, x1: number, x2: number, y: number}
+target: y
+predictors: [x1, x2]
+groups: site
+models:
+  linear: {kind: linear}
+  mean: {kind: mean}
+evaluation:
+  folds: {k: 3}
+`;
+
+/** Data for SMALL_RECIPE: y = 2 x1 - x2 + a small site offset, 12 sites × 5 rows. */
+export function smallData(): string {
+  const lines = ['site,x1,x2,y'];
+  for (let s = 0; s < 12; s++) {
+    for (let r = 0; r < 5; r++) {
+      const x1 = ((s * 7 + r * 3) % 11) / 2;
+      const x2 = ((s * 5 + r * 13) % 17) / 3;
+      const y = 2 * x1 - x2 + (s % 3) * 0.1 + r * 0.01;
+      lines.push(`S${s},${x1},${x2},${y.toFixed(4)}`);
+    }
+  }
+  return lines.join('\n') + '\n';
+}
