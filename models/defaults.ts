@@ -1,0 +1,41 @@
+/**
+ * Default settings of the regression forest, each with the reason for its value.
+ *
+ * Example: `defaultMtry(10) === 3`
+ */
+
+/**
+ * Features tried at each split, as a fraction of the predictors (rounded down, at least 1): one third
+ * for regression, as recommended by Breiman (2001) and used by R's randomForest (Liaw & Wiener 2002).
+ * (ranger's default, floor(sqrt(p)), is the classification default carried over to regression.)
+ */
+export const DEFAULT_MTRY_FRACTION = 1 / 3;
+
+/** Default mtry for `p` predictors: floor(p / 3), at least 1. */
+export function defaultMtry(p: number): number {
+  return Math.max(1, Math.floor(p / 3));
+}
+
+/**
+ * Minimum rows (bootstrap draws) in a leaf: 5, the regression node size of randomForest and ranger.
+ * Averaging at least five targets per leaf steadies each tree without visibly smoothing the forest.
+ */
+export const DEFAULT_MIN_LEAF = 5;
+
+/**
+ * Trees: 500, randomForest's and ranger's default. Test error of a forest usually flattens well
+ * before 500 trees, and OOB and permutation-importance estimates keep settling a little after that.
+ */
+export const DEFAULT_TREES = 500;
+
+/** Rows drawn per tree as a fraction of the training rows: 1, Breiman's bootstrap of size n. */
+export const DEFAULT_SAMPLE_FRACTION = 1;
+
+/** Draw with replacement (the bootstrap), as Breiman's bagging does. */
+export const DEFAULT_REPLACE = true;
+
+/** Quantile bins per feature: 256, the most a Uint8Array code can hold. */
+export const DEFAULT_MAX_BINS = 256;
+
+/** Worker threads: 1, i.e. grow trees in the calling thread. Results do not depend on this number. */
+export const DEFAULT_WORKERS = 1;

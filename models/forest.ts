@@ -1,0 +1,323 @@
+/**
+ * Random-forest and decision-tree regression: the engine's public API.
+ *
+ * A decision tree is the same engine with one tree, every row once (no bootstrap) and every feature
+ * at every split. A random forest (Breiman 2001) grows each tree on a bootstrap sample and tries
+ * `mtry` randomly chosen features at every split; its prediction is the mean of the trees'.
+ *
+ * Example:
+ * ```ts
+ * const x = { columns: [x1, x2], names: ['x1', 'x2'], rows: x1.length };
+ * const forest = await fitForest(x, y, { trees: 500, maxDepth: null, minLeaf: 5, mtry: 1, seed: 'run-7' });
+ * const yhat = predictForest(forest, x);
+ * ```
+ */
+import { binColumns, type BinnedData } from './binning.js';
+import { checkInteger, checkMatrix, checkMaxDepth, checkSampleFraction, checkTarget, resolveMtry, type Matrix } from './checks.js';
+import {
+  DEFAULT_MAX_BINS,
+  DEFAULT_REPLACE,
+  DEFAULT_SAMPLE_FRACTION,
+  DEFAULT_WORKERS,
+} from './defaults.js';
+import { EngineInputError, engineMessages as msg } from './engine-errors.js';
+import { growTreesInWorkers, sharedFloat64 } from './forest-pool.js';
+import { r2 } from './metrics.js';
+import { checkPredictionMatrix, predictUnchecked } from './predict.js';
+import type { Tree } from './tree.js';
+import { TreeBuilder, type GrowData, type GrowParams, type GrownTree } from './tree-grow.js';
+
+export type { Matrix } from './checks.js';
+export type { Tree } from './tree.js';
+export { EngineInputError, engineMessages } from './engine-errors.js';
+export { checkPredictionMatrix, predictUnchecked } from './predict.js';
+export * from './defaults.js';
+
+export interface ForestOptions {
+  /** Number of trees, at least 1. */
+  trees: number;
+  /** Maximum depth (root = depth 0), or null for unlimited. */
+  maxDepth: number | null;
+  /** Minimum rows in a leaf, counted as bootstrap draws (a row drawn twice counts twice), as in randomForest. */
+  minLeaf: number;
+  /** Integer >= 1: features tried at each split; 0 < mtry < 1: that fraction of the predictors, rounded down, at least 1. */
+  mtry: number;
+  /** Rows drawn per tree as a fraction of the training rows (0, 1]; default 1. */
+  sampleFraction?: number;
+  /** Draw with replacement (bootstrap); default true. */
+  replace?: boolean;
+  /** All randomness derives from this string (tree i uses SHA-256 of `${seed}|tree|${i}`). */
+  seed: string;
+  /** Worker threads growing trees; default 1 (in this thread). Results do not depend on it. */
+  workers?: number;
+  /** Quantile bins per feature, 2..256; default 256. */
+  maxBins?: number;
+}
+
+/** The settings a forest was fitted with, resolved (mtry as a count, defaults filled in). */
+export interface ForestSettings {
+  trees: number;
+  maxDepth: number | null;
+  minLeaf: number;
+  /** Features tried at each split, as a count. */
+  mtry: number;
+  sampleFraction: number;
+  replace: boolean;
+  /** Draws per tree: round(sampleFraction × training rows), at least 1. */
+  sampleSize: number;
+  seed: string;
+  maxBins: number;
+}
+
+export interface OobResult {
+  /** Mean prediction of the trees for which the row was out of bag; NaN for rows never out of bag. */
+  predictions: Float64Array;
+  /** R² of the out-of-bag predictions over the rows that have one; null when undefined (see reason). */
+  r2: number | null;
+  reason?: string;
+  /** Rows never out of bag (excluded from r2). */
+  rowsExcluded: number;
+}
+
+/** A fitted forest (or single tree): flat typed-array trees plus what was learned at fit time. */
+export interface Forest {
+  kind: 'random_forest' | 'decision_tree';
+  featureNames: string[];
+  trainingRows: number;
+  options: ForestSettings;
+  trees: Tree[];
+  oob: OobResult;
+  /** See impurityImportance(). */
+  impurityImportance: Float64Array;
+}
+
+/**
+ * Fits a random forest of regression trees.
+ *
+ * Example: `await fitForest(x, y, { trees: 300, maxDepth: null, minLeaf: 5, mtry: 1 / 3, seed: 's', workers: 2 })`
+ */
+export async function fitForest(x: Matrix, y: Float64Array, opts: ForestOptions): Promise<Forest> {
+  const settings = resolveSettings(x, y, opts);
+  const workers = checkInteger('workers', opts.workers ?? DEFAULT_WORKERS, 1);
+  return fitResolved(x, y, settings, 'random_forest', workers);
+}
+
+/**
+ * Fits one CART regression tree: all rows once, every feature at every split. With at most 256
+ * distinct values per feature the split search is exact CART.
+ *
+ * Example: `await fitDecisionTree(x, y, { maxDepth: 3, minLeaf: 5, seed: 's' })`
+ */
+export async function fitDecisionTree(
+  x: Matrix,
+  y: Float64Array,
+  opts: { maxDepth: number | null; minLeaf: number; seed: string; maxBins?: number },
+): Promise<Forest> {
+  const settings = resolveSettings(x, y, {
+    trees: 1,
+    maxDepth: opts.maxDepth,
+    minLeaf: opts.minLeaf,
+    mtry: Math.max(1, x.columns.length),
+    sampleFraction: 1,
+    replace: false,
+    seed: opts.seed,
+    maxBins: opts.maxBins,
+  });
+  return fitResolved(x, y, settings, 'decision_tree', 1);
+}
+
+/** Checks everything the engine needs; throws EngineInputError with the fix otherwise. */
+function resolveSettings(x: Matrix, y: Float64Array, opts: ForestOptions): ForestSettings {
+  if (typeof opts.seed !== 'string') throw new EngineInputError(msg.seed(opts.seed));
+  const trees = checkInteger('trees', opts.trees, 1);
+  const maxDepth = checkMaxDepth(opts.maxDepth);
+  const minLeaf = checkInteger('min_leaf', opts.minLeaf, 1);
+  const sampleFraction = checkSampleFraction(opts.sampleFraction ?? DEFAULT_SAMPLE_FRACTION);
+  const replace = opts.replace ?? DEFAULT_REPLACE;
+  if (typeof replace !== 'boolean') throw new EngineInputError(msg.replace(replace));
+  const maxBins = checkInteger('max_bins', opts.maxBins ?? DEFAULT_MAX_BINS, 2, 256);
+  if (x.columns.length === 0) throw new EngineInputError(msg.noPredictors());
+  const mtry = resolveMtry(opts.mtry, x.columns.length);
+  if (x.rows === 0) throw new EngineInputError(msg.noRows());
+  checkMatrix(x);
+  checkTarget(y, x.rows);
+  if (x.rows < 2 * minLeaf) throw new EngineInputError(msg.tooFewRows(x.rows, minLeaf));
+  const sampleSize = Math.max(1, Math.round(sampleFraction * x.rows));
+  return { trees, maxDepth, minLeaf, mtry, sampleFraction, replace, sampleSize, seed: opts.seed, maxBins };
+}
+
+async function fitResolved(
+  x: Matrix,
+  y: Float64Array,
+  s: ForestSettings,
+  kind: Forest['kind'],
+  workers: number,
+): Promise<Forest> {
+  const n = x.rows;
+  const p = x.columns.length;
+  const threaded = workers > 1 && s.trees > 1;
+  const codes = threaded ? new Uint8Array(new SharedArrayBuffer(n * p)) : new Uint8Array(n * p);
+  const binned: BinnedData = binColumns(x.columns, s.maxBins, codes);
+  let mean = 0;
+  for (let r = 0; r < n; r++) mean += y[r];
+  mean /= n;
+  const yc = threaded ? sharedFloat64(n) : new Float64Array(n);
+  for (let r = 0; r < n; r++) yc[r] = y[r] - mean;
+  let raw = x.columns;
+  if (threaded) {
+    const all = sharedFloat64(n * p);
+    raw = [];
+    for (let f = 0; f < p; f++) {
+      const col = all.subarray(f * n, (f + 1) * n);
+      col.set(x.columns[f]);
+      raw.push(col);
+    }
+  }
+  const data: GrowData = {
+    rows: n,
+    features: p,
+    codes: binned.codes,
+    nBins: binned.nBins,
+    offsets: binned.offsets,
+    binMin: binned.binMin,
+    binMax: binned.binMax,
+    y: threaded ? sharedFloat64(n, y) : y,
+    yc,
+    raw,
+  };
+  const params: GrowParams = {
+    maxDepth: s.maxDepth,
+    minLeaf: s.minLeaf,
+    mtry: s.mtry,
+    sampleSize: s.sampleSize,
+    replace: s.replace,
+    seed: s.seed,
+  };
+  const combiner = new TreeCombiner(s.trees, n, p);
+  if (threaded) {
+    await growTreesInWorkers(data, params, s.trees, workers, (i, g) => combiner.add(i, g));
+  } else {
+    const builder = new TreeBuilder(data, params);
+    for (let i = 0; i < s.trees; i++) combiner.add(i, builder.grow(i));
+  }
+  return {
+    kind,
+    featureNames: [...x.names],
+    trainingRows: n,
+    options: s,
+    trees: combiner.trees,
+    oob: combiner.oobResult(y),
+    impurityImportance: combiner.importance(),
+  };
+}
+
+/**
+ * Folds trees into the forest strictly in tree order, whatever order they arrive in, so sums of
+ * floating-point numbers (OOB predictions, importances) are the same for any number of workers.
+ */
+class TreeCombiner {
+  readonly trees: Tree[] = [];
+  private readonly pending: (GrownTree | undefined)[];
+  private next = 0;
+  private readonly oobSum: Float64Array;
+  private readonly oobCount: Int32Array;
+  private readonly impSum: Float64Array;
+
+  constructor(
+    private readonly count: number,
+    rows: number,
+    features: number,
+  ) {
+    this.pending = new Array<GrownTree | undefined>(count);
+    this.oobSum = new Float64Array(rows);
+    this.oobCount = new Int32Array(rows);
+    this.impSum = new Float64Array(features);
+  }
+
+  add(index: number, grown: GrownTree): void {
+    this.pending[index] = grown;
+    for (let g = this.pending[this.next]; g !== undefined; g = this.pending[this.next]) {
+      this.pending[this.next] = undefined;
+      this.next++;
+      this.trees.push(g.tree);
+      const rows = g.oobRows;
+      const values = g.oobValues;
+      for (let k = 0; k < rows.length; k++) {
+        this.oobSum[rows[k]] += values[k];
+        this.oobCount[rows[k]]++;
+      }
+      for (let f = 0; f < this.impSum.length; f++) this.impSum[f] += g.importance[f];
+    }
+  }
+
+  oobResult(y: Float64Array): OobResult {
+    if (this.next !== this.count) throw new Error(`internal: ${this.next} of ${this.count} trees combined`);
+    const n = this.oobSum.length;
+    const predictions = new Float64Array(n);
+    let used = 0;
+    for (let r = 0; r < n; r++) {
+      if (this.oobCount[r] > 0) {
+        predictions[r] = this.oobSum[r] / this.oobCount[r];
+        used++;
+      } else predictions[r] = NaN;
+    }
+    const obs = new Float64Array(used);
+    const pred = new Float64Array(used);
+    let k = 0;
+    for (let r = 0; r < n; r++) {
+      if (this.oobCount[r] > 0) {
+        obs[k] = y[r];
+        pred[k] = predictions[r];
+        k++;
+      }
+    }
+    const m = r2(obs, pred);
+    const out: OobResult = { predictions, r2: m.value, rowsExcluded: n - used };
+    if (m.reason !== undefined) out.reason = used === 0 ? 'no row was ever out of bag' : m.reason;
+    return out;
+  }
+
+  importance(): Float64Array {
+    const imp = new Float64Array(this.impSum.length);
+    for (let f = 0; f < imp.length; f++) imp[f] = this.impSum[f] / this.count;
+    return imp;
+  }
+}
+
+/**
+ * Predictions for the rows of `x` (the mean of the trees). Columns are matched by position and must
+ * carry the names the forest was fitted on.
+ *
+ * Example: `predictForest(forest, { columns: [a, b], names: forest.featureNames, rows: a.length })`
+ */
+export function predictForest(f: Forest, x: Matrix): Float64Array {
+  checkPredictionMatrix(f, x);
+  return predictUnchecked(f, x.columns, x.rows);
+}
+
+/**
+ * Out-of-bag predictions and R², computed at fit time: each training row is predicted by the trees
+ * whose sample left it out. Rows in every tree's sample (always so for a decision tree, often for
+ * small forests) get NaN and are counted in `rowsExcluded` instead of failing.
+ *
+ * Example: `const { r2, rowsExcluded } = oob(forest)`
+ */
+export function oob(f: Forest): OobResult {
+  return { ...f.oob, predictions: f.oob.predictions.slice() };
+}
+
+/**
+ * Impurity importance, computed on the training (in-bag) data: per feature, the decrease in squared
+ * error of the splits on it, per unit of in-bag weight, averaged over trees (units of the target
+ * squared; the values add up to the mean training-MSE reduction of a tree). Being measured on the
+ * data the trees were fitted to, it favours features with many split points and can credit noise;
+ * prefer permutationImportance on held-out rows for conclusions.
+ *
+ * Example: `impurityImportance(forest)[2]` is feature 2's share.
+ */
+export function impurityImportance(f: Forest): Float64Array {
+  return f.impurityImportance.slice();
+}
+
+export { permutationImportance } from './importance.js';
+export { serializeForest, deserializeForest } from './serialize.js';
