@@ -24,8 +24,8 @@ export interface Plan {
 }
 
 /**
- * Turns a recipe into step instances, each keyed by the SHA-256 of its kind, version, params and
- * its inputs' keys; a source's key covers its file's bytes and read options, not its path.
+ * Turns a recipe into step instances, each keyed by the SHA-256 of its kind, version, params, the
+ * master seed (for steps that draw random numbers) and its inputs' keys; a source's key covers its file's bytes and read options, not its path.
  *
  * Example: changing `clean[1]` changes the keys of clean[1] and everything after it, nothing before.
  */
@@ -34,7 +34,8 @@ export function planRecipe(recipe: Recipe, origin: RecipeOrigin): Plan {
   const keyOf = new Map<string, string>();
   const add = (id: string, kind: string, params: unknown, inputs: string[], locator: Record<string, string> = {}) => {
     const def = stepRegistry[kind];
-    const key = hashValue({ kind, version: def.version, params, inputs: inputs.map((i) => keyOf.get(i)) });
+    const seed = def.usesSeed ? recipe.seed : undefined;
+    const key = hashValue({ kind, version: def.version, params, seed, inputs: inputs.map((i) => keyOf.get(i)) });
     keyOf.set(id, key);
     steps.push({ id, kind, params, inputs, locator, key });
     return id;

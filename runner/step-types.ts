@@ -54,6 +54,8 @@ export interface StepDefinition<P = unknown, O = unknown> {
   /** Bump when the step's behaviour changes, so cached outputs are not reused. */
   version: number;
   codec: OutputCodec;
+  /** Whether the step draws random numbers: then the master seed is part of its key. */
+  usesSeed?: boolean;
   run(inputs: unknown[], params: P, ctx: StepContext): O | Promise<O>;
   /** A few words on the output for the progress line, such as "3,120 rows". */
   summary?(output: O): string;

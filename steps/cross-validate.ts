@@ -31,6 +31,7 @@ export const crossValidate: StepDefinition<CrossValidateParams, CrossValidateOut
   kind: 'cross_validate',
   version: 1,
   codec: 'json',
+  usesSeed: true,
   async run(inputs, params, ctx) {
     const frame = (inputs[0] as FrameOutput).frame;
     const split = inputs[1] as HoldoutOutput;

@@ -30,6 +30,7 @@ export const fit: StepDefinition<FitParams, FitOutput> = {
   kind: 'fit',
   version: 1,
   codec: 'json',
+  usesSeed: true,
   async run(inputs, params, ctx) {
     const frame = (inputs[0] as FrameOutput).frame;
     const split = inputs[1] as HoldoutOutput;

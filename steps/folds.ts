@@ -25,6 +25,7 @@ export const folds: StepDefinition<FoldsParams, FoldsOutput> = {
   kind: 'folds',
   version: 1,
   codec: 'json',
+  usesSeed: true,
   run(inputs, params, ctx) {
     const frame = (inputs[0] as FrameOutput).frame;
     const split = inputs[1] as HoldoutOutput;

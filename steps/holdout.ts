@@ -26,6 +26,7 @@ export const holdout: StepDefinition<HoldoutParams, HoldoutOutput> = {
   kind: 'holdout',
   version: 1,
   codec: 'json',
+  usesSeed: true,
   run(inputs, params, ctx) {
     const frame = (inputs[0] as FrameOutput).frame;
     const rand = ctx.rng('holdout');

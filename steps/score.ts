@@ -40,6 +40,7 @@ export const score: StepDefinition<ScoreParams, ScoreOutput> = {
   kind: 'score',
   version: 1,
   codec: 'json',
+  usesSeed: true,
   async run(inputs, params, ctx) {
     const frame = (inputs[0] as FrameOutput).frame;
     const split = inputs[1] as HoldoutOutput;

@@ -1,0 +1,73 @@
+import { join } from 'node:path';
+import { describe, expect, it } from 'vitest';
+import { planRecipe } from '../../runner/plan.js';
+import { loadRecipe } from '../../runner/recipe.js';
+import { makeFolder, SMALL_RECIPE, smallData } from '../helpers.js';
+
+const WITH_CLEANING =
+  SMALL_RECIPE +
+  `clean:
+  - within: {column: x1, min: 0, max: 100}
+  - drop_missing: [y]
+`;
+
+function keys(recipeText: string, data = smallData()): Map<string, string> {
+  const dir = makeFolder({ 'recipe.yaml': recipeText, 'data/obs.csv': data });
+  const { recipe, origin } = loadRecipe(join(dir, 'recipe.yaml'));
+  return new Map(planRecipe(recipe, origin).steps.map((s) => [s.id, s.key]));
+}
+
+function changed(a: Map<string, string>, b: Map<string, string>): string[] {
+  return [...a.keys()].filter((id) => a.get(id) !== b.get(id));
+}
+
+describe('step keys', () => {
+  it('are the same for the same recipe and data, even in another folder', () => {
+    expect(changed(keys(WITH_CLEANING), keys(WITH_CLEANING))).toEqual([]);
+  });
+
+  it('change for the edited step and everything downstream of it, nothing upstream', () => {
+    const before = keys(WITH_CLEANING);
+    const after = keys(WITH_CLEANING.replace('max: 100', 'max: 99'));
+    const diff = changed(before, after);
+    expect(diff).toContain('clean[0] within');
+    expect(diff).toContain('clean[1] drop_missing');
+    expect(diff).toContain('model table');
+    expect(diff).toContain('score linear');
+    expect(diff).not.toContain('source obs');
+  });
+
+  it('change only the model that was edited, not the other models', () => {
+    const before = keys(WITH_CLEANING.replace('mean: {kind: mean}', 'tree: {kind: decision_tree, grid: {max_depth: 2}}'));
+    const after = keys(WITH_CLEANING.replace('mean: {kind: mean}', 'tree: {kind: decision_tree, grid: {max_depth: 3}}'));
+    // the cell's id names its settings, so the old cell is absent from the new plan and the new one is added
+    expect(changed(before, after).sort()).toEqual(['choose tree', 'cv tree max_depth=2 min_leaf=5', 'fit tree', 'score tree']);
+    expect(after.has('cv tree max_depth=3 min_leaf=5')).toBe(true);
+    expect(after.get('cv linear no hyperparameters')).toBe(before.get('cv linear no hyperparameters'));
+  });
+
+  it('change from the source on when one byte of the data changes', () => {
+    const data = smallData();
+    const before = keys(WITH_CLEANING, data);
+    const after = keys(WITH_CLEANING, data.replace(/\n$/, '\nS0,1,1,1\n'));
+    expect(changed(before, after)).toEqual([...before.keys()]);
+  });
+
+  it('do not change when only the title changes', () => {
+    const before = keys(WITH_CLEANING);
+    const after = keys(WITH_CLEANING.replace('name: small', 'name: small\ntitle: Another title'));
+    expect(changed(before, after)).toEqual([]);
+  });
+});
+
+describe('step keys and the seed', () => {
+  it('change for random steps and their dependants when the seed changes, not for reading and cleaning', () => {
+    const before = keys(WITH_CLEANING);
+    const after = keys(WITH_CLEANING.replace('seed: 3', 'seed: 4'));
+    const diff = changed(before, after);
+    expect(diff).not.toContain('source obs');
+    expect(diff).not.toContain('clean[0] within');
+    expect(diff).toContain('holdout');
+    expect(diff).toContain('score mean');
+  });
+});
