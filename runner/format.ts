@@ -11,7 +11,8 @@ export function formatNumber(v: number | null | undefined, digits = 3): string {
   let s: string;
   if (a >= 1000) s = v.toFixed(1);
   else if (a >= 100) s = v.toFixed(Math.max(1, digits - 2));
-  else if (a >= 0.01 || a === 0) s = v.toFixed(digits);
+  // below 1e-9 a value is rounding noise (a bias of 5e-15 on training rows), not information
+  else if (a >= 0.01 || a < 1e-9) s = v.toFixed(digits);
   else s = v.toPrecision(digits);
   return s.replace(/^-/, '−');
 }

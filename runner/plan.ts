@@ -1,6 +1,6 @@
 import { readFileSync } from 'node:fs';
 import { stepRegistry } from '../steps/index.js';
-import { cellLabel, gridCells } from '../steps/model-kinds.js';
+import { cellLabel, gridCells, varyingParams } from '../steps/model-kinds.js';
 import { hashValue, sha256 } from './hash.js';
 import { DendrologError } from './messages.js';
 import type { RecipeOrigin } from './recipe.js';
@@ -91,7 +91,7 @@ export function planRecipe(recipe: Recipe, origin: RecipeOrigin): Plan {
   const models: Plan['models'] = {};
   for (const [name, m] of Object.entries(recipe.models)) {
     const cells = gridCells(m.grid).map((cell) =>
-      add(`cv ${name} ${cellLabel(cell)}`, 'cross_validate', { model: name, kind: m.kind, cell, ...common }, [modelTable, holdout, folds]),
+      add(`cv ${name} ${cellLabel(cell, varyingParams(m.grid))}`, 'cross_validate', { model: name, kind: m.kind, cell, ...common }, [modelTable, holdout, folds]),
     );
     const choose = add(`choose ${name}`, 'choose', { target: recipe.target, choose_by: ev.choose_by, k: ev.folds.k }, [
       modelTable,

@@ -1,5 +1,5 @@
 import type { MetricSet } from '../models/metrics.js';
-import { cellLabel } from '../steps/model-kinds.js';
+import { cellLabel, varyingParams } from '../steps/model-kinds.js';
 import { formatCount, formatNumber, formatSetting } from './format.js';
 import type { Manifest } from './manifest.js';
 import type { Recipe } from './recipe-types.js';
@@ -10,6 +10,8 @@ const METRIC_LABELS: Record<string, string> = { r2: 'R²', rmse: 'RMSE', mae: 'M
 /** Everything the templates show, already formatted: templates only lay it out and escape it. */
 export function reportView(recipe: Recipe, results: Results, manifest: Manifest) {
   const best = results.models.find((m) => m.name === results.chosenModel)!;
+  // the grid table shows the choosing metric and R²; the manifest keeps all four
+  const gridMetrics = [...new Set([recipe.evaluation.choose_by, 'r2' as const])];
   const metricRow = (label: string, source: string, m: MetricSet, interval?: Results['models'][number]['intervals']) => ({
     label,
     source,
@@ -82,20 +84,26 @@ export function reportView(recipe: Recipe, results: Results, manifest: Manifest)
       foldsBy: results.folds.by === 'groups' ? `by groups (${recipe.groups})` : 'at random',
       chooseBy: METRIC_LABELS[recipe.evaluation.choose_by],
     },
-    models: results.models.map((m) => ({
+    gridMetricHeads: gridMetrics.map((k) => METRIC_LABELS[k]),
+    models: results.models.map((m) => {
+      const varying = varyingParams(recipe.models[m.name].grid);
+      return {
       name: m.name,
       kind: m.kind,
       isHeadline: m.name === results.chosenModel,
       chosen: m.chosenLabel,
-      params: Object.keys(m.cells[0].cell),
+      fixed: Object.entries(m.cells[0].cell)
+        .filter(([k]) => !varying.includes(k))
+        .map(([k, v]) => `${k} = ${formatSetting(v)}`)
+        .join(', '),
+      params: varying,
       cells: m.cells.map((c, i) => ({
         label: cellLabel(c.cell),
-        values: Object.values(c.cell).map(formatSetting),
+        values: varying.map((k) => formatSetting(c.cell[k])),
         chosen: i === m.chosen,
-        pooled: recipe.evaluation.metrics.map((k) => formatNumber(c.pooled[k].value)),
-        folds: recipe.evaluation.metrics.map((k) => {
+        scores: gridMetrics.flatMap((k) => {
           const s = c.perFold[k];
-          return s.mean === null ? '—' : `${formatNumber(s.mean)} ± ${formatNumber(s.sd)}`;
+          return [formatNumber(c.pooled[k].value), s.mean === null ? '—' : `${formatNumber(s.mean)} ± ${formatNumber(s.sd)}`];
         }),
       })),
       used: Object.entries(m.used).map(([k, v]) => ({ name: k, value: formatSetting(v) })),
@@ -105,7 +113,8 @@ export function reportView(recipe: Recipe, results: Results, manifest: Manifest)
         metricRow('training', 'in-sample: not skill', m.training),
       ],
       oob: m.oobR2 === null ? null : formatNumber(m.oobR2),
-    })),
+      };
+    }),
     warnings: results.warnings.map((w) => ({ ...w, repeated: w.count > 1 })),
     manifest: {
       recipeSha: manifest.recipe.sha256,

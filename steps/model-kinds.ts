@@ -100,10 +100,22 @@ export function gridCells(grid: Record<string, (number | boolean | null)[]>): Ce
   return cells;
 }
 
-/** A short readable label for a cell, such as "trees=300 max_depth=12". */
-export function cellLabel(cell: Cell): string {
-  const parts = Object.entries(cell).map(([k, v]) => `${k}=${v === null ? 'none' : v}`);
-  return parts.length ? parts.join(' ') : 'no hyperparameters';
+/**
+ * A short readable label for a cell, such as "max_depth=12 mtry=0.33". With `only`, just those
+ * hyperparameters are named (the ones the grid varies).
+ */
+export function cellLabel(cell: Cell, only?: string[]): string {
+  const parts = Object.entries(cell)
+    .filter(([k]) => !only || only.includes(k))
+    .map(([k, v]) => `${k}=${v === null ? 'none' : v}`);
+  return parts.length ? parts.join(' ') : Object.keys(cell).length ? 'one setting' : 'no hyperparameters';
+}
+
+/** The hyperparameters a grid gives more than one value. */
+export function varyingParams(grid: Record<string, unknown[]>): string[] {
+  return Object.entries(grid)
+    .filter(([, v]) => v.length > 1)
+    .map(([k]) => k);
 }
 
 /**
