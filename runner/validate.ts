@@ -37,6 +37,20 @@ export function validateRecipe(doc: PositionedDocument): string[] {
     list.push(e);
     byPath.set(e.instancePath, list);
   }
+  // a misspelt required key shows up twice (unknown + missing); the "did you mean" line says it all
+  const misspelt = new Set<string>();
+  for (const e of errors) {
+    if (e.keyword !== 'additionalProperties') continue;
+    const props = Object.keys(((e.parentSchema as Record<string, unknown>)?.properties as object) ?? {});
+    const near = closest(String((e.params as Record<string, unknown>).additionalProperty), props);
+    if (near) misspelt.add(`${e.instancePath}/${near}`);
+  }
+  for (const [pointer, list] of byPath) {
+    byPath.set(
+      pointer,
+      list.filter((e) => !(e.keyword === 'required' && misspelt.has(`${pointer}/${(e.params as Record<string, unknown>).missingProperty}`))),
+    );
+  }
   const out: { pos: string; msg: string }[] = [];
   for (const [pointer, list] of byPath) {
     const path = splitPointer(pointer);

@@ -45,6 +45,12 @@ describe('reading and validating a recipe', () => {
     );
   });
 
+  it('reports a misspelt required key once, as unknown with a suggestion', () => {
+    const text = SMALL_RECIPE.replace('predictors:', 'predictor:');
+    const { file, problems } = problemsOf(text);
+    expect(problems).toEqual([`${file}:${lineOf(text, 'predictor:')}:1: ${messages.unknownKey('predictor', 'the recipe', 'predictors', [])}`]);
+  });
+
   it('names an unknown clean step kind inside its list item', () => {
     const text = SMALL_RECIPE + 'clean:\n  - drop_mising: [y]\n';
     const { file, problems } = problemsOf(text);
