@@ -1,10 +1,18 @@
-import { mkdtempSync, mkdirSync, writeFileSync } from 'node:fs';
+import { mkdtempSync, mkdirSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { dirname, join } from 'node:path';
 
-/** A temporary folder holding the given files (paths relative to it); returns its path. */
+const made: string[] = [];
+
+/** Removes every folder makeFolder made (test/setup.ts calls it after each test file). */
+export function removeFolders(): void {
+  for (const dir of made.splice(0)) rmSync(dir, { recursive: true, force: true });
+}
+
+/** A temporary folder holding the given files (paths relative to it), removed when the tests end. */
 export function makeFolder(files: Record<string, string>): string {
   const dir = mkdtempSync(join(tmpdir(), 'dendrolog-test-'));
+  made.push(dir);
   for (const [name, text] of Object.entries(files)) {
     mkdirSync(dirname(join(dir, name)), { recursive: true });
     writeFileSync(join(dir, name), text);

@@ -1,8 +1,8 @@
 import { spawnSync } from 'node:child_process';
-import { cpSync, existsSync, mkdtempSync, readFileSync } from 'node:fs';
+import { cpSync, existsSync, mkdtempSync, readFileSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join, resolve } from 'node:path';
-import { beforeAll, describe, expect, it } from 'vitest';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 
 const root = resolve(import.meta.dirname, '..', '..');
 const bin = join(root, 'bin', 'dendrolog.js');
@@ -18,6 +18,8 @@ describe('the demo recipe, end to end through the built command', () => {
   let first: ReturnType<typeof dendrolog>;
   let second: ReturnType<typeof dendrolog>;
   let firstManifest: Record<string, unknown>;
+
+  afterAll(() => rmSync(work, { recursive: true, force: true }));
 
   beforeAll(() => {
     if (!existsSync(join(root, 'dist', 'runner', 'cli.js'))) throw new Error('dist/ is missing: run "npm run build" first (npm test does)');

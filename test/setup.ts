@@ -1,0 +1,4 @@
+import { afterAll } from 'vitest';
+import { removeFolders } from './helpers.js';
+
+afterAll(removeFolders);
