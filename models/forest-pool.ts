@@ -1,19 +1,21 @@
 /**
- * Growing a forest's trees on worker threads.
+ * Growing a forest's trees on several threads: the calling thread plus `threads - 1` worker threads.
  *
- * Each worker receives the binned data once (typed arrays over SharedArrayBuffers, so nothing is
- * copied) and then tree numbers one at a time, so faster workers take more trees. A tree depends
- * only on (seed, tree number), and the caller combines results in tree order, so the forest is
- * bit-identical for any number of workers.
+ * Workers receive the binned data once (typed arrays over SharedArrayBuffers, so nothing is copied)
+ * and claim tree numbers from a shared atomic counter, so no thread waits for the next assignment and
+ * faster threads take more trees. The calling thread claims trees from the same counter between
+ * short yields to its event loop (which is how it receives the workers' trees), so the workers'
+ * start-up time (a few hundred milliseconds) is not lost. A tree depends only on (seed, tree number)
+ * and the caller combines results in tree order, so the forest is bit-identical for any thread count.
  *
- * Example: `await growTreesInWorkers(data, params, 100, 2, (i, grown) => combiner.add(i, grown))`
+ * Example: `await growTreesThreaded(data, params, 100, 2, (i, grown) => combiner.add(i, grown))`
  */
 import { readFileSync } from 'node:fs';
 import { createRequire } from 'node:module';
 import { dirname, join } from 'node:path';
 import { pathToFileURL } from 'node:url';
 import { Worker } from 'node:worker_threads';
-import type { GrowData, GrowParams, GrownTree } from './tree-grow.js';
+import { TreeBuilder, type GrowData, type GrowParams, type GrownTree } from './tree-grow.js';
 
 /**
  * Starts one worker. Compiled code (dist/models/*.js) runs forest-worker.js directly. Under vitest the
@@ -45,58 +47,69 @@ interface Reply {
   error?: string;
 }
 
-/** Grows trees 0..trees-1 on `workers` threads, calling `onTree` as each arrives (in any order). */
-export function growTreesInWorkers(
+/** Grows trees 0..trees-1 on `threads` threads (this one included), calling `onTree` as each arrives. */
+export async function growTreesThreaded(
   data: GrowData,
   params: GrowParams,
   trees: number,
-  workers: number,
+  threads: number,
   onTree: (index: number, grown: GrownTree) => void,
 ): Promise<void> {
-  return new Promise((resolve, reject) => {
-    const pool: Worker[] = [];
-    let nextTree = 0;
-    let done = 0;
-    let failed = false;
-    const stopAll = (): void => {
-      for (const w of pool) void w.terminate();
-    };
-    const fail = (err: Error): void => {
-      if (failed) return;
-      failed = true;
-      stopAll();
-      reject(err);
-    };
-    const count = Math.min(workers, trees);
-    for (let k = 0; k < count; k++) {
-      const worker = startWorker({ data, params });
-      pool.push(worker);
-      worker.on('message', (reply: Reply) => {
-        if (failed) return;
-        if (reply.error !== undefined || reply.grown === undefined) {
-          fail(new Error(`growing tree ${reply.tree} failed in a worker thread: ${reply.error ?? 'no result'}`));
-          return;
-        }
-        try {
-          onTree(reply.tree, reply.grown);
-        } catch (e) {
-          fail(e as Error);
-          return;
-        }
-        done++;
-        if (nextTree < trees) worker.postMessage({ tree: nextTree++ });
-        if (done === trees) {
-          stopAll();
-          resolve();
-        }
-      });
-      worker.on('error', (e) => fail(e));
-      worker.on('exit', (code) => {
-        if (!failed && done < trees) fail(new Error(`a forest worker thread exited early (code ${code})`));
-      });
-      worker.postMessage({ tree: nextTree++ });
+  const counter = new Int32Array(new SharedArrayBuffer(4));
+  const pool: Worker[] = [];
+  let done = 0;
+  let failure: Error | null = null;
+  let wake: (() => void) | null = null;
+  const notify = (): void => {
+    const w = wake;
+    wake = null;
+    if (w) w();
+  };
+  const fail = (err: Error): void => {
+    if (failure === null) failure = err;
+    // Stop every thread from claiming more trees.
+    Atomics.store(counter, 0, trees);
+    notify();
+  };
+  const deliver = (index: number, grown: GrownTree): void => {
+    try {
+      onTree(index, grown);
+      done++;
+    } catch (e) {
+      fail(e as Error);
     }
-  });
+    notify();
+  };
+  for (let k = 1; k < Math.min(threads, trees); k++) {
+    const worker = startWorker({ data, params, trees, counter });
+    pool.push(worker);
+    worker.on('message', (reply: Reply) => {
+      if (reply.error !== undefined || reply.grown === undefined) {
+        fail(new Error(`growing tree ${reply.tree} failed in a worker thread: ${reply.error ?? 'no result'}`));
+      } else deliver(reply.tree, reply.grown);
+    });
+    worker.on('error', (e) => fail(e));
+    worker.on('exit', (code) => {
+      if (code !== 0) fail(new Error(`a forest worker thread exited with code ${code}`));
+      notify();
+    });
+  }
+  try {
+    const builder = new TreeBuilder(data, params);
+    for (let tree = Atomics.add(counter, 0, 1); tree < trees; tree = Atomics.add(counter, 0, 1)) {
+      deliver(tree, builder.grow(tree));
+      // Let the workers' finished trees in.
+      await new Promise<void>((resolve) => setImmediate(resolve));
+    }
+    while (done < trees && failure === null) {
+      await new Promise<void>((resolve) => {
+        wake = resolve;
+      });
+    }
+  } finally {
+    for (const w of pool) void w.terminate();
+  }
+  if (failure !== null) throw failure;
 }
 
 /** A Float64Array of `length` over a new SharedArrayBuffer, holding a copy of `source` if given. */

@@ -21,7 +21,7 @@ import {
   DEFAULT_WORKERS,
 } from './defaults.js';
 import { EngineInputError, engineMessages as msg } from './engine-errors.js';
-import { growTreesInWorkers, sharedFloat64 } from './forest-pool.js';
+import { growTreesThreaded, sharedFloat64 } from './forest-pool.js';
 import { r2 } from './metrics.js';
 import { checkPredictionMatrix, predictUnchecked } from './predict.js';
 import type { Tree } from './tree.js';
@@ -48,7 +48,10 @@ export interface ForestOptions {
   replace?: boolean;
   /** All randomness derives from this string (tree i uses SHA-256 of `${seed}|tree|${i}`). */
   seed: string;
-  /** Worker threads growing trees; default 1 (in this thread). Results do not depend on it. */
+  /**
+   * Threads growing trees, this one included (so 2 = this thread plus one worker thread); default 1,
+   * which uses no worker threads. Results do not depend on it.
+   */
   workers?: number;
   /** Quantile bins per feature, 2..256; default 256. */
   maxBins?: number;
@@ -195,7 +198,7 @@ async function fitResolved(
   };
   const combiner = new TreeCombiner(s.trees, n, p);
   if (threaded) {
-    await growTreesInWorkers(data, params, s.trees, workers, (i, g) => combiner.add(i, g));
+    await growTreesThreaded(data, params, s.trees, workers, (i, g) => combiner.add(i, g));
   } else {
     const builder = new TreeBuilder(data, params);
     for (let i = 0; i < s.trees; i++) combiner.add(i, builder.grow(i));
