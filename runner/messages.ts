@@ -103,6 +103,10 @@ export const messages = {
     `the target ${q(column)} has no values left after cleaning; check the cleaning steps and the missing-value tokens`,
   tooFewRows: (rows: number, needed: number, what: string) =>
     `only ${rows} rows are left for ${what}, but at least ${needed} are needed; loosen the cleaning steps or use fewer folds`,
+  timeMissing: (column: string, rows: number) =>
+    `the time column ${q(column)} has ${rows} missing values among the modelling rows; drop them with "drop_missing: [${column}]" or split another way`,
+  timeTooFewBlocks: (distinct: number, k: number) =>
+    `forward time folds need at least ${k + 1} distinct times in the training rows, but there are ${distinct}; use fewer folds`,
   holdoutEmpty: (side: string) =>
     `the holdout split left the ${side} set empty; change evaluation.holdout.fraction`,
   missingInPredictor: (column: string, rows: number) =>

@@ -64,10 +64,12 @@ export function normalizeRecipe(raw: Raw): Recipe {
     holdout: {
       by: (holdout.by as Evaluation['holdout']['by'] | undefined) ?? (groups ? 'groups' : 'random'),
       fraction: (holdout.fraction as number | undefined) ?? 0.2,
+      cutoff: (holdout.cutoff as string | number | undefined) ?? null,
     },
     folds: {
       k: (folds.k as number | undefined) ?? 5,
       by: (folds.by as Evaluation['folds']['by'] | undefined) ?? (groups ? 'groups' : 'random'),
+      gap: (folds.gap as number | undefined) ?? 0,
     },
     choose_by: (ev.choose_by as Evaluation['choose_by'] | undefined) ?? 'rmse',
     metrics: (ev.metrics as Evaluation['metrics'] | undefined) ?? ['r2', 'rmse', 'mae', 'bias'],

@@ -84,14 +84,18 @@ export function planRecipe(recipe: Recipe, origin: RecipeOrigin): Plan {
   );
   dataSteps.push(modelTable);
   const ev = recipe.evaluation;
-  const holdout = add('holdout', 'holdout', { ...ev.holdout, groups: recipe.groups }, [modelTable]);
-  const folds = add('folds', 'folds', { ...ev.folds, groups: recipe.groups }, [modelTable, holdout]);
+  const holdout = add('holdout', 'holdout', { ...ev.holdout, groups: recipe.groups, time: recipe.time }, [modelTable]);
+  const folds = add('folds', 'folds', { ...ev.folds, groups: recipe.groups, time: recipe.time }, [modelTable, holdout]);
   const learned = recipe.features.filter((f) => f.kind !== 'derive');
   const common = { target: recipe.target, predictors: recipe.predictors, features: learned };
   const models: Plan['models'] = {};
   for (const [name, m] of Object.entries(recipe.models)) {
     const cells = gridCells(m.grid).map((cell) =>
-      add(`cv ${name} ${cellLabel(cell, varyingParams(m.grid))}`, 'cross_validate', { model: name, kind: m.kind, cell, ...common }, [modelTable, holdout, folds]),
+      add(`cv ${name} ${cellLabel(cell, varyingParams(m.grid))}`, 'cross_validate', { model: name, kind: m.kind, cell, time: ev.folds.by === 'time' ? recipe.time : null, ...common }, [
+        modelTable,
+        holdout,
+        folds,
+      ]),
     );
     const choose = add(`choose ${name}`, 'choose', { target: recipe.target, choose_by: ev.choose_by, k: ev.folds.k }, [
       modelTable,

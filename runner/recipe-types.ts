@@ -36,11 +36,13 @@ export interface ModelSpec {
   grid: Record<string, (number | boolean | null)[]>;
 }
 
-export type SplitBy = 'random' | 'groups';
+export type SplitBy = 'random' | 'groups' | 'time';
 
 export interface Evaluation {
-  holdout: { by: SplitBy; fraction: number };
-  folds: { k: number; by: SplitBy };
+  /** With by: time, `cutoff` (a date or number) puts rows at or after it in the holdout; else the latest `fraction`. */
+  holdout: { by: SplitBy; fraction: number; cutoff: string | number | null };
+  /** With by: time, `gap` leaves out training rows this close before each test block (days for dates). */
+  folds: { k: number; by: SplitBy; gap: number };
   choose_by: 'rmse' | 'mae' | 'r2';
   metrics: ('r2' | 'rmse' | 'mae' | 'bias')[];
   max_cells: number;

@@ -7,6 +7,7 @@ import { normalizeRecipe } from './normalize.js';
 import type { ColumnType, Recipe } from './recipe-types.js';
 import { closest } from './suggest.js';
 import { validateRecipe } from './validate.js';
+import { parseValue } from '../steps/readers/values.js';
 import { readYaml, type PositionedDocument } from './yaml-read.js';
 
 /** Where a recipe came from: its file, folder, bytes' hash and a locator for its positions. */
@@ -211,6 +212,22 @@ function checkMeaning(recipe: Recipe, doc: PositionedDocument): string[] {
   const ev = recipe.evaluation;
   if (ev.holdout.by === 'groups' && !recipe.groups) add(['evaluation', 'holdout', 'by'], messages.groupsNeeded('evaluation.holdout'));
   if (ev.folds.by === 'groups' && !recipe.groups) add(['evaluation', 'folds', 'by'], messages.groupsNeeded('evaluation.folds'));
+  for (const part of ['holdout', 'folds'] as const) {
+    if (ev[part].by !== 'time') continue;
+    if (!recipe.time) add(['evaluation', part, 'by'], messages.timeNeeded(`evaluation.${part}`));
+    else if (cols.has(recipe.time) && !['date', 'number'].includes(cols.get(recipe.time)!)) {
+      add(['time'], messages.schemaOther('time', `column "${recipe.time}" is ${cols.get(recipe.time)}; a time column must be a date or a number`));
+    }
+  }
+  if (ev.holdout.cutoff !== null) {
+    if (ev.holdout.by !== 'time') {
+      add(['evaluation', 'holdout', 'cutoff'], messages.schemaOther('evaluation.holdout.cutoff', 'only applies with by: time; remove it or set by: time'));
+    } else if (recipe.time && cols.get(recipe.time) === 'date' && parseValue(String(ev.holdout.cutoff), 'date', new Set()) == null) {
+      add(['evaluation', 'holdout', 'cutoff'], messages.schemaOther('evaluation.holdout.cutoff', `"${ev.holdout.cutoff}" is not a date; write it as YYYY-MM-DD`));
+    } else if (recipe.time && cols.get(recipe.time) === 'number' && typeof ev.holdout.cutoff !== 'number') {
+      add(['evaluation', 'holdout', 'cutoff'], messages.schemaOther('evaluation.holdout.cutoff', `must be a number, like the time column "${recipe.time}"`));
+    }
+  }
 
   let cells = 0;
   for (const m of Object.values(recipe.models)) cells += Object.values(m.grid).reduce((n, v) => n * v.length, 1);

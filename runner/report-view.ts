@@ -73,7 +73,7 @@ export function reportView(recipe: Recipe, results: Results, manifest: Manifest)
           },
     ),
     protocol: {
-      holdoutBy: results.holdout.by === 'groups' ? `by groups (${recipe.groups})` : 'at random',
+      holdoutBy: splitWords(results.holdout.by, recipe, 'holdout'),
       fraction: formatNumber(results.holdout.fraction * 100, 0).replace(/\.0+$/, ''),
       train: formatCount(results.holdout.train),
       test: formatCount(results.holdout.test),
@@ -81,7 +81,8 @@ export function reportView(recipe: Recipe, results: Results, manifest: Manifest)
       testGroups: results.holdout.testGroups,
       grouped: results.holdout.by === 'groups',
       k: results.folds.k,
-      foldsBy: results.folds.by === 'groups' ? `by groups (${recipe.groups})` : 'at random',
+      foldsBy: splitWords(results.folds.by, recipe, 'folds'),
+      timeFolds: results.folds.by === 'time',
       chooseBy: METRIC_LABELS[recipe.evaluation.choose_by],
     },
     gridMetricHeads: gridMetrics.map((k) => METRIC_LABELS[k]),
@@ -132,3 +133,14 @@ export function reportView(recipe: Recipe, results: Results, manifest: Manifest)
 }
 
 export type ReportView = ReturnType<typeof reportView>;
+
+function splitWords(by: string, recipe: Recipe, part: 'holdout' | 'folds'): string {
+  if (by === 'groups') return `by groups (${recipe.groups})`;
+  if (by === 'random') return 'at random';
+  if (part === 'holdout') {
+    const c = recipe.evaluation.holdout.cutoff;
+    return c === null ? `by time (${recipe.time}): the latest rows` : `by time (${recipe.time}): rows at or after ${c}`;
+  }
+  const gap = recipe.evaluation.folds.gap;
+  return `forward in time (${recipe.time}): each fold trains only on earlier rows${gap ? `, leaving a gap of ${gap}` : ''}`;
+}

@@ -43,8 +43,8 @@ export interface ModelResult {
 export interface Results {
   sources: SourceResult[];
   cleaning: { id: string; rowsIn: number; rowsOut: number; detail: string }[];
-  holdout: { by: string; fraction: number; train: number; test: number; trainGroups: number; testGroups: number };
-  folds: { k: number; by: string };
+  holdout: { by: string; fraction: number; train: number; test: number; trainGroups: number; testGroups: number; cutoff: number | null };
+  folds: { k: number; by: string; gap: number };
   models: ModelResult[];
   /** The model with the best cross-validated score; its holdout score is the headline. */
   chosenModel: string;
@@ -118,6 +118,7 @@ export function gatherResults(recipe: Recipe, plan: Plan, exec: Execution): Resu
     sources,
     cleaning,
     holdout: {
+      cutoff: split.cutoff,
       by: split.by,
       fraction: recipe.evaluation.holdout.fraction,
       train: split.train.length,
@@ -125,7 +126,7 @@ export function gatherResults(recipe: Recipe, plan: Plan, exec: Execution): Resu
       trainGroups: split.trainGroups,
       testGroups: split.testGroups,
     },
-    folds: { k: folds.k, by: folds.by },
+    folds: { k: folds.k, by: folds.by, gap: recipe.evaluation.folds.gap },
     models,
     chosenModel: best.name,
     warnings: warnings.list(),
@@ -135,11 +136,20 @@ export function gatherResults(recipe: Recipe, plan: Plan, exec: Execution): Resu
 
 function evaluationWarnings(recipe: Recipe, models: ModelResult[], best: ModelResult, score: ScoreOutput, log: WarningLog) {
   const ev = recipe.evaluation;
-  if (recipe.groups && (ev.folds.by === 'random' || ev.holdout.by === 'random')) {
-    log.add(
-      'random-split-with-groups',
-      `the recipe declares groups (${recipe.groups}) but ${ev.folds.by === 'random' ? 'the folds' : 'the holdout'} split rows at random; rows of one group on both sides make scores look better than they will be on new groups; split by groups`,
-    );
+  for (const part of ['holdout', 'folds'] as const) {
+    if (ev[part].by !== 'random') continue;
+    const what = part === 'holdout' ? 'the holdout is drawn' : 'the folds are drawn';
+    if (recipe.groups) {
+      log.add(
+        'random-split-with-groups',
+        `the recipe declares groups (${recipe.groups}) but ${what} at random; rows of one group on both sides of a split make scores look better than they will be on new groups; split by groups`,
+      );
+    } else if (recipe.time) {
+      log.add(
+        'random-split-with-time',
+        `the recipe declares a time column (${recipe.time}) but ${what} at random; neighbouring times on both sides of a split make scores look better than forecasts will be; split by time`,
+      );
+    }
   }
   for (const m of models) {
     const spec = recipe.models[m.name];

@@ -39,7 +39,7 @@ export interface ChooseOutput {
  */
 export const choose: StepDefinition<ChooseParams, ChooseOutput> = {
   kind: 'choose',
-  version: 1,
+  version: 2,
   codec: 'json',
   run(inputs, params) {
     const frame = (inputs[0] as FrameOutput).frame;
@@ -47,13 +47,14 @@ export const choose: StepDefinition<ChooseParams, ChooseOutput> = {
     const cvs = inputs.slice(2) as CrossValidateOutput[];
     const y = targetOf(frame, params.target, split.train);
     const cells: CellScore[] = cvs.map((cv) => {
-      const pred = Float64Array.from(cv.predictions);
+      // rows no fold tests (the first block of forward time folds) have no prediction
+      const tested = cv.predictions.flatMap((p, k) => (p === null ? [] : [k]));
       const perFold = { r2: [] as number[], rmse: [] as number[], mae: [] as number[], bias: [] as number[] };
       for (let f = 0; f < params.k; f++) {
-        const at = cv.fold.flatMap((g, k) => (g === f ? [k] : []));
+        const at = tested.filter((k) => cv.fold[k] === f);
         const m = metrics(
           at.map((k) => y[k]),
-          at.map((k) => pred[k]),
+          at.map((k) => cv.predictions[k] as number),
         );
         for (const name of ['r2', 'rmse', 'mae', 'bias'] as const) {
           const v = m[name].value;
@@ -62,7 +63,10 @@ export const choose: StepDefinition<ChooseParams, ChooseOutput> = {
       }
       return {
         cell: cv.cell,
-        pooled: metrics(y, pred),
+        pooled: metrics(
+          tested.map((k) => y[k]),
+          tested.map((k) => cv.predictions[k] as number),
+        ),
         perFold: {
           r2: spread(perFold.r2),
           rmse: spread(perFold.rmse),

@@ -1,29 +1,43 @@
+import { column } from '../runner/frame.js';
 import { DendrologError, messages } from '../runner/messages.js';
 import { shuffle } from '../runner/rng.js';
+import type { SplitBy } from '../runner/recipe-types.js';
 import type { FrameOutput, StepDefinition } from '../runner/step-types.js';
 import type { HoldoutOutput } from './holdout.js';
-import { rowsByGroup } from './split-util.js';
+import { DAY_MS, rowsByGroup, timesOf } from './split-util.js';
 
 export interface FoldsParams {
   k: number;
-  by: 'random' | 'groups';
+  by: SplitBy;
+  gap: number;
   groups: string | null;
-}
-
-/** For each training row (in the holdout's train order), the fold it is tested in. */
-export interface FoldsOutput {
-  k: number;
-  by: 'random' | 'groups';
-  fold: number[];
+  time: string | null;
 }
 
 /**
- * Assigns training rows to k folds for the inner cross-validation that chooses grid cells. By groups,
- * each group lands in exactly one fold (largest groups first, each to the currently smallest fold).
+ * For each training row (in the holdout's train order), the fold it is tested in; -1 for rows no
+ * fold tests (the earliest block of forward time folds).
+ */
+export interface FoldsOutput {
+  k: number;
+  by: SplitBy;
+  fold: number[];
+  /**
+   * Forward time folds only: fold f trains on rows whose time is below trainBefore[f] (its test
+   * block's first time minus the gap), so no fold ever trains on rows later than its test rows.
+   */
+  trainBefore?: number[];
+}
+
+/**
+ * Assigns training rows to k folds for the inner cross-validation that chooses grid cells. By
+ * groups, each group lands in exactly one fold (largest groups first, each to the currently
+ * smallest fold). By time, the rows are cut into k + 1 consecutive blocks and fold f tests block
+ * f + 1 with everything before it (less the gap) as training rows.
  */
 export const folds: StepDefinition<FoldsParams, FoldsOutput> = {
   kind: 'folds',
-  version: 1,
+  version: 2,
   codec: 'json',
   usesSeed: true,
   run(inputs, params, ctx) {
@@ -34,6 +48,26 @@ export const folds: StepDefinition<FoldsParams, FoldsOutput> = {
     const fold = new Array<number>(split.train.length).fill(0);
     if (split.train.length < params.k * 2) {
       throw new DendrologError(messages.tooFewRows(split.train.length, params.k * 2, `${params.k} folds`), 1);
+    }
+    if (params.by === 'time' && params.time) {
+      const t = timesOf(frame, params.time, split.train);
+      const distinct = [...new Set(split.train.map((r) => t[r]))].sort((a, b) => a - b);
+      if (distinct.length < params.k + 1) throw new DendrologError(messages.timeTooFewBlocks(distinct.length, params.k), 1);
+      // block boundaries on distinct times, so rows sharing a time never straddle a boundary
+      const sorted = split.train.map((r) => t[r]).sort((a, b) => a - b);
+      const starts: number[] = [];
+      for (let b = 1; b <= params.k; b++) {
+        let at = sorted[Math.floor((b * sorted.length) / (params.k + 1))];
+        if (starts.length && at <= starts[starts.length - 1]) at = distinct.find((d) => d > starts[starts.length - 1])!;
+        starts.push(at);
+      }
+      const unit = column(frame, params.time).type === 'date' ? DAY_MS : 1;
+      split.train.forEach((r, k) => {
+        let f = -1;
+        for (let b = 0; b < starts.length; b++) if (t[r] >= starts[b]) f = b;
+        fold[k] = f;
+      });
+      return { k: params.k, by: params.by, fold, trainBefore: starts.map((s) => s - params.gap * unit) };
     }
     if (params.by === 'groups' && params.groups) {
       const groups = shuffle([...rowsByGroup(frame, params.groups, split.train).values()], rand);
@@ -57,3 +91,22 @@ export const folds: StepDefinition<FoldsParams, FoldsOutput> = {
   },
   summary: (o) => `${o.k} folds by ${o.by}`,
 };
+
+/**
+ * Positions (into the holdout's train list) of the rows fold f trains on and tests on.
+ *
+ * Example: for random folds, `foldRows(out, 0, ...)` trains on every row not in fold 0.
+ */
+export function foldRows(
+  folds: FoldsOutput,
+  f: number,
+  timeOf: (position: number) => number,
+): { fit: number[]; test: number[] } {
+  const fit: number[] = [];
+  const test: number[] = [];
+  folds.fold.forEach((g, k) => {
+    if (g === f) test.push(k);
+    else if (folds.trainBefore ? timeOf(k) < folds.trainBefore[f] : g !== -1) fit.push(k);
+  });
+  return { fit, test };
+}

@@ -1,52 +1,67 @@
+import { column } from '../runner/frame.js';
 import { DendrologError, messages } from '../runner/messages.js';
 import { shuffle } from '../runner/rng.js';
+import type { SplitBy } from '../runner/recipe-types.js';
 import type { FrameOutput, StepDefinition } from '../runner/step-types.js';
-import { rowsByGroup } from './split-util.js';
+import { parseValue } from './readers/values.js';
+import { rowsByGroup, timesOf } from './split-util.js';
 
 export interface HoldoutParams {
-  by: 'random' | 'groups';
+  by: SplitBy;
   fraction: number;
+  cutoff: string | number | null;
   groups: string | null;
+  time: string | null;
 }
 
 /** Row indices (into the model table) of the training and holdout sets, each ascending. */
 export interface HoldoutOutput {
   train: number[];
   test: number[];
-  by: 'random' | 'groups';
+  by: SplitBy;
   testGroups: number;
   trainGroups: number;
+  /** With by: time, the first time in the holdout (ms for dates). */
+  cutoff: number | null;
 }
 
 /**
  * Sets aside the final test rows, scored once and never used for choosing. By groups, whole groups
  * go to one side (shuffled with a seeded generator, taken until the fraction of rows is reached).
+ * By time, the holdout is every row at or after the cutoff (given, or chosen so that the latest
+ * fraction of rows is held out; rows sharing a time stay together).
  */
 export const holdout: StepDefinition<HoldoutParams, HoldoutOutput> = {
   kind: 'holdout',
-  version: 1,
+  version: 2,
   codec: 'json',
   usesSeed: true,
   run(inputs, params, ctx) {
     const frame = (inputs[0] as FrameOutput).frame;
-    const rand = ctx.rng('holdout');
     const wanted = Math.round(params.fraction * frame.rows);
     const isTest = new Uint8Array(frame.rows);
-    let testGroups = 0;
-    let trainGroups = 0;
-    if (params.by === 'groups' && params.groups) {
+    let cutoff: number | null = null;
+    if (params.by === 'time' && params.time) {
+      const all = Array.from({ length: frame.rows }, (_, i) => i);
+      const t = timesOf(frame, params.time, all);
+      if (params.cutoff !== null) {
+        cutoff = column(frame, params.time).type === 'date' ? (parseValue(String(params.cutoff), 'date', new Set()) as number) : Number(params.cutoff);
+      } else {
+        const sorted = all.map((i) => t[i]).sort((a, b) => a - b);
+        cutoff = sorted[Math.max(0, frame.rows - Math.max(1, wanted))];
+      }
+      for (let i = 0; i < frame.rows; i++) if (t[i] >= cutoff) isTest[i] = 1;
+    } else if (params.by === 'groups' && params.groups) {
       const groups = [...rowsByGroup(frame, params.groups).values()];
-      shuffle(groups, rand);
+      shuffle(groups, ctx.rng('holdout'));
       let taken = 0;
       for (const rows of groups) {
-        if (taken < wanted) {
-          for (const r of rows) isTest[r] = 1;
-          taken += rows.length;
-          testGroups++;
-        } else trainGroups++;
+        if (taken >= wanted) break;
+        for (const r of rows) isTest[r] = 1;
+        taken += rows.length;
       }
     } else {
-      const order = shuffle(Array.from({ length: frame.rows }, (_, i) => i), rand);
+      const order = shuffle(Array.from({ length: frame.rows }, (_, i) => i), ctx.rng('holdout'));
       for (let k = 0; k < wanted; k++) isTest[order[k]] = 1;
     }
     const train: number[] = [];
@@ -54,7 +69,8 @@ export const holdout: StepDefinition<HoldoutParams, HoldoutOutput> = {
     for (let i = 0; i < frame.rows; i++) (isTest[i] ? test : train).push(i);
     if (test.length === 0) throw new DendrologError(messages.holdoutEmpty('holdout'), 2);
     if (train.length === 0) throw new DendrologError(messages.holdoutEmpty('training'), 2);
-    return { train, test, by: params.by, testGroups, trainGroups };
+    const groupCount = (rows: number[]) => (params.groups ? rowsByGroup(frame, params.groups, rows).size : 0);
+    return { train, test, by: params.by, testGroups: groupCount(test), trainGroups: groupCount(train), cutoff };
   },
   summary: (o) => `${o.train.length.toLocaleString('en')} training rows, ${o.test.length.toLocaleString('en')} holdout rows`,
 };

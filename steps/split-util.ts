@@ -1,4 +1,5 @@
 import { column, type Frame } from '../runner/frame.js';
+import { DendrologError, messages } from '../runner/messages.js';
 
 /** Row indices of each group, groups in order of first appearance. */
 export function rowsByGroup(frame: Frame, groups: string, rows?: ArrayLike<number>): Map<string, number[]> {
@@ -14,3 +15,15 @@ export function rowsByGroup(frame: Frame, groups: string, rows?: ArrayLike<numbe
   }
   return out;
 }
+
+/** The time column as numbers (dates in ms); stops if any of the given rows lacks a time. */
+export function timesOf(frame: Frame, time: string, rows: ArrayLike<number>): Float64Array {
+  const values = column(frame, time).values as Float64Array;
+  let missing = 0;
+  for (let k = 0; k < rows.length; k++) if (Number.isNaN(values[rows[k]])) missing++;
+  if (missing > 0) throw new DendrologError(messages.timeMissing(time, missing), 1);
+  return values;
+}
+
+/** One day in milliseconds: a gap for a date column is given in days. */
+export const DAY_MS = 86_400_000;

@@ -51,3 +51,25 @@ export function smallData(): string {
   }
   return lines.join('\n') + '\n';
 }
+
+import type { Frame } from '../runner/frame.js';
+import { generator, seedString } from '../runner/rng.js';
+import type { FrameOutput, StepContext } from '../runner/step-types.js';
+
+/** A step context for calling a step directly: seeded, one worker, warnings collected. */
+export function stepContext(warnings: string[] = [], seed = 1): StepContext {
+  return {
+    key: 'test-step',
+    rng: (purpose, index) => generator(seed, 'test-step', purpose, index),
+    seedFor: (purpose, index) => seedString(seed, 'test-step', purpose, index),
+    warn: (code, message) => warnings.push(`${code}: ${message}`),
+    workers: 1,
+    locator: {},
+    progress: () => {},
+  };
+}
+
+/** Wraps a frame as a step output. */
+export function asOutput(frame: Frame): FrameOutput {
+  return { frame, notes: { rowsIn: frame.rows, rowsOut: frame.rows, detail: '' } };
+}

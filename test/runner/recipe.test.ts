@@ -153,8 +153,8 @@ describe('reading and validating a recipe', () => {
     expect(recipe.sources.obs.missing).toEqual(DEFAULT_MISSING);
     expect(recipe.sources.obs.format).toBe('csv');
     expect(recipe.sources.obs.sha256).toBeNull();
-    expect(recipe.evaluation.holdout).toEqual({ by: 'groups', fraction: 0.2 });
-    expect(recipe.evaluation.folds).toEqual({ k: 3, by: 'groups' });
+    expect(recipe.evaluation.holdout).toEqual({ by: 'groups', fraction: 0.2, cutoff: null });
+    expect(recipe.evaluation.folds).toEqual({ k: 3, by: 'groups', gap: 0 });
     expect(recipe.evaluation.choose_by).toBe('rmse');
     expect(recipe.time).toBeNull();
     expect(recipe.report.folder).toBe('out');

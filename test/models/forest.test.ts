@@ -1,0 +1,122 @@
+/**
+ * Random forests: reproducibility across thread counts, out-of-bag estimates and importances.
+ */
+import { describe, expect, it } from 'vitest';
+import {
+  DEFAULT_MIN_LEAF,
+  DEFAULT_MTRY_FRACTION,
+  DEFAULT_TREES,
+  defaultMtry,
+  fitDecisionTree,
+  fitForest,
+  impurityImportance,
+  oob,
+  permutationImportance,
+  predictForest,
+  serializeForest,
+} from '../../models/forest.js';
+import { r2 } from '../../models/metrics.js';
+import { friedman1 } from '../bench/friedman.js';
+import { sameBits } from './forest-helpers.js';
+
+const train = friedman1(1500, 'forest-train');
+const heldOut = friedman1(1500, 'forest-test');
+const base = { trees: 40, maxDepth: null, minLeaf: 5, mtry: 3 };
+
+describe('defaults', () => {
+  it('are those of randomForest for regression: mtry = floor(p/3) (at least 1), leaves of 5, 500 trees', () => {
+    // Source: Liaw & Wiener (2002), R News 2(3), randomForest defaults for regression.
+    expect(defaultMtry(10)).toBe(3);
+    expect(defaultMtry(2)).toBe(1);
+    expect(DEFAULT_MTRY_FRACTION).toBeCloseTo(1 / 3);
+    expect(DEFAULT_MIN_LEAF).toBe(5);
+    expect(DEFAULT_TREES).toBe(500);
+  });
+});
+
+describe('reproducibility', () => {
+  it('gives bit-identical forests, predictions, OOB and importances with 1 and 2 worker threads', async () => {
+    const one = await fitForest(train.x, train.y, { ...base, seed: 'same', workers: 1 });
+    const two = await fitForest(train.x, train.y, { ...base, seed: 'same', workers: 2 });
+    expect(sameBits(serializeForest(one), serializeForest(two))).toBe(true);
+    expect(sameBits(predictForest(one, heldOut.x), predictForest(two, heldOut.x))).toBe(true);
+    expect(sameBits(oob(one).predictions, oob(two).predictions)).toBe(true);
+    expect(sameBits(impurityImportance(one), impurityImportance(two))).toBe(true);
+  });
+
+  it('gives different trees for another seed', async () => {
+    const a = await fitForest(train.x, train.y, { ...base, trees: 5, seed: 'a' });
+    const b = await fitForest(train.x, train.y, { ...base, trees: 5, seed: 'b' });
+    expect(sameBits(a.trees[0].threshold, b.trees[0].threshold)).toBe(false);
+    expect(sameBits(predictForest(a, heldOut.x), predictForest(b, heldOut.x))).toBe(false);
+  });
+
+  it('resolves a fractional mtry to floor(fraction × p), at least 1', async () => {
+    const f = await fitForest(train.x, train.y, { ...base, trees: 1, mtry: 0.33, seed: 's' });
+    expect(f.options.mtry).toBe(3);
+    const g = await fitForest(train.x, train.y, { ...base, trees: 1, mtry: 0.01, seed: 's' });
+    expect(g.options.mtry).toBe(1);
+  });
+});
+
+describe('out-of-bag estimates', () => {
+  it('exclude and count rows that were never out of bag instead of failing', async () => {
+    // Source: with a bootstrap of n draws a row is out of bag with probability (1 − 1/n)^n ≈ e^−1
+    // (Breiman 1996, "Out-of-bag estimation"), so one tree leaves about 63 % of rows without an estimate.
+    const f = await fitForest(train.x, train.y, { ...base, trees: 1, seed: 's' });
+    const o = oob(f);
+    expect(o.rowsExcluded / train.x.rows).toBeGreaterThan(0.58);
+    expect(o.rowsExcluded / train.x.rows).toBeLessThan(0.68);
+    let nan = 0;
+    for (const v of o.predictions) if (Number.isNaN(v)) nan++;
+    expect(nan).toBe(o.rowsExcluded);
+    expect(o.r2).not.toBeNull();
+
+    const tree = await fitDecisionTree(train.x, train.y, { maxDepth: 3, minLeaf: 5, seed: 's' });
+    const none = oob(tree);
+    expect(none.rowsExcluded).toBe(train.x.rows);
+    expect(none.r2).toBeNull();
+    expect(none.reason).toMatch(/no row was ever out of bag/);
+  });
+
+  it('give an R² close to the held-out R² on Friedman #1', async () => {
+    // Source: Breiman (2001), "Random Forests", sec. 3.1: the OOB estimate is about as accurate as a
+    // test set of the same size.
+    const f = await fitForest(train.x, train.y, { ...base, trees: 150, seed: 'oob' });
+    const o = oob(f);
+    const test = r2(heldOut.y, predictForest(f, heldOut.x)).value ?? NaN;
+    expect(o.rowsExcluded).toBe(0);
+    expect(o.r2).toBeGreaterThan(0.75);
+    expect(Math.abs((o.r2 ?? 0) - test)).toBeLessThan(0.04);
+  });
+});
+
+describe('importance', () => {
+  it('permutation importance ranks x1, x2 and x4 above the noise predictors x6..x10', async () => {
+    // Source: Friedman (1991): y depends on x1..x5 only; x4 (linear, coefficient 10) and x1, x2 (in
+    // sin(π x1 x2)) carry the most signal, x6..x10 none.
+    const f = await fitForest(train.x, train.y, { ...base, trees: 100, seed: 'imp' });
+    const { mean, sd } = permutationImportance(f, heldOut.x, heldOut.y, { repeats: 3, seed: 'perm' });
+    const noise = Math.max(...Array.from(mean.slice(5)));
+    for (const j of [0, 1, 3]) expect(mean[j]).toBeGreaterThan(noise);
+    expect(noise).toBeLessThan(0.3);
+    for (const v of sd) expect(v).toBeGreaterThanOrEqual(0);
+    const again = permutationImportance(f, heldOut.x, heldOut.y, { repeats: 3, seed: 'perm' });
+    expect(sameBits(again.mean, mean)).toBe(true);
+  });
+
+  it('permutation importance leaves the caller arrays untouched and has no sd for one repeat', async () => {
+    const f = await fitForest(train.x, train.y, { ...base, trees: 10, seed: 'imp' });
+    const before = heldOut.x.columns.map((c) => c.slice());
+    const { sd } = permutationImportance(f, heldOut.x, heldOut.y, { repeats: 1, seed: 'p' });
+    heldOut.x.columns.forEach((c, j) => expect(sameBits(c, before[j])).toBe(true));
+    expect(Number.isNaN(sd[0])).toBe(true);
+  });
+
+  it('impurity importance (training data) also puts the noise predictors last', async () => {
+    const f = await fitForest(train.x, train.y, { ...base, trees: 50, seed: 'imp' });
+    const imp = impurityImportance(f);
+    const noise = Math.max(...Array.from(imp.slice(5)));
+    for (const j of [0, 1, 3]) expect(imp[j]).toBeGreaterThan(noise);
+  });
+});

@@ -1,0 +1,112 @@
+import { describe, expect, it } from 'vitest';
+import type { Frame } from '../../runner/frame.js';
+import { DendrologError, messages } from '../../runner/messages.js';
+import { foldRows, folds, type FoldsOutput } from '../../steps/folds.js';
+import { holdout, type HoldoutOutput } from '../../steps/holdout.js';
+import { asOutput, stepContext } from '../helpers.js';
+
+/** 30 sites of unequal size (3 to 9 rows) with a daily date column and a numeric year. */
+function sitesFrame(): Frame {
+  const site: string[] = [];
+  const day: number[] = [];
+  for (let s = 0; s < 30; s++) {
+    for (let r = 0; r < 3 + (s % 7); r++) {
+      site.push(`site${s}`);
+      day.push(Date.UTC(2020, 0, 1) + ((s * 13 + r * 29) % 400) * 86_400_000);
+    }
+  }
+  return {
+    rows: site.length,
+    columns: [
+      { name: 'site', type: 'string', values: site },
+      { name: 'day', type: 'date', values: Float64Array.from(day) },
+    ],
+  };
+}
+
+const frame = sitesFrame();
+const siteOf = (r: number) => (frame.columns[0].values as string[])[r];
+const dayOf = (r: number) => (frame.columns[1].values as Float64Array)[r];
+
+function split(by: 'random' | 'groups' | 'time', cutoff: string | null = null): HoldoutOutput {
+  return holdout.run([asOutput(frame)], { by, fraction: 0.25, cutoff, groups: 'site', time: 'day' }, stepContext()) as HoldoutOutput;
+}
+
+function makeFolds(s: HoldoutOutput, by: 'random' | 'groups' | 'time', gap = 0): FoldsOutput {
+  return folds.run([asOutput(frame), s], { k: 4, by, gap, groups: 'site', time: 'day' }, stepContext()) as FoldsOutput;
+}
+
+describe('holdout', () => {
+  it('by groups never puts one group on both sides', () => {
+    const s = split('groups');
+    const trainSites = new Set(s.train.map(siteOf));
+    expect(s.test.some((r) => trainSites.has(siteOf(r)))).toBe(false);
+    expect(s.test.length + s.train.length).toBe(frame.rows);
+    expect(s.test.length).toBeGreaterThanOrEqual(Math.round(0.25 * frame.rows));
+  });
+
+  it('by time holds out only rows later than every training row', () => {
+    const s = split('time');
+    expect(Math.min(...s.test.map(dayOf))).toBeGreaterThan(Math.max(...s.train.map(dayOf)));
+  });
+
+  it('by time with a cutoff holds out exactly the rows at or after it', () => {
+    const s = split('time', '2020-09-01');
+    const cut = Date.UTC(2020, 8, 1);
+    expect(s.test.every((r) => dayOf(r) >= cut)).toBe(true);
+    expect(s.train.every((r) => dayOf(r) < cut)).toBe(true);
+  });
+
+  it('gives the same rows for the same seed', () => {
+    expect(split('random')).toEqual(split('random'));
+  });
+});
+
+describe('folds', () => {
+  it('by groups: no group is tested in one fold and trained on in the same fold', () => {
+    const s = split('groups');
+    const f = makeFolds(s, 'groups');
+    for (let k = 0; k < f.k; k++) {
+      const { fit, test } = foldRows(f, k, () => NaN);
+      const fitSites = new Set(fit.map((p) => siteOf(s.train[p])));
+      expect(test.length).toBeGreaterThan(0);
+      expect(test.some((p) => fitSites.has(siteOf(s.train[p])))).toBe(false);
+    }
+  });
+
+  it('at random: every training row is tested exactly once and folds differ by at most one row', () => {
+    const s = split('random');
+    const f = makeFolds(s, 'random');
+    const sizes = [0, 1, 2, 3].map((k) => f.fold.filter((g) => g === k).length);
+    expect(sizes.reduce((a, b) => a + b)).toBe(s.train.length);
+    expect(Math.max(...sizes) - Math.min(...sizes)).toBeLessThanOrEqual(1);
+  });
+
+  it('forward in time: no fold trains on a row later than its test rows, and the gap is kept', () => {
+    const s = split('time');
+    for (const gap of [0, 10]) {
+      const f = makeFolds(s, 'time', gap);
+      for (let k = 0; k < f.k; k++) {
+        const { fit, test } = foldRows(f, k, (p) => dayOf(s.train[p]));
+        expect(fit.length).toBeGreaterThan(0);
+        expect(test.length).toBeGreaterThan(0);
+        const lastFit = Math.max(...fit.map((p) => dayOf(s.train[p])));
+        const firstTest = Math.min(...test.map((p) => dayOf(s.train[p])));
+        expect(lastFit).toBeLessThan(firstTest - gap * 86_400_000);
+      }
+      // the earliest block is never tested
+      expect(f.fold.filter((g) => g === -1).length).toBeGreaterThan(0);
+    }
+  });
+
+  it('by groups refuses fewer groups than folds', () => {
+    const few: Frame = {
+      rows: 12,
+      columns: [{ name: 'site', type: 'string', values: Array.from({ length: 12 }, (_, i) => `s${i % 3}`) }],
+    };
+    const s: HoldoutOutput = { train: [...Array(12).keys()], test: [], by: 'random', testGroups: 0, trainGroups: 3, cutoff: null };
+    expect(() => folds.run([asOutput(few), s], { k: 4, by: 'groups', gap: 0, groups: 'site', time: null }, stepContext())).toThrow(
+      new DendrologError(messages.tooFewRows(3, 4, 'grouped folds (counting groups, not rows)'), 1),
+    );
+  });
+});
