@@ -276,7 +276,7 @@ class TreeCombiner {
     }
     const m = r2(obs, pred);
     const out: OobResult = { predictions, r2: m.value, rowsExcluded: n - used };
-    if (m.reason !== undefined) out.reason = used === 0 ? 'no row was ever out of bag' : m.reason;
+    if (m.reason !== undefined) out.reason = used === 0 ? 'every row was in the sample of every tree (no bootstrap, or too few trees), so no row was ever out of bag' : m.reason;
     return out;
   }
 
