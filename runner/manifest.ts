@@ -21,6 +21,10 @@ export interface Manifest {
     cells: { cell: Record<string, unknown>; crossValidated: unknown; perFold: unknown }[];
     metrics: { holdout: unknown; holdoutInterval90: unknown; crossValidated: unknown; training: unknown; outOfBag: { r2: number | null } };
     skill: Record<string, number | null>;
+    /** What the learned feature steps took from the rows each fit saw. */
+    learned: { final: unknown; folds: unknown[] };
+    importance: unknown;
+    partialDependence: unknown;
   }[];
   headline: { model: string; metric: string; value: number | null; label: 'holdout' };
   holdoutPredictionsSha256: string;
@@ -63,6 +67,9 @@ export function buildManifest(
         outOfBag: { r2: m.oobR2 },
       },
       skill: m.skill,
+      learned: m.learned,
+      importance: m.explain ? { measuredOn: 'holdout', repeats: m.explain.repeats, values: m.explain.importance } : null,
+      partialDependence: m.explain ? { measuredOn: 'training', rows: m.explain.pdRows, curves: m.explain.partialDependence } : null,
     })),
     headline: {
       model: results.chosenModel,

@@ -10,6 +10,8 @@ import type { StepInstance } from './step-types.js';
 
 /** Bootstrap resamples behind each holdout interval. */
 export const BOOTSTRAP_RESAMPLES = 1000;
+/** Permutation repeats, partial dependence curves, their points and the training rows they average. */
+export const EXPLAIN = { repeats: 10, top: 3, points: 20, sampleRows: 500 };
 
 /** The planned steps in execution order, plus the ids the report needs to find outputs. */
 export interface Plan {
@@ -20,7 +22,7 @@ export interface Plan {
   modelTable: string;
   holdout: string;
   folds: string;
-  models: Record<string, { cells: string[]; choose: string; fit: string; score: string }>;
+  models: Record<string, { cells: string[]; choose: string; fit: string; score: string; explain: string | null }>;
 }
 
 /**
@@ -109,7 +111,11 @@ export function planRecipe(recipe: Recipe, origin: RecipeOrigin): Plan {
       { target: recipe.target, groups: recipe.groups, resamples: BOOTSTRAP_RESAMPLES, byGroups: ev.holdout.by === 'groups' },
       [modelTable, holdout, fit],
     );
-    models[name] = { cells, choose, fit, score };
+    const explain =
+      m.kind === 'mean'
+        ? null
+        : add(`explain ${name}`, 'explain', { target: recipe.target, ...EXPLAIN }, [modelTable, holdout, fit]);
+    models[name] = { cells, choose, fit, score, explain };
   }
   return { steps, sources, dataSteps, modelTable, holdout, folds, models };
 }

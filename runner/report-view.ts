@@ -114,6 +114,8 @@ export function reportView(recipe: Recipe, results: Results, manifest: Manifest)
         metricRow('training', 'in-sample: not skill', m.training),
       ],
       oob: m.oobR2 === null ? null : formatNumber(m.oobR2),
+      importance: (m.explain?.importance ?? []).map((i) => ({ predictor: i.predictor, mean: formatNumber(i.mean), sd: formatNumber(i.sd) })),
+      repeats: m.explain?.repeats ?? 0,
       };
     }),
     warnings: results.warnings.map((w) => ({ ...w, repeated: w.count > 1 })),

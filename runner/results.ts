@@ -1,5 +1,6 @@
 import type { MetricSet } from '../models/metrics.js';
 import type { ChooseOutput } from '../steps/choose.js';
+import type { CrossValidateOutput } from '../steps/cross-validate.js';
 import type { FitOutput } from '../steps/fit.js';
 import type { FoldsOutput } from '../steps/folds.js';
 import type { HoldoutOutput } from '../steps/holdout.js';
@@ -7,6 +8,7 @@ import { cellLabel } from '../steps/model-kinds.js';
 import type { ColumnProfile } from '../steps/profile.js';
 import { better } from '../steps/choose.js';
 import type { ScoreOutput } from '../steps/score.js';
+import type { ExplainOutput } from '../steps/explain.js';
 import type { Execution } from './execute.js';
 import type { Plan } from './plan.js';
 import type { Recipe } from './recipe-types.js';
@@ -37,6 +39,9 @@ export interface ModelResult {
   crossValidated: MetricSet;
   /** 1 − MSE(model) / MSE(baseline) on the holdout, per baseline model present. */
   skill: Record<string, number | null>;
+  /** Permutation importance (holdout rows) and partial dependence (training rows); none for mean. */
+  explain: ExplainOutput | null;
+  learned: { final: FitOutput['design']; folds: FitOutput['design'][] };
 }
 
 /** Everything the report and manifest say about a run, gathered from step outputs. */
@@ -106,6 +111,8 @@ export function gatherResults(recipe: Recipe, plan: Plan, exec: Execution): Resu
       training: score.training,
       crossValidated: chosen.cells[chosen.chosen].pooled,
       skill,
+      explain: ids.explain ? (out(ids.explain) as ExplainOutput) : null,
+      learned: { final: fitted.design, folds: (out(ids.cells[chosen.chosen]) as CrossValidateOutput).learned },
     };
   });
   let best = models[0];

@@ -51,6 +51,10 @@ export async function runRecipe(recipePath: string, opts: RunOptions): Promise<R
   const { recipe, origin } = loadRecipe(recipePath, { checkFiles: true });
   // 4: plan
   const plan = planRecipe(recipe, origin);
+  const cells = Object.values(plan.models).reduce((n, m) => n + m.cells.length, 0);
+  opts.progress.note(
+    `${recipe.name}: ${plan.steps.length} steps; ${cells} grid cells × ${recipe.evaluation.folds.k} folds = ${cells * recipe.evaluation.folds.k} cross-validation fits, then ${Object.keys(plan.models).length} final fits`,
+  );
   // 5: execute
   const cache = opts.noCache ? null : new Cache(resolve(opts.cache ?? DEFAULT_CACHE));
   const executor = localExecutor({ cache, seed: recipe.seed, workers: opts.workers ?? 1, progress: opts.progress });

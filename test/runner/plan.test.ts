@@ -40,7 +40,7 @@ describe('step keys', () => {
   it('change only the model that was edited, not the other models', () => {
     const before = keys(WITH_CLEANING.replace('mean: {kind: mean}', 'tree: {kind: decision_tree, grid: {max_depth: 2}}'));
     const after = keys(WITH_CLEANING.replace('mean: {kind: mean}', 'tree: {kind: decision_tree, grid: {max_depth: 3}}'));
-    expect(changed(before, after).sort()).toEqual(['choose tree', 'cv tree one setting', 'fit tree', 'score tree']);
+    expect(changed(before, after).sort()).toEqual(['choose tree', 'cv tree one setting', 'explain tree', 'fit tree', 'score tree']);
     expect(after.get('cv linear no hyperparameters')).toBe(before.get('cv linear no hyperparameters'));
   });
 

@@ -1,6 +1,7 @@
 import { existsSync, readFileSync, readdirSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
-import { describe, expect, it } from 'vitest';
+import { describe, expect, it, vi } from 'vitest';
+import { modelKinds } from '../../steps/model-kinds.js';
 import { DendrologError, messages } from '../../runner/messages.js';
 import { silentProgress } from '../../runner/progress.js';
 import { displayOf } from '../../runner/recipe.js';
@@ -44,7 +45,9 @@ describe('running a recipe', () => {
     const { dir, result: first } = await run({ 'data/obs.csv': smallData() });
     const lines: string[] = [];
     const second = await runRecipe(join(dir, 'recipe.yaml'), { cache: join(dir, '.cache'), workers: 1, progress: silentProgress(lines) });
-    expect(lines.every((l) => l.startsWith('cached'))).toBe(true);
+    const stepLines = lines.filter((l) => /^(ran|cached) /.test(l));
+    expect(stepLines.length).toBe(first.manifest.steps.length);
+    expect(stepLines.every((l) => l.startsWith('cached'))).toBe(true);
     expect(second.manifest.timing.steps.every((s) => s.status === 'cached')).toBe(true);
     expect(withoutTiming(second.manifest)).toEqual(withoutTiming(first.manifest));
   });
@@ -115,5 +118,25 @@ describe('running a recipe', () => {
     expect(readFileSync(join(result.outDir, 'report.html'), 'utf8')).toBe(before);
     expect(readdirSync(join(dir, 'out')).filter((f) => f.startsWith('.'))).toEqual([]);
     expect(existsSync(join(result.outDir, 'manifest.json'))).toBe(true);
+  });
+});
+
+describe('growing a grid', () => {
+  it('fits only the new cell: its folds, then the chosen cell once more on all training rows', async () => {
+    const one = SMALL_RECIPE.replace('mean: {kind: mean}', 'tree: {kind: decision_tree, grid: {max_depth: [2]}}');
+    const two = one.replace('max_depth: [2]', 'max_depth: [2, 3]');
+    const dir = makeFolder({ 'recipe.yaml': one, 'data/obs.csv': smallData() });
+    const cache = join(dir, '.cache');
+    await runRecipe(join(dir, 'recipe.yaml'), { cache, workers: 1, progress: silentProgress() });
+    writeFileSync(join(dir, 'recipe.yaml'), two);
+    const fits = vi.spyOn(modelKinds.decision_tree, 'fit');
+    const linearFits = vi.spyOn(modelKinds.linear, 'fit');
+    const lines: string[] = [];
+    await runRecipe(join(dir, 'recipe.yaml'), { cache, workers: 1, progress: silentProgress(lines) });
+    // 3 folds of the new cell + 1 final fit of the chosen cell; the linear model is untouched
+    expect(fits).toHaveBeenCalledTimes(3 + 1);
+    expect(linearFits).not.toHaveBeenCalled();
+    expect(lines.filter((l) => l.startsWith('ran') && l.includes(' cv '))).toEqual([expect.stringContaining('cv tree max_depth=3')]);
+    vi.restoreAllMocks();
   });
 });

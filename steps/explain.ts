@@ -1,0 +1,129 @@
+import { column, takeRows, type Column, type Frame } from '../runner/frame.js';
+import { shuffle } from '../runner/rng.js';
+import type { FrameOutput, StepDefinition } from '../runner/step-types.js';
+import { applyDesign, targetOf } from './design.js';
+import type { FitOutput } from './fit.js';
+import type { HoldoutOutput } from './holdout.js';
+import { modelKinds } from './model-kinds.js';
+
+export interface ExplainParams {
+  target: string;
+  repeats: number;
+  /** How many of the most important predictors get a partial dependence curve. */
+  top: number;
+  /** Points along each curve. */
+  points: number;
+  /** Training rows the curves average over (a seeded sample when there are more). */
+  sampleRows: number;
+}
+
+export interface Importance {
+  predictor: string;
+  /** Mean increase in holdout MSE when the predictor's values are shuffled among holdout rows. */
+  mean: number;
+  sd: number;
+}
+
+export interface PartialDependence {
+  predictor: string;
+  kind: 'number' | 'category';
+  points: { x: number | string; y: number }[];
+}
+
+export interface ExplainOutput {
+  model: string;
+  repeats: number;
+  baselineMse: number;
+  importance: Importance[];
+  partialDependence: PartialDependence[];
+  pdRows: number;
+}
+
+/**
+ * Permutation importance on the holdout rows (each predictor shuffled `repeats` times; mean and
+ * sd of the MSE increase), then partial dependence of the most important predictors, averaged
+ * over training rows. Predictors are permuted as recorded, before one-hot expansion, so a
+ * category counts as one predictor.
+ */
+export const explain: StepDefinition<ExplainParams, ExplainOutput> = {
+  kind: 'explain',
+  version: 1,
+  codec: 'json',
+  usesSeed: true,
+  async run(inputs, params, ctx) {
+    const full = (inputs[0] as FrameOutput).frame;
+    const split = inputs[1] as HoldoutOutput;
+    const fitted = inputs[2] as FitOutput;
+    const adapter = modelKinds[fitted.kind];
+    const bytes = new Uint8Array(Buffer.from(fitted.bytes, 'base64'));
+    const test = takeRows(full, split.test);
+    const all = [...Array(test.rows).keys()];
+    const y = targetOf(test, params.target, all);
+    const mse = (p: Float64Array) => {
+      let s = 0;
+      for (let i = 0; i < p.length; i++) s += (p[i] - y[i]) ** 2;
+      return s / p.length;
+    };
+    const baselineMse = mse(await adapter.predict(bytes, applyDesign(fitted.design, test, all)));
+    const importance: Importance[] = [];
+    for (const [j, predictor] of fitted.design.predictors.entries()) {
+      const rand = ctx.rng('permutation', j);
+      const rises: number[] = [];
+      for (let r = 0; r < params.repeats; r++) {
+        const order = shuffle([...all], rand);
+        const permuted = withColumn(test, predictor, (c) => takeRows({ rows: test.rows, columns: [c] }, order).columns[0]);
+        rises.push(mse(await adapter.predict(bytes, applyDesign(fitted.design, permuted, all))) - baselineMse);
+      }
+      const m = rises.reduce((a, b) => a + b, 0) / rises.length;
+      const sd = rises.length > 1 ? Math.sqrt(rises.reduce((s, v) => s + (v - m) ** 2, 0) / (rises.length - 1)) : 0;
+      importance.push({ predictor, mean: m, sd });
+    }
+    importance.sort((a, b) => b.mean - a.mean || (a.predictor < b.predictor ? -1 : 1));
+
+    const sampleAt = shuffle([...split.train], ctx.rng('pd-sample')).slice(0, params.sampleRows).sort((a, b) => a - b);
+    const sample = takeRows(full, sampleAt);
+    const rows = [...Array(sample.rows).keys()];
+    const partialDependence: PartialDependence[] = [];
+    for (const { predictor } of importance.slice(0, params.top)) {
+      const c = column(full, predictor);
+      const numeric = c.values instanceof Float64Array;
+      const xs = numeric ? quantilePoints(split.train.map((r) => (c.values as Float64Array)[r]), params.points) : categoriesOf(c, split.train);
+      const points: PartialDependence['points'] = [];
+      for (const x of xs) {
+        const fixed = withColumn(sample, predictor, (col) => ({
+          ...col,
+          values: numeric ? new Float64Array(sample.rows).fill(x as number) : new Array<string | null>(sample.rows).fill(x as string),
+        }));
+        const p = await adapter.predict(bytes, applyDesign(fitted.design, fixed, rows));
+        points.push({ x, y: p.reduce((a, b) => a + b, 0) / p.length });
+      }
+      partialDependence.push({ predictor, kind: numeric ? 'number' : 'category', points });
+    }
+    return { model: fitted.model, repeats: params.repeats, baselineMse, importance, partialDependence, pdRows: sample.rows };
+  },
+  summary: (o) => `top predictor ${o.importance[0]?.predictor ?? 'none'}`,
+};
+
+function withColumn(frame: Frame, name: string, change: (c: Column) => Column): Frame {
+  return { rows: frame.rows, columns: frame.columns.map((c) => (c.name === name ? change(c) : c)) };
+}
+
+/** Evenly spaced quantiles (5th to 95th percentile) of the present values, without repeats. */
+function quantilePoints(values: number[], n: number): number[] {
+  const s = values.filter((v) => !Number.isNaN(v)).sort((a, b) => a - b);
+  if (s.length === 0) return [];
+  const out: number[] = [];
+  for (let i = 0; i < n; i++) {
+    const h = (s.length - 1) * (0.05 + (0.9 * i) / Math.max(1, n - 1));
+    const lo = Math.floor(h);
+    const v = s[lo] + (h - lo) * ((s[Math.min(lo + 1, s.length - 1)] ?? s[lo]) - s[lo]);
+    if (out.length === 0 || v !== out[out.length - 1]) out.push(v);
+  }
+  return out;
+}
+
+function categoriesOf(c: Column, rows: number[]): string[] {
+  const seen = new Set<string>();
+  for (const r of rows) if (c.values[r] !== null) seen.add(String(c.values[r]));
+  return [...seen].sort();
+}
