@@ -11,9 +11,11 @@
  *   Histograms cover every feature, not just the mtry sampled ones, because the children sample their
  *   own features afresh (Breiman samples at every split) and subtraction needs the parent's histogram
  *   of whatever the child samples.
- * - Small nodes scan their rows per sampled feature into a sparse histogram: a 256-bit occupancy mask
- *   marks the bins seen, and the bins are visited in order by walking the set bits, so a node of ten
- *   rows never clears or scans 256 bins.
+ * - Small nodes scan their rows instead: a node's mtry features are drawn when its parent splits, and
+ *   the parent's partition pass fills the child's per-feature histograms for just those features,
+ *   marking the bins it touches in a 256-bit occupancy mask. The split search visits the touched bins
+ *   in order by walking the set bits and zeroes them as it goes, so a node of ten rows never clears or
+ *   scans 256 bins, and one pass over a row's (cache-line-sized) codes serves all mtry features.
  *
  * Rows are kept as an index array partitioned stably in place, so every node's rows are ascending and
  * reads of the row-major bin codes move forward through memory.
@@ -21,8 +23,8 @@
  * Example: `new TreeBuilder(data, params).grow(0)` grows tree 0 of the forest.
  */
 import { midpoint } from './binning.js';
-import { rngFor } from './rng.js';
-import { predictRow, type Tree } from './tree.js';
+import { rngFor, type Sfc32 } from './rng.js';
+import type { Tree } from './tree.js';
 
 /** The training data as the builder sees it (plain or SharedArrayBuffer-backed arrays). */
 export interface GrowData {
@@ -56,6 +58,8 @@ export interface GrowParams {
   seed: string;
   /** Nodes with at least this much in-bag weight use histograms; smaller ones scan rows. */
   denseMinWeight?: number;
+  /** Smallest node weight that may be split (besides 2 × minLeaf); ranger's rule is min.node.size + 1. */
+  minSplit?: number;
 }
 
 /** One grown tree with what the forest combines across trees. */
@@ -85,33 +89,43 @@ export class TreeBuilder {
   private readonly d: GrowData;
   private readonly prm: GrowParams;
   private readonly maxDepth: number;
+  private readonly minSplit: number;
   private readonly denseMin: number;
   private readonly totalBins: number;
+  private readonly mtry: number;
   private readonly counts: Int32Array;
   /** Rows of the current nodes in [0, rows); [rows, 2 rows) is scratch for stable partitioning. */
   private readonly idx: Int32Array;
   private readonly w: Float64Array;
   private readonly wy: Float64Array;
   private readonly perm: Int32Array;
-  private readonly hs = new Float64Array(256);
-  private readonly hw = new Float64Array(256);
-  private readonly mask = new Int32Array(8);
+  /** Dense all-feature histograms (interleaved weighted-target sum, weight), pooled. */
   private bufs: Float64Array[] = [];
   private freeBufs: number[] = [];
-  // Pending-node stack.
+  // Pending-node stack, one slot per pending node.
   private sStart = new Int32Array(64);
   private sEnd = new Int32Array(64);
   private sDepth = new Int32Array(64);
   private sParent = new Int32Array(64);
   private sBuf = new Int32Array(64);
+  private sSplit = new Uint8Array(64);
   private sW = new Float64Array(64);
   private sS = new Float64Array(64);
+  /** The mtry features drawn for the node in each slot. */
+  private sFeat: Int32Array;
+  /** Per slot: histograms of the slot's mtry features (k × 512 + 2 × bin), zero whenever idle. */
+  private slotHist: Float64Array[] = [];
+  /** Per slot: occupancy masks, 8 words per feature. */
+  private slotMask: Int32Array[] = [];
   // Node arrays of the tree being grown.
   private nFeature: Int32Array;
   private nThreshold: Float64Array;
   private nLeft: Int32Array;
   private nRight: Int32Array;
   private nValue: Float64Array;
+  /** Per internal node: the last occupied bin on the left and the first on the right (for OOB routing). */
+  private nLo: Uint8Array;
+  private nHi: Uint8Array;
   // Best split found by the last search.
   private bestG = 0;
   private bestF = -1;
@@ -124,7 +138,9 @@ export class TreeBuilder {
     this.d = data;
     this.prm = params;
     this.maxDepth = params.maxDepth === null ? UNLIMITED_DEPTH : params.maxDepth;
+    this.minSplit = Math.max(2 * params.minLeaf, params.minSplit ?? 0);
     this.totalBins = data.offsets[data.features];
+    this.mtry = params.mtry;
     this.denseMin = params.denseMinWeight ?? defaultDenseMinWeight(this.totalBins, params.mtry);
     const n = data.rows;
     this.counts = new Int32Array(n);
@@ -132,13 +148,15 @@ export class TreeBuilder {
     this.w = new Float64Array(n);
     this.wy = new Float64Array(n);
     this.perm = new Int32Array(data.features);
-    for (let f = 0; f < data.features; f++) this.perm[f] = f;
+    this.sFeat = new Int32Array(64 * this.mtry);
     const cap = Math.max(16, Math.min(2 * Math.ceil(params.sampleSize / Math.max(1, params.minLeaf)) + 1, 1 << 20));
     this.nFeature = new Int32Array(cap);
     this.nThreshold = new Float64Array(cap);
     this.nLeft = new Int32Array(cap);
     this.nRight = new Int32Array(cap);
     this.nValue = new Float64Array(cap);
+    this.nLo = new Uint8Array(cap);
+    this.nHi = new Uint8Array(cap);
   }
 
   /** Grow tree number `treeIndex`; its randomness comes only from (seed, treeIndex). */
@@ -153,10 +171,8 @@ export class TreeBuilder {
     const idx = this.idx;
     const w = this.w;
     const wy = this.wy;
-    const minLeaf = this.prm.minLeaf;
-    const mtry = this.prm.mtry;
-    const sampleFeatures = mtry < p;
-    const perm = this.perm;
+    const mtry = this.mtry;
+    const denseMin = this.denseMin;
     const rng = rngFor(this.prm.seed, 'tree', treeIndex);
 
     // 1. In-bag sample, as draw counts per row.
@@ -192,29 +208,36 @@ export class TreeBuilder {
     }
     // Feature sampling restarts from column order in every tree, so a tree does not depend on the
     // trees this builder grew before it.
-    for (let f = 0; f < p; f++) perm[f] = f;
+    for (let f = 0; f < p; f++) this.perm[f] = f;
 
-    // 2. Grow depth-first; preorder numbering (left child = parent + 1) falls out of popping left first.
+    // 2. The root, with its features drawn and its histograms filled.
     const importance = new Float64Array(p);
+    this.ensureSlots(2);
+    const rootSplits = this.splittable(0, rootW);
     let rootBuf = -1;
-    if (rootW >= this.denseMin) {
-      rootBuf = this.acquire();
-      const h = this.bufs[rootBuf];
-      h.fill(0);
-      for (let i = 0; i < m; i++) this.accumulate(h, idx[i]);
+    if (rootSplits) {
+      this.drawFeatures(0, rng);
+      if (rootW >= denseMin) {
+        rootBuf = this.acquire();
+        this.bufs[rootBuf].fill(0);
+        this.accumulateDense(this.bufs[rootBuf], 0, m);
+      } else this.accumulateSlot(0, 0, m);
     }
-    let top = 0;
-    this.push(top++, 0, m, 0, -1, rootW, rootS, rootBuf);
+    this.setSlot(0, 0, m, 0, -1, rootW, rootS, rootBuf, rootSplits);
+
+    // 3. Depth-first growth; popping the left child first numbers nodes in preorder (left = parent + 1).
+    let top = 1;
     let nodes = 0;
     while (top > 0) {
       top--;
-      const start = this.sStart[top];
-      const end = this.sEnd[top];
-      const depth = this.sDepth[top];
-      const parent = this.sParent[top];
-      const W = this.sW[top];
-      const S = this.sS[top];
-      const buf = this.sBuf[top];
+      const slot = top;
+      const start = this.sStart[slot];
+      const end = this.sEnd[slot];
+      const depth = this.sDepth[slot];
+      const parent = this.sParent[slot];
+      const W = this.sW[slot];
+      const S = this.sS[slot];
+      const buf = this.sBuf[slot];
       const id = nodes++;
       if (id >= this.nFeature.length) this.growNodes();
       if (parent >= 0) {
@@ -224,18 +247,11 @@ export class TreeBuilder {
 
       this.bestF = -1;
       this.bestG = -Infinity;
-      if (depth < this.maxDepth && W >= 2 * minLeaf && end - start >= 2) {
-        for (let k = 0; k < mtry; k++) {
-          let f = k;
-          if (sampleFeatures) {
-            const j = k + rng.int(p - k);
-            f = perm[j];
-            perm[j] = perm[k];
-            perm[k] = f;
-          }
-          if (buf >= 0) this.searchDense(this.bufs[buf], f, W, S);
-          else this.searchSparse(start, end, f, W, S);
-        }
+      if (this.sSplit[slot] === 1) {
+        if (buf >= 0) {
+          const h = this.bufs[buf];
+          for (let k = 0; k < mtry; k++) this.searchDense(h, this.sFeat[slot * mtry + k], W, S);
+        } else this.searchSlot(slot, W, S);
       }
       const parentProxy = (S * S) / W;
       const gain = this.bestG - parentProxy;
@@ -245,80 +261,79 @@ export class TreeBuilder {
         continue;
       }
 
-      // 3. Record the split.
+      // Record the split.
       const f = this.bestF;
       const lo = this.bestLo;
       const off = offsets[f];
       this.nFeature[id] = f;
       this.nThreshold[id] = midpoint(d.binMax[off + lo], d.binMin[off + this.bestHi]);
       this.nValue[id] = NaN;
+      this.nLo[id] = lo;
+      this.nHi[id] = this.bestHi;
       importance[f] += gain;
       const WL = this.bestWL;
       const SL = this.bestSL;
       const WR = W - WL;
       const SR = S - SL;
 
-      // 4. Stable partition; the smaller child's histogram is built on the way if the larger one needs one.
-      const leftSmall = WL <= WR;
-      const needHist = buf >= 0 && (leftSmall ? WR : WL) >= this.denseMin;
-      let small = -1;
+      // Stable partition without branches: every row is written to both sides, and the side it
+      // belongs to advances.
       let l = start;
       let rr = n;
-      if (!needHist) {
-        for (let i = start; i < end; i++) {
-          const r = idx[i];
-          if (codes[r * p + f] <= lo) idx[l++] = r;
-          else idx[rr++] = r;
-        }
-      } else {
-        small = this.acquire();
+      for (let i = start; i < end; i++) {
+        const r = idx[i];
+        const g = codes[r * p + f] <= lo ? 1 : 0;
+        idx[l] = r;
+        idx[rr] = r;
+        l += g;
+        rr += 1 - g;
+      }
+      idx.copyWithin(l, n, rr);
+
+      // Children: right goes to this slot, left to the next (popped first).
+      this.ensureSlots(top + 2);
+      const rightSlot = top;
+      const leftSlot = top + 1;
+      const splitsL = this.splittable(depth + 1, WL);
+      const splitsR = this.splittable(depth + 1, WR);
+      const leftSmall = WL <= WR;
+      let leftBuf = -1;
+      let rightBuf = -1;
+      if (buf >= 0 && (leftSmall ? WR >= denseMin && splitsR : WL >= denseMin && splitsL)) {
+        // The larger child keeps a dense histogram: parent minus smaller child, in place.
+        const small = this.acquire();
         const h2 = this.bufs[small];
         h2.fill(0);
-        if (leftSmall) {
-          for (let i = start; i < end; i++) {
-            const r = idx[i];
-            if (codes[r * p + f] <= lo) {
-              idx[l++] = r;
-              this.accumulate(h2, r);
-            } else idx[rr++] = r;
-          }
-        } else {
-          for (let i = start; i < end; i++) {
-            const r = idx[i];
-            if (codes[r * p + f] <= lo) idx[l++] = r;
-            else {
-              idx[rr++] = r;
-              this.accumulate(h2, r);
-            }
-          }
-        }
+        if (leftSmall) this.accumulateDense(h2, start, l);
+        else this.accumulateDense(h2, l, end);
         const h = this.bufs[buf];
         const len = 2 * this.totalBins;
         for (let k = 0; k < len; k++) h[k] -= h2[k];
-      }
-      idx.copyWithin(l, n, rr);
-      let leftBuf = -1;
-      let rightBuf = -1;
-      if (needHist) {
-        const smallKeeps = (leftSmall ? WL : WR) >= this.denseMin;
-        if (!smallKeeps) {
-          this.release(small);
-          small = -1;
-        }
+        const smallDense = leftSmall ? WL >= denseMin && splitsL : WR >= denseMin && splitsR;
         if (leftSmall) {
-          leftBuf = small;
           rightBuf = buf;
+          if (smallDense) leftBuf = small;
+          else this.release(small);
         } else {
           leftBuf = buf;
-          rightBuf = small;
+          if (smallDense) rightBuf = small;
+          else this.release(small);
         }
       } else if (buf >= 0) this.release(buf);
-
-      this.push(top++, l, end, depth + 1, id * 2 + 1, WR, SR, rightBuf);
-      this.push(top++, start, l, depth + 1, id * 2, WL, SL, leftBuf);
+      if (splitsL) {
+        this.drawFeatures(leftSlot, rng);
+        if (leftBuf < 0) this.accumulateSlot(leftSlot, start, l);
+      }
+      if (splitsR) {
+        this.drawFeatures(rightSlot, rng);
+        if (rightBuf < 0) this.accumulateSlot(rightSlot, l, end);
+      }
+      this.setSlot(rightSlot, l, end, depth + 1, id * 2 + 1, WR, SR, rightBuf, splitsR);
+      this.setSlot(leftSlot, start, l, depth + 1, id * 2, WL, SL, leftBuf, splitsL);
+      top += 2;
     }
 
-    // 5. Finish: exact-size tree, importance per in-bag weight, out-of-bag predictions.
+    // 4. Finish: exact-size tree, importance per in-bag weight, out-of-bag predictions.
     const tree: Tree = {
       feature: this.nFeature.slice(0, nodes),
       threshold: this.nThreshold.slice(0, nodes),
@@ -335,25 +350,105 @@ export class TreeBuilder {
     for (let r = 0; r < n; r++) {
       if (counts[r] === 0) {
         oobRows[k] = r;
-        oobValues[k] = predictRow(tree, d.raw, r);
+        oobValues[k] = this.routeOob(r);
         k++;
       }
     }
     return { tree, importance, oobRows, oobValues };
   }
 
-  /** Adds row r's in-bag weight and weighted target to every feature's histogram h. */
-  private accumulate(h: Float64Array, r: number): void {
+  /**
+   * Leaf value for training row r, the same leaf predictRow reaches with raw values: a bin code at or
+   * below the node's last left bin goes left, at or above its first right bin goes right; only a row
+   * in a bin between the two (absent from the node's in-bag rows) needs its raw value compared.
+   * Codes are row-major, so a row's walk touches one cache line instead of one per feature column.
+   */
+  private routeOob(r: number): number {
+    const p = this.d.features;
+    const codes = this.d.codes;
+    const feature = this.nFeature;
+    const base = r * p;
+    let node = 0;
+    let f = feature[0];
+    while (f >= 0) {
+      const c = codes[base + f];
+      if (c <= this.nLo[node]) node = this.nLeft[node];
+      else if (c >= this.nHi[node]) node = this.nRight[node];
+      else node = this.d.raw[f][r] <= this.nThreshold[node] ? this.nLeft[node] : this.nRight[node];
+      f = feature[node];
+    }
+    return this.nValue[node];
+  }
+
+  private splittable(depth: number, W: number): boolean {
+    return depth < this.maxDepth && W >= this.minSplit;
+  }
+
+  /** Draws the node's mtry features (a partial Fisher–Yates shuffle), or takes all in column order. */
+  private drawFeatures(slot: number, rng: Sfc32): void {
+    const mtry = this.mtry;
+    const p = this.d.features;
+    const out = this.sFeat;
+    const base = slot * mtry;
+    if (mtry >= p) {
+      for (let k = 0; k < mtry; k++) out[base + k] = k;
+      return;
+    }
+    const perm = this.perm;
+    for (let k = 0; k < mtry; k++) {
+      const j = k + rng.int(p - k);
+      const f = perm[j];
+      perm[j] = perm[k];
+      perm[k] = f;
+      out[base + k] = f;
+    }
+  }
+
+  /** Adds rows idx[from..to) to every feature's dense histogram h. */
+  private accumulateDense(h: Float64Array, from: number, to: number): void {
     const p = this.d.features;
     const codes = this.d.codes;
     const offsets = this.d.offsets;
-    const a = this.wy[r];
-    const c = this.w[r];
-    const base = r * p;
-    for (let g = 0; g < p; g++) {
-      const k = (offsets[g] + codes[base + g]) << 1;
-      h[k] += a;
-      h[k + 1] += c;
+    const idx = this.idx;
+    const w = this.w;
+    const wy = this.wy;
+    for (let i = from; i < to; i++) {
+      const r = idx[i];
+      const a = wy[r];
+      const c = w[r];
+      const base = r * p;
+      for (let g = 0; g < p; g++) {
+        const k = (offsets[g] + codes[base + g]) << 1;
+        h[k] += a;
+        h[k + 1] += c;
+      }
+    }
+  }
+
+  /** Adds rows idx[from..to) to the slot's histograms of its drawn features, marking touched bins. */
+  private accumulateSlot(slot: number, from: number, to: number): void {
+    const p = this.d.features;
+    const codes = this.d.codes;
+    const idx = this.idx;
+    const w = this.w;
+    const wy = this.wy;
+    const mtry = this.mtry;
+    const feats = this.sFeat;
+    const fo = slot * mtry;
+    const H = this.slotHist[slot];
+    const M = this.slotMask[slot];
+    for (let i = from; i < to; i++) {
+      const r = idx[i];
+      const a = wy[r];
+      const c = w[r];
+      const base = r * p;
+      for (let k = 0; k < mtry; k++) {
+        const b = codes[base + feats[fo + k]];
+        M[(k << 3) + (b >>> 5)] |= 1 << (b & 31);
+        const j = (k << 9) + (b << 1);
+        H[j] += a;
+        H[j + 1] += c;
+      }
     }
   }
 
@@ -387,60 +482,59 @@ export class TreeBuilder {
     }
   }
 
-  private searchSparse(start: number, end: number, f: number, W: number, S: number): void {
+  /** Split search over the slot's sparse histograms; leaves them zeroed for the slot's next node. */
+  private searchSlot(slot: number, W: number, S: number): void {
     const minLeaf = this.prm.minLeaf;
-    const p = this.d.features;
-    const codes = this.d.codes;
-    const idx = this.idx;
-    const w = this.w;
-    const wy = this.wy;
-    const hs = this.hs;
-    const hw = this.hw;
-    const mask = this.mask;
-    for (let i = start; i < end; i++) {
-      const r = idx[i];
-      const b = codes[r * p + f];
-      const word = b >>> 5;
-      const bit = 1 << (b & 31);
-      if ((mask[word] & bit) !== 0) {
-        hs[b] += wy[r];
-        hw[b] += w[r];
-      } else {
-        mask[word] |= bit;
-        hs[b] = wy[r];
-        hw[b] = w[r];
-      }
-    }
-    const words = (this.d.nBins[f] + 31) >>> 5;
-    let SL = 0;
-    let WL = 0;
-    let prev = -1;
-    scan: for (let word = 0; word < words; word++) {
-      let bits = mask[word];
-      while (bits !== 0) {
-        const low = bits & -bits;
-        bits ^= low;
-        const b = (word << 5) + 31 - Math.clz32(low);
-        if (prev >= 0 && WL >= minLeaf) {
-          const WR = W - WL;
-          if (WR < minLeaf) break scan;
-          const SR = S - SL;
-          const g = (SL * SL) / WL + (SR * SR) / WR;
-          if (g > this.bestG) {
-            this.bestG = g;
-            this.bestF = f;
-            this.bestLo = prev;
-            this.bestHi = b;
-            this.bestWL = WL;
-            this.bestSL = SL;
+    const mtry = this.mtry;
+    const nBins = this.d.nBins;
+    const H = this.slotHist[slot];
+    const M = this.slotMask[slot];
+    const fo = slot * mtry;
+    for (let k = 0; k < mtry; k++) {
+      const f = this.sFeat[fo + k];
+      const hb = k << 9;
+      const mb = k << 3;
+      const words = (nBins[f] + 31) >>> 5;
+      let SL = 0;
+      let WL = 0;
+      let prev = -1;
+      let live = true;
+      for (let word = 0; word < words; word++) {
+        let bits = M[mb + word];
+        if (bits === 0) continue;
+        M[mb + word] = 0;
+        while (bits !== 0) {
+          const low = bits & -bits;
+          bits ^= low;
+          const j = hb + (((word << 5) + 31 - Math.clz32(low)) << 1);
+          const hs = H[j];
+          const hw = H[j + 1];
+          H[j] = 0;
+          H[j + 1] = 0;
+          if (!live) continue;
+          if (prev >= 0 && WL >= minLeaf) {
+            const WR = W - WL;
+            if (WR < minLeaf) {
+              live = false;
+              continue;
+            }
+            const SR = S - SL;
+            const g = (SL * SL) / WL + (SR * SR) / WR;
+            if (g > this.bestG) {
+              this.bestG = g;
+              this.bestF = f;
+              this.bestLo = prev;
+              this.bestHi = (j - hb) >> 1;
+              this.bestWL = WL;
+              this.bestSL = SL;
+            }
           }
+          SL += hs;
+          WL += hw;
+          prev = (j - hb) >> 1;
         }
-        SL += hs[b];
-        WL += hw[b];
-        prev = b;
       }
     }
-    for (let word = 0; word < words; word++) mask[word] = 0;
   }
 
   private makeLeaf(id: number, start: number, end: number): void {
@@ -466,8 +560,17 @@ export class TreeBuilder {
     this.nValue[id] = same ? y0 : s / sw;
   }
 
-  private push(at: number, start: number, end: number, depth: number, parent: number, W: number, S: number, buf: number): void {
-    if (at >= this.sStart.length) this.growStack();
+  private setSlot(
+    at: number,
+    start: number,
+    end: number,
+    depth: number,
+    parent: number,
+    W: number,
+    S: number,
+    buf: number,
+    splits: boolean,
+  ): void {
     this.sStart[at] = start;
     this.sEnd[at] = end;
     this.sDepth[at] = depth;
@@ -475,6 +578,7 @@ export class TreeBuilder {
     this.sW[at] = W;
     this.sS[at] = S;
     this.sBuf[at] = buf;
+    this.sSplit[at] = splits ? 1 : 0;
   }
 
   private acquire(): number {
@@ -488,22 +592,33 @@ export class TreeBuilder {
     this.freeBufs.push(buf);
   }
 
-  private growStack(): void {
-    const grow32 = (a: Int32Array): Int32Array<ArrayBuffer> => {
-      const b = new Int32Array(a.length * 2);
+  /** Makes slots 0..count-1 usable (stack arrays and the slots' sparse histograms). */
+  private ensureSlots(count: number): void {
+    while (this.slotHist.length < count) {
+      this.slotHist.push(new Float64Array(this.mtry * 512));
+      this.slotMask.push(new Int32Array(this.mtry * 8));
+    }
+    if (count <= this.sStart.length) return;
+    const size = Math.max(count, this.sStart.length * 2);
+    const grow32 = (a: Int32Array, len: number): Int32Array<ArrayBuffer> => {
+      const b = new Int32Array(len);
       b.set(a);
       return b;
     };
     const grow64 = (a: Float64Array): Float64Array<ArrayBuffer> => {
-      const b = new Float64Array(a.length * 2);
+      const b = new Float64Array(size);
       b.set(a);
       return b;
     };
-    this.sStart = grow32(this.sStart);
-    this.sEnd = grow32(this.sEnd);
-    this.sDepth = grow32(this.sDepth);
-    this.sParent = grow32(this.sParent);
-    this.sBuf = grow32(this.sBuf);
+    this.sStart = grow32(this.sStart, size);
+    this.sEnd = grow32(this.sEnd, size);
+    this.sDepth = grow32(this.sDepth, size);
+    this.sParent = grow32(this.sParent, size);
+    this.sBuf = grow32(this.sBuf, size);
+    this.sFeat = grow32(this.sFeat, size * this.mtry);
+    const split = new Uint8Array(size);
+    split.set(this.sSplit);
+    this.sSplit = split;
     this.sW = grow64(this.sW);
     this.sS = grow64(this.sS);
   }
@@ -525,5 +640,11 @@ export class TreeBuilder {
     const v = new Float64Array(cap);
     v.set(this.nValue);
     this.nValue = v;
+    const lo = new Uint8Array(cap);
+    lo.set(this.nLo);
+    this.nLo = lo;
+    const hi = new Uint8Array(cap);
+    hi.set(this.nHi);
+    this.nHi = hi;
   }
 }

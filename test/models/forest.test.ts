@@ -71,6 +71,9 @@ describe('out-of-bag estimates', () => {
     for (const v of o.predictions) if (Number.isNaN(v)) nan++;
     expect(nan).toBe(o.rowsExcluded);
     expect(o.r2).not.toBeNull();
+    // With one tree, a row's OOB prediction is that tree's prediction for it.
+    const fitted = predictForest(f, train.x);
+    for (let r = 0; r < train.x.rows; r++) if (!Number.isNaN(o.predictions[r])) expect(o.predictions[r]).toBe(fitted[r]);
 
     const tree = await fitDecisionTree(train.x, train.y, { maxDepth: 3, minLeaf: 5, seed: 's' });
     const none = oob(tree);
