@@ -14,6 +14,8 @@ export function formatNumber(v: number | null | undefined, digits = 3): string {
   // below 1e-9 a value is rounding noise (a bias of 5e-15 on training rows), not information
   else if (a >= 0.01 || a < 1e-9) s = v.toFixed(digits);
   else s = v.toPrecision(digits);
+  // a value that rounds to zero carries no sign
+  if (/^-0\.?0*$/.test(s)) s = s.slice(1);
   return s.replace(/^-/, '−');
 }
 

@@ -99,6 +99,51 @@ export const messages = {
     `${file}: the header names column ${q(column)} twice; rename one`,
   valueParse: (file: string, line: number, column: string, value: string, type: string) =>
     `${file}:${line}: column ${q(column)} holds ${q(value)}, which is not a ${type}; fix the value, list it under "missing", or declare the column with another type`,
+  csvFieldCountNoHeader: (file: string, line: number, declared: number, got: number) =>
+    `${file}:${line}: row has ${got} fields, but the source has no header and declares ${declared} columns (in file order); declare one column per field, or fix the row`,
+  undeclaredColumns: (file: string, columns: string[]) =>
+    `${file}: the file has columns the recipe does not declare: ${columns.join(', ')}; declare them under "columns", or set "undeclared: ignore" (leave them out) or "undeclared: text" (read them as text)`,
+  declaredColumnMissing: (file: string, column: string, available: string[], suggestion?: string) =>
+    `${file}: declared column ${q(column)} is not among the file's columns` +
+    (suggestion ? `; did you mean ${q(suggestion)}?` : `; the file has ${available.join(', ')}`),
+  valueParseAt: (file: string, where: string, column: string, value: string, type: string) =>
+    `${file}: ${where}: column ${q(column)} holds ${q(value)}, which is not a ${type}; fix the value, list it under "missing", or declare the column with another type`,
+  sourceUnreadable: (file: string, format: string, detail: string) =>
+    `${file}: could not be read as ${format} (${detail}); check that the file is ${format} and complete, or set "format" on the source`,
+  jsonShape: (file: string, detail: string) =>
+    `${file}: ${detail}; a JSON source must be an array of records ([{"a": 1, "b": "x"}, ...]) or an object of equally long columns ({"a": [1, ...], "b": ["x", ...]})`,
+  netcdfNotNetcdf: (file: string, start: string) =>
+    `${file}: is not a NetCDF file (it starts with ${start}); give a NetCDF classic, 64-bit offset or NetCDF-4 file, or set "format" on the source`,
+  netcdfTruncated: (file: string, detail: string) =>
+    `${file}: the NetCDF file is truncated or damaged (${detail}); copy or download it again`,
+  netcdfUnknownVariable: (file: string, variable: string, known: string[], suggestion?: string) =>
+    `${file}: has no variable ${q(variable)}` +
+    (suggestion ? `; did you mean ${q(suggestion)}?` : '') +
+    `; the file's variables are ${known.join(', ')}`,
+  netcdfNotNumeric: (file: string, variable: string, type: string) =>
+    `${file}: variable ${q(variable)} holds ${type} values; dendrolog reads numeric NetCDF variables; leave it out of "variables"`,
+  netcdfDimensionsDiffer: (file: string, a: string, dimsA: string[], b: string, dimsB: string[]) =>
+    `${file}: variables ${q(a)} (${dimsA.join(', ')}) and ${q(b)} (${dimsB.join(', ')}) do not share their dimensions, so they cannot be rows of one table; read them as two sources and join them`,
+  netcdfUndeclaredDimension: (file: string, variable: string, dimension: string) =>
+    `${file}: variable ${q(variable)} runs along dimension ${q(dimension)}, which the source does not declare; add "${dimension}: number" (or date, for a time axis) under "columns"`,
+  netcdfDeclaredNotRead: (file: string, column: string, dimensions: string[], variables: string[]) =>
+    `${file}: declared column ${q(column)} is neither a dimension (${dimensions.join(', ')}) nor a variable read (${variables.join(', ')}); remove it, or add it to "variables"`,
+  netcdfTimeUnits: (file: string, variable: string, units: string, why: string) =>
+    `${file}: variable ${q(variable)} has time units ${q(units)}, which cannot be decoded (${why}); dendrolog decodes "<days|hours|minutes|seconds> since YYYY-MM-DD[ hh:mm:ss]"; declare the column as number to keep the raw values`,
+  netcdfCalendar: (file: string, variable: string, calendar: string) =>
+    `${file}: variable ${q(variable)} uses the ${q(calendar)} calendar; dendrolog decodes only the standard (gregorian, proleptic_gregorian) calendar into dates; declare the column as number to keep the raw values`,
+  netcdfDimensionValues: (file: string, dimension: string, type: string) =>
+    `${file}: dimension ${q(dimension)} is declared as ${type}; declare a coordinate as number, or as date when it has CF time units`,
+  netcdfSelectUnknown: (file: string, dimension: string, dimensions: string[]) =>
+    `${file}: "select" names ${q(dimension)}, which is not a dimension of the variables read (${dimensions.join(', ')}); select on one of those`,
+  netcdfSelectValue: (dimension: string, value: unknown, expected: string) =>
+    `select.${dimension} bound ${q(value)} is not a ${expected}; write it as one, or null for an open side`,
+  sourceOptionNotForFormat: (option: string, format: string, formats: string) =>
+    `"${option}" applies only to ${formats} sources, and this one is read as ${format}; remove it, or set "format"`,
+  netcdfVariablesNeeded: () =>
+    `a NetCDF source needs "variables", the data variables to read (for example variables: [tas]); each must also be declared under "columns"`,
+  netcdfVariableNotDeclared: (variable: string) =>
+    `variable ${q(variable)} is not declared under "columns"; add "${variable}: number"`,
   targetAllMissing: (column: string) =>
     `the target ${q(column)} has no values left after cleaning; check the cleaning steps and the missing-value tokens`,
   tooFewRows: (rows: number, needed: number, what: string) =>

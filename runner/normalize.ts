@@ -5,6 +5,7 @@ import type {
   ModelKind,
   ModelSpec,
   Recipe,
+  SourceFormat,
   SourceSpec,
 } from './recipe-types.js';
 
@@ -28,6 +29,61 @@ export const MODEL_DEFAULTS: Record<ModelKind, Record<string, (number | boolean 
 
 type Raw = Record<string, unknown>;
 
+/** File extensions and the format each implies when a source gives no `format`; anything else is read as csv. */
+export const FORMAT_BY_EXTENSION: Record<string, SourceFormat> = {
+  csv: 'csv',
+  tsv: 'tsv',
+  tab: 'tsv',
+  json: 'json',
+  parquet: 'parquet',
+  pq: 'parquet',
+  arrow: 'arrow',
+  arrows: 'arrow',
+  feather: 'arrow',
+  ipc: 'arrow',
+  nc: 'netcdf',
+  nc4: 'netcdf',
+  cdf: 'netcdf',
+  netcdf: 'netcdf',
+};
+
+/** The format a file's extension implies (csv when the extension says nothing). */
+export function formatOf(file: string): SourceFormat {
+  const ext = /\.([A-Za-z0-9]+)$/.exec(file)?.[1]?.toLowerCase() ?? '';
+  return FORMAT_BY_EXTENSION[ext] ?? 'csv';
+}
+
+/**
+ * A source with every default of its format written out: delimited text gets its delimiter,
+ * decimal mark and header flag; NetCDF its variables (the declared columns, until the reader
+ * tells coordinates from variables) and an empty select.
+ *
+ * Example: `normalizeSource({file: 'a.tsv', columns: {x: 'number'}}).delimiter === '\t'`
+ */
+export function normalizeSource(s: Raw): SourceSpec {
+  const file = String(s.file);
+  const format = (s.format as SourceFormat | undefined) ?? formatOf(file);
+  const spec: SourceSpec = {
+    file,
+    format,
+    sha256: (s.sha256 as string | undefined) ?? null,
+    columns: { ...(s.columns as SourceSpec['columns']) },
+    missing: ((s.missing as unknown[] | undefined) ?? DEFAULT_MISSING).map(String),
+    undeclared: (s.undeclared as SourceSpec['undeclared'] | undefined) ?? 'ignore',
+    date_format: (s.date_format as SourceSpec['date_format'] | undefined) ?? 'YYYY-MM-DD',
+  };
+  if (format === 'csv' || format === 'tsv') {
+    spec.delimiter = (s.delimiter as string | undefined) ?? (format === 'tsv' ? '\t' : ',');
+    spec.decimal = (s.decimal as '.' | ',' | undefined) ?? '.';
+    spec.header = (s.header as boolean | undefined) ?? true;
+  }
+  if (format === 'netcdf') {
+    if (s.variables !== undefined) spec.variables = (s.variables as string[]).map(String);
+    spec.select = { ...((s.select as SourceSpec['select'] | undefined) ?? {}) };
+  }
+  return spec;
+}
+
 /**
  * Fills every default so the recipe says everything it means. Input has passed the schema.
  *
@@ -37,14 +93,7 @@ export function normalizeRecipe(raw: Raw): Recipe {
   const groups = (raw.groups as string | undefined) ?? null;
   const sources: Record<string, SourceSpec> = {};
   for (const [name, s] of Object.entries(raw.sources as Record<string, Raw>)) {
-    const file = String(s.file);
-    sources[name] = {
-      file,
-      format: (s.format as 'csv' | 'tsv' | undefined) ?? (file.toLowerCase().endsWith('.tsv') ? 'tsv' : 'csv'),
-      sha256: (s.sha256 as string | undefined) ?? null,
-      columns: { ...(s.columns as SourceSpec['columns']) },
-      missing: ((s.missing as unknown[] | undefined) ?? DEFAULT_MISSING).map(String),
-    };
+    sources[name] = normalizeSource(s);
   }
   const models: Record<string, ModelSpec> = {};
   for (const [name, m] of Object.entries(raw.models as Record<string, Raw>)) {

@@ -2,12 +2,33 @@
 
 export type ColumnType = 'number' | 'string' | 'category' | 'date';
 
+/** How a source file is read; chosen from the file's extension unless the recipe says. */
+export type SourceFormat = 'csv' | 'tsv' | 'json' | 'parquet' | 'arrow' | 'netcdf';
+
+/** Date layouts a source may declare for text dates. */
+export type DateFormat = 'YYYY-MM-DD' | 'DD/MM/YYYY' | 'MM/DD/YYYY' | 'DD.MM.YYYY' | 'YYYY-MM-DD HH:mm' | 'DD/MM/YYYY HH:mm';
+
+/** An inclusive range of coordinate values for a NetCDF `select`; null leaves that side open. */
+export type CoordinateRange = [number | string | null, number | string | null];
+
 export interface SourceSpec {
   file: string;
-  format: 'csv' | 'tsv';
+  format: SourceFormat;
   sha256: string | null;
   columns: Record<string, ColumnType>;
   missing: string[];
+  /** Columns of the file the recipe does not declare: ignored (default), an error, or read as text. */
+  undeclared: 'ignore' | 'error' | 'text';
+  /** Layout of dates written as text. */
+  date_format: DateFormat;
+  /** Delimited text (csv, tsv) only. */
+  delimiter?: string;
+  decimal?: '.' | ',';
+  header?: boolean;
+  /** NetCDF only: the data variables to read (each becomes a column beside its dimensions' coordinates). */
+  variables?: string[];
+  /** NetCDF only: ranges of coordinate values to keep, by dimension. */
+  select?: Record<string, CoordinateRange>;
 }
 
 export interface JoinSpec {

@@ -4,11 +4,13 @@ import { formatCount, formatNumber, formatSetting } from './format.js';
 import type { Manifest } from './manifest.js';
 import type { Recipe } from './recipe-types.js';
 import type { Results } from './results.js';
+import type { Figure } from './plots.js';
+import { BOOTSTRAP_RESAMPLES } from './plan.js';
 
 const METRIC_LABELS: Record<string, string> = { r2: 'R²', rmse: 'RMSE', mae: 'MAE', bias: 'Bias (mean error)' };
 
 /** Everything the templates show, already formatted: templates only lay it out and escape it. */
-export function reportView(recipe: Recipe, results: Results, manifest: Manifest) {
+export function reportView(recipe: Recipe, results: Results, manifest: Manifest, figures: Record<string, Figure[]> = {}) {
   const best = results.models.find((m) => m.name === results.chosenModel)!;
   // the grid table shows the choosing metric and R²; the manifest keeps all four
   const gridMetrics = [...new Set([recipe.evaluation.choose_by, 'r2' as const])];
@@ -72,7 +74,19 @@ export function reportView(recipe: Recipe, results: Results, manifest: Manifest)
             text: f.kind === 'one_hot' ? `${f.column} (unseen categories: ${f.unseen})` : `${f.columns.join(', ')}${f.kind === 'impute' ? ` by ${f.with}` : ''}`,
           },
     ),
+    figures,
+    resamples: BOOTSTRAP_RESAMPLES,
+    headlineRepeats: best.explain?.repeats ?? 0,
+    chosen: {
+      name: best.name,
+      kind: best.kind,
+      cell: best.chosenLabel,
+      used: Object.entries(best.used).map(([k, v]) => ({ name: k, value: formatSetting(v) })),
+      oob: best.oobR2 === null ? null : formatNumber(best.oobR2),
+    },
     protocol: {
+      rows: formatCount(results.holdout.train + results.holdout.test),
+      foldCells: Array.from({ length: results.folds.k }, (_, i) => i + 1),
       holdoutBy: splitWords(results.holdout.by, recipe, 'holdout'),
       fraction: formatNumber(results.holdout.fraction * 100, 0).replace(/\.0+$/, ''),
       train: formatCount(results.holdout.train),

@@ -55,7 +55,7 @@ export interface Results {
   chosenModel: string;
   warnings: Warning[];
   /** Holdout observations and the chosen model's predictions, for the plots. */
-  holdoutRows: { observed: number[]; predicted: number[] };
+  holdoutRows: { observed: number[]; predicted: number[]; groups: string[] | null };
 }
 
 /**
@@ -137,7 +137,7 @@ export function gatherResults(recipe: Recipe, plan: Plan, exec: Execution): Resu
     models,
     chosenModel: best.name,
     warnings: warnings.list(),
-    holdoutRows: { observed: bestScore.observed, predicted: bestScore.predictions },
+    holdoutRows: { observed: bestScore.observed, predicted: bestScore.predictions, groups: bestScore.groups },
   };
 }
 
@@ -165,7 +165,10 @@ function evaluationWarnings(recipe: Recipe, models: ModelResult[], best: ModelRe
       const numeric = values.filter((v): v is number => typeof v === 'number');
       if (numeric.length < 2 || values.length !== numeric.length) continue;
       const v = cell[param];
-      if (v === Math.min(...numeric) || v === Math.max(...numeric)) {
+      // no value lies beyond a hard limit: one row per leaf, one candidate predictor, the whole sample
+      const atLimit = (v === 1 && ['min_leaf', 'mtry', 'max_depth'].includes(param) && v === Math.min(...numeric)) ||
+        (param === 'sample_fraction' && v === 1);
+      if (!atLimit && (v === Math.min(...numeric) || v === Math.max(...numeric))) {
         log.add(
           'grid-edge',
           `model "${m.name}": the chosen ${param} = ${v} is at the edge of its grid (${numeric.join(', ')}); a value beyond it might score better; widen the grid`,

@@ -9,6 +9,7 @@ import { loadRecipe } from './recipe.js';
 import { renderReport, renderSummary } from './render.js';
 import { reportView } from './report-view.js';
 import { gatherResults, type Results } from './results.js';
+import { buildFigures } from './plots.js';
 
 export interface RunOptions {
   /** Output folder; default `<recipe folder>/<report.folder>/<recipe name>`. */
@@ -66,7 +67,7 @@ export async function runRecipe(recipePath: string, opts: RunOptions): Promise<R
     started,
     seconds: (performance.now() - t0) / 1000,
   });
-  const view = reportView(recipe, results, manifest);
+  const view = reportView(recipe, results, manifest, await buildFigures(recipe, results));
   const outDir = resolve(opts.out ?? resolve(origin.dir, recipe.report.folder, recipe.name));
   writeFolderAtomically(outDir, {
     'report.html': renderReport(view),

@@ -34,7 +34,7 @@ export const modelKinds: Record<ModelKind, ModelKindAdapter> = {
   random_forest: {
     async fit(x, y, cell, opts) {
       const { fitForest, oob, serializeForest } = await forestEngine();
-      const mtry = Math.min(resolveMtry(cell.mtry as number | null, x.names.length), x.names.length);
+      const mtry = resolveMtry(cell.mtry as number | null, x.names.length);
       const forest = await fitForest(x, y, {
         trees: cell.trees as number,
         maxDepth: cell.max_depth as number | null,

@@ -33,12 +33,14 @@ export interface ScoreOutput {
   observed: number[];
   /** Per predictor, holdout rows whose value lies outside the training rows' range. */
   outsideRange: Record<string, number>;
+  /** The group of each holdout row, when the recipe names groups. */
+  groups: string[] | null;
 }
 
 /** Scores a fitted model once on the holdout rows, with seeded bootstrap intervals. */
 export const score: StepDefinition<ScoreParams, ScoreOutput> = {
   kind: 'score',
-  version: 1,
+  version: 2,
   codec: 'json',
   usesSeed: true,
   async run(inputs, params, ctx) {
@@ -104,6 +106,7 @@ export const score: StepDefinition<ScoreParams, ScoreOutput> = {
       predictions: Array.from(pred),
       observed: Array.from(y),
       outsideRange,
+      groups: params.groups ? split.test.map((r) => String(column(frame, params.groups!).values[r])) : null,
     };
   },
   summary: (o) => `holdout R² ${o.holdout.r2.value === null ? 'undefined' : o.holdout.r2.value.toFixed(3)}`,

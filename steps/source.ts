@@ -1,60 +1,97 @@
-import { readFileSync } from 'node:fs';
-import type { Column, Frame } from '../runner/frame.js';
-import { DendrologError, messages } from '../runner/messages.js';
-import type { ColumnType } from '../runner/recipe-types.js';
+import type { Frame } from '../runner/frame.js';
+import type { ColumnType, CoordinateRange, DateFormat, SourceFormat, SourceSpec } from '../runner/recipe-types.js';
 import type { FrameOutput, StepDefinition } from '../runner/step-types.js';
-import { closest } from '../runner/suggest.js';
-import { parseDelimited } from './readers/csv.js';
-import { parseValue, typeLabel } from './readers/values.js';
+import { readArrow } from './readers/arrow.js';
+import type { Reader, ReadRequest } from './readers/columns.js';
+import { readDelimited } from './readers/delimited.js';
+import { readJson } from './readers/json.js';
+import { readNetcdf } from './readers/netcdf.js';
+import { readParquet } from './readers/parquet.js';
+import { tableSha256 } from './readers/table-hash.js';
 import { profileFrame } from './profile.js';
 
 export interface SourceParams {
   /** SHA-256 of the file's bytes: the file's identity in the key, so moving it re-runs nothing. */
   sha256: string;
-  format: 'csv' | 'tsv';
+  format: SourceFormat;
   columns: Record<string, ColumnType>;
   missing: string[];
+  /** The options below are optional so a step planned with only the four above still reads as before. */
+  undeclared?: 'ignore' | 'error' | 'text';
+  date_format?: DateFormat;
+  delimiter?: string;
+  decimal?: '.' | ',';
+  header?: boolean;
+  variables?: string[];
+  select?: Record<string, CoordinateRange>;
 }
 
 /**
- * Reads a delimited file into typed columns. Only declared columns are kept; each value must parse
- * as its declared type or be a missing token, else the run stops naming file, line and column.
+ * The step params of a source: the file's hash and every read option (these make up its key).
+ *
+ * Example: `sourceParams(recipe.sources.samples, sha256(bytes))`
+ */
+export function sourceParams(spec: SourceSpec, fileSha256: string): SourceParams {
+  const { file: _file, sha256: _pin, ...options } = spec;
+  return { sha256: fileSha256, ...options };
+}
+
+/** One reader per format; adding a format is one reader file and one line here. */
+export const READERS: Record<SourceFormat, Reader> = {
+  csv: readDelimited,
+  tsv: readDelimited,
+  json: readJson,
+  parquet: readParquet,
+  arrow: readArrow,
+  netcdf: readNetcdf,
+};
+
+/** The reader's request for a step's params and file, with each option's default filled in. */
+export function readRequest(params: SourceParams, path: string, display: string): ReadRequest {
+  return {
+    path,
+    display,
+    columns: params.columns,
+    missing: params.missing,
+    undeclared: params.undeclared ?? 'ignore',
+    dateFormat: params.date_format ?? 'YYYY-MM-DD',
+    delimiter: params.delimiter ?? (params.format === 'tsv' ? '\t' : ','),
+    decimal: params.decimal ?? '.',
+    header: params.header ?? true,
+    variables: params.variables ?? null,
+    select: params.select ?? {},
+  };
+}
+
+/**
+ * Reads a source file into typed columns with the reader of its format. Declared columns are read
+ * as their declared type, never guessed; a value that does not parse stops the run naming file,
+ * line (or row) and column. The parsed table's SHA-256 (of its encoded frame) goes into the notes.
  */
 export const source: StepDefinition<SourceParams, FrameOutput> = {
   kind: 'source',
-  version: 1,
+  version: 2,
   codec: 'frame',
-  run(_inputs, params, ctx) {
-    const display = ctx.locator.display;
-    const text = readFileSync(ctx.locator.path, 'utf8');
-    const { header, records } = parseDelimited(text, params.format === 'tsv' ? '\t' : ',', display);
-    const missing = new Set(params.missing);
-    const columns: Column[] = [];
-    for (const [name, type] of Object.entries(params.columns)) {
-      const at = header.indexOf(name);
-      if (at < 0) throw new DendrologError(messages.columnNotInFile(display, name, header, closest(name, header)), 1);
-      const numeric = type === 'number' || type === 'date';
-      const values = numeric ? new Float64Array(records.length) : new Array<string | null>(records.length);
-      for (let r = 0; r < records.length; r++) {
-        const raw = records[r].fields[at];
-        const v = parseValue(raw, type, missing);
-        if (v === undefined) {
-          throw new DendrologError(messages.valueParse(display, records[r].line, name, raw, typeLabel(type)), 1);
-        }
-        values[r] = numeric ? (v === null ? NaN : (v as number)) : (v as string | null);
-      }
-      columns.push({ name, type, values } as Column);
-    }
-    const frame: Frame = { rows: records.length, columns };
-    return {
-      frame,
-      notes: {
-        rowsIn: records.length,
-        rowsOut: records.length,
-        detail: `read ${records.length} rows and ${columns.length} declared columns of ${header.length} in the file`,
-        extra: { profile: profileFrame(frame), fileColumns: header.length },
-      },
+  async run(_inputs, params, ctx) {
+    const req = readRequest(params, ctx.locator.path, ctx.locator.display);
+    req.progress = (f) => ctx.progress(f);
+    const read = await READERS[params.format](req);
+    const frame: Frame = { rows: read.rows, columns: read.columns };
+    const declared = Object.keys(params.columns).length;
+    const extraText = read.columns.length - declared;
+    const detail =
+      `read ${read.rows} rows and ${declared} declared columns of ${read.fileColumns.length} in the file` +
+      (extraText > 0 ? `, plus ${extraText} undeclared as text` : '') +
+      (read.detail ? ` (${read.detail})` : '');
+    const extra: Record<string, unknown> = {
+      profile: profileFrame(frame),
+      fileColumns: read.fileColumns.length,
+      format: params.format,
+      tableSha256: tableSha256(frame),
     };
+    if (read.undeclared.length > 0) extra.undeclared = read.undeclared;
+    if (read.units && Object.keys(read.units).length > 0) extra.units = read.units;
+    return { frame, notes: { rowsIn: read.rows, rowsOut: read.rows, detail, extra } };
   },
   summary: (o) => `${o.frame.rows.toLocaleString('en')} rows`,
 };

@@ -32,7 +32,7 @@ const lakes = Array.from({ length: 40 }, (_, i) => {
     mean_depth_m: round(1.5 + rand() * 12, 1),
     area_ha: round(5 + Math.exp(2 + rand() * 4), 1),
     tp_base: LAND_TP[land] * Math.exp(0.5 * normal()),
-    offset: 0.35 * normal(),
+    offset: 0.25 * normal(),
   };
 });
 
@@ -48,10 +48,12 @@ for (const lake of lakes) {
       const temp = 14 + 9 * season + warmYear + 1.5 * normal() - lake.mean_depth_m * 0.15;
       const tp = lake.tp_base * Math.exp(0.35 * normal() + 0.2 * season);
       const tn = 300 + 9 * tp * Math.exp(0.3 * normal());
-      // saturating phosphorus response, growth that speeds up above about 18 °C, a per-lake offset
-      const growth = 1 / (1 + Math.exp(-(temp - 18) / 2));
-      const chlMean = (0.9 * tp ** 1.05) / (1 + tp / 120) * (0.45 + 0.9 * growth) * Math.exp(lake.offset);
-      const chl = chlMean * Math.exp(0.3 * normal());
+      // phosphorus response that saturates, growth that switches on above about 18 °C, deep lakes
+      // that stay clearer in cool water, and a lasting offset per lake
+      const growth = 1 / (1 + Math.exp(-(temp - 18) / 1.2));
+      const deepAndCool = lake.mean_depth_m > 8 && temp < 17 ? 0.55 : 1;
+      const chlMean = ((1.2 * tp ** 1.1) / (1 + tp / 45)) * (0.2 + 1.6 * growth) * deepAndCool * Math.exp(lake.offset);
+      const chl = chlMean * Math.exp(0.22 * normal());
       const secchi = Math.min(8, 6 / (1 + 0.08 * chl) + 0.4 * rand());
       const depth = rand() < 0.06 ? round(2.5 + rand() * 4, 1) : round(0.5 + rand() * 1.2, 1);
       let tpText = String(round(tp, 1));

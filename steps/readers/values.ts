@@ -1,45 +1,103 @@
-import type { ColumnType } from '../../runner/recipe-types.js';
+import type { ColumnType, DateFormat } from '../../runner/recipe-types.js';
 
 /** A typed column: numbers and dates as Float64Array (NaN for missing, dates as ms since epoch), text as strings. */
 export type ColumnValues = Float64Array | (string | null)[];
 
+/** How text values are read: the decimal mark of numbers and the layout of dates. */
+export interface ValueOptions {
+  decimal: '.' | ',';
+  dateFormat: DateFormat;
+}
+
+/** The date layouts a source may declare; `YYYY-MM-DD` also takes ISO 8601 times, as it always has. */
+export const DATE_FORMATS = ['YYYY-MM-DD', 'DD/MM/YYYY', 'MM/DD/YYYY', 'DD.MM.YYYY', 'YYYY-MM-DD HH:mm', 'DD/MM/YYYY HH:mm'] as const;
+
+export const DEFAULT_VALUE_OPTIONS: ValueOptions = { decimal: '.', dateFormat: 'YYYY-MM-DD' };
+
 const NUMBER = /^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?$/;
+const NUMBER_COMMA = /^[+-]?(\d+,?\d*|,\d+)([eE][+-]?\d+)?$/;
 const DATE = /^(\d{4})-(\d{2})-(\d{2})(?:[T ](\d{2}):(\d{2})(?::(\d{2})(?:\.(\d+))?)?(Z|[+-]\d{2}:?\d{2})?)?$/;
+/** Day-month-year layouts: groups are the date parts in the order the format names them, then hour and minute. */
+const LAYOUTS: Record<Exclude<DateFormat, 'YYYY-MM-DD'>, { re: RegExp; order: ['y' | 'm' | 'd', 'y' | 'm' | 'd', 'y' | 'm' | 'd']; time: boolean }> = {
+  'DD/MM/YYYY': { re: /^(\d{1,2})\/(\d{1,2})\/(\d{4})$/, order: ['d', 'm', 'y'], time: false },
+  'MM/DD/YYYY': { re: /^(\d{1,2})\/(\d{1,2})\/(\d{4})$/, order: ['m', 'd', 'y'], time: false },
+  'DD.MM.YYYY': { re: /^(\d{1,2})\.(\d{1,2})\.(\d{4})$/, order: ['d', 'm', 'y'], time: false },
+  'YYYY-MM-DD HH:mm': { re: /^(\d{4})-(\d{2})-(\d{2})[T ](\d{2}):(\d{2})$/, order: ['y', 'm', 'd'], time: true },
+  'DD/MM/YYYY HH:mm': { re: /^(\d{1,2})\/(\d{1,2})\/(\d{4}) (\d{2}):(\d{2})$/, order: ['d', 'm', 'y'], time: true },
+};
 
 /**
  * Parses one text value as its declared type. Returns `null` for missing, `undefined` when it does not parse.
+ * Nothing is guessed: a value is read only as the type its column declares.
  *
- * Example: `parseValue(' 3.5 ', 'number', new Set()) === 3.5`; `parseValue('00152', 'string', new Set()) === '00152'`.
+ * Example: `parseValue(' 3.5 ', 'number', new Set()) === 3.5`; `parseValue('00152', 'string', new Set()) === '00152'`;
+ * `parseValue('3,5', 'number', new Set(), {decimal: ',', dateFormat: 'YYYY-MM-DD'}) === 3.5`.
  */
-export function parseValue(raw: string, type: ColumnType, missing: Set<string>): number | string | null | undefined {
+export function parseValue(
+  raw: string,
+  type: ColumnType,
+  missing: Set<string>,
+  opts: ValueOptions = DEFAULT_VALUE_OPTIONS,
+): number | string | null | undefined {
   if (missing.has(raw)) return null;
   const t = raw.trim();
   if (missing.has(t)) return null;
   switch (type) {
     case 'number': {
-      if (!NUMBER.test(t)) return undefined;
-      const v = Number(t);
+      let v: number;
+      if (opts.decimal === ',') {
+        if (!NUMBER_COMMA.test(t)) return undefined;
+        v = Number(t.replace(',', '.'));
+      } else {
+        if (!NUMBER.test(t)) return undefined;
+        v = Number(t);
+      }
       // a numeric missing token such as -9999 also matches "-9999.0"
-      if (missing.has(String(v))) return null;
+      if (missing.size > 0 && missing.has(String(v))) return null;
       return v;
     }
-    case 'date': {
-      const m = DATE.exec(t);
-      if (!m) return undefined;
-      const ms = Date.parse(m[4] ? (m[8] ? t.replace(' ', 'T') : t.replace(' ', 'T') + 'Z') : `${t}T00:00:00Z`);
-      if (Number.isNaN(ms)) return undefined;
-      // reject calendar overflow such as 2021-02-30, which Date.parse rolls forward
-      const d = new Date(ms);
-      if (!m[8] && (d.getUTCMonth() + 1 !== Number(m[2]) || d.getUTCDate() !== Number(m[3]))) return undefined;
-      return ms;
-    }
+    case 'date':
+      return parseDate(t, opts.dateFormat);
     case 'string':
     case 'category':
       return raw;
   }
 }
 
+/**
+ * A date in the given layout as ms since the epoch (UTC), or `undefined` when it does not match or
+ * names a day that does not exist.
+ *
+ * Example: `parseDate('03/06/2021', 'DD/MM/YYYY') === Date.UTC(2021, 5, 3)`.
+ */
+export function parseDate(t: string, format: DateFormat): number | undefined {
+  if (format === 'YYYY-MM-DD') {
+    const m = DATE.exec(t);
+    if (!m) return undefined;
+    const ms = Date.parse(m[4] ? (m[8] ? t.replace(' ', 'T') : t.replace(' ', 'T') + 'Z') : `${t}T00:00:00Z`);
+    if (Number.isNaN(ms)) return undefined;
+    // reject calendar overflow such as 2021-02-30, which Date.parse rolls forward
+    const d = new Date(ms);
+    if (!m[8] && (d.getUTCMonth() + 1 !== Number(m[2]) || d.getUTCDate() !== Number(m[3]))) return undefined;
+    return ms;
+  }
+  const layout = LAYOUTS[format];
+  const m = layout.re.exec(t);
+  if (!m) return undefined;
+  const part = { y: 0, m: 0, d: 0 };
+  layout.order.forEach((p, i) => (part[p] = Number(m[i + 1])));
+  const hour = layout.time ? Number(m[4]) : 0;
+  const minute = layout.time ? Number(m[5]) : 0;
+  if (hour > 23 || minute > 59) return undefined;
+  const ms = Date.UTC(part.y, part.m - 1, part.d, hour, minute);
+  const d = new Date(ms);
+  if (d.getUTCFullYear() !== part.y || d.getUTCMonth() + 1 !== part.m || d.getUTCDate() !== part.d) return undefined;
+  return ms;
+}
+
 /** What a type is called in messages. */
-export function typeLabel(type: ColumnType): string {
-  return type === 'date' ? 'date (YYYY-MM-DD)' : type;
+export function typeLabel(type: ColumnType, dateFormat: DateFormat = 'YYYY-MM-DD', decimal: '.' | ',' = '.'): string {
+  if (type === 'date') return `date (${dateFormat})`;
+  if (type === 'number' && decimal === ',') return 'number (with a decimal comma)';
+  return type;
 }

@@ -1,0 +1,204 @@
+import * as vega from 'vega';
+import * as vl from 'vega-lite';
+import type { TopLevelSpec } from 'vega-lite';
+import { varyingParams } from '../steps/model-kinds.js';
+import { formatSetting } from './format.js';
+import type { Recipe } from './recipe-types.js';
+import type { Results } from './results.js';
+
+/** A rendered figure: inline SVG plus the words a reader without the picture needs. */
+export interface Figure {
+  id: string;
+  title: string;
+  /** Text alternative: what the plot shows, in a sentence. */
+  description: string;
+  svg: string;
+}
+
+const INK = '#1d2a2f';
+const MUTED = '#5b6b70';
+const ACCENT = '#2f6f5e';
+const SECOND = '#b07d2b';
+
+/** dendrolog's plot style: quiet axes, one accent colour, the report's type. */
+const CONFIG = {
+  font: 'Source Sans 3, Segoe UI, system-ui, sans-serif',
+  background: 'white',
+  view: { stroke: null },
+  title: { color: INK, fontSize: 14, fontWeight: 600, anchor: 'start' as const, offset: 10 },
+  axis: { labelColor: MUTED, titleColor: INK, titleFontWeight: 500, gridColor: '#e6ecea', domainColor: '#b9c6c2', tickColor: '#b9c6c2', labelFontSize: 11, titleFontSize: 12 },
+  legend: { labelColor: MUTED, titleColor: INK },
+  mark: { color: ACCENT },
+};
+
+/**
+ * Renders a Vega-Lite spec to SVG in Node, with no browser and no network. Vega escapes every text
+ * it draws, so data values cannot become markup.
+ */
+export async function renderSvg(spec: TopLevelSpec): Promise<string> {
+  const compiled = vl.compile({ ...spec, config: CONFIG } as TopLevelSpec).spec;
+  const view = new vega.View(vega.parse(compiled), { renderer: 'none' });
+  const svg = await view.toSVG();
+  view.finalize();
+  return svg;
+}
+
+async function figure(id: string, title: string, description: string, spec: Record<string, unknown>): Promise<Figure> {
+  // vega tags the data objects it is given; a copy keeps the results untouched
+  const copy = JSON.parse(JSON.stringify({ title, description, ...spec })) as TopLevelSpec;
+  return { id, title, description, svg: await renderSvg(copy) };
+}
+
+/**
+ * Every plot of the report, built from the run's results. Axis titles name the columns (whose
+ * names carry their units in the demo, such as chl_ug_l).
+ */
+export async function buildFigures(recipe: Recipe, results: Results): Promise<Record<string, Figure[]>> {
+  const target = recipe.target;
+  const head = results.models.find((m) => m.name === results.chosenModel)!;
+  const { observed, predicted, groups } = results.holdoutRows;
+  const rows = observed.map((o, i) => ({ observed: o, predicted: predicted[i], residual: o - predicted[i], group: groups?.[i] ?? '' }));
+  const lo = Math.min(...observed, ...predicted);
+  const hi = Math.max(...observed, ...predicted);
+  const holdout: Figure[] = [];
+  holdout.push(
+    await figure('observed-predicted', `Observed vs predicted, holdout rows (${head.name})`,
+      `Scatter of ${rows.length} holdout rows: predicted ${target} on the horizontal axis, observed on the vertical, with the 1:1 line where a perfect model would put every point.`,
+      {
+        width: 340,
+        height: 300,
+        layer: [
+          { data: { values: [{ v: lo }, { v: hi }] }, mark: { type: 'line', color: SECOND, strokeDash: [5, 4] }, encoding: { x: { field: 'v', type: 'quantitative' }, y: { field: 'v', type: 'quantitative' } } },
+          {
+            data: { values: rows },
+            mark: { type: 'circle', size: 18, opacity: 0.55 },
+            encoding: {
+              x: { field: 'predicted', type: 'quantitative', title: `Predicted ${target}`, scale: { domain: [lo, hi] } },
+              y: { field: 'observed', type: 'quantitative', title: `Observed ${target}`, scale: { domain: [lo, hi] } },
+            },
+          },
+        ],
+      }),
+  );
+  holdout.push(
+    await figure('residuals-predicted', `Residuals vs predicted, holdout rows (${head.name})`,
+      `Scatter of residuals (observed minus predicted ${target}) against predicted ${target} for ${rows.length} holdout rows; a pattern around the zero line means the model is biased in part of its range.`,
+      {
+        width: 340,
+        height: 300,
+        data: { values: rows },
+        layer: [
+          { mark: { type: 'rule', color: SECOND, strokeDash: [5, 4] }, encoding: { y: { datum: 0, type: 'quantitative' } } },
+          {
+            mark: { type: 'circle', size: 18, opacity: 0.55 },
+            encoding: {
+              x: { field: 'predicted', type: 'quantitative', title: `Predicted ${target}` },
+              y: { field: 'residual', type: 'quantitative', title: `Residual (observed − predicted) ${target}` },
+            },
+          },
+        ],
+      }),
+  );
+  if (groups) {
+    holdout.push(
+      await figure('residuals-group', `Residuals by group, holdout rows (${head.name})`,
+        `Box plot of residuals (observed minus predicted ${target}) for each of the ${new Set(groups).size} holdout groups (${recipe.groups}); a box away from zero is a group the model misjudges as a whole.`,
+        {
+          width: { step: 26 },
+          height: 240,
+          data: { values: rows },
+          layer: [
+            { mark: { type: 'rule', color: SECOND, strokeDash: [5, 4] }, encoding: { y: { datum: 0, type: 'quantitative' } } },
+            {
+              mark: { type: 'boxplot', extent: 1.5, size: 14, median: { color: 'white' } },
+              encoding: {
+                x: { field: 'group', type: 'nominal', title: `Group (${recipe.groups})`, axis: { labelAngle: -45 } },
+                y: { field: 'residual', type: 'quantitative', title: `Residual ${target}` },
+              },
+            },
+          ],
+        }),
+    );
+  }
+
+  const drivers: Figure[] = [];
+  if (head.explain) {
+    const imp = head.explain.importance.map((i) => ({ predictor: i.predictor, mean: i.mean, low: i.mean - i.sd, high: i.mean + i.sd }));
+    drivers.push(
+      await figure('importance', `Permutation importance on holdout rows (${head.name})`,
+        `Bars: the rise in holdout mean squared error when each predictor is shuffled, averaged over ${head.explain.repeats} repeats; whiskers span one standard deviation. Largest first: ${imp.slice(0, 3).map((i) => i.predictor).join(', ')}.`,
+        {
+          width: 320,
+          height: { step: 22 },
+          data: { values: imp },
+          encoding: { y: { field: 'predictor', type: 'nominal', sort: null, title: 'Predictor' } },
+          layer: [
+            { mark: { type: 'bar' }, encoding: { x: { field: 'mean', type: 'quantitative', title: `Increase in holdout MSE (${target} squared)` } } },
+            { mark: { type: 'rule', color: INK }, encoding: { x: { field: 'low', type: 'quantitative' }, x2: { field: 'high' } } },
+          ],
+        }),
+    );
+    for (const pd of head.explain.partialDependence) {
+      const numeric = pd.kind === 'number';
+      drivers.push(
+        await figure(`pd-${pd.predictor}`, `Partial dependence on ${pd.predictor} (${head.name})`,
+          `Average predicted ${target} over ${head.explain.pdRows} training rows when ${pd.predictor} is set to each value in turn (${numeric ? '5th to 95th percentile of the training values' : 'each category'}); it shows the model's response, not a cause.`,
+          {
+            width: 220,
+            height: 160,
+            data: { values: pd.points },
+            mark: numeric ? { type: 'line', point: true } : { type: 'bar' },
+            encoding: {
+              x: { field: 'x', type: numeric ? 'quantitative' : 'nominal', title: pd.predictor, scale: numeric ? { zero: false } : undefined },
+              y: { field: 'y', type: 'quantitative', title: `Mean predicted ${target}`, scale: { zero: false } },
+            },
+          }),
+      );
+    }
+  }
+
+  const grid: Figure[] = [];
+  const by = recipe.evaluation.choose_by;
+  for (const m of results.models) {
+    const varying = varyingParams(recipe.models[m.name].grid);
+    if (varying.length < 2) continue;
+    const [a, b] = varying;
+    const best = new Map<string, { a: string; b: string; score: number }>();
+    for (const c of m.cells) {
+      const v = c.pooled[by].value;
+      if (v === null) continue;
+      const key = `${formatSetting(c.cell[a])}|${formatSetting(c.cell[b])}`;
+      const prev = best.get(key);
+      if (!prev || (by === 'r2' ? v > prev.score : v < prev.score)) best.set(key, { a: formatSetting(c.cell[a]), b: formatSetting(c.cell[b]), score: v });
+    }
+    const rest = varying.slice(2);
+    grid.push(
+      await figure(`grid-${m.name}`, `Cross-validated ${by.toUpperCase()} over ${a} and ${b} (${m.name})`,
+        `Heat map of the pooled cross-validated ${by} for each combination of ${a} and ${b}${rest.length ? `, taking the best over ${rest.join(', ')}` : ''}; ${by === 'r2' ? 'higher' : 'lower'} is better.`,
+        {
+          width: { step: 72 },
+          height: { step: 40 },
+          data: { values: [...best.values()] },
+          encoding: {
+            x: { field: 'a', type: 'ordinal', title: a, sort: null },
+            y: { field: 'b', type: 'ordinal', title: b, sort: null },
+          },
+          layer: [
+            {
+              mark: 'rect',
+              encoding: {
+                color: {
+                  field: 'score',
+                  type: 'quantitative',
+                  title: `${by} (CV)`,
+                  scale: { scheme: 'greens', reverse: by !== 'r2' },
+                },
+              },
+            },
+            { mark: { type: 'text', fontSize: 11, color: INK }, encoding: { text: { field: 'score', type: 'quantitative', format: '.3~r' } } },
+          ],
+        }),
+    );
+  }
+  return { holdout, drivers, grid };
+}

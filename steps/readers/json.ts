@@ -1,0 +1,90 @@
+import { readFileSync } from 'node:fs';
+import { DendrologError, messages } from '../../runner/messages.js';
+import { closest } from '../../runner/suggest.js';
+import { columnSink, convertValue, showValue, type ReadRequest, type ReadResult } from './columns.js';
+import { typeLabel } from './values.js';
+
+/**
+ * Reads a JSON file holding an array of records (`[{"a": 1}, ...]`) or an object of columns
+ * (`{"a": [1, 2]}`). A column is in the file when any record has the key; a record lacking a
+ * declared key has it missing. Values convert to their declared type (text parses as in CSV; a
+ * number in a string column becomes its text; a number is never read as a date).
+ *
+ * Example: `readJson({path, display: 'a.json', columns: {id: 'string'}, ...}).columns[0].values`
+ */
+export function readJson(req: ReadRequest): ReadResult {
+  const { display } = req;
+  let doc: unknown;
+  try {
+    doc = JSON.parse(readFileSync(req.path, 'utf8'));
+  } catch (e) {
+    throw new DendrologError(messages.sourceUnreadable(display, 'JSON', (e as Error).message), 1);
+  }
+  let get: (name: string) => ((row: number) => unknown) | null;
+  let rows: number;
+  let fileColumns: string[];
+  let where: (row: number) => string;
+  if (Array.isArray(doc)) {
+    const records = doc;
+    const keys = new Set<string>();
+    records.forEach((r, i) => {
+      if (r === null || typeof r !== 'object' || Array.isArray(r)) {
+        throw new DendrologError(messages.jsonShape(display, `element ${i + 1} of the array is ${showValue(r)}, not a record`), 1);
+      }
+      for (const k of Object.keys(r)) keys.add(k);
+    });
+    fileColumns = [...keys];
+    rows = records.length;
+    get = (name) => (keys.has(name) ? (i) => (records[i] as Record<string, unknown>)[name] : null);
+    where = (i) => `record ${i + 1}`;
+  } else if (doc !== null && typeof doc === 'object') {
+    const cols = doc as Record<string, unknown>;
+    fileColumns = Object.keys(cols);
+    rows = -1;
+    for (const [k, v] of Object.entries(cols)) {
+      if (!Array.isArray(v)) throw new DendrologError(messages.jsonShape(display, `"${k}" is not an array`), 1);
+      if (rows >= 0 && v.length !== rows) throw new DendrologError(messages.jsonShape(display, `column "${k}" has ${v.length} values, but the columns before it have ${rows}`), 1);
+      rows = v.length;
+    }
+    rows = Math.max(rows, 0);
+    get = (name) => (Array.isArray(cols[name]) ? (i) => (cols[name] as unknown[])[i] : null);
+    where = (i) => `value ${i + 1} of the column`;
+  } else {
+    throw new DendrologError(messages.jsonShape(display, `the file holds ${showValue(doc)}`), 1);
+  }
+  return buildColumns(req, rows, fileColumns, get, where);
+}
+
+/**
+ * Shared by the in-memory readers (JSON, Arrow): checks declared against file columns, then converts
+ * each declared column. `get(name)` returns a row accessor, or null when the file lacks the column.
+ */
+export function buildColumns(
+  req: ReadRequest,
+  rows: number,
+  fileColumns: string[],
+  get: (name: string) => ((row: number) => unknown) | null,
+  where: (row: number) => string,
+): ReadResult {
+  const { display } = req;
+  const missing = new Set(req.missing);
+  const opts = { decimal: '.' as const, dateFormat: req.dateFormat };
+  const undeclared = fileColumns.filter((c) => !(c in req.columns));
+  if (undeclared.length > 0 && req.undeclared === 'error') throw new DendrologError(messages.undeclaredColumns(display, undeclared), 1);
+  const wanted = Object.entries(req.columns);
+  if (req.undeclared === 'text') for (const c of undeclared) wanted.push([c, 'string']);
+  const columns = wanted.map(([name, type]) => {
+    const at = get(name);
+    if (!at) throw new DendrologError(messages.declaredColumnMissing(display, name, fileColumns, closest(name, fileColumns)), 1);
+    const sink = columnSink(name, type);
+    sink.reserve(rows);
+    for (let i = 0; i < rows; i++) {
+      const raw = at(i);
+      const v = convertValue(raw, type, missing, opts);
+      if (v === undefined) throw new DendrologError(messages.valueParseAt(display, where(i), name, showValue(raw), typeLabel(type, req.dateFormat)), 1);
+      sink.add(v);
+    }
+    return sink.finish();
+  });
+  return { columns, rows, fileColumns, undeclared };
+}
