@@ -40,6 +40,12 @@ export interface ForestOptions {
   maxDepth: number | null;
   /** Minimum rows in a leaf, counted as bootstrap draws (a row drawn twice counts twice), as in randomForest. */
   minLeaf: number;
+  /**
+   * Smallest node, in draws, that may still be split (an integer >= 2); default 2 × minLeaf, i.e. no
+   * limit beyond minLeaf. ranger's and randomForest's node-size rule (min.node.size = k: nodes of k
+   * or fewer samples are not split, leaves may be smaller) is minLeaf 1 with minSplit k + 1.
+   */
+  minSplit?: number;
   /** Integer >= 1: features tried at each split; 0 < mtry < 1: that fraction of the predictors, rounded down, at least 1. */
   mtry: number;
   /** Rows drawn per tree as a fraction of the training rows (0, 1]; default 1. */
@@ -50,7 +56,8 @@ export interface ForestOptions {
   seed: string;
   /**
    * Threads growing trees, this one included (so 2 = this thread plus one worker thread); default 1,
-   * which uses no worker threads. Results do not depend on it.
+   * which uses no worker threads. Small fits (see MIN_DRAWS_FOR_THREADS) use one thread regardless.
+   * Results do not depend on it.
    */
   workers?: number;
   /** Quantile bins per feature, 2..256; default 256. */
@@ -62,6 +69,8 @@ export interface ForestSettings {
   trees: number;
   maxDepth: number | null;
   minLeaf: number;
+  /** Smallest node (in draws) that may be split; at least 2 × minLeaf. */
+  minSplit: number;
   /** Features tried at each split, as a count. */
   mtry: number;
   sampleFraction: number;
@@ -95,6 +104,14 @@ export interface Forest {
 }
 
 /**
+ * Below this many draws over all trees (rows per tree × trees) a fit stays in the calling thread
+ * whatever `workers` says: a tree costs roughly half a microsecond per draw, so such a fit takes under
+ * about half a second, less than starting a worker thread and warming up its compiler costs. Results
+ * are identical either way.
+ */
+export const MIN_DRAWS_FOR_THREADS = 1_000_000;
+
+/**
  * Fits a random forest of regression trees.
  *
  * Example: `await fitForest(x, y, { trees: 300, maxDepth: null, minLeaf: 5, mtry: 1 / 3, seed: 's', workers: 2 })`
@@ -114,12 +131,13 @@ export async function fitForest(x: Matrix, y: Float64Array, opts: ForestOptions)
 export async function fitDecisionTree(
   x: Matrix,
   y: Float64Array,
-  opts: { maxDepth: number | null; minLeaf: number; seed: string; maxBins?: number },
+  opts: { maxDepth: number | null; minLeaf: number; seed: string; minSplit?: number; maxBins?: number },
 ): Promise<Forest> {
   const settings = resolveSettings(x, y, {
     trees: 1,
     maxDepth: opts.maxDepth,
     minLeaf: opts.minLeaf,
+    minSplit: opts.minSplit,
     mtry: Math.max(1, x.columns.length),
     sampleFraction: 1,
     replace: false,
@@ -135,6 +153,7 @@ function resolveSettings(x: Matrix, y: Float64Array, opts: ForestOptions): Fores
   const trees = checkInteger('trees', opts.trees, 1);
   const maxDepth = checkMaxDepth(opts.maxDepth);
   const minLeaf = checkInteger('min_leaf', opts.minLeaf, 1);
+  const minSplit = Math.max(2 * minLeaf, checkInteger('min_split', opts.minSplit ?? 2, 2));
   const sampleFraction = checkSampleFraction(opts.sampleFraction ?? DEFAULT_SAMPLE_FRACTION);
   const replace = opts.replace ?? DEFAULT_REPLACE;
   if (typeof replace !== 'boolean') throw new EngineInputError(msg.replace(replace));
@@ -146,7 +165,7 @@ function resolveSettings(x: Matrix, y: Float64Array, opts: ForestOptions): Fores
   checkTarget(y, x.rows);
   if (x.rows < 2 * minLeaf) throw new EngineInputError(msg.tooFewRows(x.rows, minLeaf));
   const sampleSize = Math.max(1, Math.round(sampleFraction * x.rows));
-  return { trees, maxDepth, minLeaf, mtry, sampleFraction, replace, sampleSize, seed: opts.seed, maxBins };
+  return { trees, maxDepth, minLeaf, minSplit, mtry, sampleFraction, replace, sampleSize, seed: opts.seed, maxBins };
 }
 
 async function fitResolved(
@@ -158,7 +177,7 @@ async function fitResolved(
 ): Promise<Forest> {
   const n = x.rows;
   const p = x.columns.length;
-  const threaded = workers > 1 && s.trees > 1;
+  const threaded = workers > 1 && s.trees > 1 && s.sampleSize * s.trees >= MIN_DRAWS_FOR_THREADS;
   const codes = threaded ? new Uint8Array(new SharedArrayBuffer(n * p)) : new Uint8Array(n * p);
   const binned: BinnedData = binColumns(x.columns, s.maxBins, codes);
   let mean = 0;
@@ -191,6 +210,7 @@ async function fitResolved(
   const params: GrowParams = {
     maxDepth: s.maxDepth,
     minLeaf: s.minLeaf,
+    minSplit: s.minSplit,
     mtry: s.mtry,
     sampleSize: s.sampleSize,
     replace: s.replace,

@@ -47,6 +47,7 @@ export function serializeForest(f: Forest): Uint8Array {
       trees: o.trees,
       maxDepth: o.maxDepth,
       minLeaf: o.minLeaf,
+      minSplit: o.minSplit,
       mtry: o.mtry,
       sampleFraction: o.sampleFraction,
       replace: o.replace,

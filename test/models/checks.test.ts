@@ -65,6 +65,7 @@ describe('fitForest input checks', () => {
     await rejects(fitForest(x, y, { ...opts, trees: 1.5 }), msg.notInteger('trees', 1.5, 1));
     await rejects(fitForest(x, y, { ...opts, minLeaf: 0 }), msg.notInteger('min_leaf', 0, 1));
     await rejects(fitForest(x, y, { ...opts, maxDepth: 0 }), msg.maxDepth(0));
+    await rejects(fitForest(x, y, { ...opts, minSplit: 1 }), msg.notInteger('min_split', 1, 2));
     await rejects(fitForest(x, y, { ...opts, sampleFraction: 0 }), msg.sampleFraction(0));
     await rejects(fitForest(x, y, { ...opts, sampleFraction: 1.5 }), msg.sampleFraction(1.5));
     await rejects(fitForest(x, y, { ...opts, workers: 0 }), msg.notInteger('workers', 0, 1));

@@ -28,13 +28,15 @@ async function meanTestR2(opts: Omit<ForestOptions, 'seed'>): Promise<number> {
 
 // Each dendrolog setting below follows the same rule as the ranger setting of that name:
 // ranger's min.node.size = 1 splits every node of 2+ samples, as dendrolog's min_leaf = 1 does;
-// max.depth = 4 and dendrolog's maxDepth = 4 both allow 4 levels of splits below the root.
+// max.depth = 4 and dendrolog's maxDepth = 4 both allow 4 levels of splits below the root;
+// ranger's default min.node.size = 5 (nodes of 5 or fewer samples stay leaves) is min_leaf 1, min_split 6.
 const sameRule: [string, Omit<ForestOptions, 'seed'>][] = [
   ['mtry3-node1-300', { trees: 300, mtry: 3, minLeaf: 1, maxDepth: null }],
   ['mtry5-node1-300', { trees: 300, mtry: 5, minLeaf: 1, maxDepth: null }],
   ['mtry10-node1-100', { trees: 100, mtry: 10, minLeaf: 1, maxDepth: null }],
   ['mtry3-node1-depth4-300', { trees: 300, mtry: 3, minLeaf: 1, maxDepth: 4 }],
   ['mtry3-node1-noreplace632-300', { trees: 300, mtry: 3, minLeaf: 1, maxDepth: null, replace: false, sampleFraction: 0.632 }],
+  ['defaults-100', { trees: 100, mtry: 3, minLeaf: 1, minSplit: 6, maxDepth: null }],
 ];
 
 describe('forest test R² on Friedman #1 against ranger', () => {

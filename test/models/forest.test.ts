@@ -10,6 +10,7 @@ import {
   fitDecisionTree,
   fitForest,
   impurityImportance,
+  MIN_DRAWS_FOR_THREADS,
   oob,
   permutationImportance,
   predictForest,
@@ -36,8 +37,11 @@ describe('defaults', () => {
 
 describe('reproducibility', () => {
   it('gives bit-identical forests, predictions, OOB and importances with 1 and 2 worker threads', async () => {
-    const one = await fitForest(train.x, train.y, { ...base, seed: 'same', workers: 1 });
-    const two = await fitForest(train.x, train.y, { ...base, seed: 'same', workers: 2 });
+    // Large enough that two threads are really used.
+    const big = friedman1(10000, 'forest-threads');
+    const opts = { ...base, trees: Math.ceil(MIN_DRAWS_FOR_THREADS / big.x.rows), seed: 'same' };
+    const one = await fitForest(big.x, big.y, { ...opts, workers: 1 });
+    const two = await fitForest(big.x, big.y, { ...opts, workers: 2 });
     expect(sameBits(serializeForest(one), serializeForest(two))).toBe(true);
     expect(sameBits(predictForest(one, heldOut.x), predictForest(two, heldOut.x))).toBe(true);
     expect(sameBits(oob(one).predictions, oob(two).predictions)).toBe(true);
