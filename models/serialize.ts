@@ -112,6 +112,16 @@ export function deserializeForest(bytes: Uint8Array): Forest {
     throw bad('the header is not valid JSON');
   }
   at += headerLength;
+  if (
+    header === null ||
+    typeof header !== 'object' ||
+    !Array.isArray(header.featureNames) ||
+    !Number.isInteger(header.trainingRows) ||
+    typeof header.options !== 'object' ||
+    typeof header.oob !== 'object'
+  ) {
+    throw bad('the header lacks feature names, row count, settings or OOB summary');
+  }
   const p = header.featureNames.length;
   const n = header.trainingRows;
   const width = header.featureWidth;

@@ -54,5 +54,11 @@ describe('serializeForest / deserializeForest', () => {
     const other = bytes.slice();
     other[8] = 99;
     expect(() => deserializeForest(other)).toThrow(/format version 99/);
+    const header = new TextEncoder().encode('{"kind":"random_forest"}');
+    const noFields = new Uint8Array(16 + header.length);
+    noFields.set(bytes.subarray(0, 12));
+    new DataView(noFields.buffer).setUint32(12, header.length, true);
+    noFields.set(header, 16);
+    expect(() => deserializeForest(noFields)).toThrow(/header lacks/);
   });
 });
