@@ -4,7 +4,7 @@ import { dirname, isAbsolute, relative, resolve } from 'node:path';
 import { sha256 } from './hash.js';
 import { DendrologError, messages, RecipeErrors } from './messages.js';
 import { normalizeRecipe } from './normalize.js';
-import type { ColumnType, Recipe } from './recipe-types.js';
+import type { ColumnType, Recipe, SourceSpec } from './recipe-types.js';
 import { closest } from './suggest.js';
 import { validateRecipe } from './validate.js';
 import { parseValue } from '../steps/readers/values.js';
@@ -91,6 +91,45 @@ function checkFiles(recipe: Recipe, origin: RecipeOrigin): string[] {
   return problems;
 }
 
+const TEXT_OPTIONS = ['delimiter', 'decimal', 'header'];
+const NETCDF_OPTIONS = ['variables', 'select'];
+
+/**
+ * Checks one source's read options against its format and columns, from the recipe alone: options
+ * of another format, a decimal comma with a comma delimiter, NetCDF variables that are not
+ * declared, and select bounds of the wrong kind.
+ */
+function checkSource(s: SourceSpec, name: string, doc: PositionedDocument): string[] {
+  const problems: string[] = [];
+  const add = (path: (string | number)[], msg: string) => problems.push(`${doc.where(['sources', name, ...path])}: ${msg}`);
+  const raw = ((doc.value as Record<string, Record<string, Record<string, unknown>>>).sources?.[name] ?? {}) as Record<string, unknown>;
+  const text = s.format === 'csv' || s.format === 'tsv';
+  for (const k of TEXT_OPTIONS) if (k in raw && !text) add([k], messages.sourceOptionNotForFormat(k, s.format, 'csv and tsv'));
+  for (const k of NETCDF_OPTIONS) if (k in raw && s.format !== 'netcdf') add([k], messages.sourceOptionNotForFormat(k, s.format, 'netcdf'));
+  if (text && s.decimal === ',' && s.delimiter === ',') {
+    add(['decimal'], messages.schemaOther(`sources.${name}.decimal`, 'a decimal comma needs another delimiter; set delimiter: ";" (or a tab)'));
+  }
+  if (s.format === 'netcdf') {
+    if (!s.variables) add([], messages.netcdfVariablesNeeded());
+    (s.variables ?? []).forEach((v, i) => {
+      if (!(v in s.columns)) add(['variables', i], messages.netcdfVariableNotDeclared(v));
+    });
+    for (const [dim, range] of Object.entries(s.select ?? {})) {
+      const type = s.columns[dim];
+      if (!type) {
+        add(['select', dim], messages.unknownColumn(dim, `sources.${name}.select`, Object.keys(s.columns), closest(dim, Object.keys(s.columns))));
+        continue;
+      }
+      range.forEach((b, i) => {
+        if (b === null) return;
+        if (type === 'date' && (typeof b !== 'string' || parseValue(b, 'date', new Set()) == null)) add(['select', dim, i], messages.netcdfSelectValue(dim, b, 'date (YYYY-MM-DD)'));
+        if (type === 'number' && typeof b !== 'number') add(['select', dim, i], messages.netcdfSelectValue(dim, b, 'number'));
+      });
+    }
+  }
+  return problems;
+}
+
 /** Column names referenced as d.name or d["name"] in an arquero expression. */
 export function referencedColumns(expr: string): string[] {
   const out = new Set<string>();
@@ -124,6 +163,8 @@ function checkMeaning(recipe: Recipe, doc: PositionedDocument): string[] {
     add(path, messages.unknownColumn(column, step, [...cols.keys()], closest(column, cols.keys())));
     return false;
   };
+
+  for (const name of sourceNames) problems.push(...checkSource(recipe.sources[name], name, doc));
 
   recipe.join.forEach((j, i) => {
     const other = recipe.sources[j.with];

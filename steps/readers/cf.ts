@@ -18,8 +18,9 @@ const DEFAULT_FILL: Partial<Record<NcType, number>> = {
   ushort: 65535,
   int: -2147483647,
   uint: 4294967295,
-  int64: -9223372036854775806,
-  uint64: 18446744073709551614,
+  // as the reader sees them: 64-bit integers rounded to the nearest double
+  int64: Number(-9223372036854775806n),
+  uint64: Number(18446744073709551614n),
   float: Math.fround(9.969209968386869e36),
   double: 9.969209968386869e36,
 };

@@ -135,13 +135,13 @@ async function openHdf5(path: string, display: string): Promise<NcFile> {
   // h5wasm's Node build reads the file where it is (and ships its WebAssembly inside the package)
   const h5wasm = (await import('h5wasm/node')).default;
   await h5wasm.ready;
-  if (statSync(path).size < 512) throw new DendrologError(messages.netcdfTruncated(display, 'it is too short to hold an HDF5 header'), 1);
-  let file: InstanceType<typeof h5wasm.File>;
-  try {
-    file = new h5wasm.File(path, 'r');
-  } catch (e) {
-    throw new DendrologError(messages.netcdfTruncated(display, `HDF5 could not open it: ${(e as Error).message}`), 1);
+  const short = hdf5Shortfall(path);
+  if (short) throw new DendrologError(messages.netcdfTruncated(display, short), 1);
+  const opened = quietly(() => new h5wasm.File(path, 'r'));
+  if ('error' in opened || !(Number((opened.value as unknown as { file_id: bigint }).file_id) > 0)) {
+    throw new DendrologError(messages.netcdfTruncated(display, `HDF5 could not open it: ${'error' in opened ? opened.error : opened.diagnostics || 'no reason given'}`), 1);
   }
+  const file = opened.value;
   try {
     const variables: NcVariable[] = [];
     const datasets = new Map<string, H5Dataset>();
@@ -170,12 +170,9 @@ async function openHdf5(path: string, display: string): Promise<NcFile> {
       variables,
       read(v, ranges) {
         const ds = datasets.get(v.name)!;
-        let data: unknown;
-        try {
-          data = v.shape.length === 0 ? (ds as unknown as { value: unknown }).value : ds.slice(ranges);
-        } catch (e) {
-          throw new DendrologError(messages.netcdfTruncated(display, `variable "${v.name}" cannot be read: ${(e as Error).message}`), 1);
-        }
+        const got = quietly(() => (v.shape.length === 0 ? (ds as unknown as { value: unknown }).value : ds.slice(ranges)));
+        if ('error' in got) throw new DendrologError(messages.netcdfTruncated(display, `variable "${v.name}" cannot be read: ${got.error}`), 1);
+        const data = got.value;
         if (typeof data === 'number' || typeof data === 'bigint') return [Number(data)];
         if (data instanceof BigInt64Array || data instanceof BigUint64Array) return Float64Array.from(data, (x) => Number(x));
         if (ArrayBuffer.isView(data)) return data as unknown as ArrayLike<number>;
@@ -198,4 +195,63 @@ function h5Type(m: { type: number; size: number; signed: boolean }): NcType {
     return m.signed ? pair[0] : pair[1];
   }
   return 'string';
+}
+
+/**
+ * Runs an h5wasm call with HDF5's diagnostic printing (which goes straight to stderr) caught, so a
+ * bad file gives one message rather than a page of library internals.
+ */
+function quietly<T>(f: () => T): { value: T; diagnostics: string } | { error: string } {
+  const write = process.stderr.write;
+  let text = '';
+  process.stderr.write = ((chunk: string | Uint8Array) => {
+    text += String(chunk);
+    return true;
+  }) as typeof process.stderr.write;
+  try {
+    const value = f();
+    return { value, diagnostics: lastDiagnostic(text) };
+  } catch (e) {
+    return { error: lastDiagnostic(text) || (e instanceof Error ? e.message : String(e)) };
+  } finally {
+    process.stderr.write = write;
+  }
+}
+
+/** The innermost line of an HDF5 error stack, where the actual reason is. */
+function lastDiagnostic(text: string): string {
+  const lines = text.split('\n').filter((l) => /^\s*#\d+:/.test(l));
+  const last = lines[lines.length - 1];
+  return last ? last.replace(/^\s*#\d+:.* in [^(]+\(\): /, '').trim() : '';
+}
+
+/**
+ * Compares the end-of-file address an HDF5 superblock records with the file's size (HDF5 File
+ * Format Specification 3.0, section II.A): a shorter file was cut off. Returns why, or ''.
+ */
+function hdf5Shortfall(path: string): string {
+  const size = statSync(path).size;
+  const head = Buffer.alloc(96);
+  const fd = openSync(path, 'r');
+  let got: number;
+  try {
+    got = readSync(fd, head, 0, head.length, 0);
+  } finally {
+    closeSync(fd);
+  }
+  if (got < 24) return `it is ${size} bytes long, too short to hold an HDF5 superblock`;
+  const version = head[8];
+  let offsets: number;
+  let eofAt: number;
+  if (version === 0 || version === 1) {
+    offsets = head[13];
+    eofAt = 24 + (version === 1 ? 4 : 0) + 2 * offsets;
+  } else {
+    offsets = head[9];
+    eofAt = 12 + 2 * offsets;
+  }
+  if (offsets !== 8 && offsets !== 4) return '';
+  if (got < eofAt + offsets) return `it is ${size} bytes long, too short to hold an HDF5 superblock`;
+  const eof = offsets === 8 ? Number(head.readBigUInt64LE(eofAt)) : head.readUInt32LE(eofAt);
+  return eof > size ? `HDF5 records ${eof} bytes, the file has ${size}` : '';
 }
