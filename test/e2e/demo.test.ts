@@ -1,11 +1,15 @@
 import { spawnSync } from 'node:child_process';
-import { cpSync, existsSync, mkdtempSync, readFileSync, rmSync } from 'node:fs';
+import { cpSync, existsSync, mkdirSync, mkdtempSync, readFileSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join, resolve } from 'node:path';
+import { chromium, type Browser } from 'playwright-core';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { browserAvailable, CHROMIUM, CHROMIUM_ARGS } from './browser.js';
 
 const root = resolve(import.meta.dirname, '..', '..');
 const bin = join(root, 'bin', 'dendrolog.js');
+/** Screenshots land here for a person to look at (ignored by git). */
+export const SHOTS = join(root, 'test-output');
 
 /** Runs the built command line as a user would, with output to a pipe (not a terminal). */
 function dendrolog(args: string[], cwd: string) {
@@ -13,11 +17,15 @@ function dendrolog(args: string[], cwd: string) {
   return { code: r.status, out: r.stdout, err: r.stderr };
 }
 
+const SECTIONS = ['Headline', 'Data', 'Cleaning', 'Features', 'Protocol', 'Grid', 'Chosen model', 'Holdout', 'Drivers', 'Warnings', 'Cautions', 'Reproducibility'];
+
 describe('the demo recipe, end to end through the built command', () => {
   let work: string;
   let first: ReturnType<typeof dendrolog>;
   let second: ReturnType<typeof dendrolog>;
   let firstManifest: Record<string, unknown>;
+  let firstReport: string;
+  const outDir = () => join(work, 'lake', 'out', 'lake-chlorophyll');
 
   afterAll(() => rmSync(work, { recursive: true, force: true }));
 
@@ -26,10 +34,11 @@ describe('the demo recipe, end to end through the built command', () => {
     work = mkdtempSync(join(tmpdir(), 'dendrolog-demo-'));
     cpSync(join(root, 'recipes', 'lake-chlorophyll'), join(work, 'lake'), {
       recursive: true,
-      filter: (src) => !src.includes(`${join('lake-chlorophyll', 'out')}`),
+      filter: (src) => !src.includes(join('lake-chlorophyll', 'out')),
     });
     first = dendrolog(['run', 'lake/recipe.yaml', '--cache', 'cache'], work);
-    firstManifest = JSON.parse(readFileSync(join(work, 'lake', 'out', 'lake-chlorophyll', 'manifest.json'), 'utf8'));
+    firstManifest = JSON.parse(readFileSync(join(outDir(), 'manifest.json'), 'utf8'));
+    firstReport = readFileSync(join(outDir(), 'report.html'), 'utf8');
     second = dendrolog(['run', 'lake/recipe.yaml', '--cache', 'cache'], work);
   });
 
@@ -39,7 +48,7 @@ describe('the demo recipe, end to end through the built command', () => {
     expect(first.out).not.toContain('\r');
     expect(first.out).toMatch(/^ran +\d+\.\d\d s {2}source samples/m);
     expect(first.out).toContain('Report: lake/out/lake-chlorophyll/report.html');
-    for (const f of ['report.html', 'summary.md', 'manifest.json']) expect(existsSync(join(work, 'lake', 'out', 'lake-chlorophyll', f))).toBe(true);
+    for (const f of ['report.html', 'summary.md', 'manifest.json']) expect(existsSync(join(outDir(), f))).toBe(true);
   });
 
   it('takes every step from the cache the second time', () => {
@@ -50,15 +59,64 @@ describe('the demo recipe, end to end through the built command', () => {
   });
 
   it('writes an identical manifest apart from the timing block', () => {
-    const again = JSON.parse(readFileSync(join(work, 'lake', 'out', 'lake-chlorophyll', 'manifest.json'), 'utf8'));
+    const again = JSON.parse(readFileSync(join(outDir(), 'manifest.json'), 'utf8'));
     expect({ ...again, timing: null }).toEqual({ ...firstManifest, timing: null });
   });
 
+  it('writes a byte-identical report apart from the run timestamp and duration', () => {
+    const again = readFileSync(join(outDir(), 'report.html'), 'utf8');
+    const strip = (html: string) => html.replace(/started \S+, took [\d.]+ s/, 'started T, took D s');
+    expect(strip(again)).toBe(strip(firstReport));
+    expect(again).not.toBe(firstReport);
+  });
+
   it('holds the demo headline to what the invented data allow: the forest beats both baselines on the holdout', () => {
-    const models = firstManifest.models as { name: string; metrics: { holdout: { r2: { value: number } } }; skill: Record<string, number> }[];
+    const models = firstManifest.models as { name: string; skill: Record<string, number> }[];
     const forest = models.find((m) => m.name === 'forest')!;
     expect(forest.skill.mean).toBeGreaterThan(0.5);
     expect(forest.skill.linear).toBeGreaterThan(0);
     expect((firstManifest.headline as { label: string }).label).toBe('holdout');
+  });
+
+  describe('in a real browser', () => {
+    let browser: Browser | undefined;
+    const enabled = browserAvailable();
+    beforeAll(async () => {
+      if (enabled) browser = await chromium.launch({ executablePath: CHROMIUM, args: CHROMIUM_ARGS });
+    });
+    afterAll(async () => browser?.close());
+
+    it.runIf(enabled)('reads with no console errors and no network requests, every section and plot labelled; screenshots at 1280 and 390 px', async () => {
+      mkdirSync(SHOTS, { recursive: true });
+      for (const width of [1280, 390]) {
+        const page = await browser!.newPage({ viewport: { width, height: 900 } });
+        const errors: string[] = [];
+        const requests: string[] = [];
+        page.on('console', (m) => m.type() === 'error' && errors.push(m.text()));
+        page.on('pageerror', (e) => errors.push(String(e)));
+        page.on('request', (r) => requests.push(r.url()));
+        const url = `file://${join(outDir(), 'report.html')}`;
+        await page.goto(url);
+        expect(errors).toEqual([]);
+        expect(requests).toEqual([url]);
+        const headings = await page.locator('h2').allTextContents();
+        expect(headings).toEqual(SECTIONS);
+        const figures = await page.locator('figure.plot').all();
+        expect(figures.length).toBeGreaterThanOrEqual(6);
+        for (const f of figures) {
+          const label = (await f.locator('div.svg').getAttribute('aria-label')) ?? '';
+          const svgText = await f.locator('svg').first().innerHTML();
+          expect(await f.locator('figcaption strong').textContent()).toMatch(/\S/);
+          expect(svgText).toMatch(/role-title/);
+          expect(svgText).toMatch(/X-axis titled '[^']+'/);
+          expect(svgText).toMatch(/Y-axis titled '[^']+'/);
+          expect(label.length).toBeGreaterThan(0);
+        }
+        const overflow = await page.evaluate(() => document.documentElement.scrollWidth - window.innerWidth);
+        expect(overflow).toBeLessThanOrEqual(0);
+        await page.screenshot({ path: join(SHOTS, `demo-report-${width}.png`), fullPage: true });
+        await page.close();
+      }
+    });
   });
 });
