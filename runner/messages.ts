@@ -54,6 +54,8 @@ export const messages = {
   outOfRange: (where: string, got: unknown, rule: string) => `${where} is ${q(got)}, but it must be ${rule}`,
   badPattern: (where: string, got: unknown, rule: string) => `${where} is ${q(got)}; ${rule}`,
   schemaOther: (where: string, detail: string) => `${where}: ${detail}`,
+  /** For a predicate phrase such as "is empty; give a value". */
+  invalidValue: (where: string, predicate: string) => `${where} ${predicate}`,
   unsupportedVersion: (got: unknown) =>
     `dendrolog: ${q(got)} is not a recipe format this version reads; this version reads format 1 (write "dendrolog: 1")`,
 

@@ -113,20 +113,20 @@ function describeError(e: ErrorObject, path: (string | number)[], name: string, 
     case 'minItems':
       return { pos: doc.where(path), msg: messages.outOfRange(name, value, `a list of at least ${p.limit} item(s)`) };
     case 'uniqueItems':
-      return { pos: doc.where(path), msg: messages.schemaOther(name, 'lists the same value twice; remove the repeat') };
+      return { pos: doc.where(path), msg: messages.invalidValue(name, 'lists the same value twice; remove the repeat') };
     case 'minProperties':
-      return { pos: doc.where(path), msg: messages.schemaOther(name, 'is empty; give at least one entry') };
+      return { pos: doc.where(path), msg: messages.invalidValue(name, 'is empty; give at least one entry') };
     case 'maxProperties':
       return {
         pos: doc.where(path),
-        msg: messages.schemaOther(name, 'holds more than one step; give each step its own list item ("- ")'),
+        msg: messages.invalidValue(name, 'holds more than one step; give each step its own list item ("- ")'),
       };
     case 'minLength':
-      return { pos: doc.where(path), msg: messages.schemaOther(name, 'is empty; give a value') };
+      return { pos: doc.where(path), msg: messages.invalidValue(name, 'is empty; give a value') };
     case 'maxLength':
-      return { pos: doc.where(path), msg: messages.schemaOther(name, `is longer than ${p.limit} characters; shorten it`) };
+      return { pos: doc.where(path), msg: messages.invalidValue(name, `is longer than ${p.limit} characters; shorten it`) };
     case 'propertyNames':
-      return { pos: doc.where(path), msg: messages.schemaOther(name, 'has a name that is not a plain identifier') };
+      return { pos: doc.where(path), msg: messages.invalidValue(name, 'has a name that is not a plain identifier (letters, digits and underscores, starting with a letter)') };
     default:
       return { pos: doc.where(path), msg: messages.schemaOther(name, `${e.message ?? 'is not valid'}`) };
   }
