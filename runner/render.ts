@@ -22,9 +22,14 @@ export function renderReport(view: ReportView): string {
   return compiled(view);
 }
 
-/** Escapes text for a Markdown table cell or line. */
+/** Escapes text for a Markdown table cell or line: markup characters as entities, Markdown ones with a backslash. */
 function md(s: string): string {
-  return s.replace(/[\\`*_[\]<>|]/g, (c) => `\\${c}`).replace(/\n/g, ' ');
+  return s
+    .replace(/&/g, '&amp;')
+    .replace(/</g, '&lt;')
+    .replace(/>/g, '&gt;')
+    .replace(/[\\`*_[\]|]/g, (c) => `\\${c}`)
+    .replace(/\n/g, ' ');
 }
 
 /** summary.md: the headline, the metrics table and the warnings, short enough for a pull-request comment. */
