@@ -1,4 +1,7 @@
-import { relative } from 'node:path';
+import { Ajv } from 'ajv';
+import { readFileSync } from 'node:fs';
+import { join, relative } from 'node:path';
+import { packageRoot } from './paths.js';
 import type { Execution } from './execute.js';
 import { environment, gitState, type Environment } from './environment.js';
 import { sha256 } from './hash.js';
@@ -45,11 +48,12 @@ export function buildManifest(
   exec: Execution,
   results: Results,
   timing: { started: Date; seconds: number },
+  outDir: string,
 ): Manifest {
   const headlineModel = results.models.find((m) => m.name === results.chosenModel)!;
   return {
     manifest: 1,
-    recipe: { file: relative(process.cwd(), origin.path) || origin.path, sha256: origin.sha256, normalized: recipe },
+    recipe: { file: relative(outDir, origin.path).split('\\').join('/'), sha256: origin.sha256, normalized: recipe },
     seed: recipe.seed,
     sources: results.sources.map((s) => ({ name: s.name, file: s.file, sha256: s.sha256, rows: s.rows, columns: s.columns })),
     steps: exec.records.map((r) => ({ id: r.id, kind: r.kind, key: r.key, output: r.output })),
@@ -87,4 +91,19 @@ export function buildManifest(
       steps: exec.records.map((r) => ({ id: r.id, status: r.status, seconds: Number(r.seconds.toFixed(3)) })),
     },
   };
+}
+
+let validator: ReturnType<Ajv['compile']> | undefined;
+
+/**
+ * Checks a manifest against schemas/manifest.v1.json; returns the problems (empty when valid).
+ * The runner calls it before writing, so a manifest on disk always matches its schema.
+ */
+export function manifestProblems(manifest: unknown): string[] {
+  if (!validator) {
+    const schema = JSON.parse(readFileSync(join(packageRoot(), 'schemas', 'manifest.v1.json'), 'utf8'));
+    validator = new Ajv({ allErrors: true, strict: false, validateFormats: false }).compile(schema);
+  }
+  if (validator(manifest)) return [];
+  return (validator.errors ?? []).map((e) => `${e.instancePath || '/'} ${e.message ?? 'is not valid'}`);
 }

@@ -14,6 +14,7 @@ import type { Plan } from './plan.js';
 import type { Recipe } from './recipe-types.js';
 import type { FrameOutput, Warning } from './step-types.js';
 import { WarningLog } from './warnings.js';
+import { column } from './frame.js';
 
 export interface SourceResult {
   name: string;
@@ -56,6 +57,10 @@ export interface Results {
   warnings: Warning[];
   /** Holdout observations and the chosen model's predictions, for the plots. */
   holdoutRows: { observed: number[]; predicted: number[]; groups: string[] | null };
+  /** The headline model's final fit, for model.bin. */
+  headlineFit: FitOutput;
+  /** The headline model's prediction for every modelling row, in model-table order. */
+  predictions: { row: number; set: 'training' | 'holdout'; observed: number; predicted: number }[];
 }
 
 /**
@@ -121,6 +126,7 @@ export function gatherResults(recipe: Recipe, plan: Plan, exec: Execution): Resu
   for (const w of exec.warnings) warnings.add(w.code, w.message, w.count);
   evaluationWarnings(recipe, models, best, scores.get(best.name)!, warnings);
   const bestScore = scores.get(best.name)!;
+  const targetValues = column((out(plan.modelTable) as FrameOutput).frame, recipe.target).values as Float64Array;
   return {
     sources,
     cleaning,
@@ -138,6 +144,11 @@ export function gatherResults(recipe: Recipe, plan: Plan, exec: Execution): Resu
     chosenModel: best.name,
     warnings: warnings.list(),
     holdoutRows: { observed: bestScore.observed, predicted: bestScore.predictions, groups: bestScore.groups },
+    headlineFit: out(plan.models[best.name].fit) as FitOutput,
+    predictions: [
+      ...split.train.map((row, k) => ({ row, set: 'training' as const, observed: targetValues[row], predicted: bestScore.trainingPredictions[k] })),
+      ...split.test.map((row, k) => ({ row, set: 'holdout' as const, observed: targetValues[row], predicted: bestScore.predictions[k] })),
+    ].sort((a, b) => a.row - b.row),
   };
 }
 

@@ -1,7 +1,7 @@
 import { resolve } from 'node:path';
 import { Cache } from './cache.js';
 import { localExecutor } from './execute.js';
-import { buildManifest, type Manifest } from './manifest.js';
+import { buildManifest, manifestProblems, type Manifest } from './manifest.js';
 import { writeFolderAtomically } from './output.js';
 import { planRecipe } from './plan.js';
 import type { Progress } from './progress.js';
@@ -10,6 +10,7 @@ import { renderReport, renderSummary } from './render.js';
 import { reportView } from './report-view.js';
 import { gatherResults, type Results } from './results.js';
 import { buildFigures } from './plots.js';
+import { writeModelFile } from './model-file.js';
 
 export interface RunOptions {
   /** Output folder; default `<recipe folder>/<report.folder>/<recipe name>`. */
@@ -63,16 +64,34 @@ export async function runRecipe(recipePath: string, opts: RunOptions): Promise<R
   // 6: gather
   const results = gatherResults(recipe, plan, execution);
   // 7: render and write
-  const manifest = buildManifest(recipe, origin, execution, results, {
-    started,
-    seconds: (performance.now() - t0) / 1000,
-  });
-  const view = reportView(recipe, results, manifest, await buildFigures(recipe, results));
   const outDir = resolve(opts.out ?? resolve(origin.dir, recipe.report.folder, recipe.name));
+  const manifest = buildManifest(
+    recipe,
+    origin,
+    execution,
+    results,
+    { started, seconds: (performance.now() - t0) / 1000 },
+    outDir,
+  );
+  const problems = manifestProblems(manifest);
+  if (problems.length > 0) throw new Error(`the manifest does not match schemas/manifest.v1.json: ${problems.join('; ')}`);
+  const view = reportView(recipe, results, manifest, await buildFigures(recipe, results));
   writeFolderAtomically(outDir, {
     'report.html': renderReport(view),
     'summary.md': renderSummary(view),
     'manifest.json': JSON.stringify(manifest, null, 2) + '\n',
+    'model.bin': writeModelFile(results.headlineFit, recipe),
+    'predictions.csv': predictionsCsv(results),
   });
   return { outDir, manifest, results };
+}
+
+/**
+ * predictions.csv: the headline model's prediction for every modelling row, in input order
+ * (model_row counts the rows that survived cleaning, from 0), with the set each row was in.
+ */
+export function predictionsCsv(results: Results): string {
+  const lines = ['model_row,set,observed,predicted'];
+  for (const p of results.predictions) lines.push(`${p.row},${p.set},${p.observed},${p.predicted}`);
+  return lines.join('\n') + '\n';
 }

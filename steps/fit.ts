@@ -1,5 +1,6 @@
 import type { FeatureStep, ModelKind } from '../runner/recipe-types.js';
 import type { FrameOutput, StepDefinition } from '../runner/step-types.js';
+import { column, type Frame } from '../runner/frame.js';
 import type { ChooseOutput } from './choose.js';
 import { applyDesign, learnDesign, targetOf, type LearnedDesign } from './design.js';
 import type { HoldoutOutput } from './holdout.js';
@@ -23,12 +24,14 @@ export interface FitOutput {
   bytes: string;
   oobR2: number | null;
   trainingRows: number;
+  /** Range of each numeric predictor over the training rows: outside it, a tree model cannot extrapolate. */
+  ranges: Record<string, { min: number; max: number }>;
 }
 
 /** Refits a model's chosen cell on all training rows (never the holdout), with features learned on the same rows. */
 export const fit: StepDefinition<FitParams, FitOutput> = {
   kind: 'fit',
-  version: 1,
+  version: 2,
   codec: 'json',
   usesSeed: true,
   async run(inputs, params, ctx) {
@@ -49,7 +52,26 @@ export const fit: StepDefinition<FitParams, FitOutput> = {
       bytes: Buffer.from(fitted.bytes).toString('base64'),
       oobR2: fitted.oobR2 ?? null,
       trainingRows: split.train.length,
+      ranges: trainingRanges(frame, params.predictors, split.train),
     };
   },
   summary: (o) => `${o.trainingRows.toLocaleString('en')} training rows`,
 };
+
+/** Min and max of each numeric predictor over some rows (missing values skipped). */
+export function trainingRanges(frame: Frame, predictors: string[], rows: number[]): Record<string, { min: number; max: number }> {
+  const out: Record<string, { min: number; max: number }> = {};
+  for (const p of predictors) {
+    const c = column(frame, p);
+    if (!(c.values instanceof Float64Array)) continue;
+    let min = Infinity;
+    let max = -Infinity;
+    for (const r of rows) {
+      const v = c.values[r];
+      if (v < min) min = v;
+      if (v > max) max = v;
+    }
+    if (min <= max) out[p] = { min, max };
+  }
+  return out;
+}

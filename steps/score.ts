@@ -33,6 +33,8 @@ export interface ScoreOutput {
   observed: number[];
   /** Per predictor, holdout rows whose value lies outside the training rows' range. */
   outsideRange: Record<string, number>;
+  /** In-sample predictions of the training rows, in the holdout's train order. */
+  trainingPredictions: number[];
   /** The group of each holdout row, when the recipe names groups. */
   groups: string[] | null;
 }
@@ -40,7 +42,7 @@ export interface ScoreOutput {
 /** Scores a fitted model once on the holdout rows, with seeded bootstrap intervals. */
 export const score: StepDefinition<ScoreParams, ScoreOutput> = {
   kind: 'score',
-  version: 2,
+  version: 3,
   codec: 'json',
   usesSeed: true,
   async run(inputs, params, ctx) {
@@ -106,6 +108,7 @@ export const score: StepDefinition<ScoreParams, ScoreOutput> = {
       predictions: Array.from(pred),
       observed: Array.from(y),
       outsideRange,
+      trainingPredictions: Array.from(trainPred),
       groups: params.groups ? split.test.map((r) => String(column(frame, params.groups!).values[r])) : null,
     };
   },

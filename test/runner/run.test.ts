@@ -33,12 +33,12 @@ async function failure(files: Record<string, string>): Promise<DendrologError & 
 const withoutTiming = (m: object) => ({ ...m, timing: undefined });
 
 describe('running a recipe', () => {
-  it('scores a linear model almost perfectly on nearly linear data, and writes the three outputs', async () => {
+  it('scores a linear model almost perfectly on nearly linear data, and writes its five outputs', async () => {
     const { result } = await run({ 'data/obs.csv': smallData() });
     const linear = result.results.models.find((m) => m.name === 'linear')!;
     expect(linear.holdout.r2.value).toBeGreaterThan(0.99);
     expect(result.results.chosenModel).toBe('linear');
-    expect(readdirSync(result.outDir).sort()).toEqual(['manifest.json', 'report.html', 'summary.md']);
+    expect(readdirSync(result.outDir).sort()).toEqual(['manifest.json', 'model.bin', 'predictions.csv', 'report.html', 'summary.md']);
   });
 
   it('takes every step from the cache the second time, with an identical manifest apart from timing', async () => {
