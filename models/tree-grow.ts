@@ -96,8 +96,8 @@ export class TreeBuilder {
   private readonly counts: Int32Array;
   /** Rows of the current nodes in [0, rows); [rows, 2 rows) is scratch for stable partitioning. */
   private readonly idx: Int32Array;
-  private readonly w: Float64Array;
-  private readonly wy: Float64Array;
+  /** Per row: [2r] weight × centred target, [2r + 1] weight (draw count); interleaved so one cache line serves both. */
+  private readonly wwy: Float64Array;
   private readonly perm: Int32Array;
   /** Dense all-feature histograms (interleaved weighted-target sum, weight), pooled. */
   private bufs: Float64Array[] = [];
@@ -145,8 +145,7 @@ export class TreeBuilder {
     const n = data.rows;
     this.counts = new Int32Array(n);
     this.idx = new Int32Array(2 * n);
-    this.w = new Float64Array(n);
-    this.wy = new Float64Array(n);
+    this.wwy = new Float64Array(2 * n);
     this.perm = new Int32Array(data.features);
     this.sFeat = new Int32Array(64 * this.mtry);
     const cap = Math.max(16, Math.min(2 * Math.ceil(params.sampleSize / Math.max(1, params.minLeaf)) + 1, 1 << 20));
@@ -169,8 +168,7 @@ export class TreeBuilder {
     const yc = d.yc;
     const counts = this.counts;
     const idx = this.idx;
-    const w = this.w;
-    const wy = this.wy;
+    const wwy = this.wwy;
     const mtry = this.mtry;
     const denseMin = this.denseMin;
     const rng = rngFor(this.prm.seed, 'tree', treeIndex);
@@ -200,9 +198,10 @@ export class TreeBuilder {
       const c = counts[r];
       if (c > 0) {
         idx[m++] = r;
-        w[r] = c;
-        wy[r] = c * yc[r];
-        rootS += wy[r];
+        const a = c * yc[r];
+        wwy[2 * r] = a;
+        wwy[2 * r + 1] = c;
+        rootS += a;
         rootW += c;
       }
     }
@@ -410,12 +409,11 @@ export class TreeBuilder {
     const codes = this.d.codes;
     const offsets = this.d.offsets;
     const idx = this.idx;
-    const w = this.w;
-    const wy = this.wy;
+    const wwy = this.wwy;
     for (let i = from; i < to; i++) {
       const r = idx[i];
-      const a = wy[r];
-      const c = w[r];
+      const a = wwy[2 * r];
+      const c = wwy[2 * r + 1];
       const base = r * p;
       for (let g = 0; g < p; g++) {
         const k = (offsets[g] + codes[base + g]) << 1;
@@ -430,8 +428,7 @@ export class TreeBuilder {
     const p = this.d.features;
     const codes = this.d.codes;
     const idx = this.idx;
-    const w = this.w;
-    const wy = this.wy;
+    const wwy = this.wwy;
     const mtry = this.mtry;
     const feats = this.sFeat;
     const fo = slot * mtry;
@@ -439,8 +436,8 @@ export class TreeBuilder {
     const M = this.slotMask[slot];
     for (let i = from; i < to; i++) {
       const r = idx[i];
-      const a = wy[r];
-      const c = w[r];
+      const a = wwy[2 * r];
+      const c = wwy[2 * r + 1];
       const base = r * p;
       for (let k = 0; k < mtry; k++) {
         const b = codes[base + feats[fo + k]];
@@ -540,7 +537,7 @@ export class TreeBuilder {
   private makeLeaf(id: number, start: number, end: number): void {
     const y = this.d.y;
     const idx = this.idx;
-    const w = this.w;
+    const wwy = this.wwy;
     const y0 = y[idx[start]];
     let same = true;
     let s = 0;
@@ -548,8 +545,9 @@ export class TreeBuilder {
     for (let i = start; i < end; i++) {
       const r = idx[i];
       const v = y[r];
-      s += w[r] * v;
-      sw += w[r];
+      const c = wwy[2 * r + 1];
+      s += c * v;
+      sw += c;
       if (v !== y0) same = false;
     }
     this.nFeature[id] = -1;
