@@ -6,18 +6,31 @@ import { streamProgress } from './progress.js';
 import { loadRecipe } from './recipe.js';
 import { DEFAULT_CACHE, runRecipe } from './run.js';
 import { closest } from './suggest.js';
+import { verifyRun } from './verify.js';
+import { compareManifests, comparisonMarkdown } from './compare.js';
+import { predictRun } from './predict.js';
+import { readManifest } from './run-folder.js';
 
 const HELP = `dendrolog — run a tree and forest regression recipe and write an audit report
 
 Usage:
   dendrolog run RECIPE [--out DIR] [--cache DIR] [--no-cache] [--workers N]
   dendrolog check RECIPE
+  dendrolog verify RUN_FOLDER [--workers N]
+  dendrolog compare OLD_RUN_FOLDER NEW_RUN_FOLDER [--format markdown|json]
+  dendrolog predict RUN_FOLDER DATA_FILE --out PREDICTIONS.csv
   dendrolog --help | --version
 
 Commands:
   run     plan the recipe's steps, take unchanged ones from the cache, run the rest,
           and write report.html, summary.md and manifest.json
   check   validate the recipe (schema, names, expressions, source files) without running it
+  verify  rerun a run folder's recipe from its sources with an empty cache and say
+          "reproduced", or name the first step that differs and the likely cause
+  compare what changed between two runs (recipe, data, choices, metrics, importance,
+          warnings), as Markdown for a pull request or as JSON
+  predict apply a run's cleaning, features and headline model to new data; one output
+          line per input row, in order, with a reason where no prediction is possible
 
 Options for run:
   --out DIR      output folder (default: <recipe folder>/<report.folder>/<recipe name>)
@@ -27,12 +40,12 @@ Options for run:
                  identical for any N
 
 Exit codes:
-  0  success
-  1  the analysis failed (bad data, a step error)
+  0  success (verify: reproduced)
+  1  the analysis failed (bad data, a step error; verify: not reproduced)
   2  bad usage or a bad recipe
 `;
 
-const COMMANDS = ['run', 'check'];
+const COMMANDS = ['run', 'check', 'verify', 'compare', 'predict'];
 
 /**
  * Entry point: parses arguments, runs the command, prints errors as one line each, returns the exit code.
@@ -64,19 +77,42 @@ export async function main(argv: string[]): Promise<number> {
       out.write(`${recipe}: ok (${Object.keys(r.sources).length} sources, ${Object.keys(r.models).length} models)\n`);
       return 0;
     }
+    if (command === 'verify') {
+      const { values, positionals } = parse(rest, { workers: { type: 'string' } }, command);
+      const folder = onePositional(positionals, command, 'a run folder');
+      const result = await verifyRun(folder, { workers: workersOf(values.workers), progress: streamProgress(err) });
+      out.write(result.lines.join('\n') + '\n');
+      return result.reproduced ? 0 : 1;
+    }
+    if (command === 'compare') {
+      const { values, positionals } = parse(rest, { format: { type: 'string' } }, command);
+      if (positionals.length !== 2) throw new DendrologError(messages.usageMissingArgument('two run folders, the old then the new', command), 2);
+      const format = (values.format as string | undefined) ?? 'markdown';
+      if (format !== 'markdown' && format !== 'json') throw new DendrologError(messages.usageOptionValue('--format', format, '"markdown" or "json"'), 2);
+      const [a, b] = positionals.map((p) => readManifest(p));
+      const comparison = compareManifests(a, b);
+      out.write(format === 'json' ? JSON.stringify(comparison, null, 2) + '\n' : comparisonMarkdown(comparison, positionals[0], positionals[1]));
+      return 0;
+    }
+    if (command === 'predict') {
+      const { values, positionals } = parse(rest, { out: { type: 'string' } }, command);
+      if (positionals.length !== 2) throw new DendrologError(messages.usageMissingArgument('a run folder and a data file', command), 2);
+      if (!values.out) throw new DendrologError(messages.usageMissingArgument('--out PREDICTIONS.csv', command), 2);
+      const s = await predictRun(positionals[0], positionals[1], values.out as string);
+      out.write(
+        `${s.predicted} of ${s.rows} rows predicted, ${s.notPredicted} not (reasons in the file), ${s.outsideRange} with a predictor outside the training range\n` +
+          (s.skippedSteps.length ? `the file has no target, so these cleaning steps that need it were skipped: ${s.skippedSteps.join(', ')}\n` : '') +
+          `Predictions: ${s.out}\n`,
+      );
+      return 0;
+    }
     const { values, positionals } = parse(
       rest,
       { out: { type: 'string' }, cache: { type: 'string' }, 'no-cache': { type: 'boolean' }, workers: { type: 'string' } },
       command,
     );
     const recipe = onePositional(positionals, command);
-    let workers = availableParallelism();
-    if (values.workers !== undefined) {
-      workers = Number(values.workers);
-      if (!Number.isInteger(workers) || workers < 1 || workers > 256) {
-        throw new DendrologError(messages.usageOptionValue('--workers', String(values.workers), 'a whole number from 1 to 256'), 2);
-      }
-    }
+    const workers = workersOf(values.workers);
     const t0 = performance.now();
     const result = await runRecipe(recipe, {
       out: values.out as string | undefined,
@@ -119,10 +155,20 @@ function parse(
   }
 }
 
-function onePositional(positionals: string[], command: string): string {
-  if (positionals.length === 0) throw new DendrologError(messages.usageMissingArgument('a recipe file', command), 2);
+function onePositional(positionals: string[], command: string, what = 'a recipe file'): string {
+  if (positionals.length === 0) throw new DendrologError(messages.usageMissingArgument(what, command), 2);
   if (positionals.length > 1) {
-    throw new DendrologError(`"dendrolog ${command}" takes one recipe file, but got ${positionals.length}: ${positionals.join(' ')}`, 2);
+    throw new DendrologError(`"dendrolog ${command}" takes ${what}, but got ${positionals.length} arguments: ${positionals.join(' ')}`, 2);
   }
   return positionals[0];
+}
+
+/** --workers: default the number of cores; results are identical for any value. */
+function workersOf(value: string | boolean | undefined): number {
+  if (value === undefined) return availableParallelism();
+  const workers = Number(value);
+  if (!Number.isInteger(workers) || workers < 1 || workers > 256) {
+    throw new DendrologError(messages.usageOptionValue('--workers', String(value), 'a whole number from 1 to 256'), 2);
+  }
+  return workers;
 }

@@ -161,6 +161,20 @@ export const messages = {
   unseenCategory: (column: string, value: string, known: string[]) =>
     `column ${q(column)} holds category ${q(value)}, which the training rows never had (they had ${known.join(', ')}); set "unseen: other" on its one_hot step to map it to a shared column, or drop those rows`,
 
+  // --- verify, compare, predict
+  notARunFolder: (folder: string) =>
+    `${folder} holds no manifest.json, so it is not a dendrolog run folder; give the folder that "dendrolog run" wrote (it prints its path)`,
+  manifestUnreadable: (file: string, detail: string) => `${file} is not a readable dendrolog manifest (${detail}); rerun the recipe to write a new one`,
+  recipeOfRunMissing: (file: string) =>
+    `the run's recipe ${file} is gone; restore it (the manifest keeps its normalized form and SHA-256) or run the recipe again`,
+  sourceOfRunMissing: (file: string) => `source file ${file} of the run is gone; restore it to verify the run`,
+  modelFileMissing: (folder: string) =>
+    `${folder} has no model.bin; it was written by an older dendrolog or copied without it; run the recipe again`,
+  predictColumnMissing: (file: string, column: string, header: string[]) =>
+    `${file}: column ${q(column)}, which the model's recipe reads, is not in the file (its header has ${header.join(', ')}); add it, or rename the file's column to match`,
+  predictTargetUnavailable: (target: string) =>
+    `the target ${q(target)} is a derived column; predictions are on its scale`,
+
   // --- cache and output
   cacheCorrupt: (key: string) =>
     `cache entry ${key.slice(0, 12)} failed its checksum and was discarded; the step was recomputed`,

@@ -5,7 +5,7 @@ import { hashValue, sha256 } from './hash.js';
 import { DendrologError } from './messages.js';
 import type { RecipeOrigin } from './recipe.js';
 import { displayOf, resolveSourcePath } from './recipe.js';
-import type { Recipe } from './recipe-types.js';
+import type { Recipe, SourceSpec } from './recipe-types.js';
 import type { StepInstance } from './step-types.js';
 
 /** Bootstrap resamples behind each holdout interval. */
@@ -57,7 +57,7 @@ export function planRecipe(recipe: Recipe, origin: RecipeOrigin): Plan {
     sources[name] = add(
       `source ${name}`,
       'source',
-      { sha256: fileSha, format: s.format, columns: s.columns, missing: s.missing },
+      sourceParams(s, fileSha),
       [],
       { path: r.path, display: displayOf(r.path), file: s.file },
     );
@@ -118,4 +118,13 @@ export function planRecipe(recipe: Recipe, origin: RecipeOrigin): Plan {
     models[name] = { cells, choose, fit, score, explain };
   }
   return { steps, sources, dataSteps, modelTable, holdout, folds, models };
+}
+
+/**
+ * The source step's params: every read option of the spec, with the file's identity as its
+ * SHA-256 rather than its path (so moving a file re-runs nothing, and `predict` can read another file).
+ */
+export function sourceParams(spec: SourceSpec, fileSha: string): Record<string, unknown> {
+  const { file: _file, sha256: _pin, ...options } = spec;
+  return { ...options, sha256: fileSha };
 }

@@ -1,11 +1,12 @@
 import { resolve } from 'node:path';
 import { Cache } from './cache.js';
-import { localExecutor } from './execute.js';
+import { localExecutor, type Execution } from './execute.js';
 import { buildManifest, manifestProblems, type Manifest } from './manifest.js';
 import { writeFolderAtomically } from './output.js';
-import { planRecipe } from './plan.js';
+import { planRecipe, type Plan } from './plan.js';
 import type { Progress } from './progress.js';
-import { loadRecipe } from './recipe.js';
+import { loadRecipe, type RecipeOrigin } from './recipe.js';
+import type { Recipe } from './recipe-types.js';
 import { renderReport, renderSummary } from './render.js';
 import { reportView } from './report-view.js';
 import { gatherResults, type Results } from './results.js';
@@ -51,18 +52,9 @@ export async function runRecipe(recipePath: string, opts: RunOptions): Promise<R
   const t0 = performance.now();
   // 1–3: read, validate and normalize in one place; nothing later sees raw YAML
   const { recipe, origin } = loadRecipe(recipePath, { checkFiles: true });
-  // 4: plan
-  const plan = planRecipe(recipe, origin);
-  const cells = Object.values(plan.models).reduce((n, m) => n + m.cells.length, 0);
-  opts.progress.note(
-    `${recipe.name}: ${plan.steps.length} steps; ${cells} grid cells × ${recipe.evaluation.folds.k} folds = ${cells * recipe.evaluation.folds.k} cross-validation fits, then ${Object.keys(plan.models).length} final fits`,
-  );
-  // 5: execute
+  // 4–6: plan, execute, gather
   const cache = opts.noCache ? null : new Cache(resolve(opts.cache ?? DEFAULT_CACHE));
-  const executor = localExecutor({ cache, seed: recipe.seed, workers: opts.workers ?? 1, progress: opts.progress });
-  const execution = await executor.run(plan.steps);
-  // 6: gather
-  const results = gatherResults(recipe, plan, execution);
+  const { execution, results } = await executeRecipe(recipe, origin, { cache, workers: opts.workers ?? 1, progress: opts.progress });
   // 7: render and write
   const outDir = resolve(opts.out ?? resolve(origin.dir, recipe.report.folder, recipe.name));
   const manifest = buildManifest(
@@ -84,6 +76,25 @@ export async function runRecipe(recipePath: string, opts: RunOptions): Promise<R
     'predictions.csv': predictionsCsv(results),
   });
   return { outDir, manifest, results };
+}
+
+/**
+ * Plans, executes and gathers a normalized recipe (phases 4 to 6). `verify` calls it too, with
+ * the recipe kept in a manifest and an empty cache.
+ */
+export async function executeRecipe(
+  recipe: Recipe,
+  origin: RecipeOrigin,
+  opts: { cache: Cache | null; workers: number; progress: Progress },
+): Promise<{ plan: Plan; execution: Execution; results: Results }> {
+  const plan = planRecipe(recipe, origin);
+  const cells = Object.values(plan.models).reduce((n, m) => n + m.cells.length, 0);
+  opts.progress.note(
+    `${recipe.name}: ${plan.steps.length} steps; ${cells} grid cells × ${recipe.evaluation.folds.k} folds = ${cells * recipe.evaluation.folds.k} cross-validation fits, then ${Object.keys(plan.models).length} final fits`,
+  );
+  const executor = localExecutor({ cache: opts.cache, seed: recipe.seed, workers: opts.workers, progress: opts.progress });
+  const execution = await executor.run(plan.steps);
+  return { plan, execution, results: gatherResults(recipe, plan, execution) };
 }
 
 /**

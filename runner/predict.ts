@@ -1,0 +1,224 @@
+import { existsSync, readFileSync, writeFileSync } from 'node:fs';
+import { dirname, join, resolve } from 'node:path';
+import { stepRegistry } from '../steps/index.js';
+import { applyDesign } from '../steps/design.js';
+import { modelKinds } from '../steps/model-kinds.js';
+import type { Column, Frame } from './frame.js';
+import { column, isMissing } from './frame.js';
+import { sha256 } from './hash.js';
+import { DendrologError, messages } from './messages.js';
+import { readModelFile } from './model-file.js';
+import { sourceParams } from './plan.js';
+import { displayOf, referencedColumns, resolveSourcePath } from './recipe.js';
+import type { CleanStep, Recipe } from './recipe-types.js';
+import { generator, seedString } from './rng.js';
+import { readManifest } from './run-folder.js';
+import type { FrameOutput, StepContext } from './step-types.js';
+import { WarningLog } from './warnings.js';
+
+/** Hidden column that follows each input row through cleaning, so every row can be accounted for. */
+const ROW = '__dendrolog_row';
+
+export interface PredictionSummary {
+  rows: number;
+  predicted: number;
+  notPredicted: number;
+  outsideRange: number;
+  skippedSteps: string[];
+  out: string;
+}
+
+/**
+ * Applies a run's cleaning, features (with the values learned in training) and headline model to a
+ * new file shaped like the recipe's main source, and writes one line per input row, in input order:
+ * the row's declared columns, the prediction, the predictors outside the training range, and, for a
+ * row that cleaning or a missing predictor removed, the reason instead of a prediction. Cleaning
+ * steps that need the target run only when the file has the target's columns.
+ *
+ * Example: `await predictRun('recipes/lake-chlorophyll/out/lake-chlorophyll', 'new.csv', 'pred.csv')`
+ */
+export async function predictRun(folder: string, dataFile: string, outFile: string): Promise<PredictionSummary> {
+  const outDir = resolve(folder);
+  const manifest = readManifest(outDir);
+  const modelPath = join(outDir, 'model.bin');
+  if (!existsSync(modelPath)) throw new DendrologError(messages.modelFileMissing(displayOf(outDir)), 2);
+  const model = readModelFile(readFileSync(modelPath));
+  const recipe = manifest.recipe.normalized as Recipe;
+  const recipeDir = dirname(resolve(outDir, manifest.recipe.file));
+  const dataPath = resolve(dataFile);
+  if (!existsSync(dataPath)) throw new DendrologError(messages.recipeFileMissing(dataFile).replace('recipe file', 'data file'), 2);
+
+  const mainName = Object.keys(recipe.sources)[0];
+  const main = recipe.sources[mainName];
+  // the target, and the raw columns it is derived from, may be absent from new data
+  const targetInputs = new Set([recipe.target]);
+  for (const f of recipe.features) if (f.kind === 'derive' && f.columns[recipe.target]) referencedColumns(f.columns[recipe.target]).forEach((c) => targetInputs.add(c));
+  const warnings = new WarningLog();
+  const ctx = (locator: Record<string, string>): StepContext => ({
+    key: 'predict',
+    rng: (p, i) => generator(recipe.seed, 'predict', p, i),
+    seedFor: (p, i) => seedString(recipe.seed, 'predict', p, i),
+    warn: (code, message) => warnings.add(code, message),
+    workers: 1,
+    locator,
+    progress: () => {},
+  });
+  // only delimited text has a header to look at first; other formats must carry every declared column
+  const header = main.format === 'csv' || main.format === 'tsv' ? readHeader(dataPath) : Object.keys(main.columns);
+  const absentTarget = [...targetInputs].filter((c) => c in main.columns && !header.includes(c));
+  // a declared column nothing in the recipe uses may be absent too; it is filled as missing
+  const used = usedColumns(recipe);
+  const absentUnused = Object.keys(main.columns).filter((c) => !used.has(c) && !targetInputs.has(c) && !header.includes(c));
+  const absent = [...absentTarget, ...absentUnused];
+  const spec = { ...main, columns: Object.fromEntries(Object.entries(main.columns).filter(([c]) => !absent.includes(c))) };
+  const read = (await stepRegistry.source.run([], sourceParams(spec, sha256(readFileSync(dataPath))) as never, ctx({ path: dataPath, display: displayOf(dataPath) }))) as FrameOutput;
+  const input = read.frame;
+  for (const c of absent) {
+    input.columns.push({ name: c, type: main.columns[c], values: main.columns[c] === 'number' || main.columns[c] === 'date' ? new Float64Array(input.rows).fill(NaN) : new Array(input.rows).fill(null) } as Column);
+  }
+  let frame: Frame = { rows: input.rows, columns: [...input.columns, { name: ROW, type: 'number', values: Float64Array.from({ length: input.rows }, (_, i) => i) }] };
+
+  const reason = new Array<string | null>(input.rows).fill(null);
+  const markGone = (before: Frame, after: Frame, why: (k: number) => string) => {
+    const kept = new Set(column(after, ROW).values as Float64Array);
+    (column(before, ROW).values as Float64Array).forEach((r, k) => {
+      if (!kept.has(r) && reason[r] === null) reason[r] = why(k);
+    });
+  };
+  for (const [i, j] of recipe.join.entries()) {
+    const other = recipe.sources[j.with];
+    const r = resolveSourcePath({ dir: recipeDir }, other.file);
+    if ('problem' in r) throw new DendrologError(r.problem, 1);
+    const right = (await stepRegistry.source.run([], sourceParams(other, sha256(readFileSync(r.path))) as never, ctx({ path: r.path, display: displayOf(r.path) }))) as FrameOutput;
+    const joined = (await stepRegistry.join.run([{ frame, notes: read.notes }, right], j as never, ctx({}))) as FrameOutput;
+    markGone(frame, joined.frame, () => `no partner in source "${j.with}" (join[${i}] on ${j.on.join(', ')})`);
+    frame = joined.frame;
+  }
+  const skippedSteps: string[] = [];
+  const targetAbsent = absentTarget.length > 0;
+  for (const [i, step] of recipe.clean.entries()) {
+    const adapted = targetAbsent ? withoutTarget(step, targetInputs) : step;
+    if (!adapted) {
+      skippedSteps.push(`clean[${i}] ${step.kind}`);
+      continue;
+    }
+    const { kind, ...params } = adapted;
+    const out = (await stepRegistry[kind].run([{ frame, notes: read.notes }], params as never, ctx({}))) as FrameOutput;
+    const before = frame;
+    markGone(before, out.frame, (k) => `removed by clean[${i}] ${kind}: ${rowReason(adapted, before, k)}`);
+    frame = out.frame;
+  }
+  for (const f of recipe.features) {
+    if (f.kind !== 'derive') continue;
+    const columns = Object.fromEntries(Object.entries(f.columns).filter(([name]) => !(targetAbsent && name === recipe.target)));
+    if (Object.keys(columns).length === 0) continue;
+    frame = ((await stepRegistry.derive.run([{ frame, notes: read.notes }], { columns } as never, ctx({}))) as FrameOutput).frame;
+  }
+
+  // rows with a missing predictor that no impute step fills cannot be predicted; say so per row
+  const rowsOf = column(frame, ROW).values as Float64Array;
+  const usable: number[] = [];
+  for (let k = 0; k < frame.rows; k++) {
+    const missing = model.design.predictors.filter((p) => isMissing(column(frame, p), k) && !(p in model.design.impute));
+    if (missing.length) reason[rowsOf[k]] = `missing ${missing.join(', ')}`;
+    else usable.push(k);
+  }
+  const predictions = new Array<number | null>(input.rows).fill(null);
+  const outside = new Array<string>(input.rows).fill('');
+  if (usable.length) {
+    const p = await modelKinds[model.kind].predict(model.bytes, applyDesign(model.design, frame, usable));
+    usable.forEach((k, j) => {
+      const r = rowsOf[k];
+      predictions[r] = p[j];
+      outside[r] = Object.entries(model.ranges)
+        .filter(([name, range]) => {
+          const v = (column(frame, name).values as Float64Array)[k];
+          return v < range.min || v > range.max;
+        })
+        .map(([name]) => name)
+        .join(' ');
+    });
+  }
+
+  const declared = input.columns.filter((c) => !absent.includes(c.name));
+  const lines = [[...declared.map((c) => c.name), 'input_row', `predicted_${recipe.target}`, 'outside_training_range', 'not_predicted_because'].map(csvField).join(',')];
+  for (let r = 0; r < input.rows; r++) {
+    const fields = declared.map((c) => formatValue(c, r));
+    fields.push(String(r + 1), predictions[r] === null ? '' : String(predictions[r]), outside[r], predictions[r] === null ? (reason[r] ?? 'not predicted') : '');
+    lines.push(fields.map(csvField).join(','));
+  }
+  writeFileSync(outFile, lines.join('\n') + '\n');
+  return {
+    rows: input.rows,
+    predicted: predictions.filter((p) => p !== null).length,
+    notPredicted: predictions.filter((p) => p === null).length,
+    outsideRange: outside.filter((o) => o !== '').length,
+    skippedSteps,
+    out: outFile,
+  };
+}
+
+/** Every column the recipe's joins, cleaning, features and predictors refer to. */
+function usedColumns(recipe: Recipe): Set<string> {
+  const used = new Set<string>(recipe.predictors);
+  for (const j of recipe.join) j.on.forEach((c) => used.add(c));
+  for (const c of recipe.clean) {
+    if (c.kind === 'keep_rows') referencedColumns(c.expr).forEach((x) => used.add(x));
+    else if (c.kind === 'within') used.add(c.column);
+    else c.columns.forEach((x) => used.add(x));
+  }
+  for (const f of recipe.features) {
+    if (f.kind === 'derive') Object.values(f.columns).forEach((e) => referencedColumns(e).forEach((x) => used.add(x)));
+    else if (f.kind === 'one_hot') used.add(f.column);
+    else f.columns.forEach((x) => used.add(x));
+  }
+  return used;
+}
+
+/** Why one row fails a cleaning step, in words about that row. */
+function rowReason(step: CleanStep, frame: Frame, k: number): string {
+  switch (step.kind) {
+    case 'drop_missing':
+      return `${step.columns.find((c) => isMissing(column(frame, c), k)) ?? step.columns.join(' or ')} is missing`;
+    case 'within': {
+      const v = (column(frame, step.column).values as Float64Array)[k];
+      return `${step.column} = ${v} is outside [${step.min ?? '-∞'}, ${step.max ?? '∞'}]`;
+    }
+    case 'keep_rows':
+      return `${JSON.stringify(step.expr)} is not true`;
+    case 'replace':
+      return 'replaced';
+  }
+}
+
+/** A cleaning step with the target's columns taken out, or null when nothing of it is left. */
+function withoutTarget(step: CleanStep, target: Set<string>): CleanStep | null {
+  switch (step.kind) {
+    case 'replace':
+    case 'drop_missing': {
+      const columns = step.columns.filter((c) => !target.has(c));
+      return columns.length ? { ...step, columns } : null;
+    }
+    case 'within':
+      return target.has(step.column) ? null : step;
+    case 'keep_rows':
+      return referencedColumns(step.expr).some((c) => target.has(c)) ? null : step;
+  }
+}
+
+function readHeader(path: string): string[] {
+  const first = readFileSync(path, 'utf8').split(/\r?\n/, 1)[0].replace(/^\ufeff/, '');
+  const delimiter = path.toLowerCase().endsWith('.tsv') ? '\t' : ',';
+  return first.split(delimiter).map((h) => h.trim().replace(/^"(.*)"$/, '$1'));
+}
+
+function formatValue(c: Column, r: number): string {
+  const v = c.values[r];
+  if (v === null || (typeof v === 'number' && Number.isNaN(v))) return '';
+  if (c.type === 'date') return new Date(v as number).toISOString().slice(0, 10);
+  return String(v);
+}
+
+function csvField(s: string): string {
+  return /[",\n\r]/.test(s) ? `"${s.replace(/"/g, '""')}"` : s;
+}

@@ -1,0 +1,124 @@
+import { existsSync, mkdtempSync, readFileSync, rmSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { dirname, join, relative, resolve } from 'node:path';
+import { Cache } from './cache.js';
+import { environment } from './environment.js';
+import { sha256 } from './hash.js';
+import { buildManifest } from './manifest.js';
+import { DendrologError, messages } from './messages.js';
+import type { Progress } from './progress.js';
+import { displayOf, type RecipeOrigin } from './recipe.js';
+import type { Recipe } from './recipe-types.js';
+import { readManifest } from './run-folder.js';
+import { executeRecipe } from './run.js';
+
+export interface Verification {
+  reproduced: boolean;
+  /** Plain lines for the terminal: the verdict first, then the evidence. */
+  lines: string[];
+}
+
+/**
+ * Re-executes a run from its sources with an empty temporary cache and compares every step's
+ * output hash and every metric with the manifest. The run's own recipe (the normalized form kept in
+ * the manifest) is what gets executed, so a later edit to recipe.yaml is reported, not silently used.
+ *
+ * Example: `(await verifyRun('recipes/lake-chlorophyll/out/lake-chlorophyll', opts)).reproduced`
+ */
+export async function verifyRun(folder: string, opts: { workers: number; progress: Progress }): Promise<Verification> {
+  const outDir = resolve(folder);
+  const manifest = readManifest(outDir);
+  const recipePath = resolve(outDir, manifest.recipe.file);
+  const recipeDir = dirname(recipePath);
+  const causes: string[] = [];
+
+  if (!existsSync(recipePath)) throw new DendrologError(messages.recipeOfRunMissing(displayOf(recipePath)), 1);
+  const recipeSha = sha256(readFileSync(recipePath, 'utf8'));
+  if (recipeSha !== manifest.recipe.sha256) {
+    causes.push(`the recipe changed since the run: ${displayOf(recipePath)} had SHA-256 ${manifest.recipe.sha256.slice(0, 12)}…, now ${recipeSha.slice(0, 12)}…; the run's own recipe (kept in the manifest) was executed below`);
+  }
+  const changedSources = new Map<string, string>();
+  for (const s of manifest.sources) {
+    const path = resolve(recipeDir, s.file);
+    if (!existsSync(path)) throw new DendrologError(messages.sourceOfRunMissing(displayOf(path)), 1);
+    const now = sha256(readFileSync(path));
+    if (now !== s.sha256) {
+      const line = `source file ${s.file} changed: SHA-256 was ${s.sha256}, now ${now}`;
+      changedSources.set(s.name, line);
+      causes.push(line);
+    }
+  }
+  const env = environment();
+  const envChanges: string[] = [];
+  if (env.node !== manifest.environment.node) envChanges.push(`Node.js ${manifest.environment.node} → ${env.node}`);
+  if (env.dendrolog !== manifest.environment.dendrolog) envChanges.push(`dendrolog ${manifest.environment.dendrolog} → ${env.dendrolog}`);
+  for (const [name, v] of Object.entries({ ...manifest.environment.dependencies, ...env.dependencies })) {
+    const was = manifest.environment.dependencies[name];
+    const now = env.dependencies[name];
+    if (was !== now) envChanges.push(`${name} ${was ?? '(absent)'} → ${now ?? v ?? '(absent)'}`);
+  }
+  if (envChanges.length) causes.push(`software changed since the run: ${envChanges.join(', ')}`);
+
+  const recipe = manifest.recipe.normalized as unknown as Recipe;
+  const display = displayOf(recipePath);
+  const origin: RecipeOrigin = {
+    path: recipePath,
+    dir: recipeDir,
+    displayPath: display,
+    sha256: manifest.recipe.sha256,
+    text: '',
+    doc: { displayPath: display, value: recipe, where: () => `${display} (as kept in the manifest)`, whereKey: () => display },
+  };
+  const cacheDir = mkdtempSync(join(tmpdir(), 'dendrolog-verify-'));
+  let rerun;
+  try {
+    const { execution, results } = await executeRecipe(recipe, origin, { cache: new Cache(cacheDir), workers: opts.workers, progress: opts.progress });
+    rerun = buildManifest(recipe, origin, execution, results, { started: new Date(), seconds: 0 }, outDir);
+  } finally {
+    rmSync(cacheDir, { recursive: true, force: true });
+  }
+
+  const lines: string[] = [];
+  const now = new Map(rerun.steps.map((s) => [s.id, s]));
+  let firstDiff: string | null = null;
+  for (const s of manifest.steps) {
+    const n = now.get(s.id);
+    if (!n) {
+      firstDiff = `step "${s.id}" of the run no longer exists in the plan`;
+      break;
+    }
+    if (n.key !== s.key || n.output !== s.output) {
+      const source = s.kind === 'source' ? changedSources.get(s.id.replace(/^source /, '')) : undefined;
+      firstDiff =
+        n.key !== s.key
+          ? `step "${s.id}" has a different key (its inputs or parameters differ)${source ? `: ${source}` : ''}`
+          : `step "${s.id}" gives a different output from the same inputs and parameters`;
+      break;
+    }
+  }
+  const metricDiffs: string[] = [];
+  for (const m of manifest.models) {
+    const r = rerun.models.find((x) => x.name === m.name);
+    if (!r) {
+      metricDiffs.push(`model ${m.name} is missing from the rerun`);
+      continue;
+    }
+    if (JSON.stringify(r.metrics) !== JSON.stringify(m.metrics)) metricDiffs.push(`model ${m.name}: metrics differ`);
+  }
+  if (rerun.holdoutPredictionsSha256 !== manifest.holdoutPredictionsSha256) metricDiffs.push('the holdout predictions differ');
+
+  const reproduced = !firstDiff && metricDiffs.length === 0 && recipeSha === manifest.recipe.sha256;
+  const where = relative(process.cwd(), outDir) || '.';
+  if (reproduced) {
+    lines.push(`reproduced: ${where} — all ${manifest.steps.length} step outputs, the metrics of ${manifest.models.length} models and the holdout predictions match the manifest`);
+    if (envChanges.length) lines.push(`note: ${causes[causes.length - 1]}`);
+  } else {
+    lines.push(`not reproduced: ${where}`);
+    if (firstDiff) lines.push(`first difference: ${firstDiff}`);
+    else lines.push(`every step output matches${metricDiffs.length ? ', but ' + metricDiffs.join('; ') : ''}`);
+    for (const d of firstDiff ? metricDiffs : []) lines.push(`also: ${d}`);
+    if (causes.length) for (const c of causes) lines.push(`likely cause: ${c}`);
+    else if (firstDiff) lines.push('likely cause: none found in the data, the recipe or the package versions; the step may depend on something outside them');
+  }
+  return { reproduced, lines };
+}
