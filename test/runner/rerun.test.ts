@@ -1,0 +1,140 @@
+import { readFileSync, writeFileSync } from 'node:fs';
+import { join } from 'node:path';
+import { describe, expect, it } from 'vitest';
+import { compareManifests, comparisonMarkdown } from '../../runner/compare.js';
+import { DendrologError, messages } from '../../runner/messages.js';
+import { predictRun } from '../../runner/predict.js';
+import { silentProgress } from '../../runner/progress.js';
+import { displayOf } from '../../runner/recipe.js';
+import { readManifest } from '../../runner/run-folder.js';
+import { runRecipe } from '../../runner/run.js';
+import { verifyRun } from '../../runner/verify.js';
+import { makeFolder, SMALL_RECIPE, smallData } from '../helpers.js';
+
+const FOREST = SMALL_RECIPE.replace('mean: {kind: mean}', 'mean: {kind: mean}\n  forest: {kind: random_forest, grid: {trees: 20, min_leaf: [2, 4], mtry: 1}}').replace(
+  'predictors: [x1, x2]',
+  'predictors: [x1, x2, kind]',
+)
+  .replace('columns: {site: string, x1: number, x2: number, y: number}', 'columns: {site: string, x1: number, x2: number, kind: category, y: number}')
+  .concat('features:\n  - one_hot: {column: kind}\n');
+
+/** The small data with a category column: kind "a" or "b" by row. */
+function data(): string {
+  return smallData()
+    .split('\n')
+    .map((l, i) => (i === 0 ? l.replace('x2,y', 'x2,kind,y') : l ? l.replace(/,([^,]*)$/, `,${i % 3 ? 'a' : 'b'},$1`) : l))
+    .join('\n');
+}
+
+async function run(recipe = FOREST, extra: Record<string, string> = {}, workers = 1) {
+  const dir = makeFolder({ 'recipe.yaml': recipe, 'data/obs.csv': data(), ...extra });
+  const r = await runRecipe(join(dir, 'recipe.yaml'), { cache: join(dir, '.cache'), workers, progress: silentProgress() });
+  return { dir, ...r };
+}
+
+const noTiming = (m: object) => ({ ...m, timing: null });
+
+describe('determinism', () => {
+  it('gives a byte-identical manifest (outside timing) for 1 and 2 workers and in two separate folders', async () => {
+    const one = await run(FOREST, {}, 1);
+    const two = await run(FOREST, {}, 2);
+    expect(noTiming(readManifest(two.outDir))).toEqual(noTiming(readManifest(one.outDir)));
+    const strip = (s: string) => s.replace(/"timing": \{[\s\S]*\}\n\}\n$/, '');
+    expect(strip(readFileSync(join(two.outDir, 'manifest.json'), 'utf8'))).toBe(strip(readFileSync(join(one.outDir, 'manifest.json'), 'utf8')));
+  });
+});
+
+describe('verify', () => {
+  it('says reproduced for an untouched run', async () => {
+    const { outDir } = await run();
+    const v = await verifyRun(outDir, { workers: 1, progress: silentProgress() });
+    expect(v.reproduced).toBe(true);
+    expect(v.lines[0]).toMatch(/^reproduced: /);
+  });
+
+  it('names the source file when one byte of it changed', async () => {
+    const { dir, outDir } = await run();
+    const path = join(dir, 'data/obs.csv');
+    const text = readFileSync(path, 'utf8');
+    writeFileSync(path, text.replace(/\n(S0,[^,]*,[^,]*,[^,]*,)(\d)/, (_m, a, d) => `\n${a}${(Number(d) + 1) % 10}`));
+    const v = await verifyRun(outDir, { workers: 1, progress: silentProgress() });
+    expect(v.reproduced).toBe(false);
+    expect(v.lines.find((l) => l.startsWith('first difference'))).toMatch(/step "source obs".*source file data\/obs\.csv changed: SHA-256 was [0-9a-f]{64}, now [0-9a-f]{64}/);
+  });
+
+  it('says the recipe changed after an edit', async () => {
+    const { dir, outDir } = await run();
+    writeFileSync(join(dir, 'recipe.yaml'), FOREST.replace('seed: 3', 'seed: 3  # edited'));
+    const v = await verifyRun(outDir, { workers: 1, progress: silentProgress() });
+    expect(v.reproduced).toBe(false);
+    expect(v.lines.join('\n')).toMatch(/likely cause: the recipe changed since the run/);
+  });
+
+  it('refuses a folder that is not a run', async () => {
+    const dir = makeFolder({ 'x.txt': '' });
+    await expect(verifyRun(dir, { workers: 1, progress: silentProgress() })).rejects.toThrow(new DendrologError(messages.notARunFolder(displayOf(dir)), 2));
+  });
+});
+
+describe('compare', () => {
+  it('reports no change for a run against itself', async () => {
+    const { outDir } = await run();
+    const m = readManifest(outDir);
+    const c = compareManifests(m, m);
+    expect(c.same).toBe(true);
+    expect(comparisonMarkdown(c, 'a', 'b')).toContain('No change:');
+  });
+
+  it('reports exactly the added grid value as the recipe change', async () => {
+    const a = await run();
+    const b = await run(FOREST.replace('min_leaf: [2, 4]', 'min_leaf: [2, 4, 6]'));
+    const c = compareManifests(readManifest(a.outDir), readManifest(b.outDir));
+    expect(c.recipe).toEqual([{ path: 'models.forest.grid.min_leaf', old: [2, 4], new: [2, 4, 6] }]);
+    expect(c.data).toEqual([]);
+  });
+});
+
+describe('predict', () => {
+  it('reproduces the run’s in-sample predictions on the training rows', async () => {
+    const { dir, outDir } = await run();
+    const out = join(dir, 'pred.csv');
+    await predictRun(outDir, join(dir, 'data/obs.csv'), out);
+    const lines = readFileSync(out, 'utf8').trim().split('\n');
+    const head = lines[0].split(',');
+    const col = head.indexOf('predicted_y');
+    const predicted = lines.slice(1).map((l) => l.split(',')[col]);
+    const stored = readFileSync(join(outDir, 'predictions.csv'), 'utf8').trim().split('\n').slice(1).map((l) => l.split(','));
+    const training = stored.filter((s) => s[1] === 'training');
+    expect(training.length).toBeGreaterThan(20);
+    for (const s of training) expect(predicted[Number(s[0])]).toBe(s[3]);
+    expect(lines.length - 1).toBe(data().trim().split('\n').length - 1);
+  });
+
+  it('fails naming a column the file lacks', async () => {
+    const { dir, outDir } = await run();
+    writeFileSync(join(dir, 'new.csv'), 'site,x1,kind\nS1,1,a\n');
+    await expect(predictRun(outDir, join(dir, 'new.csv'), join(dir, 'p.csv'))).rejects.toThrow(/declared column "x2" is not in the file's header/);
+  });
+
+  it('follows the recipe on an unseen category: an error by default, the shared column with unseen: other', async () => {
+    const { dir, outDir } = await run();
+    writeFileSync(join(dir, 'new.csv'), 'site,x1,x2,kind,y\nS1,1,2,zzz,0\n');
+    await expect(predictRun(outDir, join(dir, 'new.csv'), join(dir, 'p.csv'))).rejects.toThrow(
+      new DendrologError(messages.unseenCategory('kind', 'zzz', ['a', 'b']), 1),
+    );
+    const other = await run(FOREST.replace('one_hot: {column: kind}', 'one_hot: {column: kind, unseen: other}'));
+    writeFileSync(join(other.dir, 'new.csv'), 'site,x1,x2,kind,y\nS1,1,2,zzz,0\n');
+    const s = await predictRun(other.outDir, join(other.dir, 'new.csv'), join(other.dir, 'p.csv'));
+    expect(s.predicted).toBe(1);
+  });
+
+  it('flags predictors outside the training range and lists rows it cannot predict with the reason', async () => {
+    const { dir, outDir } = await run();
+    writeFileSync(join(dir, 'new.csv'), 'site,x1,x2,kind\nS1,100,2,a\nS2,,2,a\n');
+    const s = await predictRun(outDir, join(dir, 'new.csv'), join(dir, 'p.csv'));
+    expect(s).toMatchObject({ rows: 2, predicted: 1, notPredicted: 1, outsideRange: 1 });
+    const lines = readFileSync(join(dir, 'p.csv'), 'utf8').trim().split('\n');
+    expect(lines[1]).toMatch(/,x1,$/);
+    expect(lines[2]).toMatch(/,missing x1$/);
+  });
+});
