@@ -33,6 +33,7 @@ export function checkFinite(values: Float64Array, name: string): void {
   }
 }
 
+/** `value` as an integer in [min, max]; e.g. `checkInteger('trees', 0, 1)` throws "trees must be an integer of at least 1, got 0". */
 export function checkInteger(what: string, value: unknown, min: number, max?: number): number {
   if (typeof value !== 'number' || !Number.isInteger(value) || value < min || (max !== undefined && value > max)) {
     throw new EngineInputError(msg.notInteger(what, value, min, max));
@@ -53,17 +54,20 @@ export function resolveMtry(mtry: unknown, p: number): number {
   return mtry;
 }
 
+/** null (unlimited) or an integer >= 1; 0 is refused rather than read as "unlimited" the way ranger reads it. */
 export function checkMaxDepth(value: unknown): number | null {
   if (value === null) return null;
   if (typeof value !== 'number' || !Number.isInteger(value) || value < 1) throw new EngineInputError(msg.maxDepth(value));
   return value;
 }
 
+/** A fraction in (0, 1]; e.g. `checkSampleFraction(0.632)` returns 0.632. */
 export function checkSampleFraction(value: unknown): number {
   if (typeof value !== 'number' || !(value > 0 && value <= 1)) throw new EngineInputError(msg.sampleFraction(value));
   return value;
 }
 
+/** Throws unless the target has one finite value per row; non-finite values are reported as "the target". */
 export function checkTarget(y: Float64Array, rows: number): void {
   if (y.length !== rows) throw new EngineInputError(msg.targetLength(y.length, rows));
   checkFinite(y, 'target');
