@@ -1,5 +1,5 @@
 import type { Frame } from '../runner/frame.js';
-import type { ColumnType, CoordinateRange, DateFormat, SourceFormat, SourceSpec } from '../runner/recipe-types.js';
+import type { ColumnType, CoordinateRange, DateFormat, SourceFormat } from '../runner/recipe-types.js';
 import type { FrameOutput, StepDefinition } from '../runner/step-types.js';
 import { readArrow } from './readers/arrow.js';
 import type { Reader, ReadRequest } from './readers/columns.js';
@@ -24,16 +24,6 @@ export interface SourceParams {
   header?: boolean;
   variables?: string[];
   select?: Record<string, CoordinateRange>;
-}
-
-/**
- * The step params of a source: the file's hash and every read option (these make up its key).
- *
- * Example: `sourceParams(recipe.sources.samples, sha256(bytes))`
- */
-export function sourceParams(spec: SourceSpec, fileSha256: string): SourceParams {
-  const { file: _file, sha256: _pin, ...options } = spec;
-  return { sha256: fileSha256, ...options };
 }
 
 /** One reader per format; adding a format is one reader file and one line here. */

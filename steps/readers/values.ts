@@ -53,7 +53,8 @@ export function parseValue(
         v = Number(t);
       }
       // a numeric missing token such as -9999 also matches "-9999.0"
-      if (missing.size > 0 && missing.has(String(v))) return null;
+      const numeric = numericTokens(missing);
+      if (numeric.size > 0 && numeric.has(v)) return null;
       return v;
     }
     case 'date':
@@ -62,6 +63,18 @@ export function parseValue(
     case 'category':
       return raw;
   }
+}
+
+const NUMERIC_TOKENS = new WeakMap<Set<string>, Set<number>>();
+
+/** The missing tokens that are numbers, as numbers; worked out once per token set (this runs per value). */
+function numericTokens(missing: Set<string>): Set<number> {
+  let out = NUMERIC_TOKENS.get(missing);
+  if (!out) {
+    out = new Set([...missing].map((t) => t.trim()).filter((t) => NUMBER.test(t)).map(Number));
+    NUMERIC_TOKENS.set(missing, out);
+  }
+  return out;
 }
 
 /**

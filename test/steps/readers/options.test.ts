@@ -4,7 +4,6 @@ import { messages, RecipeErrors } from '../../../runner/messages.js';
 import { formatOf, normalizeSource } from '../../../runner/normalize.js';
 import { planRecipe } from '../../../runner/plan.js';
 import { loadRecipe } from '../../../runner/recipe.js';
-import { sourceParams } from '../../../steps/source.js';
 import { makeFolder, SMALL_RECIPE, smallData } from '../../helpers.js';
 
 function problemsOf(recipeText: string, files: Record<string, string> = {}): string[] {
@@ -51,13 +50,12 @@ describe('source options in the recipe', () => {
     ]);
   });
 
-  // The planner (runner/plan.ts) still builds a source's params from format, columns and missing
-  // only; until it calls sourceParams(), options such as decimal, header or select do not reach
-  // the step. This marks that gap: it starts passing (and so fails here) once the planner is changed.
-  it.fails('reach the source step through the plan, so each option is part of its key', () => {
-    const dir = makeFolder({ 'recipe.yaml': withSource('    delimiter: ";"\n    decimal: ","\n'), 'data/obs.csv': smallData() });
+  it('reach the source step through the plan, so each option is part of its key', () => {
+    const dir = makeFolder({ 'recipe.yaml': withSource('    delimiter: ";"\n    decimal: ","\n    undeclared: error\n'), 'data/obs.csv': smallData() });
     const { recipe, origin } = loadRecipe(join(dir, 'recipe.yaml'));
     const step = planRecipe(recipe, origin).steps.find((s) => s.kind === 'source')!;
-    expect(step.params).toEqual(sourceParams(recipe.sources.obs, (step.params as { sha256: string }).sha256));
+    const { file: _file, sha256: _pin, ...options } = recipe.sources.obs;
+    expect(step.params).toEqual({ ...options, sha256: expect.any(String) });
+    expect(step.params).toMatchObject({ delimiter: ';', decimal: ',', undeclared: 'error', header: true });
   });
 });
