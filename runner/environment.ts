@@ -1,6 +1,9 @@
 import { spawnSync } from 'node:child_process';
 import { existsSync, readFileSync } from 'node:fs';
-import { join } from 'node:path';
+import { dirname, join } from 'node:path';
+import { fileURLToPath } from 'node:url';
+import { readdirSync } from 'node:fs';
+import { hashValue, sha256 } from './hash.js';
 import { packageRoot } from './paths.js';
 
 export interface Environment {
@@ -39,4 +42,27 @@ export function gitState(dir: string): { commit: string; dirty: boolean } | null
   if (head.status !== 0) return null;
   const status = spawnSync('git', ['status', '--porcelain', '--', '.'], { cwd: dir, encoding: 'utf8' });
   return { commit: head.stdout.trim(), dirty: status.stdout.trim().length > 0 };
+}
+
+let fingerprint: string | undefined;
+
+/**
+ * A hash of what computes the step outputs: dendrolog's version, the runtime dependency versions,
+ * and the code of the steps and model engines as loaded. It is part of every step key, so a cache
+ * filled by other code is never reused, and verify can tell a software change from a data change.
+ */
+export function softwareFingerprint(): string {
+  if (fingerprint) return fingerprint;
+  const here = dirname(fileURLToPath(import.meta.url));
+  const code: Record<string, string> = {};
+  for (const folder of ['steps', 'steps/readers', 'models']) {
+    const dir = join(here, '..', folder);
+    if (!existsSync(dir)) continue;
+    for (const f of readdirSync(dir).sort()) {
+      if (/\.(js|ts)$/.test(f)) code[`${folder}/${f}`] = sha256(readFileSync(join(dir, f)));
+    }
+  }
+  const env = environment();
+  fingerprint = hashValue({ dendrolog: env.dendrolog, dependencies: env.dependencies, code });
+  return fingerprint;
 }

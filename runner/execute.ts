@@ -59,8 +59,8 @@ export function localExecutor(opts: LocalExecutorOptions): Executor {
           const stepWarnings = new WarningLog();
           const ctx: StepContext = {
             key: step.key,
-            rng: (purpose, index) => generator(opts.seed, step.key, purpose, index),
-            seedFor: (purpose, index) => seedString(opts.seed, step.key, purpose, index),
+            rng: (purpose, index) => generator(opts.seed, step.seedKey, purpose, index),
+            seedFor: (purpose, index) => seedString(opts.seed, step.seedKey, purpose, index),
             warn: (code, message) => stepWarnings.add(code, message),
             workers: opts.workers,
             locator: step.locator,

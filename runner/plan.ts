@@ -2,6 +2,7 @@ import { readFileSync } from 'node:fs';
 import { stepRegistry } from '../steps/index.js';
 import { cellLabel, gridCells, varyingParams } from '../steps/model-kinds.js';
 import { hashValue, sha256 } from './hash.js';
+import { softwareFingerprint } from './environment.js';
 import { DendrologError } from './messages.js';
 import type { RecipeOrigin } from './recipe.js';
 import { displayOf, resolveSourcePath } from './recipe.js';
@@ -27,19 +28,24 @@ export interface Plan {
 
 /**
  * Turns a recipe into step instances, each keyed by the SHA-256 of its kind, version, params, the
- * master seed (for steps that draw random numbers) and its inputs' keys; a source's key covers its file's bytes and read options, not its path.
+ * master seed (for steps that draw random numbers), the software fingerprint and its inputs' keys; a source's key covers its file's bytes and read options, not its path.
  *
  * Example: changing `clean[1]` changes the keys of clean[1] and everything after it, nothing before.
  */
 export function planRecipe(recipe: Recipe, origin: RecipeOrigin): Plan {
   const steps: StepInstance[] = [];
   const keyOf = new Map<string, string>();
+  const seedKeyOf = new Map<string, string>();
+  const software = softwareFingerprint();
   const add = (id: string, kind: string, params: unknown, inputs: string[], locator: Record<string, string> = {}) => {
     const def = stepRegistry[kind];
     const seed = def.usesSeed ? recipe.seed : undefined;
-    const key = hashValue({ kind, version: def.version, params, seed, inputs: inputs.map((i) => keyOf.get(i)) });
+    const key = hashValue({ kind, version: def.version, params, seed, software, inputs: inputs.map((i) => keyOf.get(i)) });
+    // random draws follow the analysis, not the code: a refactor must not reshuffle the folds
+    const seedKey = hashValue({ kind, version: def.version, params, seed, inputs: inputs.map((i) => seedKeyOf.get(i)) });
     keyOf.set(id, key);
-    steps.push({ id, kind, params, inputs, locator, key });
+    seedKeyOf.set(id, seedKey);
+    steps.push({ id, kind, params, inputs, locator, key, seedKey });
     return id;
   };
 

@@ -71,6 +71,8 @@ export interface StepInstance {
   inputs: string[];
   /** Not part of the key: absolute file paths, recipe positions. */
   locator: Record<string, string>;
-  /** SHA-256 of kind, version, params and the inputs' keys. */
+  /** SHA-256 of kind, version, params, seed, software fingerprint and the inputs' keys: the cache address. */
   key: string;
+  /** The same without the software fingerprint: what random generators are seeded from. */
+  seedKey: string;
 }
