@@ -3,7 +3,7 @@ import { readFileSync } from 'node:fs';
 import { join, relative } from 'node:path';
 import { packageRoot } from './paths.js';
 import type { Execution } from './execute.js';
-import { environment, gitState, type Environment } from './environment.js';
+import { environment, gitState, softwareFingerprint, type Environment } from './environment.js';
 import { sha256 } from './hash.js';
 import type { RecipeOrigin } from './recipe.js';
 import type { Recipe } from './recipe-types.js';
@@ -31,7 +31,7 @@ export interface Manifest {
   }[];
   headline: { model: string; metric: string; value: number | null; label: 'holdout' };
   holdoutPredictionsSha256: string;
-  environment: Environment;
+  environment: Environment & { fingerprint: string };
   git: { commit: string; dirty: boolean } | null;
   warnings: Warning[];
   /** The only part that changes between reruns of the same recipe. */
@@ -82,7 +82,7 @@ export function buildManifest(
       label: 'holdout',
     },
     holdoutPredictionsSha256: sha256(JSON.stringify(results.holdoutRows.predicted)),
-    environment: environment(),
+    environment: { ...environment(), fingerprint: softwareFingerprint() },
     git: gitState(origin.dir),
     warnings: results.warnings,
     timing: {

@@ -2,7 +2,7 @@ import { existsSync, mkdtempSync, readFileSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { dirname, join, relative, resolve } from 'node:path';
 import { Cache } from './cache.js';
-import { environment } from './environment.js';
+import { environment, softwareFingerprint } from './environment.js';
 import { sha256 } from './hash.js';
 import { buildManifest } from './manifest.js';
 import { DendrologError, messages } from './messages.js';
@@ -56,6 +56,9 @@ export async function verifyRun(folder: string, opts: { workers: number; progres
     const was = manifest.environment.dependencies[name];
     const now = env.dependencies[name];
     if (was !== now) envChanges.push(`${name} ${was ?? '(absent)'} → ${now ?? v ?? '(absent)'}`);
+  }
+  if (envChanges.length === 0 && softwareFingerprint() !== manifest.environment.fingerprint) {
+    envChanges.push(`dendrolog's step or engine code (fingerprint ${manifest.environment.fingerprint.slice(0, 12)}… → ${softwareFingerprint().slice(0, 12)}…)`);
   }
   if (envChanges.length) causes.push(`software changed since the run: ${envChanges.join(', ')}`);
 
