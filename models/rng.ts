@@ -15,6 +15,7 @@
 import { createHash } from 'node:crypto';
 
 const TWO_POW_32 = 4294967296;
+const INV_TWO_POW_32 = 1 / 4294967296;
 
 /** An SFC32 generator. Not for cryptography. */
 export class Sfc32 {
@@ -52,10 +53,29 @@ export class Sfc32 {
   }
 
   /**
-   * A uniform integer in [0, n), 1 <= n <= 2^32, without modulo bias: draws that fall in the
-   * incomplete last block of size 2^32 mod n are rejected and redrawn.
+   * A uniform integer in [0, n), 1 <= n <= 2^32, without bias.
+   *
+   * For n <= 2^21 this is Lemire's multiply-and-shift method (Lemire 2019, "Fast random integer
+   * generation in an interval", ACM TOMACS 29(1)): the 32-bit draw times n is exact in a double, its
+   * high 32 bits are the result, and a draw is redrawn only when its low 32 bits fall below
+   * 2^32 mod n, so the common case needs no division (a modulo of doubles is slow in V8, and this runs
+   * once per bootstrap draw and per sampled feature). Larger n use rejection and a modulo.
    */
   int(n: number): number {
+    if (n <= 2097152) {
+      let m = this.u32() * n;
+      let hi = Math.floor(m * INV_TWO_POW_32);
+      let lo = m - hi * TWO_POW_32;
+      if (lo < n) {
+        const threshold = (TWO_POW_32 - n) % n;
+        while (lo < threshold) {
+          m = this.u32() * n;
+          hi = Math.floor(m * INV_TWO_POW_32);
+          lo = m - hi * TWO_POW_32;
+        }
+      }
+      return hi;
+    }
     const limit = TWO_POW_32 - (TWO_POW_32 % n);
     let u = this.u32();
     while (u >= limit) u = this.u32();

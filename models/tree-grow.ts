@@ -283,11 +283,12 @@ export class TreeBuilder {
       let rr = n;
       for (let i = start; i < end; i++) {
         const r = idx[i];
-        const g = codes[r * p + f] <= lo ? 1 : 0;
+        // 1 when the row goes right (its code exceeds lo): the sign bit of lo - code, no branch.
+        const right = (lo - codes[r * p + f]) >>> 31;
         idx[l] = r;
         idx[rr] = r;
-        l += g;
-        rr += 1 - g;
+        l += 1 - right;
+        rr += right;
       }
       idx.copyWithin(l, n, rr);
 
@@ -382,11 +383,11 @@ export class TreeBuilder {
       while (f >= 0) {
         const c = codes[base + f];
         const bins = packed[at + 3];
-        let next: number;
-        if (c <= (bins & 255)) next = packed[at + 1];
-        else if (c >= bins >> 8) next = packed[at + 2];
-        else next = raw[f][r] <= threshold[at >> 2] ? packed[at + 1] : packed[at + 2];
-        at = next << 2;
+        // 1 (right) when the code is above the last left bin, computed without a branch; only a code
+        // strictly between the two bins needs the raw value.
+        let right = ((bins & 255) - c) >>> 31;
+        if (right === 1 && c < bins >> 8) right = raw[f][r] <= threshold[at >> 2] ? 0 : 1;
+        at = packed[at + 1 + right] << 2;
         f = packed[at];
       }
       out[k] = value[at >> 2];
