@@ -14,7 +14,7 @@ export interface Manifest {
   manifest: 1;
   recipe: { file: string; sha256: string; normalized: Recipe };
   seed: number;
-  sources: { name: string; file: string; sha256: string; rows: number; columns: Results['sources'][number]['columns'] }[];
+  sources: { name: string; file: string; sha256: string; tableSha256?: string; rows: number; columns: Results['sources'][number]['columns'] }[];
   steps: { id: string; kind: string; key: string; output: string }[];
   models: {
     name: string;
@@ -55,7 +55,14 @@ export function buildManifest(
     manifest: 1,
     recipe: { file: relative(outDir, origin.path).split('\\').join('/'), sha256: origin.sha256, normalized: recipe },
     seed: recipe.seed,
-    sources: results.sources.map((s) => ({ name: s.name, file: s.file, sha256: s.sha256, rows: s.rows, columns: s.columns })),
+    sources: results.sources.map((s) => ({
+      name: s.name,
+      file: s.file,
+      sha256: s.sha256,
+      ...(s.tableSha256 ? { tableSha256: s.tableSha256 } : {}),
+      rows: s.rows,
+      columns: s.columns,
+    })),
     steps: exec.records.map((r) => ({ id: r.id, kind: r.kind, key: r.key, output: r.output })),
     models: results.models.map((m) => ({
       name: m.name,

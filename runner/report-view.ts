@@ -43,10 +43,13 @@ export function reportView(recipe: Recipe, results: Results, manifest: Manifest,
       name: s.name,
       file: s.file,
       sha256: s.sha256,
+      tableSha256: s.tableSha256,
+      hasUnits: s.columns.some((c) => c.units),
       rows: formatCount(s.rows),
       columns: s.columns.map((c) => ({
         name: c.name,
         type: c.type,
+        units: c.units ?? '',
         missing: formatCount(c.missing),
         range:
           c.min !== undefined

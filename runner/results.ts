@@ -20,8 +20,11 @@ export interface SourceResult {
   name: string;
   file: string;
   sha256: string;
+  /** SHA-256 of the parsed table: equal tables, equal hashes, whatever the file's format or layout. */
+  tableSha256: string | null;
   rows: number;
-  columns: ColumnProfile[];
+  /** Each column's profile, with its units where the file states them (NetCDF `units`). */
+  columns: (ColumnProfile & { units?: string })[];
 }
 
 export interface ModelResult {
@@ -73,13 +76,14 @@ export function gatherResults(recipe: Recipe, plan: Plan, exec: Execution): Resu
   const sources: SourceResult[] = Object.entries(plan.sources).map(([name, id]) => {
     const step = plan.steps.find((s) => s.id === id)!;
     const o = out(id) as FrameOutput;
-    const extra = o.notes.extra as { profile: ColumnProfile[] };
+    const extra = o.notes.extra as { profile: ColumnProfile[]; tableSha256?: string; units?: Record<string, string> };
     return {
       name,
       file: recipe.sources[name].file,
       sha256: (step.params as { sha256: string }).sha256,
+      tableSha256: extra.tableSha256 ?? null,
       rows: o.frame.rows,
-      columns: extra.profile,
+      columns: extra.profile.map((c) => (extra.units?.[c.name] ? { ...c, units: extra.units[c.name] } : c)),
     };
   });
   const cleaning = plan.dataSteps.slice(1).map((id) => {
