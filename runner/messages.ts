@@ -170,13 +170,7 @@ export const messages = {
   sourceOfRunMissing: (file: string) => `source file ${file} of the run is gone; restore it to verify the run`,
   modelFileMissing: (folder: string) =>
     `${folder} has no model.bin; it was written by an older dendrolog or copied without it; run the recipe again`,
-  predictColumnMissing: (file: string, column: string, header: string[]) =>
-    `${file}: column ${q(column)}, which the model's recipe reads, is not in the file (its header has ${header.join(', ')}); add it, or rename the file's column to match`,
-  predictTargetUnavailable: (target: string) =>
-    `the target ${q(target)} is a derived column; predictions are on its scale`,
-
   // --- cache and output
   cacheCorrupt: (key: string) =>
     `cache entry ${key.slice(0, 12)} failed its checksum and was discarded; the step was recomputed`,
-  outputExists: (folder: string) => `output folder ${folder} exists and is not a dendrolog run; choose another --out`,
 } as const;
