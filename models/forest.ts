@@ -38,12 +38,12 @@ export interface ForestOptions {
   trees: number;
   /** Maximum depth (root = depth 0), or null for unlimited. */
   maxDepth: number | null;
-  /** Minimum rows in a leaf, counted as bootstrap draws (a row drawn twice counts twice), as in randomForest. */
+  /** Minimum rows in a leaf, counted as bootstrap draws (a row drawn twice counts twice). */
   minLeaf: number;
   /**
    * Smallest node, in draws, that may still be split (an integer >= 2); default 2 × minLeaf, i.e. no
-   * limit beyond minLeaf. ranger's and randomForest's node-size rule (min.node.size = k: nodes of k
-   * or fewer samples are not split, leaves may be smaller) is minLeaf 1 with minSplit k + 1.
+   * limit beyond minLeaf. ranger's node-size rule (min.node.size = k: nodes of k or fewer samples are
+   * not split, leaves may be smaller) is minLeaf 1 with minSplit k + 1.
    */
   minSplit?: number;
   /** Integer >= 1: features tried at each split; 0 < mtry < 1: that fraction of the predictors, rounded down, at least 1. */
