@@ -151,14 +151,14 @@ function parse(
   } catch (e) {
     const m = /'(--?[^']+)'/.exec((e as Error).message);
     if (m && /Unknown option/.test((e as Error).message)) throw new DendrologError(messages.usageUnknownOption(m[1], command), 2);
-    throw new DendrologError(`${(e as Error).message}; run "dendrolog ${command} --help"`, 2);
+    throw new DendrologError(messages.usageOptionNeedsValue((e as Error).message, command), 2);
   }
 }
 
 function onePositional(positionals: string[], command: string, what = 'a recipe file'): string {
   if (positionals.length === 0) throw new DendrologError(messages.usageMissingArgument(what, command), 2);
   if (positionals.length > 1) {
-    throw new DendrologError(`"dendrolog ${command}" takes ${what}, but got ${positionals.length} arguments: ${positionals.join(' ')}`, 2);
+    throw new DendrologError(messages.usageTooManyArguments(command, what, positionals), 2);
   }
   return positionals[0];
 }

@@ -36,6 +36,10 @@ export const messages = {
     `"dendrolog ${cmd}" needs ${what}; run "dendrolog ${cmd} --help" for an example`,
   usageOptionValue: (opt: string, value: string, expected: string) =>
     `option ${opt} got ${q(value)}; expected ${expected}`,
+  usageOptionNeedsValue: (detail: string, cmd: string) => `${detail}; run "dendrolog ${cmd} --help" for its options`,
+  usageTooManyArguments: (cmd: string, what: string, got: string[]) =>
+    `"dendrolog ${cmd}" takes ${what}, but got ${got.length} arguments: ${got.join(' ')}`,
+  dataFileMissing: (path: string) => `${path}: no such data file; give the path of a file shaped like the recipe's main source`,
   recipeFileMissing: (path: string) =>
     `${path}: no such recipe file; give the path of a recipe.yaml (for example recipes/lake-chlorophyll/recipe.yaml)`,
 
@@ -53,6 +57,17 @@ export const messages = {
     (suggestion ? `; did you mean ${q(suggestion)}?` : ''),
   outOfRange: (where: string, got: unknown, rule: string) => `${where} is ${q(got)}, but it must be ${rule}`,
   badPattern: (where: string, got: unknown, rule: string) => `${where} is ${q(got)}; ${rule}`,
+  badSlug: (where: string, got: unknown) =>
+    `${where} is ${q(got)}; use lowercase letters, digits and dashes only, starting with a letter or digit`,
+  badSha256: (where: string, got: unknown) =>
+    `${where} is ${q(got)}; give the 64 lowercase hex digits of the SHA-256 (sha256sum prints it)`,
+  badName: (name: string, where: string, dashes: boolean) =>
+    `${q(name)} is not allowed as a name in ${where}; use letters, digits${dashes ? ', underscores and dashes' : ' and underscores'}, starting with a letter or underscore`,
+  listRepeats: (where: string) => `${where} lists the same value twice; remove the repeat`,
+  emptyMapping: (where: string) => `${where} is empty; give at least one entry`,
+  oneStepPerItem: (where: string) => `${where} holds more than one step; give each step its own list item ("- ")`,
+  emptyText: (where: string) => `${where} is empty; give a value`,
+  textTooLong: (where: string, limit: number) => `${where} is longer than ${limit} characters; shorten it`,
   schemaOther: (where: string, detail: string) => `${where}: ${detail}`,
   /** For a predicate phrase such as "is empty; give a value". */
   invalidValue: (where: string, predicate: string) => `${where} ${predicate}`,
@@ -154,8 +169,7 @@ export const messages = {
     `the time column ${q(column)} has ${rows} missing values among the modelling rows; drop them with "drop_missing: [${column}]" or split another way`,
   timeTooFewBlocks: (distinct: number, k: number) =>
     `forward time folds need at least ${k + 1} distinct times in the training rows, but there are ${distinct}; use fewer folds`,
-  holdoutEmpty: (side: string) =>
-    `the holdout split left the ${side} set empty; change evaluation.holdout.fraction`,
+  holdoutEmpty: (side: string, fix: string) => `the holdout split left the ${side} set empty; ${fix}`,
   missingInPredictor: (column: string, rows: number) =>
     `predictor ${q(column)} has ${rows} missing values in the modelling rows; drop them with "drop_missing" or fill them with an "impute" feature step`,
   unseenCategory: (column: string, value: string, known: string[]) =>

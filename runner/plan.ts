@@ -3,7 +3,7 @@ import { stepRegistry } from '../steps/index.js';
 import { cellLabel, gridCells, varyingParams } from '../steps/model-kinds.js';
 import { hashValue, sha256 } from './hash.js';
 import { softwareFingerprint } from './environment.js';
-import { DendrologError } from './messages.js';
+import { DendrologError, messages } from './messages.js';
 import type { RecipeOrigin } from './recipe.js';
 import { displayOf, resolveSourcePath } from './recipe.js';
 import type { Recipe, SourceSpec } from './recipe-types.js';
@@ -55,10 +55,7 @@ export function planRecipe(recipe: Recipe, origin: RecipeOrigin): Plan {
     if ('problem' in r) throw new DendrologError(`${origin.doc.where(['sources', name, 'file'])}: ${r.problem}`, 2);
     const fileSha = sha256(readFileSync(r.path));
     if (s.sha256 && s.sha256 !== fileSha) {
-      throw new DendrologError(
-        `${origin.doc.where(['sources', name, 'sha256'])}: source file "${s.file}" has SHA-256 ${fileSha}, but the recipe pins ${s.sha256}; restore the pinned file, or update the sha256 if the change is intended`,
-        2,
-      );
+      throw new DendrologError(`${origin.doc.where(['sources', name, 'sha256'])}: ${messages.sourceHashMismatch(s.file, s.sha256, fileSha)}`, 2);
     }
     sources[name] = add(
       `source ${name}`,

@@ -46,7 +46,7 @@ export async function predictRun(folder: string, dataFile: string, outFile: stri
   const recipe = manifest.recipe.normalized as Recipe;
   const recipeDir = dirname(resolve(outDir, manifest.recipe.file));
   const dataPath = resolve(dataFile);
-  if (!existsSync(dataPath)) throw new DendrologError(messages.recipeFileMissing(dataFile).replace('recipe file', 'data file'), 2);
+  if (!existsSync(dataPath)) throw new DendrologError(messages.dataFileMissing(dataFile), 2);
 
   const mainName = Object.keys(recipe.sources)[0];
   const main = recipe.sources[mainName];

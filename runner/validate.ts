@@ -25,7 +25,8 @@ function validator(): ReturnType<Ajv['compile']> {
 export function validateRecipe(doc: PositionedDocument): string[] {
   const validate = validator();
   if (validate(doc.value)) return [];
-  const errors = (validate.errors ?? []).filter((e) => e.keyword !== 'if');
+  // propertyNames failures arrive twice: as a pattern error naming the key, and as this wrapper
+  const errors = (validate.errors ?? []).filter((e) => e.keyword !== 'if' && e.keyword !== 'propertyNames');
   const paths = errors.map((e) => e.instancePath);
   // Branch errors of anyOf at a path are noise when a deeper path explains the failure.
   const hasDeeper = (p: string): boolean => paths.some((q) => q.startsWith(p + '/'));
@@ -109,34 +110,30 @@ function describeError(e: ErrorObject, path: (string | number)[], name: string, 
       return { pos: doc.where(path), msg: messages.outOfRange(name, value, `${rule} ${p.limit}`) };
     }
     case 'pattern':
-      return { pos: doc.where(path), msg: messages.badPattern(name, value, patternRule(path)) };
+      // a key that breaks a naming rule: point at the key itself and say the rule once
+      if (e.propertyName !== undefined) {
+        return { pos: doc.whereKey([...path, e.propertyName]), msg: messages.badName(e.propertyName, name, path[0] === 'models') };
+      }
+      if (path[0] === 'name') return { pos: doc.where(path), msg: messages.badSlug(name, value) };
+      if (path[path.length - 1] === 'sha256') return { pos: doc.where(path), msg: messages.badSha256(name, value) };
+      return { pos: doc.where(path), msg: messages.badPattern(name, value, `it must match ${String(p.pattern)}`) };
     case 'minItems':
       return { pos: doc.where(path), msg: messages.outOfRange(name, value, `a list of at least ${p.limit} item(s)`) };
     case 'uniqueItems':
-      return { pos: doc.where(path), msg: messages.invalidValue(name, 'lists the same value twice; remove the repeat') };
+      return { pos: doc.where(path), msg: messages.listRepeats(name) };
     case 'minProperties':
-      return { pos: doc.where(path), msg: messages.invalidValue(name, 'is empty; give at least one entry') };
+      return { pos: doc.where(path), msg: messages.emptyMapping(name) };
     case 'maxProperties':
-      return {
-        pos: doc.where(path),
-        msg: messages.invalidValue(name, 'holds more than one step; give each step its own list item ("- ")'),
-      };
+      return { pos: doc.where(path), msg: messages.oneStepPerItem(name) };
     case 'minLength':
-      return { pos: doc.where(path), msg: messages.invalidValue(name, 'is empty; give a value') };
+      return { pos: doc.where(path), msg: messages.emptyText(name) };
     case 'maxLength':
-      return { pos: doc.where(path), msg: messages.invalidValue(name, `is longer than ${p.limit} characters; shorten it`) };
-    case 'propertyNames':
-      return { pos: doc.where(path), msg: messages.invalidValue(name, 'has a name that is not a plain identifier (letters, digits and underscores, starting with a letter)') };
+      return { pos: doc.where(path), msg: messages.textTooLong(name, Number(p.limit)) };
     default:
       return { pos: doc.where(path), msg: messages.schemaOther(name, `${e.message ?? 'is not valid'}`) };
   }
 }
 
-function patternRule(path: (string | number)[]): string {
-  if (path[0] === 'name') return 'use lowercase letters, digits and dashes only, starting with a letter or digit';
-  if (path[path.length - 1] === 'sha256') return 'give the 64 lowercase hex digits of the SHA-256 (sha256sum prints it)';
-  return 'use letters, digits and underscores only, starting with a letter';
-}
 
 function expectedOf(list: ErrorObject[]): string {
   const parts: string[] = [];

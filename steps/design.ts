@@ -84,7 +84,7 @@ export function applyDesign(learned: LearnedDesign, frame: Frame, rows: ArrayLik
       const width = oh.categories.length + (oh.unseen === 'other' ? 1 : 0);
       const block = Array.from({ length: width }, () => new Float64Array(n));
       for (let i = 0; i < n; i++) {
-        if (isMissing(c, rows[i])) throw new DendrologError(messages.missingInPredictor(p, countMissing(c, rows)), 1);
+        if (isMissing(c, rows[i])) throw new DendrologError(messages.missingInPredictor(p, countMissing(c)), 1);
         const v = String(c.values[rows[i]]);
         const k = index.get(v);
         if (k !== undefined) block[k][i] = 1;
@@ -102,7 +102,7 @@ export function applyDesign(learned: LearnedDesign, frame: Frame, rows: ArrayLik
       let v = src[rows[i]];
       if (Number.isNaN(v)) {
         if (fill === undefined || Number.isNaN(fill)) {
-          throw new DendrologError(messages.missingInPredictor(p, countMissing(c, rows)), 1);
+          throw new DendrologError(messages.missingInPredictor(p, countMissing(c)), 1);
         }
         v = fill;
       }
@@ -128,9 +128,10 @@ function presentValues(frame: Frame, name: string, rows: ArrayLike<number>): num
   return out;
 }
 
-function countMissing(c: ReturnType<typeof column>, rows: ArrayLike<number>): number {
+/** Missing values of a column over the whole model table, so the count does not depend on the fold. */
+function countMissing(c: ReturnType<typeof column>): number {
   let n = 0;
-  for (let i = 0; i < rows.length; i++) if (isMissing(c, rows[i])) n++;
+  for (let i = 0; i < c.values.length; i++) if (isMissing(c, i)) n++;
   return n;
 }
 

@@ -67,8 +67,15 @@ export const holdout: StepDefinition<HoldoutParams, HoldoutOutput> = {
     const train: number[] = [];
     const test: number[] = [];
     for (let i = 0; i < frame.rows; i++) (isTest[i] ? test : train).push(i);
-    if (test.length === 0) throw new DendrologError(messages.holdoutEmpty('holdout'), 2);
-    if (train.length === 0) throw new DendrologError(messages.holdoutEmpty('training'), 2);
+    if (test.length === 0 || train.length === 0) {
+      const fix =
+        params.by === 'time' && params.cutoff !== null
+          ? `move evaluation.holdout.cutoff (${params.cutoff}) inside the range of the time column`
+          : params.by === 'time'
+            ? 'the time column has too few distinct times to split; split at random or by groups'
+            : 'change evaluation.holdout.fraction';
+      throw new DendrologError(messages.holdoutEmpty(test.length === 0 ? 'holdout' : 'training', fix), 2);
+    }
     const groupCount = (rows: number[]) => (params.groups ? rowsByGroup(frame, params.groups, rows).size : 0);
     return { train, test, by: params.by, testGroups: groupCount(test), trainGroups: groupCount(train), cutoff };
   },
