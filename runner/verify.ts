@@ -62,7 +62,12 @@ export async function verifyRun(folder: string, opts: { workers: number; progres
   }
   if (envChanges.length) causes.push(`software changed since the run: ${envChanges.join(', ')}`);
 
-  const recipe = manifest.recipe.normalized as unknown as Recipe;
+  // a pinned hash would stop the rerun at a changed file; the change is reported above instead
+  const kept = manifest.recipe.normalized as unknown as Recipe;
+  const recipe: Recipe = {
+    ...kept,
+    sources: Object.fromEntries(Object.entries(kept.sources).map(([name, s]) => [name, { ...s, sha256: null }])),
+  };
   const display = displayOf(recipePath);
   const origin: RecipeOrigin = {
     path: recipePath,

@@ -9,6 +9,7 @@ import { displayOf } from '../../runner/recipe.js';
 import { readManifest } from '../../runner/run-folder.js';
 import { runRecipe } from '../../runner/run.js';
 import { verifyRun } from '../../runner/verify.js';
+import { sha256 } from '../../runner/hash.js';
 import { makeFolder, SMALL_RECIPE, smallData } from '../helpers.js';
 
 const FOREST = SMALL_RECIPE.replace('mean: {kind: mean}', 'mean: {kind: mean}\n  forest: {kind: random_forest, grid: {trees: 20, min_leaf: [2, 4], mtry: 1}}').replace(
@@ -60,6 +61,15 @@ describe('verify', () => {
     const v = await verifyRun(outDir, { workers: 1, progress: silentProgress() });
     expect(v.reproduced).toBe(false);
     expect(v.lines.find((l) => l.startsWith('first difference'))).toMatch(/step "source obs".*source file data\/obs\.csv changed: SHA-256 was [0-9a-f]{64}, now [0-9a-f]{64}/);
+  });
+
+  it('names the changed source file even when the recipe pins its hash', async () => {
+    const pinned = FOREST.replace('file: data/obs.csv', `file: data/obs.csv\n    sha256: ${sha256(data())}`);
+    const { dir, outDir } = await run(pinned);
+    writeFileSync(join(dir, 'data/obs.csv'), data().replace('\nS0,', '\nS9,'));
+    const v = await verifyRun(outDir, { workers: 1, progress: silentProgress() });
+    expect(v.reproduced).toBe(false);
+    expect(v.lines.join('\n')).toMatch(/likely cause: source file data\/obs\.csv changed: SHA-256 was/);
   });
 
   it('says the recipe changed after an edit', async () => {
