@@ -1,36 +1,14 @@
-import { execFileSync } from 'node:child_process';
 import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { tableFromIPC } from '@uwdata/flechette';
 import { asyncBufferFromFile, parquetMetadataAsync, parquetRead } from 'hyparquet';
 import { describe, expect, it } from 'vitest';
 import { messages } from '../../../runner/messages.js';
-import { makeFolder } from '../../helpers.js';
-import { errorOf, fileWith, readSource } from './helpers.js';
+import { errorOf, fileWith, readSource , describeNc, ncgen, NCGEN_INSTALLED } from './helpers.js';
 import { writeParquet } from './writers.js';
 
 const FIXTURES = join(import.meta.dirname, '../../fixtures/netcdf');
 
-function has(cmd: string): boolean {
-  try {
-    execFileSync(cmd, [], { stdio: 'ignore' });
-    return true;
-  } catch (e) {
-    return (e as NodeJS.ErrnoException).code !== 'ENOENT';
-  }
-}
-// Unidata's ncgen writes the files from CDL; CI installs it (netcdf-bin), elsewhere these tests skip
-const NCGEN = has('ncgen');
-if (!NCGEN && process.env.CI) throw new Error('ncgen is required for the NetCDF tests: apt-get install netcdf-bin');
-const describeNc = NCGEN ? describe : describe.skip;
-
-/** Builds a NetCDF file of the given kind from CDL text with ncgen; returns its path. */
-function ncgen(cdl: string, kind: 'classic' | '64-bit-offset' | 'netCDF-4' | 'cdf5', name = 'grid'): string {
-  const dir = makeFolder({ [`${name}.cdl`]: cdl });
-  const out = join(dir, `${name}-${kind}.nc`);
-  execFileSync('ncgen', ['-k', kind, '-o', out, join(dir, `${name}.cdl`)]);
-  return out;
-}
 
 /** The message of the error a call throws (sync or async), whatever its class: a library's own complaint. */
 async function complaint(f: () => unknown): Promise<string> {
@@ -42,7 +20,7 @@ async function complaint(f: () => unknown): Promise<string> {
   throw new Error('expected the library to refuse the input');
 }
 
-const CDL = NCGEN ? readFileSync(join(FIXTURES, 'grid.cdl'), 'utf8') : '';
+const CDL = NCGEN_INSTALLED ? readFileSync(join(FIXTURES, 'grid.cdl'), 'utf8') : '';
 // time × lat × lon in test/fixtures/netcdf/grid.cdl; station_count runs over lat × lon only
 const COLUMNS = { time: 'date', lat: 'number', lon: 'number', tas: 'number', pr: 'number' } as const;
 const DIMS = ['time', 'lat', 'lon'];

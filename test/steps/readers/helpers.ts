@@ -1,4 +1,6 @@
+import { execFileSync } from 'node:child_process';
 import { writeFileSync } from 'node:fs';
+import { describe } from 'vitest';
 import { join } from 'node:path';
 import type { Column } from '../../../runner/frame.js';
 import { DendrologError } from '../../../runner/messages.js';
@@ -39,4 +41,28 @@ export function plain(c: Column): (number | string | null)[] {
 /** Columns of a frame by name, as plain arrays. */
 export function byName(o: FrameOutput): Record<string, (number | string | null)[]> {
   return Object.fromEntries(o.frame.columns.map((c) => [c.name, plain(c)]));
+}
+
+function has(cmd: string): boolean {
+  try {
+    execFileSync(cmd, [], { stdio: 'ignore' });
+    return true;
+  } catch (e) {
+    return (e as NodeJS.ErrnoException).code !== 'ENOENT';
+  }
+}
+
+// Unidata's ncgen writes the NetCDF fixtures from CDL; CI installs it (netcdf-bin), elsewhere the tests skip
+/** Whether Unidata's ncgen is on this machine. */
+export const NCGEN_INSTALLED = has('ncgen');
+if (!NCGEN_INSTALLED && process.env.CI) throw new Error('ncgen is required for the NetCDF tests: apt-get install netcdf-bin');
+/** `describe` where ncgen is installed, `describe.skip` elsewhere. */
+export const describeNc = NCGEN_INSTALLED ? describe : describe.skip;
+
+/** Builds a NetCDF file of the given kind from CDL text with ncgen; returns its path. */
+export function ncgen(cdl: string, kind: 'classic' | '64-bit-offset' | 'netCDF-4' | 'cdf5', name = 'grid'): string {
+  const dir = makeFolder({ [`${name}.cdl`]: cdl });
+  const out = join(dir, `${name}-${kind}.nc`);
+  execFileSync('ncgen', ['-k', kind, '-o', out, join(dir, `${name}.cdl`)]);
+  return out;
 }

@@ -1,34 +1,13 @@
 import { execFileSync } from 'node:child_process';
 import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
-import { describe, expect, it } from 'vitest';
+import { expect, it } from 'vitest';
 import { messages } from '../../../runner/messages.js';
 import { timeDecoder } from '../../../steps/readers/cf.js';
-import { makeFolder } from '../../helpers.js';
-import { byName, errorOf, fileWith, readSource } from './helpers.js';
+import { byName, errorOf, fileWith, readSource , describeNc, ncgen } from './helpers.js';
 
 const FIXTURES = join(import.meta.dirname, '../../fixtures/netcdf');
 
-function has(cmd: string): boolean {
-  try {
-    execFileSync(cmd, [], { stdio: 'ignore' });
-    return true;
-  } catch (e) {
-    return (e as NodeJS.ErrnoException).code !== 'ENOENT';
-  }
-}
-// Unidata's ncgen writes the files from CDL; CI installs it (netcdf-bin), elsewhere the tests say so and skip
-const NCGEN = has('ncgen');
-if (!NCGEN && process.env.CI) throw new Error('ncgen is required for the NetCDF tests: apt-get install netcdf-bin');
-const describeNc = NCGEN ? describe : describe.skip;
-
-/** Builds a NetCDF file of the given kind from CDL text with ncgen; returns its path. */
-function ncgen(cdl: string, kind: 'classic' | '64-bit-offset' | 'netCDF-4', name = 'grid'): string {
-  const dir = makeFolder({ [`${name}.cdl`]: cdl });
-  const out = join(dir, `${name}-${kind}.nc`);
-  execFileSync('ncgen', ['-k', kind, '-o', out, join(dir, `${name}.cdl`)]);
-  return out;
-}
 
 /** The data section of ncdump's output: each variable's values as printed ("_" for fill values). */
 function ncdumpData(text: string): Record<string, string[]> {
