@@ -1,3 +1,4 @@
+import { DEFAULT_MIN_LEAF, DEFAULT_REPLACE, DEFAULT_SAMPLE_FRACTION, DEFAULT_TREES } from '../models/defaults.js';
 import type {
   CleanStep,
   Evaluation,
@@ -17,12 +18,19 @@ export const DEFAULT_MISSING = ['', 'NA'];
 export const DEFAULT_MAX_CELLS = 200;
 
 /**
- * Hyperparameter defaults per model kind. `mtry: null` means one third of the predictors
+ * Hyperparameter defaults per model kind, the engine's own (models/defaults.ts says why each). `mtry: null` means one third of the predictors
  * (after one-hot expansion), rounded down, at least 1; the value used is recorded per fit.
  */
 export const MODEL_DEFAULTS: Record<ModelKind, Record<string, (number | boolean | null)[]>> = {
-  random_forest: { trees: [500], max_depth: [null], min_leaf: [5], mtry: [null], sample_fraction: [1], replace: [true] },
-  decision_tree: { max_depth: [null], min_leaf: [5] },
+  random_forest: {
+    trees: [DEFAULT_TREES],
+    max_depth: [null],
+    min_leaf: [DEFAULT_MIN_LEAF],
+    mtry: [null],
+    sample_fraction: [DEFAULT_SAMPLE_FRACTION],
+    replace: [DEFAULT_REPLACE],
+  },
+  decision_tree: { max_depth: [null], min_leaf: [DEFAULT_MIN_LEAF] },
   linear: {},
   mean: {},
 };
