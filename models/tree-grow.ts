@@ -67,7 +67,7 @@ export interface GrownTree {
   tree: Tree;
   /** Per feature: decrease in in-bag squared error from its splits, divided by the tree's in-bag weight. */
   importance: Float64Array;
-  /** Out-of-bag rows (ascending) and this tree's prediction for each. */
+  /** Out-of-bag rows (grouped by leaf) and this tree's prediction for each. */
   oobRows: Int32Array;
   oobValues: Float64Array;
 }
@@ -94,8 +94,12 @@ export class TreeBuilder {
   private readonly totalBins: number;
   private readonly mtry: number;
   private readonly counts: Int32Array;
-  /** Rows of the current nodes in [0, rows); [rows, 2 rows) is scratch for stable partitioning. */
+  /** In-bag rows of the current nodes in [0, rows); [rows, 2 rows) is scratch for stable partitioning. */
   private readonly idx: Int32Array;
+  /** Out-of-bag rows of the current nodes, laid out like `idx` and partitioned by the same splits. */
+  private readonly oidx: Int32Array;
+  /** Leaf value of the out-of-bag row at the same position of `oidx`, once its leaf is reached. */
+  private readonly oobVal: Float64Array;
   /** Per row: [2r] weight × centred target, [2r + 1] weight (draw count); interleaved so one cache line serves both. */
   private readonly wwy: Float64Array;
   private readonly perm: Int32Array;
@@ -105,6 +109,8 @@ export class TreeBuilder {
   // Pending-node stack, one slot per pending node.
   private sStart = new Int32Array(64);
   private sEnd = new Int32Array(64);
+  private sOStart = new Int32Array(64);
+  private sOEnd = new Int32Array(64);
   private sDepth = new Int32Array(64);
   private sParent = new Int32Array(64);
   private sBuf = new Int32Array(64);
@@ -113,28 +119,28 @@ export class TreeBuilder {
   private sS = new Float64Array(64);
   /** The mtry features drawn for the node in each slot. */
   private sFeat: Int32Array;
-  /** Per slot: histograms of the slot's mtry features (k × 512 + 2 × bin), zero whenever idle. */
-  private slotHist: Float64Array[] = [];
-  /** Per slot: occupancy masks, 8 words per feature. */
-  private slotMask: Int32Array[] = [];
+  /** Sparse histograms of the current small node's mtry features (k × 512 + 2 × bin), zero whenever idle. */
+  private readonly hist: Float64Array;
+  /** Occupancy masks of `hist`, 8 words per feature, zero whenever idle. */
+  private readonly mask: Int32Array;
   // Node arrays of the tree being grown.
   private nFeature: Int32Array;
   private nThreshold: Float64Array;
   private nLeft: Int32Array;
   private nRight: Int32Array;
   private nValue: Float64Array;
-  /** Per internal node: the last occupied bin on the left and the first on the right (for OOB routing). */
-  private nLo: Uint8Array;
-  private nHi: Uint8Array;
-  /** Scratch for routeOob: nodes packed as (feature, left, right, lo | hi << 8). */
-  private packed = new Int32Array(0);
-  // Best split found by the last search.
-  private bestG = 0;
+  // Best split found by the last search. Fields that hold fractions start as non-integers, so V8 keeps
+  // them as unboxed doubles from the start instead of changing their representation (and
+  // deoptimizing the code that uses them) mid-tree.
+  private bestG = -Infinity;
   private bestF = -1;
   private bestLo = 0;
   private bestHi = 0;
-  private bestWL = 0;
-  private bestSL = 0;
+  private bestWL = 0.5;
+  private bestSL = 0.5;
+  /** Root's in-bag weight and weighted centred-target sum, set by sample(). */
+  private rootW = 0.5;
+  private rootS = 0.5;
 
   constructor(data: GrowData, params: GrowParams) {
     this.d = data;
@@ -147,35 +153,41 @@ export class TreeBuilder {
     const n = data.rows;
     this.counts = new Int32Array(n);
     this.idx = new Int32Array(2 * n);
+    this.oidx = new Int32Array(2 * n);
+    this.oobVal = new Float64Array(n);
     this.wwy = new Float64Array(2 * n);
     this.perm = new Int32Array(data.features);
     this.sFeat = new Int32Array(64 * this.mtry);
+    this.hist = new Float64Array(this.mtry * 512);
+    this.mask = new Int32Array(this.mtry * 8);
     const cap = Math.max(16, Math.min(2 * Math.ceil(params.sampleSize / Math.max(1, params.minLeaf)) + 1, 1 << 20));
     this.nFeature = new Int32Array(cap);
     this.nThreshold = new Float64Array(cap);
     this.nLeft = new Int32Array(cap);
     this.nRight = new Int32Array(cap);
     this.nValue = new Float64Array(cap);
-    this.nLo = new Uint8Array(cap);
-    this.nHi = new Uint8Array(cap);
   }
 
   /** Grow tree number `treeIndex`; its randomness comes only from (seed, treeIndex). */
   grow(treeIndex: number): GrownTree {
-    const d = this.d;
-    const n = d.rows;
-    const p = d.features;
-    const codes = d.codes;
-    const offsets = d.offsets;
-    const yc = d.yc;
+    const rng = rngFor(this.prm.seed, 'tree', treeIndex);
+    const inBag = this.sample(rng);
+    const importance = new Float64Array(this.d.features);
+    const nodes = this.growNodes(rng, inBag, importance);
+    return this.finish(nodes, inBag, importance);
+  }
+
+  /**
+   * Draws the tree's in-bag sample as draw counts per row, lists the in-bag rows (ascending) in `idx`
+   * and the out-of-bag rows in `oidx`, and fills `wwy` and the root's sums. Returns the in-bag count.
+   */
+  private sample(rng: Sfc32): number {
+    const n = this.d.rows;
+    const yc = this.d.yc;
     const counts = this.counts;
     const idx = this.idx;
+    const oidx = this.oidx;
     const wwy = this.wwy;
-    const mtry = this.mtry;
-    const denseMin = this.denseMin;
-    const rng = rngFor(this.prm.seed, 'tree', treeIndex);
-
-    // 1. In-bag sample, as draw counts per row.
     const size = this.prm.sampleSize;
     if (this.prm.replace) {
       counts.fill(0);
@@ -194,6 +206,7 @@ export class TreeBuilder {
       for (let k = 0; k < size; k++) counts[idx[n + k]] = 1;
     }
     let m = 0;
+    let o = 0;
     let rootS = 0;
     let rootW = 0;
     for (let r = 0; r < n; r++) {
@@ -205,14 +218,27 @@ export class TreeBuilder {
         wwy[2 * r + 1] = c;
         rootS += a;
         rootW += c;
-      }
+      } else oidx[o++] = r;
     }
+    this.rootS = rootS;
+    this.rootW = rootW;
+    return m;
+  }
+
+  /**
+   * Depth-first growth from the root over `idx[0..m)`; popping the left child first numbers nodes in
+   * preorder (left = parent + 1). Returns the number of nodes.
+   */
+  private growNodes(rng: Sfc32, m: number, importance: Float64Array): number {
+    const d = this.d;
+    const mtry = this.mtry;
+    const denseMin = this.denseMin;
+    const rootW = this.rootW;
     // Feature sampling restarts from column order in every tree, so a tree does not depend on the
     // trees this builder grew before it.
-    for (let f = 0; f < p; f++) this.perm[f] = f;
+    for (let f = 0; f < d.features; f++) this.perm[f] = f;
 
-    // 2. The root, with its features drawn and its histograms filled.
-    const importance = new Float64Array(p);
+    // The root, with its features drawn and (if large) its dense histograms filled.
     this.ensureSlots(2);
     const rootSplits = this.splittable(0, rootW);
     let rootBuf = -1;
@@ -222,11 +248,10 @@ export class TreeBuilder {
         rootBuf = this.acquire();
         this.bufs[rootBuf].fill(0);
         this.accumulateDense(this.bufs[rootBuf], 0, m);
-      } else this.accumulateSlot(0, 0, m);
+      }
     }
-    this.setSlot(0, 0, m, 0, -1, rootW, rootS, rootBuf, rootSplits);
+    this.setSlot(0, 0, m, 0, d.rows - m, 0, -1, rootW, this.rootS, rootBuf, rootSplits);
 
-    // 3. Depth-first growth; popping the left child first numbers nodes in preorder (left = parent + 1).
     let top = 1;
     let nodes = 0;
     while (top > 0) {
@@ -234,13 +259,12 @@ export class TreeBuilder {
       const slot = top;
       const start = this.sStart[slot];
       const end = this.sEnd[slot];
-      const depth = this.sDepth[slot];
-      const parent = this.sParent[slot];
       const W = this.sW[slot];
       const S = this.sS[slot];
       const buf = this.sBuf[slot];
       const id = nodes++;
-      if (id >= this.nFeature.length) this.growNodes();
+      if (id >= this.nFeature.length) this.growNodes2x();
+      const parent = this.sParent[slot];
       if (parent >= 0) {
         if (parent & 1) this.nRight[parent >> 1] = id;
         else this.nLeft[parent >> 1] = id;
@@ -252,90 +276,145 @@ export class TreeBuilder {
         if (buf >= 0) {
           const h = this.bufs[buf];
           for (let k = 0; k < mtry; k++) this.searchDense(h, this.sFeat[slot * mtry + k], W, S);
-        } else this.searchSlot(slot, W, S);
+        } else {
+          this.accumulateSparse(slot, start, end);
+          this.searchSparse(slot, W, S);
+        }
       }
-      const parentProxy = (S * S) / W;
-      const gain = this.bestG - parentProxy;
+      const gain = this.bestG - (S * S) / W;
       if (this.bestF < 0 || !(gain > REL_TOL * this.bestG)) {
-        this.makeLeaf(id, start, end);
+        this.makeLeaf(id, start, end, this.sOStart[slot], this.sOEnd[slot]);
         if (buf >= 0) this.release(buf);
         continue;
       }
+      importance[this.bestF] += gain;
+      this.split(slot, id, rng);
+      top += 2;
+    }
+    return nodes;
+  }
 
-      // Record the split.
-      const f = this.bestF;
-      const lo = this.bestLo;
-      const off = offsets[f];
-      this.nFeature[id] = f;
-      this.nThreshold[id] = midpoint(d.binMax[off + lo], d.binMin[off + this.bestHi]);
-      this.nValue[id] = NaN;
-      this.nLo[id] = lo;
-      this.nHi[id] = this.bestHi;
-      importance[f] += gain;
-      const WL = this.bestWL;
-      const SL = this.bestSL;
-      const WR = W - WL;
-      const SR = S - SL;
+  /**
+   * Records the best split found for the node in `slot` as node `id`, partitions its in-bag and
+   * out-of-bag rows, and pushes its children: the right one into `slot`, the left one above it.
+   */
+  private split(slot: number, id: number, rng: Sfc32): void {
+    const d = this.d;
+    const f = this.bestF;
+    const lo = this.bestLo;
+    const hi = this.bestHi;
+    const off = d.offsets[f];
+    const binMax = d.binMax;
+    const thr = midpoint(binMax[off + lo], d.binMin[off + hi]);
+    this.nFeature[id] = f;
+    this.nThreshold[id] = thr;
+    this.nValue[id] = NaN;
+    const start = this.sStart[slot];
+    const end = this.sEnd[slot];
+    const W = this.sW[slot];
+    const S = this.sS[slot];
+    const buf = this.sBuf[slot];
+    const depth = this.sDepth[slot];
+    const WL = this.bestWL;
+    const SL = this.bestSL;
+    const WR = W - WL;
+    const SR = S - SL;
+    const l = this.partition(this.idx, start, end, f, lo, lo + 1, thr);
 
-      // Stable partition without branches: every row is written to both sides, and the side it
-      // belongs to advances.
-      let l = start;
-      let rr = n;
-      for (let i = start; i < end; i++) {
-        const r = idx[i];
-        // 1 when the row goes right (its code exceeds lo): the sign bit of lo - code, no branch.
-        const right = (lo - codes[r * p + f]) >>> 31;
-        idx[l] = r;
-        idx[rr] = r;
+    // Out-of-bag rows follow the same rule as prediction (raw value <= threshold goes left). Every bin
+    // up to the last one wholly at or below the threshold goes left, every bin from the first one
+    // wholly above it goes right; at most one bin (one that straddles the threshold) lies between.
+    let a = lo + 1;
+    let b = hi;
+    while (a < b) {
+      const mid = (a + b) >>> 1;
+      if (binMax[off + mid] <= thr) a = mid + 1;
+      else b = mid;
+    }
+    const rightFrom = a < hi && d.binMin[off + a] <= thr ? a + 1 : a;
+    const os = this.sOStart[slot];
+    const oe = this.sOEnd[slot];
+    const ol = os < oe ? this.partition(this.oidx, os, oe, f, a - 1, rightFrom, thr) : os;
+
+    // Children: right goes to this slot, left to the next (popped first).
+    const top = slot;
+    this.ensureSlots(top + 2);
+    const rightSlot = top;
+    const leftSlot = top + 1;
+    const splitsL = this.splittable(depth + 1, WL);
+    const splitsR = this.splittable(depth + 1, WR);
+    const denseMin = this.denseMin;
+    const leftSmall = WL <= WR;
+    let leftBuf = -1;
+    let rightBuf = -1;
+    if (buf >= 0 && (leftSmall ? WR >= denseMin && splitsR : WL >= denseMin && splitsL)) {
+      // The larger child keeps a dense histogram: parent minus smaller child, in place.
+      const small = this.acquire();
+      const h2 = this.bufs[small];
+      h2.fill(0);
+      if (leftSmall) this.accumulateDense(h2, start, l);
+      else this.accumulateDense(h2, l, end);
+      const h = this.bufs[buf];
+      const len = 2 * this.totalBins;
+      for (let k = 0; k < len; k++) h[k] -= h2[k];
+      const smallDense = leftSmall ? WL >= denseMin && splitsL : WR >= denseMin && splitsR;
+      if (leftSmall) {
+        rightBuf = buf;
+        if (smallDense) leftBuf = small;
+        else this.release(small);
+      } else {
+        leftBuf = buf;
+        if (smallDense) rightBuf = small;
+        else this.release(small);
+      }
+    } else if (buf >= 0) this.release(buf);
+    if (splitsL) this.drawFeatures(leftSlot, rng);
+    if (splitsR) this.drawFeatures(rightSlot, rng);
+    this.setSlot(rightSlot, l, end, ol, oe, depth + 1, id * 2 + 1, WR, SR, rightBuf, splitsR);
+    this.setSlot(leftSlot, start, l, os, ol, depth + 1, id * 2, WL, SL, leftBuf, splitsL);
+  }
+
+  /**
+   * Stable in-place partition of rows `ix[from..to)` on feature f: codes up to `leftTo` go left, from
+   * `rightFrom` go right, and codes between (only ever out-of-bag rows) compare their raw value with
+   * the threshold. Returns where the right side starts. `ix[rows..)` is scratch.
+   */
+  private partition(ix: Int32Array, from: number, to: number, f: number, leftTo: number, rightFrom: number, thr: number): number {
+    const n = this.d.rows;
+    const p = this.d.features;
+    const codes = this.d.codes;
+    let l = from;
+    let rr = n;
+    if (rightFrom === leftTo + 1) {
+      // No code in between: branch-free, every row is written to both sides and its side advances.
+      for (let i = from; i < to; i++) {
+        const r = ix[i];
+        // 1 when the row goes right (its code exceeds leftTo): the sign bit of leftTo - code.
+        const right = (leftTo - codes[r * p + f]) >>> 31;
+        ix[l] = r;
+        ix[rr] = r;
         l += 1 - right;
         rr += right;
       }
-      idx.copyWithin(l, n, rr);
-
-      // Children: right goes to this slot, left to the next (popped first).
-      this.ensureSlots(top + 2);
-      const rightSlot = top;
-      const leftSlot = top + 1;
-      const splitsL = this.splittable(depth + 1, WL);
-      const splitsR = this.splittable(depth + 1, WR);
-      const leftSmall = WL <= WR;
-      let leftBuf = -1;
-      let rightBuf = -1;
-      if (buf >= 0 && (leftSmall ? WR >= denseMin && splitsR : WL >= denseMin && splitsL)) {
-        // The larger child keeps a dense histogram: parent minus smaller child, in place.
-        const small = this.acquire();
-        const h2 = this.bufs[small];
-        h2.fill(0);
-        if (leftSmall) this.accumulateDense(h2, start, l);
-        else this.accumulateDense(h2, l, end);
-        const h = this.bufs[buf];
-        const len = 2 * this.totalBins;
-        for (let k = 0; k < len; k++) h[k] -= h2[k];
-        const smallDense = leftSmall ? WL >= denseMin && splitsL : WR >= denseMin && splitsR;
-        if (leftSmall) {
-          rightBuf = buf;
-          if (smallDense) leftBuf = small;
-          else this.release(small);
-        } else {
-          leftBuf = buf;
-          if (smallDense) rightBuf = small;
-          else this.release(small);
-        }
-      } else if (buf >= 0) this.release(buf);
-      if (splitsL) {
-        this.drawFeatures(leftSlot, rng);
-        if (leftBuf < 0) this.accumulateSlot(leftSlot, start, l);
+    } else {
+      const col = this.d.raw[f];
+      for (let i = from; i < to; i++) {
+        const r = ix[i];
+        const c = codes[r * p + f];
+        let right = (leftTo - c) >>> 31;
+        if (right === 1 && c < rightFrom) right = col[r] <= thr ? 0 : 1;
+        ix[l] = r;
+        ix[rr] = r;
+        l += 1 - right;
+        rr += right;
       }
-      if (splitsR) {
-        this.drawFeatures(rightSlot, rng);
-        if (rightBuf < 0) this.accumulateSlot(rightSlot, l, end);
-      }
-      this.setSlot(rightSlot, l, end, depth + 1, id * 2 + 1, WR, SR, rightBuf, splitsR);
-      this.setSlot(leftSlot, start, l, depth + 1, id * 2, WL, SL, leftBuf, splitsL);
-      top += 2;
     }
+    ix.copyWithin(l, n, rr);
+    return l;
+  }
 
-    // 4. Finish: exact-size tree, importance per in-bag weight, out-of-bag predictions.
+  /** Exact-size tree, importance per in-bag weight, and the out-of-bag rows with their leaf values. */
+  private finish(nodes: number, m: number, importance: Float64Array): GrownTree {
     const tree: Tree = {
       feature: this.nFeature.slice(0, nodes),
       threshold: this.nThreshold.slice(0, nodes),
@@ -343,55 +422,10 @@ export class TreeBuilder {
       right: this.nRight.slice(0, nodes),
       value: this.nValue.slice(0, nodes),
     };
-    for (let f = 0; f < p; f++) importance[f] /= rootW;
-    let nOob = 0;
-    for (let r = 0; r < n; r++) if (counts[r] === 0) nOob++;
-    const oobRows = new Int32Array(nOob);
-    const oobValues = new Float64Array(nOob);
-    let k = 0;
-    for (let r = 0; r < n; r++) if (counts[r] === 0) oobRows[k++] = r;
-    this.routeOob(nodes, oobRows, oobValues);
-    return { tree, importance, oobRows, oobValues };
-  }
-
-  /**
-   * Leaf values for the out-of-bag rows, the same leaves predictRow reaches with raw values: a bin code
-   * at or below the node's last left bin goes left, at or above its first right bin goes right; only a
-   * row in a bin between the two (absent from the node's in-bag rows) needs its raw value compared.
-   * Each node is packed into 16 bytes (feature, left, right, bins) so a step is one cache line, and
-   * codes are row-major, so a row's own bytes share one line too.
-   */
-  private routeOob(nodes: number, rows: Int32Array, out: Float64Array): void {
-    if (this.packed.length < 4 * nodes) this.packed = new Int32Array(8 * nodes);
-    const packed = this.packed;
-    for (let i = 0; i < nodes; i++) {
-      packed[4 * i] = this.nFeature[i];
-      packed[4 * i + 1] = this.nLeft[i];
-      packed[4 * i + 2] = this.nRight[i];
-      packed[4 * i + 3] = this.nLo[i] | (this.nHi[i] << 8);
-    }
-    const p = this.d.features;
-    const codes = this.d.codes;
-    const raw = this.d.raw;
-    const threshold = this.nThreshold;
-    const value = this.nValue;
-    for (let k = 0; k < rows.length; k++) {
-      const r = rows[k];
-      const base = r * p;
-      let at = 0;
-      let f = packed[0];
-      while (f >= 0) {
-        const c = codes[base + f];
-        const bins = packed[at + 3];
-        // 1 (right) when the code is above the last left bin, computed without a branch; only a code
-        // strictly between the two bins needs the raw value.
-        let right = ((bins & 255) - c) >>> 31;
-        if (right === 1 && c < bins >> 8) right = raw[f][r] <= threshold[at >> 2] ? 0 : 1;
-        at = packed[at + 1 + right] << 2;
-        f = packed[at];
-      }
-      out[k] = value[at >> 2];
-    }
+    const rootW = this.rootW;
+    for (let f = 0; f < importance.length; f++) importance[f] /= rootW;
+    const nOob = this.d.rows - m;
+    return { tree, importance, oobRows: this.oidx.slice(0, nOob), oobValues: this.oobVal.slice(0, nOob) };
   }
 
   private splittable(depth: number, W: number): boolean {
@@ -438,8 +472,8 @@ export class TreeBuilder {
     }
   }
 
-  /** Adds rows idx[from..to) to the slot's histograms of its drawn features, marking touched bins. */
-  private accumulateSlot(slot: number, from: number, to: number): void {
+  /** Adds rows idx[from..to) to the sparse histograms of the slot's drawn features, marking touched bins. */
+  private accumulateSparse(slot: number, from: number, to: number): void {
     const p = this.d.features;
     const codes = this.d.codes;
     const idx = this.idx;
@@ -447,8 +481,8 @@ export class TreeBuilder {
     const mtry = this.mtry;
     const feats = this.sFeat;
     const fo = slot * mtry;
-    const H = this.slotHist[slot];
-    const M = this.slotMask[slot];
+    const H = this.hist;
+    const M = this.mask;
     for (let i = from; i < to; i++) {
       const r = idx[i];
       const a = wwy[2 * r];
@@ -494,13 +528,13 @@ export class TreeBuilder {
     }
   }
 
-  /** Split search over the slot's sparse histograms; leaves them zeroed for the slot's next node. */
-  private searchSlot(slot: number, W: number, S: number): void {
+  /** Split search over the sparse histograms of the slot's features; leaves them zeroed for the next node. */
+  private searchSparse(slot: number, W: number, S: number): void {
     const minLeaf = this.prm.minLeaf;
     const mtry = this.mtry;
     const nBins = this.d.nBins;
-    const H = this.slotHist[slot];
-    const M = this.slotMask[slot];
+    const H = this.hist;
+    const M = this.mask;
     const fo = slot * mtry;
     for (let k = 0; k < mtry; k++) {
       const f = this.sFeat[fo + k];
@@ -549,7 +583,8 @@ export class TreeBuilder {
     }
   }
 
-  private makeLeaf(id: number, start: number, end: number): void {
+  /** Makes node `id` a leaf of in-bag rows idx[start..end) and gives its value to out-of-bag rows oidx[os..oe). */
+  private makeLeaf(id: number, start: number, end: number, os: number, oe: number): void {
     const y = this.d.y;
     const idx = this.idx;
     const wwy = this.wwy;
@@ -570,13 +605,17 @@ export class TreeBuilder {
     this.nLeft[id] = -1;
     this.nRight[id] = -1;
     // Equal targets give exactly that target, which a rounded mean need not.
-    this.nValue[id] = same ? y0 : s / sw;
+    const value = same ? y0 : s / sw;
+    this.nValue[id] = value;
+    this.oobVal.fill(value, os, oe);
   }
 
   private setSlot(
     at: number,
     start: number,
     end: number,
+    oStart: number,
+    oEnd: number,
     depth: number,
     parent: number,
     W: number,
@@ -586,6 +625,8 @@ export class TreeBuilder {
   ): void {
     this.sStart[at] = start;
     this.sEnd[at] = end;
+    this.sOStart[at] = oStart;
+    this.sOEnd[at] = oEnd;
     this.sDepth[at] = depth;
     this.sParent[at] = parent;
     this.sW[at] = W;
@@ -605,12 +646,8 @@ export class TreeBuilder {
     this.freeBufs.push(buf);
   }
 
-  /** Makes slots 0..count-1 usable (stack arrays and the slots' sparse histograms). */
+  /** Makes slots 0..count-1 usable. */
   private ensureSlots(count: number): void {
-    while (this.slotHist.length < count) {
-      this.slotHist.push(new Float64Array(this.mtry * 512));
-      this.slotMask.push(new Int32Array(this.mtry * 8));
-    }
     if (count <= this.sStart.length) return;
     const size = Math.max(count, this.sStart.length * 2);
     const grow32 = (a: Int32Array, len: number): Int32Array<ArrayBuffer> => {
@@ -625,6 +662,8 @@ export class TreeBuilder {
     };
     this.sStart = grow32(this.sStart, size);
     this.sEnd = grow32(this.sEnd, size);
+    this.sOStart = grow32(this.sOStart, size);
+    this.sOEnd = grow32(this.sOEnd, size);
     this.sDepth = grow32(this.sDepth, size);
     this.sParent = grow32(this.sParent, size);
     this.sBuf = grow32(this.sBuf, size);
@@ -636,7 +675,8 @@ export class TreeBuilder {
     this.sS = grow64(this.sS);
   }
 
-  private growNodes(): void {
+  /** Doubles the capacity of the node arrays. */
+  private growNodes2x(): void {
     const cap = this.nFeature.length * 2;
     const f = new Int32Array(cap);
     f.set(this.nFeature);
@@ -653,11 +693,5 @@ export class TreeBuilder {
     const v = new Float64Array(cap);
     v.set(this.nValue);
     this.nValue = v;
-    const lo = new Uint8Array(cap);
-    lo.set(this.nLo);
-    this.nLo = lo;
-    const hi = new Uint8Array(cap);
-    hi.set(this.nHi);
-    this.nHi = hi;
   }
 }
