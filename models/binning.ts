@@ -41,64 +41,20 @@ export function binColumns(columns: Float64Array[], maxBins: number, codes?: Uin
   const sorted = new Float64Array(n);
   const distinct = new Float64Array(n);
   const counts = new Int32Array(n);
+  const first = new Int32Array(LOOKUP_BUCKETS + 2);
   for (let f = 0; f < p; f++) {
     const col = columns[f];
     sorted.set(col);
     sorted.sort();
-    let d = 0;
-    for (let i = 0; i < n; i++) {
-      const v = sorted[i];
-      if (d > 0 && distinct[d - 1] === v) counts[d - 1]++;
-      else {
-        distinct[d] = v;
-        counts[d] = 1;
-        d++;
-      }
-    }
+    const d = distinctValues(sorted, distinct, counts);
     const lo = new Float64Array(Math.min(d, maxBins));
     const hi = new Float64Array(Math.min(d, maxBins));
-    let nb = 0;
-    if (d <= maxBins) {
-      for (let k = 0; k < d; k++) lo[k] = hi[k] = distinct[k];
-      nb = d;
-    } else {
-      let binsLeft = maxBins;
-      let rowsLeft = n;
-      let acc = 0;
-      let start = -1;
-      for (let k = 0; k < d; k++) {
-        if (start < 0) start = k;
-        acc += counts[k];
-        const distinctAfter = d - k - 1;
-        const close =
-          k === d - 1 || (binsLeft > 1 && (acc >= rowsLeft / binsLeft || distinctAfter <= binsLeft - 1));
-        if (close) {
-          lo[nb] = distinct[start];
-          hi[nb] = distinct[k];
-          nb++;
-          binsLeft--;
-          rowsLeft -= acc;
-          acc = 0;
-          start = -1;
-        }
-      }
-    }
+    const nb = d <= maxBins ? oneBinEach(distinct, d, lo, hi) : quantileBins(distinct, counts, d, n, maxBins, lo, hi);
     nBins[f] = nb;
     offsets[f + 1] = offsets[f] + nb;
     mins.push(lo.subarray(0, nb));
     maxs.push(hi.subarray(0, nb));
-    // Bin of v = first bin whose largest value is >= v (binary search over the upper edges).
-    for (let r = 0; r < n; r++) {
-      const v = col[r];
-      let a = 0;
-      let b = nb - 1;
-      while (a < b) {
-        const mid = (a + b) >>> 1;
-        if (hi[mid] < v) a = mid + 1;
-        else b = mid;
-      }
-      out[r * p + f] = a;
-    }
+    assignCodes(col, hi, nb, out, p, f, first);
   }
   const binMin = new Float64Array(offsets[p]);
   const binMax = new Float64Array(offsets[p]);
@@ -107,6 +63,113 @@ export function binColumns(columns: Float64Array[], maxBins: number, codes?: Uin
     binMax.set(maxs[f], offsets[f]);
   }
   return { rows: n, features: p, codes: out, nBins, offsets, binMin, binMax };
+}
+
+/** Writes the distinct values of ascending `sorted` and how often each occurs; returns how many. */
+function distinctValues(sorted: Float64Array, distinct: Float64Array, counts: Int32Array): number {
+  const n = sorted.length;
+  let d = 0;
+  for (let i = 0; i < n; i++) {
+    const v = sorted[i];
+    if (d > 0 && distinct[d - 1] === v) counts[d - 1]++;
+    else {
+      distinct[d] = v;
+      counts[d] = 1;
+      d++;
+    }
+  }
+  return d;
+}
+
+/** One bin per distinct value; returns the number of bins. */
+function oneBinEach(distinct: Float64Array, d: number, lo: Float64Array, hi: Float64Array): number {
+  for (let k = 0; k < d; k++) lo[k] = hi[k] = distinct[k];
+  return d;
+}
+
+/**
+ * Groups consecutive distinct values greedily so that each bin holds about (rows left) / (bins left)
+ * rows; returns the number of bins.
+ */
+function quantileBins(
+  distinct: Float64Array,
+  counts: Int32Array,
+  d: number,
+  n: number,
+  maxBins: number,
+  lo: Float64Array,
+  hi: Float64Array,
+): number {
+  let nb = 0;
+  let binsLeft = maxBins;
+  let rowsLeft = n;
+  let acc = 0;
+  let start = -1;
+  for (let k = 0; k < d; k++) {
+    if (start < 0) start = k;
+    acc += counts[k];
+    const distinctAfter = d - k - 1;
+    const close = k === d - 1 || (binsLeft > 1 && (acc >= rowsLeft / binsLeft || distinctAfter <= binsLeft - 1));
+    if (close) {
+      lo[nb] = distinct[start];
+      hi[nb] = distinct[k];
+      nb++;
+      binsLeft--;
+      rowsLeft -= acc;
+      acc = 0;
+      start = -1;
+    }
+  }
+  return nb;
+}
+
+/** Buckets of the value range used to narrow the search for a value's bin. */
+const LOOKUP_BUCKETS = 2048;
+
+/**
+ * Code of each value: the first bin whose largest value is >= it. The range of upper edges is cut
+ * into LOOKUP_BUCKETS equal buckets (plus bucket LOOKUP_BUCKETS for the top edge) and `first[k]` is
+ * the first bin whose upper edge falls in bucket k or later (the last bin if none does; `first` has
+ * LOOKUP_BUCKETS + 2 entries, the last being the last bin). Bucketing is monotone, so a value in
+ * bucket k has its bin in first[k] .. first[k + 1], and a binary search over that range (usually of
+ * one or two bins) finds it.
+ */
+function assignCodes(col: Float64Array, hi: Float64Array, nb: number, out: Uint8Array, p: number, f: number, first: Int32Array): void {
+  const n = col.length;
+  const min = nb > 0 ? hi[0] : 0;
+  const range = nb > 0 ? hi[nb - 1] - min : 0;
+  const scale = LOOKUP_BUCKETS / range;
+  const K = LOOKUP_BUCKETS;
+  if (nb > 1 && Number.isFinite(scale) && scale > 0) {
+    for (let k = 0, b = 0; k <= K; k++) {
+      while (b < nb - 1 && bucketOf(hi[b], min, scale) < k) b++;
+      first[k] = b;
+    }
+    first[K + 1] = nb - 1;
+  } else {
+    // Degenerate range: every bucket spans all bins (plain binary search).
+    first[0] = 0;
+    first[1] = nb - 1;
+  }
+  const useBuckets = nb > 1 && Number.isFinite(scale) && scale > 0;
+  for (let r = 0; r < n; r++) {
+    const v = col[r];
+    const k = useBuckets ? bucketOf(v, min, scale) : 0;
+    let a = first[k];
+    let b = first[k + 1];
+    while (a < b) {
+      const mid = (a + b) >>> 1;
+      if (hi[mid] < v) a = mid + 1;
+      else b = mid;
+    }
+    out[r * p + f] = a;
+  }
+}
+
+/** Bucket of value v (clamped to 0..LOOKUP_BUCKETS); monotone in v. */
+function bucketOf(v: number, min: number, scale: number): number {
+  const k = Math.floor((v - min) * scale);
+  return k < 0 ? 0 : k > LOOKUP_BUCKETS ? LOOKUP_BUCKETS : k;
 }
 
 /**

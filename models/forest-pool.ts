@@ -1,14 +1,20 @@
 /**
  * Growing a forest's trees on several threads: the calling thread plus `threads - 1` worker threads.
  *
- * Workers receive the binned data once (typed arrays over SharedArrayBuffers, so nothing is copied)
- * and claim tree numbers from a shared atomic counter, so no thread waits for the next assignment and
- * faster threads take more trees. The calling thread claims trees from the same counter between
- * short yields to its event loop (which is how it receives the workers' trees), so the workers'
- * start-up time (a few hundred milliseconds) is not lost. A tree depends only on (seed, tree number)
- * and the caller combines results in tree order, so the forest is bit-identical for any thread count.
+ * The workers are started first (ForestPool.start), so that their start-up (about 100 ms of loading
+ * a fresh JavaScript environment) overlaps the binning the calling thread does meanwhile. They then
+ * receive the binned data once (typed arrays over SharedArrayBuffers, so nothing is copied) and claim
+ * tree numbers from a shared atomic counter, so no thread waits for the next assignment and faster
+ * threads take more trees. The calling thread claims trees from the same counter between short
+ * yields to its event loop (which is how it receives the workers' trees), so the workers' start-up
+ * time is not lost. A tree depends only on (seed, tree number) and the caller combines results in
+ * tree order, so the forest is bit-identical for any thread count.
  *
- * Example: `await growTreesThreaded(data, params, 100, 2, (i, grown) => combiner.add(i, grown))`
+ * Example:
+ * ```ts
+ * const pool = ForestPool.start(2);
+ * try { await pool.grow(data, params, 100, (i, grown) => combiner.add(i, grown)); } finally { pool.close(); }
+ * ```
  */
 import { readFileSync } from 'node:fs';
 import { createRequire } from 'node:module';
@@ -23,14 +29,14 @@ import { TreeBuilder, type GrowData, type GrowParams, type GrownTree } from './t
  * ignores `execArgv: ['--import', 'tsx']` for a worker's entry module (it fails with "Unknown file
  * extension .ts"), so a two-line bootstrap registers tsx's ESM loader and then imports the worker.
  */
-function startWorker(workerData: unknown): Worker {
+function startWorker(): Worker {
   const here = import.meta.url;
   if (here.endsWith('.ts')) {
     const entry = new URL('./forest-worker.ts', here).href;
     const bootstrap = `import(${JSON.stringify(tsxEsmApi(here))})\n  .then((tsx) => { tsx.register(); return import(${JSON.stringify(entry)}); });`;
-    return new Worker(bootstrap, { eval: true, workerData });
+    return new Worker(bootstrap, { eval: true });
   }
-  return new Worker(new URL('./forest-worker.js', here), { workerData });
+  return new Worker(new URL('./forest-worker.js', here));
 }
 
 /** File URL of tsx's ESM loader API (its package.json "exports" entry), found from this module. */
@@ -41,75 +47,100 @@ function tsxEsmApi(from: string): string {
   return pathToFileURL(join(dirname(pkgPath), pkg.exports['./esm/api'].import.default)).href;
 }
 
+/** What a worker is sent to start growing (see forest-worker.ts). */
+export interface WorkerJob {
+  data: GrowData;
+  params: GrowParams;
+  trees: number;
+  /** Shared Int32Array([next unclaimed tree]); claimed with Atomics.add so no tree is grown twice. */
+  counter: Int32Array;
+}
+
 interface Reply {
   tree: number;
   grown?: GrownTree;
   error?: string;
 }
 
-/** Grows trees 0..trees-1 on `threads` threads (this one included), calling `onTree` as each arrives. */
-export async function growTreesThreaded(
-  data: GrowData,
-  params: GrowParams,
-  trees: number,
-  threads: number,
-  onTree: (index: number, grown: GrownTree) => void,
-): Promise<void> {
-  const counter = new Int32Array(new SharedArrayBuffer(4));
-  const pool: Worker[] = [];
-  let done = 0;
-  let failure: Error | null = null;
-  let wake: (() => void) | null = null;
-  const notify = (): void => {
-    const w = wake;
-    wake = null;
-    if (w) w();
-  };
-  const fail = (err: Error): void => {
-    if (failure === null) failure = err;
-    // Stop every thread from claiming more trees.
-    Atomics.store(counter, 0, trees);
-    notify();
-  };
-  const deliver = (index: number, grown: GrownTree): void => {
-    try {
-      onTree(index, grown);
-      done++;
-    } catch (e) {
-      fail(e as Error);
+/** Worker threads started ahead of one fit; `grow` may be called once. */
+export class ForestPool {
+  private readonly workers: Worker[] = [];
+  private failure: Error | null = null;
+  private onReply: (reply: Reply) => void = () => {};
+  private wake: (() => void) | null = null;
+  private closed = false;
+
+  private constructor(workers: number) {
+    for (let k = 0; k < workers; k++) {
+      const worker = startWorker();
+      this.workers.push(worker);
+      worker.on('message', (reply: Reply) => this.onReply(reply));
+      worker.on('error', (e) => this.fail(e));
+      worker.on('exit', (code) => {
+        if (code !== 0 && !this.closed) this.fail(new Error(`a forest worker thread exited with code ${code}`));
+        this.notify();
+      });
     }
-    notify();
-  };
-  for (let k = 1; k < Math.min(threads, trees); k++) {
-    const worker = startWorker({ data, params, trees, counter });
-    pool.push(worker);
-    worker.on('message', (reply: Reply) => {
-      if (reply.error !== undefined || reply.grown === undefined) {
-        fail(new Error(`growing tree ${reply.tree} failed in a worker thread: ${reply.error ?? 'no result'}`));
-      } else deliver(reply.tree, reply.grown);
-    });
-    worker.on('error', (e) => fail(e));
-    worker.on('exit', (code) => {
-      if (code !== 0) fail(new Error(`a forest worker thread exited with code ${code}`));
-      notify();
-    });
   }
-  try {
+
+  /** Starts `threads - 1` worker threads (none for threads <= 1); they wait for `grow`. */
+  static start(threads: number): ForestPool {
+    return new ForestPool(Math.max(0, threads - 1));
+  }
+
+  /** Grows trees 0..trees-1 on the workers and this thread, calling `onTree` as each arrives. */
+  async grow(data: GrowData, params: GrowParams, trees: number, onTree: (index: number, grown: GrownTree) => void): Promise<void> {
+    const counter = new Int32Array(new SharedArrayBuffer(4));
+    let done = 0;
+    const deliver = (index: number, grown: GrownTree): void => {
+      try {
+        onTree(index, grown);
+        done++;
+      } catch (e) {
+        this.fail(e as Error, counter, trees);
+      }
+      this.notify();
+    };
+    this.onReply = (reply) => {
+      if (reply.error !== undefined || reply.grown === undefined) {
+        this.fail(new Error(`growing tree ${reply.tree} failed in a worker thread: ${reply.error ?? 'no result'}`), counter, trees);
+      } else deliver(reply.tree, reply.grown);
+    };
+    if (this.failure !== null) Atomics.store(counter, 0, trees);
+    const job: WorkerJob = { data, params, trees, counter };
+    for (const w of this.workers) w.postMessage(job);
     const builder = new TreeBuilder(data, params);
     for (let tree = Atomics.add(counter, 0, 1); tree < trees; tree = Atomics.add(counter, 0, 1)) {
       deliver(tree, builder.grow(tree));
       // Let the workers' finished trees in.
       await new Promise<void>((resolve) => setImmediate(resolve));
     }
-    while (done < trees && failure === null) {
+    while (done < trees && this.failure === null) {
       await new Promise<void>((resolve) => {
-        wake = resolve;
+        this.wake = resolve;
       });
     }
-  } finally {
-    for (const w of pool) void w.terminate();
+    if (this.failure !== null) throw this.failure;
   }
-  if (failure !== null) throw failure;
+
+  /** Ends the worker threads. */
+  close(): void {
+    this.closed = true;
+    for (const w of this.workers) void w.terminate();
+  }
+
+  private fail(err: Error, counter?: Int32Array, trees?: number): void {
+    if (this.failure === null) this.failure = err;
+    // Stop every thread from claiming more trees.
+    if (counter !== undefined && trees !== undefined) Atomics.store(counter, 0, trees);
+    this.notify();
+  }
+
+  private notify(): void {
+    const w = this.wake;
+    this.wake = null;
+    if (w) w();
+  }
 }
 
 /** A Float64Array of `length` over a new SharedArrayBuffer, holding a copy of `source` if given. */

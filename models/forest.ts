@@ -21,7 +21,7 @@ import {
   DEFAULT_WORKERS,
 } from './defaults.js';
 import { EngineInputError, engineMessages as msg } from './engine-errors.js';
-import { growTreesThreaded, sharedFloat64 } from './forest-pool.js';
+import { ForestPool, sharedFloat64 } from './forest-pool.js';
 import { r2 } from './metrics.js';
 import { checkPredictionMatrix, predictUnchecked } from './predict.js';
 import type { Tree } from './tree.js';
@@ -175,9 +175,20 @@ async function fitResolved(
   kind: Forest['kind'],
   workers: number,
 ): Promise<Forest> {
+  const threaded = workers > 1 && s.trees > 1 && s.sampleSize * s.trees >= MIN_DRAWS_FOR_THREADS;
+  // Worker threads start first, so their start-up overlaps the binning below.
+  const pool = threaded ? ForestPool.start(Math.min(workers, s.trees)) : null;
+  try {
+    return await fitWith(x, y, s, kind, pool);
+  } finally {
+    pool?.close();
+  }
+}
+
+async function fitWith(x: Matrix, y: Float64Array, s: ForestSettings, kind: Forest['kind'], pool: ForestPool | null): Promise<Forest> {
   const n = x.rows;
   const p = x.columns.length;
-  const threaded = workers > 1 && s.trees > 1 && s.sampleSize * s.trees >= MIN_DRAWS_FOR_THREADS;
+  const threaded = pool !== null;
   const codes = threaded ? new Uint8Array(new SharedArrayBuffer(n * p)) : new Uint8Array(n * p);
   const binned: BinnedData = binColumns(x.columns, s.maxBins, codes);
   let mean = 0;
@@ -217,8 +228,8 @@ async function fitResolved(
     seed: s.seed,
   };
   const combiner = new TreeCombiner(s.trees, n, p);
-  if (threaded) {
-    await growTreesThreaded(data, params, s.trees, workers, (i, g) => combiner.add(i, g));
+  if (pool !== null) {
+    await pool.grow(data, params, s.trees, (i, g) => combiner.add(i, g));
   } else {
     const builder = new TreeBuilder(data, params);
     for (let i = 0; i < s.trees; i++) combiner.add(i, builder.grow(i));

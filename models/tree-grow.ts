@@ -182,12 +182,27 @@ export class TreeBuilder {
    * and the out-of-bag rows in `oidx`, and fills `wwy` and the root's sums. Returns the in-bag count.
    */
   private sample(rng: Sfc32): number {
+    this.drawCounts(rng);
+    const m = this.listRows();
+    this.rootS = this.sumOver(m, 0);
+    this.rootW = this.sumOver(m, 1);
+    return m;
+  }
+
+  /** Sum of wwy[2r + part] over the in-bag rows r = idx[0..m), in ascending row order. */
+  private sumOver(m: number, part: number): number {
+    const idx = this.idx;
+    const wwy = this.wwy;
+    let s = 0;
+    for (let i = 0; i < m; i++) s += wwy[2 * idx[i] + part];
+    return s;
+  }
+
+  /** Fills `counts` with the number of times each row is drawn. */
+  private drawCounts(rng: Sfc32): void {
     const n = this.d.rows;
-    const yc = this.d.yc;
     const counts = this.counts;
     const idx = this.idx;
-    const oidx = this.oidx;
-    const wwy = this.wwy;
     const size = this.prm.sampleSize;
     if (this.prm.replace) {
       counts.fill(0);
@@ -205,23 +220,30 @@ export class TreeBuilder {
       counts.fill(0);
       for (let k = 0; k < size; k++) counts[idx[n + k]] = 1;
     }
+  }
+
+  /**
+   * From `counts`: in-bag rows into `idx`, out-of-bag rows into `oidx`, and `wwy`. Returns the number
+   * of in-bag rows. (Nothing follows the loop but the return: code compiled while a loop runs, on-stack
+   * replacement, has seen nothing after it yet and would be thrown away on reaching it.)
+   */
+  private listRows(): number {
+    const n = this.d.rows;
+    const yc = this.d.yc;
+    const counts = this.counts;
+    const idx = this.idx;
+    const oidx = this.oidx;
+    const wwy = this.wwy;
     let m = 0;
     let o = 0;
-    let rootS = 0;
-    let rootW = 0;
     for (let r = 0; r < n; r++) {
       const c = counts[r];
       if (c > 0) {
         idx[m++] = r;
-        const a = c * yc[r];
-        wwy[2 * r] = a;
+        wwy[2 * r] = c * yc[r];
         wwy[2 * r + 1] = c;
-        rootS += a;
-        rootW += c;
       } else oidx[o++] = r;
     }
-    this.rootS = rootS;
-    this.rootW = rootW;
     return m;
   }
 
@@ -319,11 +341,11 @@ export class TreeBuilder {
     const SL = this.bestSL;
     const WR = W - WL;
     const SR = S - SL;
-    const l = this.partition(this.idx, start, end, f, lo, lo + 1, thr);
+    const l = this.partition(this.idx, start, end, f, lo);
 
     // Out-of-bag rows follow the same rule as prediction (raw value <= threshold goes left). Every bin
-    // up to the last one wholly at or below the threshold goes left, every bin from the first one
-    // wholly above it goes right; at most one bin (one that straddles the threshold) lies between.
+    // up to the last one wholly at or below the threshold (a - 1) goes left, and every bin above it
+    // goes right except bin a when it straddles the threshold, whose rows compare raw values.
     let a = lo + 1;
     let b = hi;
     while (a < b) {
@@ -331,10 +353,13 @@ export class TreeBuilder {
       if (binMax[off + mid] <= thr) a = mid + 1;
       else b = mid;
     }
-    const rightFrom = a < hi && d.binMin[off + a] <= thr ? a + 1 : a;
     const os = this.sOStart[slot];
     const oe = this.sOEnd[slot];
-    const ol = os < oe ? this.partition(this.oidx, os, oe, f, a - 1, rightFrom, thr) : os;
+    let ol = os;
+    if (os < oe) {
+      if (a < hi && d.binMin[off + a] <= thr) ol = this.partitionStraddle(this.oidx, os, oe, f, a - 1, thr);
+      else ol = this.partition(this.oidx, os, oe, f, a - 1);
+    }
 
     // Children: right goes to this slot, left to the next (popped first).
     const top = slot;
@@ -375,41 +400,53 @@ export class TreeBuilder {
   }
 
   /**
-   * Stable in-place partition of rows `ix[from..to)` on feature f: codes up to `leftTo` go left, from
-   * `rightFrom` go right, and codes between (only ever out-of-bag rows) compare their raw value with
-   * the threshold. Returns where the right side starts. `ix[rows..)` is scratch.
+   * Stable in-place partition of rows `ix[from..to)` on feature f: codes up to `lo` go left, the rest
+   * right. Returns where the right side starts. `ix[rows..)` is scratch.
    */
-  private partition(ix: Int32Array, from: number, to: number, f: number, leftTo: number, rightFrom: number, thr: number): number {
+  private partition(ix: Int32Array, from: number, to: number, f: number, lo: number): number {
     const n = this.d.rows;
     const p = this.d.features;
     const codes = this.d.codes;
     let l = from;
     let rr = n;
-    if (rightFrom === leftTo + 1) {
-      // No code in between: branch-free, every row is written to both sides and its side advances.
-      for (let i = from; i < to; i++) {
-        const r = ix[i];
-        // 1 when the row goes right (its code exceeds leftTo): the sign bit of leftTo - code.
-        const right = (leftTo - codes[r * p + f]) >>> 31;
-        ix[l] = r;
-        ix[rr] = r;
-        l += 1 - right;
-        rr += right;
-      }
-    } else {
-      const col = this.d.raw[f];
-      for (let i = from; i < to; i++) {
-        const r = ix[i];
-        const c = codes[r * p + f];
-        let right = (leftTo - c) >>> 31;
-        if (right === 1 && c < rightFrom) right = col[r] <= thr ? 0 : 1;
-        ix[l] = r;
-        ix[rr] = r;
-        l += 1 - right;
-        rr += right;
-      }
+    // Branch-free: every row is written to both sides, and the side it belongs to advances.
+    for (let i = from; i < to; i++) {
+      const r = ix[i];
+      // 1 when the row goes right (its code exceeds lo): the sign bit of lo - code.
+      const right = (lo - codes[r * p + f]) >>> 31;
+      ix[l] = r;
+      ix[rr] = r;
+      l += 1 - right;
+      rr += right;
     }
-    ix.copyWithin(l, n, rr);
+    // A plain loop rather than copyWithin (see listRows).
+    for (let i = n, j = l; i < rr; i++, j++) ix[j] = ix[i];
+    return l;
+  }
+
+  /**
+   * As partition(), for out-of-bag rows when one bin (`lo + 1`) straddles the threshold: its rows go
+   * left when their raw value is at most `thr`. (A separate method, so that the optimizing compiler
+   * sees this loop run before it compiles it.)
+   */
+  private partitionStraddle(ix: Int32Array, from: number, to: number, f: number, lo: number, thr: number): number {
+    const n = this.d.rows;
+    const p = this.d.features;
+    const codes = this.d.codes;
+    const col = this.d.raw[f];
+    const mid = lo + 1;
+    let l = from;
+    let rr = n;
+    for (let i = from; i < to; i++) {
+      const r = ix[i];
+      const c = codes[r * p + f];
+      const right = c === mid ? (col[r] <= thr ? 0 : 1) : (lo - c) >>> 31;
+      ix[l] = r;
+      ix[rr] = r;
+      l += 1 - right;
+      rr += right;
+    }
+    for (let i = n, j = l; i < rr; i++, j++) ix[j] = ix[i];
     return l;
   }
 

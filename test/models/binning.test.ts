@@ -34,6 +34,30 @@ describe('binColumns', () => {
     for (let k = 1; k < 256; k++) expect(b.binMin[k]).toBeGreaterThan(b.binMax[k - 1]);
   });
 
+  it('codes every value into the bin that holds it, for skewed, clustered and extreme columns', () => {
+    const g = rngFor('bins', 'skewed');
+    const n = 5000;
+    const columns = [
+      Float64Array.from({ length: n }, () => Math.exp(20 * g.float())),
+      Float64Array.from({ length: n }, () => (g.float() < 0.9 ? g.float() * 1e-9 : 1e9 + g.float())),
+      Float64Array.from({ length: n }, () => (g.float() < 0.5 ? -Number.MAX_VALUE : Number.MAX_VALUE) * g.float()),
+      Float64Array.from({ length: n }, (_, i) => (i % 3 === 0 ? 1 : 1 + Number.EPSILON * (i % 7))),
+      Float64Array.from({ length: n }, () => 1 - Number.EPSILON * Math.floor(300 * g.float())),
+    ];
+    for (const maxBins of [2, 17, 256]) {
+      const b = binColumns(columns, maxBins);
+      for (let f = 0; f < columns.length; f++) {
+        const off = b.offsets[f];
+        for (let r = 0; r < n; r++) {
+          const code = b.codes[r * columns.length + f];
+          const v = columns[f][r];
+          expect(code).toBeLessThan(b.nBins[f]);
+          expect(v >= b.binMin[off + code] && v <= b.binMax[off + code]).toBe(true);
+        }
+      }
+    }
+  });
+
   it('gives a heavily repeated value a bin of its own', () => {
     const col = Float64Array.from({ length: 1000 }, (_, i) => (i < 600 ? 0 : i));
     const b = binColumns([col], 16);
