@@ -34,15 +34,25 @@ export function predictRow(tree: Tree, columns: ArrayLike<number>[], row: number
   return tree.value[node];
 }
 
-/** Adds each row's leaf value to `out[row]` (so summing trees in order costs no allocation). */
-export function addTreePredictions(tree: Tree, columns: ArrayLike<number>[], rows: number, out: Float64Array): void {
+/**
+ * Adds each row's leaf value to `out[row]` (so summing trees in order costs no allocation), for rows
+ * `from` (default 0) up to `to` (default `rows`).
+ */
+export function addTreePredictions(
+  tree: Tree,
+  columns: ArrayLike<number>[],
+  rows: number,
+  out: Float64Array,
+  from = 0,
+  to = rows,
+): void {
   const feature = tree.feature;
   const threshold = tree.threshold;
   const left = tree.left;
   const right = tree.right;
   const value = tree.value;
   const root = feature[0];
-  for (let r = 0; r < rows; r++) {
+  for (let r = from; r < to; r++) {
     let node = 0;
     let f = root;
     while (f >= 0) {
