@@ -81,6 +81,18 @@ export function defaultDenseMinWeight(totalBins: number, mtry: number): number {
   return Math.max(64, Math.round((1.5 * totalBins) / Math.max(1, mtry)));
 }
 
+/**
+ * Moves the `to - l` rows that partition() left in the scratch half `ix[rows..)` to `ix[l..to)`.
+ *
+ * (A function of its own, like every long loop here: V8 compiles a function that is still inside a
+ * long loop on its first call (on-stack replacement) before any code after the loop has run, and
+ * here that code then deoptimizes on every later call. So loops that may run long come last in their
+ * functions.)
+ */
+function moveBack(ix: Int32Array, l: number, to: number, rows: number): void {
+  for (let i = rows, j = l; j < to; i++, j++) ix[j] = ix[i];
+}
+
 /** Relative gain below which a split is treated as rounding noise (e.g. in a node whose targets are all equal). */
 const REL_TOL = 1e-13;
 const UNLIMITED_DEPTH = 0x7fffffff;
@@ -141,6 +153,9 @@ export class TreeBuilder {
   /** Root's in-bag weight and weighted centred-target sum, set by sample(). */
   private rootW = 0.5;
   private rootS = 0.5;
+  /** Pending nodes on the stack, and nodes numbered so far, in the tree being grown. */
+  private top = 0;
+  private nodes = 0;
 
   constructor(data: GrowData, params: GrowParams) {
     this.d = data;
@@ -253,7 +268,6 @@ export class TreeBuilder {
    */
   private growNodes(rng: Sfc32, m: number, importance: Float64Array): number {
     const d = this.d;
-    const mtry = this.mtry;
     const denseMin = this.denseMin;
     const rootW = this.rootW;
     // Feature sampling restarts from column order in every tree, so a tree does not depend on the
@@ -274,46 +288,51 @@ export class TreeBuilder {
     }
     this.setSlot(0, 0, m, 0, d.rows - m, 0, -1, rootW, this.rootS, rootBuf, rootSplits);
 
-    let top = 1;
-    let nodes = 0;
-    while (top > 0) {
-      top--;
-      const slot = top;
-      const start = this.sStart[slot];
-      const end = this.sEnd[slot];
-      const W = this.sW[slot];
-      const S = this.sS[slot];
-      const buf = this.sBuf[slot];
-      const id = nodes++;
-      if (id >= this.nFeature.length) this.growNodes2x();
-      const parent = this.sParent[slot];
-      if (parent >= 0) {
-        if (parent & 1) this.nRight[parent >> 1] = id;
-        else this.nLeft[parent >> 1] = id;
-      }
+    this.top = 1;
+    this.nodes = 0;
+    // One node per call: visit() is then compiled once, as a function, rather than first as on-stack
+    // replacement of a long loop and again later.
+    while (this.top > 0) this.visit(rng, importance);
+    return this.nodes;
+  }
 
-      this.bestF = -1;
-      this.bestG = -Infinity;
-      if (this.sSplit[slot] === 1) {
-        if (buf >= 0) {
-          const h = this.bufs[buf];
-          for (let k = 0; k < mtry; k++) this.searchDense(h, this.sFeat[slot * mtry + k], W, S);
-        } else {
-          this.accumulateSparse(slot, start, end);
-          this.searchSparse(slot, W, S);
-        }
-      }
-      const gain = this.bestG - (S * S) / W;
-      if (this.bestF < 0 || !(gain > REL_TOL * this.bestG)) {
-        this.makeLeaf(id, start, end, this.sOStart[slot], this.sOEnd[slot]);
-        if (buf >= 0) this.release(buf);
-        continue;
-      }
-      importance[this.bestF] += gain;
-      this.split(slot, id, rng);
-      top += 2;
+  /** Pops the top pending node: makes it a leaf, or splits it and pushes its children. */
+  private visit(rng: Sfc32, importance: Float64Array): void {
+    const mtry = this.mtry;
+    const slot = --this.top;
+    const start = this.sStart[slot];
+    const end = this.sEnd[slot];
+    const W = this.sW[slot];
+    const S = this.sS[slot];
+    const buf = this.sBuf[slot];
+    const id = this.nodes++;
+    if (id >= this.nFeature.length) this.growNodes2x();
+    const parent = this.sParent[slot];
+    if (parent >= 0) {
+      if (parent & 1) this.nRight[parent >> 1] = id;
+      else this.nLeft[parent >> 1] = id;
     }
-    return nodes;
+
+    this.bestF = -1;
+    this.bestG = -Infinity;
+    if (this.sSplit[slot] === 1) {
+      if (buf >= 0) {
+        const h = this.bufs[buf];
+        for (let k = 0; k < mtry; k++) this.searchDense(h, this.sFeat[slot * mtry + k], W, S);
+      } else {
+        this.accumulateSparse(slot, start, end);
+        this.searchSparse(slot, W, S);
+      }
+    }
+    const gain = this.bestG - (S * S) / W;
+    if (this.bestF < 0 || !(gain > REL_TOL * this.bestG)) {
+      this.makeLeaf(id, start, end, this.sOStart[slot], this.sOEnd[slot]);
+      if (buf >= 0) this.release(buf);
+      return;
+    }
+    importance[this.bestF] += gain;
+    this.split(slot, id, rng);
+    this.top += 2;
   }
 
   /**
@@ -342,6 +361,7 @@ export class TreeBuilder {
     const WR = W - WL;
     const SR = S - SL;
     const l = this.partition(this.idx, start, end, f, lo);
+    moveBack(this.idx, l, end, d.rows);
 
     // Out-of-bag rows follow the same rule as prediction (raw value <= threshold goes left). Every bin
     // up to the last one wholly at or below the threshold (a - 1) goes left, and every bin above it
@@ -359,6 +379,7 @@ export class TreeBuilder {
     if (os < oe) {
       if (a < hi && d.binMin[off + a] <= thr) ol = this.partitionStraddle(this.oidx, os, oe, f, a - 1, thr);
       else ol = this.partition(this.oidx, os, oe, f, a - 1);
+      moveBack(this.oidx, ol, oe, d.rows);
     }
 
     // Children: right goes to this slot, left to the next (popped first).
@@ -369,30 +390,13 @@ export class TreeBuilder {
     const splitsL = this.splittable(depth + 1, WL);
     const splitsR = this.splittable(depth + 1, WR);
     const denseMin = this.denseMin;
-    const leftSmall = WL <= WR;
     let leftBuf = -1;
     let rightBuf = -1;
-    if (buf >= 0 && (leftSmall ? WR >= denseMin && splitsR : WL >= denseMin && splitsL)) {
-      // The larger child keeps a dense histogram: parent minus smaller child, in place.
-      const small = this.acquire();
-      const h2 = this.bufs[small];
-      h2.fill(0);
-      if (leftSmall) this.accumulateDense(h2, start, l);
-      else this.accumulateDense(h2, l, end);
-      const h = this.bufs[buf];
-      const len = 2 * this.totalBins;
-      for (let k = 0; k < len; k++) h[k] -= h2[k];
-      const smallDense = leftSmall ? WL >= denseMin && splitsL : WR >= denseMin && splitsR;
-      if (leftSmall) {
-        rightBuf = buf;
-        if (smallDense) leftBuf = small;
-        else this.release(small);
-      } else {
-        leftBuf = buf;
-        if (smallDense) rightBuf = small;
-        else this.release(small);
-      }
-    } else if (buf >= 0) this.release(buf);
+    if (buf >= 0) {
+      const bufs = this.childBuffers(buf, start, l, end, WL >= denseMin && splitsL, WR >= denseMin && splitsR, WL <= WR);
+      leftBuf = (bufs & 0xffff) - 1;
+      rightBuf = (bufs >>> 16) - 1;
+    }
     if (splitsL) this.drawFeatures(leftSlot, rng);
     if (splitsR) this.drawFeatures(rightSlot, rng);
     this.setSlot(rightSlot, l, end, ol, oe, depth + 1, id * 2 + 1, WR, SR, rightBuf, splitsR);
@@ -400,8 +404,34 @@ export class TreeBuilder {
   }
 
   /**
-   * Stable in-place partition of rows `ix[from..to)` on feature f: codes up to `lo` go left, the rest
-   * right. Returns where the right side starts. `ix[rows..)` is scratch.
+   * Dense histograms for the children of a node with dense histogram `buf` (rows idx[start..l) went
+   * left, idx[l..end) right): the larger child, if it is to be dense, keeps `buf` turned into its own
+   * histogram (parent minus smaller child, in place); the smaller one gets the histogram built for
+   * that, if it is to be dense too. Returns (left buffer + 1) | (right buffer + 1) << 16, 0 for none.
+   */
+  private childBuffers(buf: number, start: number, l: number, end: number, denseL: boolean, denseR: boolean, leftSmall: boolean): number {
+    if (!(leftSmall ? denseR : denseL)) {
+      this.release(buf);
+      return 0;
+    }
+    const small = this.acquire();
+    const h2 = this.bufs[small];
+    h2.fill(0);
+    if (leftSmall) this.accumulateDense(h2, start, l);
+    else this.accumulateDense(h2, l, end);
+    const h = this.bufs[buf];
+    const len = 2 * this.totalBins;
+    for (let k = 0; k < len; k++) h[k] -= h2[k];
+    const smallDense = leftSmall ? denseL : denseR;
+    if (!smallDense) this.release(small);
+    const smallBuf = smallDense ? small + 1 : 0;
+    return leftSmall ? smallBuf | ((buf + 1) << 16) : buf + 1 + (smallBuf << 16);
+  }
+
+  /**
+   * Stable partition of rows `ix[from..to)` on feature f: codes up to `lo` go left, the rest right.
+   * The left rows end up in `ix[from..l)` and the right ones in the scratch `ix[rows..rows + to - l)`,
+   * where the caller's `moveBack` takes them to `ix[l..to)`. Returns l.
    */
   private partition(ix: Int32Array, from: number, to: number, f: number, lo: number): number {
     const n = this.d.rows;
@@ -419,8 +449,6 @@ export class TreeBuilder {
       l += 1 - right;
       rr += right;
     }
-    // A plain loop rather than copyWithin (see listRows).
-    for (let i = n, j = l; i < rr; i++, j++) ix[j] = ix[i];
     return l;
   }
 
@@ -446,7 +474,6 @@ export class TreeBuilder {
       l += 1 - right;
       rr += right;
     }
-    for (let i = n, j = l; i < rr; i++, j++) ix[j] = ix[i];
     return l;
   }
 
