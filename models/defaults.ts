@@ -17,10 +17,14 @@ export function defaultMtry(p: number): number {
 }
 
 /**
- * Minimum rows (bootstrap draws) in a leaf: 5, the regression node size of randomForest and ranger.
- * Averaging at least five targets per leaf steadies each tree without visibly smoothing the forest.
+ * Minimum rows (bootstrap draws) in a leaf: 3. randomForest's and ranger's regression default of 5 is
+ * a node size (nodes of 5 or fewer samples are not split), not a leaf size, and leaves under that
+ * rule average about 3 draws; a minimum leaf of 3 gives the nearest average (about 3.8 draws on
+ * Friedman #1), where 5 would give leaves about twice theirs (6.3 draws) and a visibly smoother forest
+ * (test R² 0.006 lower than ranger's at 20,000 rows, against 0.002 for 3). A leaf of at least three
+ * targets still averages out some noise, which leaves of one or two do not.
  */
-export const DEFAULT_MIN_LEAF = 5;
+export const DEFAULT_MIN_LEAF = 3;
 
 /**
  * Trees: 500, randomForest's and ranger's default. Test error of a forest usually flattens well

@@ -25,12 +25,13 @@ const heldOut = friedman1(1500, 'forest-test');
 const base = { trees: 40, maxDepth: null, minLeaf: 5, mtry: 3 };
 
 describe('defaults', () => {
-  it('are those of randomForest for regression: mtry = floor(p/3) (at least 1), leaves of 5, 500 trees', () => {
-    // Source: Liaw & Wiener (2002), R News 2(3), randomForest defaults for regression.
+  it('are those of randomForest for regression (mtry = floor(p/3), at least 1; 500 trees) with leaves of at least 3', () => {
+    // Source: Liaw & Wiener (2002), R News 2(3), randomForest defaults for regression. Its node size of
+    // 5 is not a minimum leaf size; models/defaults.ts says why the minimum leaf is 3.
     expect(defaultMtry(10)).toBe(3);
     expect(defaultMtry(2)).toBe(1);
     expect(DEFAULT_MTRY_FRACTION).toBeCloseTo(1 / 3);
-    expect(DEFAULT_MIN_LEAF).toBe(5);
+    expect(DEFAULT_MIN_LEAF).toBe(3);
     expect(DEFAULT_TREES).toBe(500);
   });
 });
