@@ -12,13 +12,21 @@
  *   own features afresh (Breiman samples at every split) and subtraction needs the parent's histogram
  *   of whatever the child samples.
  * - Small nodes scan their rows instead: a node's mtry features are drawn when its parent splits, and
- *   the parent's partition pass fills the child's per-feature histograms for just those features,
- *   marking the bins it touches in a 256-bit occupancy mask. The split search visits the touched bins
- *   in order by walking the set bits and zeroes them as it goes, so a node of ten rows never clears or
- *   scans 256 bins, and one pass over a row's (cache-line-sized) codes serves all mtry features.
+ *   when the node's turn comes one pass over its rows fills one shared set of per-feature histograms
+ *   for just those features (small enough to stay in the L1 cache), marking the bins it touches in a
+ *   256-bit occupancy mask. The split search visits the touched bins in order by walking the set bits
+ *   and zeroes them as it goes, so a node of ten rows never clears or scans 256 bins, and one read of
+ *   a row's codes serves all mtry features.
  *
- * Rows are kept as an index array partitioned stably in place, so every node's rows are ascending and
- * reads of the row-major bin codes move forward through memory.
+ * Rows are kept as an index array partitioned stably, so every node's rows are ascending and reads of
+ * the row-major bin codes move forward through memory. Out-of-bag rows are kept the same way and
+ * partitioned by the same splits (comparing raw values only in a bin that straddles the threshold),
+ * so each reaches its leaf as the tree grows, with streaming passes instead of a walk down the
+ * finished tree per row.
+ *
+ * Long loops sit last in small functions (see moveBack): otherwise V8 compiles them, throws the code
+ * away (deoptimizes) and compiles them again over and over, which made each thread's first trees
+ * several times slower than the rest.
  *
  * Example: `new TreeBuilder(data, params).grow(0)` grows tree 0 of the forest.
  */
