@@ -720,7 +720,11 @@ export class TreeBuilder {
 
   /** Makes slots 0..count-1 usable. */
   private ensureSlots(count: number): void {
-    if (count <= this.sStart.length) return;
+    if (count > this.sStart.length) this.growSlots(count);
+  }
+
+  /** Enlarges the stack arrays to at least `count` slots (kept apart from ensureSlots, which is inlined where it is called). */
+  private growSlots(count: number): void {
     const size = Math.max(count, this.sStart.length * 2);
     const grow32 = (a: Int32Array, len: number): Int32Array<ArrayBuffer> => {
       const b = new Int32Array(len);
