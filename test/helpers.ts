@@ -53,6 +53,7 @@ export function smallData(): string {
 }
 
 import type { Frame } from '../runner/frame.js';
+import { DendrologError } from '../runner/messages.js';
 import { generator, seedString } from '../runner/rng.js';
 import type { FrameOutput, StepContext } from '../runner/step-types.js';
 
@@ -72,4 +73,15 @@ export function stepContext(warnings: string[] = [], seed = 1): StepContext {
 /** Wraps a frame as a step output. */
 export function asOutput(frame: Frame): FrameOutput {
   return { frame, notes: { rowsIn: frame.rows, rowsOut: frame.rows, detail: '' } };
+}
+
+/** The DendrologError a call throws (sync or async); any other error is rethrown. */
+export async function errorOf(f: () => unknown): Promise<DendrologError> {
+  try {
+    await f();
+  } catch (e) {
+    if (e instanceof DendrologError) return e;
+    throw e;
+  }
+  throw new Error('expected an error');
 }

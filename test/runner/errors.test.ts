@@ -10,7 +10,7 @@ import { displayOf, loadRecipe } from '../../runner/recipe.js';
 import { readManifest } from '../../runner/run-folder.js';
 import { runRecipe } from '../../runner/run.js';
 import { verifyRun } from '../../runner/verify.js';
-import { makeFolder, SMALL_RECIPE, smallData } from '../helpers.js';
+import { errorOf, makeFolder, SMALL_RECIPE, smallData } from '../helpers.js';
 
 /** The error loadRecipe throws for a recipe text (small data beside it), with the recipe's display path. */
 function recipeError(text: string, extra: Record<string, string> = {}): { file: string; error: RecipeErrors } {
@@ -284,15 +284,6 @@ describe('run folders: verify, compare and predict', () => {
     return { dir, out: join(dir, outName) };
   }
 
-  async function thrown(f: () => Promise<unknown>): Promise<DendrologError> {
-    try {
-      await f();
-    } catch (e) {
-      if (e instanceof DendrologError) return e;
-      throw e;
-    }
-    throw new Error('expected an error');
-  }
 
   const verify = (out: string) => verifyRun(out, { workers: 1, progress: silentProgress() });
 
@@ -311,7 +302,7 @@ describe('run folders: verify, compare and predict', () => {
     })();
     const want = messages.manifestUnreadable(displayOf(join(out, 'manifest.json')), detail);
     expect(() => readManifest(out)).toThrow(new DendrologError(want, 2));
-    const e = await thrown(() => verify(out));
+    const e = await errorOf(() => verify(out));
     expect([e.message, e.exitCode]).toEqual([want, 2]);
   });
 
@@ -320,7 +311,7 @@ describe('run folders: verify, compare and predict', () => {
     writeFileSync(join(out, 'manifest.json'), '[]\n');
     // schemas/manifest.v1.json: the manifest is an object; ajv's wording for a type error at the root
     const want = messages.manifestUnreadable(displayOf(join(out, 'manifest.json')), '/ must be object');
-    const e = await thrown(async () => readManifest(out));
+    const e = await errorOf(async () => readManifest(out));
     expect([e.message, e.exitCode]).toEqual([want, 2]);
   });
 
@@ -339,21 +330,21 @@ describe('run folders: verify, compare and predict', () => {
   it('verify stops when the run’s recipe is gone', async () => {
     const { dir, out } = copyOfRun();
     rmSync(join(dir, 'recipe.yaml'));
-    const e = await thrown(() => verify(out));
+    const e = await errorOf(() => verify(out));
     expect([e.message, e.exitCode]).toEqual([messages.recipeOfRunMissing(displayOf(join(dir, 'recipe.yaml'))), 1]);
   });
 
   it('verify stops when a source file of the run is gone', async () => {
     const { dir, out } = copyOfRun();
     rmSync(join(dir, 'data/obs.csv'));
-    const e = await thrown(() => verify(out));
+    const e = await errorOf(() => verify(out));
     expect([e.message, e.exitCode]).toEqual([messages.sourceOfRunMissing(displayOf(join(dir, 'data/obs.csv'))), 1]);
   });
 
   it('predict stops when the run folder has no model.bin', async () => {
     const { dir, out } = copyOfRun();
     rmSync(join(out, 'model.bin'));
-    const e = await thrown(() => predictRun(out, join(dir, 'data/obs.csv'), join(dir, 'p.csv')));
+    const e = await errorOf(() => predictRun(out, join(dir, 'data/obs.csv'), join(dir, 'p.csv')));
     expect([e.message, e.exitCode]).toEqual([messages.modelFileMissing(displayOf(out)), 2]);
   });
 });

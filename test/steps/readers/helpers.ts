@@ -3,7 +3,6 @@ import { writeFileSync } from 'node:fs';
 import { describe } from 'vitest';
 import { join } from 'node:path';
 import type { Column } from '../../../runner/frame.js';
-import { DendrologError } from '../../../runner/messages.js';
 import type { FrameOutput } from '../../../runner/step-types.js';
 import { source, type SourceParams } from '../../../steps/source.js';
 import { makeFolder, stepContext } from '../../helpers.js';
@@ -22,16 +21,7 @@ export function fileWith(name: string, text: string | Uint8Array): string {
   return path;
 }
 
-/** The DendrologError a call throws (sync or async). */
-export async function errorOf(f: () => unknown): Promise<DendrologError> {
-  try {
-    await f();
-  } catch (e) {
-    if (e instanceof DendrologError) return e;
-    throw e;
-  }
-  throw new Error('expected an error');
-}
+export { errorOf } from '../../helpers.js';
 
 /** A column's values as plain JS: NaN as null, so toEqual compares missing values. */
 export function plain(c: Column): (number | string | null)[] {
