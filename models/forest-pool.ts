@@ -16,35 +16,13 @@
  * try { await pool.grow(data, params, 100, (i, grown) => combiner.add(i, grown)); } finally { pool.close(); }
  * ```
  */
-import { readFileSync } from 'node:fs';
-import { createRequire } from 'node:module';
-import { dirname, join } from 'node:path';
-import { pathToFileURL } from 'node:url';
-import { Worker } from 'node:worker_threads';
+import type { Worker } from 'node:worker_threads';
+import { startModuleWorker } from './worker-start.js';
 import { TreeBuilder, type GrowData, type GrowParams, type GrownTree } from './tree-grow.js';
 
-/**
- * Starts one worker. Compiled code (dist/models/*.js) runs forest-worker.js directly. Under vitest the
- * module is the .ts source; the worker is then the .ts file loaded through tsx's loader. Node 20
- * ignores `execArgv: ['--import', 'tsx']` for a worker's entry module (it fails with "Unknown file
- * extension .ts"), so a two-line bootstrap registers tsx's ESM loader and then imports the worker.
- */
+/** Starts one forest worker (see worker-start.ts for how it loads under vitest). */
 function startWorker(): Worker {
-  const here = import.meta.url;
-  if (here.endsWith('.ts')) {
-    const entry = new URL('./forest-worker.ts', here).href;
-    const bootstrap = `import(${JSON.stringify(tsxEsmApi(here))})\n  .then((tsx) => { tsx.register(); return import(${JSON.stringify(entry)}); });`;
-    return new Worker(bootstrap, { eval: true });
-  }
-  return new Worker(new URL('./forest-worker.js', here));
-}
-
-/** File URL of tsx's ESM loader API (its package.json "exports" entry), found from this module. */
-function tsxEsmApi(from: string): string {
-  const require = createRequire(from);
-  const pkgPath = require.resolve('tsx/package.json');
-  const pkg = JSON.parse(readFileSync(pkgPath, 'utf8')) as { exports: Record<string, { import: { default: string } }> };
-  return pathToFileURL(join(dirname(pkgPath), pkg.exports['./esm/api'].import.default)).href;
+  return startModuleWorker(new URL('./forest-worker.js', import.meta.url), import.meta.url);
 }
 
 /** What a worker is sent to start growing (see forest-worker.ts). */
