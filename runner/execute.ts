@@ -1,11 +1,12 @@
-import { decodeFrame, encodeFrame } from './frame.js';
+import { stepRegistry } from '../steps/index.js';
+import type { Cache } from './cache.js';
+import { packEntry, unpackEntry } from './codec.js';
 import { sha256 } from './hash.js';
 import { messages } from './messages.js';
-import type { Cache } from './cache.js';
 import type { Progress } from './progress.js';
 import { generator, seedString } from './rng.js';
-import { stepRegistry } from '../steps/index.js';
-import type { FrameOutput, StepContext, StepInstance, Warning } from './step-types.js';
+import { StepPool } from './step-pool.js';
+import type { OutputCodec, StepContext, StepInstance, Warning } from './step-types.js';
 import { WarningLog } from './warnings.js';
 
 export interface StepRecord {
@@ -22,6 +23,8 @@ export interface Execution {
   outputs: Map<string, unknown>;
   records: StepRecord[];
   warnings: Warning[];
+  /** Steps that ran on the worker-thread pool rather than in this thread. */
+  onThreads: number;
 }
 
 /** The executor interface: something that runs planned step instances against a cache. */
@@ -37,75 +40,118 @@ export interface LocalExecutorOptions {
 }
 
 /**
- * Runs steps in plan order in this process (the forest engine spreads trees over worker threads).
- * Each step is either read from the cache, after its checksum passes, or run and stored. Outputs
- * handed downstream are always the decoded bytes, so a warm and a cold run compute on equal values.
+ * Runs steps in plan order on this machine. Each step is either read from the cache, after its
+ * checksum passes, or run and stored. Consecutive steps marked `parallel` that do not depend on one
+ * another (grid cells, final fits, explanations) run side by side on a pool of `workers` threads,
+ * one step per thread; every other step runs here, and a forest fit there spreads its trees over
+ * the threads instead. Outputs handed downstream are always the decoded bytes, so a warm and a cold
+ * run, and any number of threads, compute on equal values.
  */
 export function localExecutor(opts: LocalExecutorOptions): Executor {
   return {
     async run(steps) {
       const outputs = new Map<string, unknown>();
+      const bodies = new Map<string, { codec: OutputCodec; body: Uint8Array }>();
       const records: StepRecord[] = [];
       const warnings = new WarningLog();
-      for (const step of steps) {
-        const def = stepRegistry[step.kind];
-        opts.progress.start(step.id);
-        const t0 = performance.now();
-        let entry: { payload: Uint8Array; status: 'ran' | 'cached' } | undefined;
+      let pool: StepPool | null = null;
+      let onThreads = 0;
+
+      const lookup = (step: StepInstance): Uint8Array | null => {
         const cached = opts.cache?.get(step.key);
-        if (cached?.status === 'hit') entry = { payload: cached.bytes, status: 'cached' };
-        else if (cached?.status === 'corrupt') warnings.add('cache-corrupt', messages.cacheCorrupt(step.key));
-        if (!entry) {
-          const stepWarnings = new WarningLog();
-          const ctx: StepContext = {
-            key: step.key,
-            rng: (purpose, index) => generator(opts.seed, step.seedKey, purpose, index),
-            seedFor: (purpose, index) => seedString(opts.seed, step.seedKey, purpose, index),
-            warn: (code, message) => stepWarnings.add(code, message),
-            workers: opts.workers,
-            locator: step.locator,
-            progress: (f) => opts.progress.update(f),
-          };
-          const inputs = step.inputs.map((id) => outputs.get(id));
-          const output = await def.run(inputs, step.params as never, ctx);
-          const payload = packEntry(def.codec, output, stepWarnings.list());
-          opts.cache?.put(step.key, payload);
-          entry = { payload, status: 'ran' };
-        }
-        const { output, body, stepWarnings } = unpackEntry(def.codec, entry.payload);
+        if (cached?.status === 'hit') return cached.bytes;
+        if (cached?.status === 'corrupt') warnings.add('cache-corrupt', messages.cacheCorrupt(step.key));
+        return null;
+      };
+      const runHere = async (step: StepInstance): Promise<Uint8Array> => {
+        const def = stepRegistry[step.kind];
+        const stepWarnings = new WarningLog();
+        const ctx: StepContext = {
+          key: step.key,
+          rng: (purpose, index) => generator(opts.seed, step.seedKey, purpose, index),
+          seedFor: (purpose, index) => seedString(opts.seed, step.seedKey, purpose, index),
+          warn: (code, message) => stepWarnings.add(code, message),
+          workers: opts.workers,
+          locator: step.locator,
+          progress: (f) => opts.progress.update(f),
+        };
+        const output = await def.run(
+          step.inputs.map((id) => outputs.get(id)),
+          step.params as never,
+          ctx,
+        );
+        return packEntry(def.codec, output, stepWarnings.list());
+      };
+      const runOnPool = (step: StepInstance): Promise<{ payload: Uint8Array; seconds: number }> => {
+        pool ??= new StepPool(opts.workers);
+        onThreads++;
+        return pool.run({
+          kind: step.kind,
+          params: step.params,
+          seed: opts.seed,
+          key: step.key,
+          seedKey: step.seedKey,
+          locator: step.locator,
+          inputs: step.inputs.map((id) => bodies.get(id)!),
+        });
+      };
+      const settle = (step: StepInstance, payload: Uint8Array, status: 'ran' | 'cached', seconds: number) => {
+        const def = stepRegistry[step.kind];
+        if (status === 'ran') opts.cache?.put(step.key, payload);
+        const { output, body, stepWarnings } = unpackEntry(def.codec, payload);
         for (const w of stepWarnings) warnings.add(w.code, w.message, w.count);
         outputs.set(step.id, output);
-        const seconds = (performance.now() - t0) / 1000;
-        records.push({ id: step.id, kind: step.kind, key: step.key, output: sha256(body), status: entry.status, seconds });
-        opts.progress.finish({ id: step.id, status: entry.status, seconds, summary: def.summary ? def.summary(output as never) : '' });
+        bodies.set(step.id, { codec: def.codec, body });
+        records.push({ id: step.id, kind: step.kind, key: step.key, output: sha256(body), status, seconds });
+        opts.progress.finish({ id: step.id, status, seconds, summary: def.summary ? def.summary(output as never) : '' });
+      };
+
+      try {
+        for (let i = 0; i < steps.length; ) {
+          const batch = parallelBatch(steps, i);
+          const t0 = performance.now();
+          if (batch.length < 2 || opts.workers < 2) {
+            const step = steps[i];
+            opts.progress.start(step.id);
+            const hit = lookup(step);
+            const payload = hit ?? (await runHere(step));
+            settle(step, payload, hit ? 'cached' : 'ran', (performance.now() - t0) / 1000);
+            i++;
+            continue;
+          }
+          const hits = batch.map(lookup);
+          const misses = hits.filter((h) => h === null).length;
+          opts.progress.start(`${misses} of ${batch.length} steps on ${Math.min(opts.workers, misses)} threads`);
+          const results = await Promise.all(
+            batch.map(async (step, k) => {
+              if (hits[k]) return { payload: hits[k]!, seconds: 0 };
+              if (misses > 1) return runOnPool(step);
+              const t = performance.now();
+              const payload = await runHere(step);
+              return { payload, seconds: (performance.now() - t) / 1000 };
+            }),
+          );
+          // lines, cache writes and outputs follow plan order, whatever order the threads finished in
+          batch.forEach((step, k) => settle(step, results[k].payload, hits[k] ? 'cached' : 'ran', results[k].seconds));
+          i += batch.length;
+        }
+      } finally {
+        if (pool) await (pool as StepPool).close();
       }
-      return { outputs, records, warnings: warnings.list() };
+      return { outputs, records, warnings: warnings.list(), onThreads };
     },
   };
 }
 
-/** Cache payload: 4-byte length, the step's warnings as JSON, then the encoded output. */
-function packEntry(codec: 'frame' | 'json', output: unknown, warnings: Warning[]): Uint8Array {
-  const body =
-    codec === 'frame'
-      ? encodeFrame((output as FrameOutput).frame, (output as FrameOutput).notes)
-      : new Uint8Array(Buffer.from(JSON.stringify(output), 'utf8'));
-  const w = Buffer.from(JSON.stringify(warnings), 'utf8');
-  const out = new Uint8Array(4 + w.length + body.length);
-  new DataView(out.buffer).setUint32(0, w.length, true);
-  out.set(w, 4);
-  out.set(body, 4 + w.length);
-  return out;
-}
-
-function unpackEntry(codec: 'frame' | 'json', payload: Uint8Array) {
-  const n = new DataView(payload.buffer, payload.byteOffset, payload.byteLength).getUint32(0, true);
-  const stepWarnings = JSON.parse(Buffer.from(payload.subarray(4, 4 + n)).toString('utf8')) as Warning[];
-  const body = payload.subarray(4 + n);
-  let output: unknown;
-  if (codec === 'frame') {
-    const { frame, notes } = decodeFrame(body);
-    output = { frame, notes };
-  } else output = JSON.parse(Buffer.from(body).toString('utf8'));
-  return { output, body, stepWarnings };
+/** The steps from `start` on that may run side by side: consecutive, parallel, not feeding each other. */
+function parallelBatch(steps: StepInstance[], start: number): StepInstance[] {
+  const batch: StepInstance[] = [];
+  const ids = new Set<string>();
+  for (let j = start; j < steps.length; j++) {
+    const s = steps[j];
+    if (!stepRegistry[s.kind].parallel || s.inputs.some((id) => ids.has(id))) break;
+    batch.push(s);
+    ids.add(s.id);
+  }
+  return batch;
 }

@@ -93,33 +93,46 @@ export function planRecipe(recipe: Recipe, origin: RecipeOrigin): Plan {
   const folds = add('folds', 'folds', { ...ev.folds, groups: recipe.groups, time: recipe.time }, [modelTable, holdout]);
   const learned = recipe.features.filter((f) => f.kind !== 'derive');
   const common = { target: recipe.target, predictors: recipe.predictors, features: learned };
-  const models: Plan['models'] = {};
-  for (const [name, m] of Object.entries(recipe.models)) {
-    const cells = gridCells(m.grid).map((cell) =>
-      add(`cv ${name} ${cellLabel(cell, varyingParams(m.grid))}`, 'cross_validate', { model: name, kind: m.kind, cell, time: ev.folds.by === 'time' ? recipe.time : null, ...common }, [
-        modelTable,
-        holdout,
-        folds,
-      ]),
-    );
-    const choose = add(`choose ${name}`, 'choose', { target: recipe.target, choose_by: ev.choose_by, k: ev.folds.k }, [
-      modelTable,
-      holdout,
-      ...cells,
-    ]);
-    const fit = add(`fit ${name}`, 'fit', { model: name, kind: m.kind, ...common }, [modelTable, holdout, choose]);
-    const score = add(
-      `score ${name}`,
-      'score',
-      { target: recipe.target, groups: recipe.groups, resamples: BOOTSTRAP_RESAMPLES, byGroups: ev.holdout.by === 'groups' },
-      [modelTable, holdout, fit],
-    );
-    const explain =
-      m.kind === 'mean'
-        ? null
-        : add(`explain ${name}`, 'explain', { target: recipe.target, ...EXPLAIN }, [modelTable, holdout, fit]);
-    models[name] = { cells, choose, fit, score, explain };
-  }
+  // phase by phase across models, so the heavy independent steps (every model's grid cells, then the
+  // final fits, then the explanations) sit next to each other and can run side by side
+  const names = Object.keys(recipe.models);
+  const cells = Object.fromEntries(
+    names.map((name) => {
+      const m = recipe.models[name];
+      const time = ev.folds.by === 'time' ? recipe.time : null;
+      const ids = gridCells(m.grid).map((cell) =>
+        add(`cv ${name} ${cellLabel(cell, varyingParams(m.grid))}`, 'cross_validate', { model: name, kind: m.kind, cell, time, ...common }, [
+          modelTable,
+          holdout,
+          folds,
+        ]),
+      );
+      return [name, ids];
+    }),
+  );
+  const choose = Object.fromEntries(
+    names.map((name) => [
+      name,
+      add(`choose ${name}`, 'choose', { target: recipe.target, choose_by: ev.choose_by, k: ev.folds.k }, [modelTable, holdout, ...cells[name]]),
+    ]),
+  );
+  const fit = Object.fromEntries(
+    names.map((name) => {
+      const m = recipe.models[name];
+      return [name, add(`fit ${name}`, 'fit', { model: name, kind: m.kind, ...common }, [modelTable, holdout, choose[name]])];
+    }),
+  );
+  const scoreParams = { target: recipe.target, groups: recipe.groups, resamples: BOOTSTRAP_RESAMPLES, byGroups: ev.holdout.by === 'groups' };
+  const score = Object.fromEntries(names.map((name) => [name, add(`score ${name}`, 'score', scoreParams, [modelTable, holdout, fit[name]])]));
+  const explain = Object.fromEntries(
+    names.map((name) => [
+      name,
+      recipe.models[name].kind === 'mean' ? null : add(`explain ${name}`, 'explain', { target: recipe.target, ...EXPLAIN }, [modelTable, holdout, fit[name]]),
+    ]),
+  );
+  const models: Plan['models'] = Object.fromEntries(
+    names.map((name) => [name, { cells: cells[name], choose: choose[name], fit: fit[name], score: score[name], explain: explain[name] }]),
+  );
   return { steps, sources, dataSteps, modelTable, holdout, folds, models };
 }
 

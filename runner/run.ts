@@ -24,6 +24,8 @@ export interface RunOptions {
 }
 
 export interface RunResult {
+  /** Steps that ran side by side on worker threads. */
+  stepsOnThreads: number;
   outDir: string;
   manifest: Manifest;
   results: Results;
@@ -75,7 +77,7 @@ export async function runRecipe(recipePath: string, opts: RunOptions): Promise<R
     'model.bin': writeModelFile(results.headlineFit, recipe),
     'predictions.csv': predictionsCsv(results),
   });
-  return { outDir, manifest, results };
+  return { outDir, manifest, results, stepsOnThreads: execution.onThreads };
 }
 
 /**

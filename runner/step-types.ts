@@ -56,6 +56,8 @@ export interface StepDefinition<P = unknown, O = unknown> {
   codec: OutputCodec;
   /** Whether the step draws random numbers: then the master seed is part of its key. */
   usesSeed?: boolean;
+  /** Whether neighbouring instances may run side by side on worker threads (heavy, independent steps). */
+  parallel?: boolean;
   run(inputs: unknown[], params: P, ctx: StepContext): O | Promise<O>;
   /** A few words on the output for the progress line, such as "3,120 rows". */
   summary?(output: O): string;

@@ -50,6 +50,7 @@ export const explain: StepDefinition<ExplainParams, ExplainOutput> = {
   version: 1,
   codec: 'json',
   usesSeed: true,
+  parallel: true,
   async run(inputs, params, ctx) {
     const full = (inputs[0] as FrameOutput).frame;
     const split = inputs[1] as HoldoutOutput;

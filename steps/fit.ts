@@ -34,6 +34,7 @@ export const fit: StepDefinition<FitParams, FitOutput> = {
   version: 2,
   codec: 'json',
   usesSeed: true,
+  parallel: true,
   async run(inputs, params, ctx) {
     const frame = (inputs[0] as FrameOutput).frame;
     const split = inputs[1] as HoldoutOutput;

@@ -39,6 +39,9 @@ describe('determinism', () => {
   it('gives a byte-identical manifest (outside timing) for 1 and 2 workers and in two separate folders', async () => {
     const one = await run(FOREST, {}, 1);
     const two = await run(FOREST, {}, 2);
+    // with two workers the grid cells, final fits and explanations ran on the thread pool
+    expect(one.stepsOnThreads).toBe(0);
+    expect(two.stepsOnThreads).toBeGreaterThanOrEqual(6);
     expect(noTiming(readManifest(two.outDir))).toEqual(noTiming(readManifest(one.outDir)));
     const strip = (s: string) => s.replace(/"timing": \{[\s\S]*\}\n\}\n$/, '');
     expect(strip(readFileSync(join(two.outDir, 'manifest.json'), 'utf8'))).toBe(strip(readFileSync(join(one.outDir, 'manifest.json'), 'utf8')));

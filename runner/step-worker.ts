@@ -1,0 +1,54 @@
+/**
+ * A worker thread that runs one step instance at a time from its description (kind, params, seed
+ * key, locator) and its inputs' encoded bytes, and answers with the packed output. It never touches
+ * the cache: the main thread reads and writes it, so the cache stays the single place outputs live.
+ */
+import { parentPort } from 'node:worker_threads';
+import { stepRegistry } from '../steps/index.js';
+import { decodeOutput, packEntry } from './codec.js';
+import { DendrologError } from './messages.js';
+import { generator, seedString } from './rng.js';
+import type { OutputCodec, StepContext } from './step-types.js';
+import { WarningLog } from './warnings.js';
+
+/** What the executor sends for one step. */
+export interface StepJob {
+  id: number;
+  kind: string;
+  params: unknown;
+  seed: number;
+  key: string;
+  seedKey: string;
+  locator: Record<string, string>;
+  inputs: { codec: OutputCodec; body: Uint8Array }[];
+}
+
+/** What comes back: the packed output, or the error to rethrow in the main thread. */
+export type StepReply = { id: number; payload: Uint8Array } | { id: number; error: { message: string; exitCode: 1 | 2 | null; stack?: string } };
+
+const port = parentPort;
+if (port) {
+  port.on('message', async (job: StepJob) => {
+    try {
+      const def = stepRegistry[job.kind];
+      const warnings = new WarningLog();
+      const ctx: StepContext = {
+        key: job.key,
+        rng: (purpose, index) => generator(job.seed, job.seedKey, purpose, index),
+        seedFor: (purpose, index) => seedString(job.seed, job.seedKey, purpose, index),
+        warn: (code, message) => warnings.add(code, message),
+        // cells already run side by side, one per thread; trees inside stay on this thread
+        workers: 1,
+        locator: job.locator,
+        progress: () => {},
+      };
+      const output = await def.run(job.inputs.map((i) => decodeOutput(i.codec, i.body)), job.params as never, ctx);
+      const payload = packEntry(def.codec, output, warnings.list());
+      port.postMessage({ id: job.id, payload } satisfies StepReply, [payload.buffer as ArrayBuffer]);
+    } catch (e) {
+      const err = e as Error;
+      const exitCode = e instanceof DendrologError ? e.exitCode : null;
+      port.postMessage({ id: job.id, error: { message: err.message, exitCode, stack: err.stack } } satisfies StepReply);
+    }
+  });
+}
