@@ -36,8 +36,8 @@ Options for run:
   --out DIR      output folder (default: <recipe folder>/<report.folder>/<recipe name>)
   --cache DIR    cache folder (default: ${DEFAULT_CACHE} under the current folder)
   --no-cache     neither read nor write the cache
-  --workers N    threads for growing trees (default: the number of cores); results are
-                 identical for any N
+  --workers N    threads for grid cells, final fits and trees (default: the number of
+                 cores); results are identical for any N
 
 Exit codes:
   0  success (verify: reproduced)
