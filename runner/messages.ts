@@ -56,7 +56,6 @@ export const messages = {
     `${where} is ${q(got)}, which is not one of ${allowed.map((a) => q(a)).join(', ')}` +
     (suggestion ? `; did you mean ${q(suggestion)}?` : ''),
   outOfRange: (where: string, got: unknown, rule: string) => `${where} is ${q(got)}, but it must be ${rule}`,
-  badPattern: (where: string, got: unknown, rule: string) => `${where} is ${q(got)}; ${rule}`,
   badSlug: (where: string, got: unknown) =>
     `${where} is ${q(got)}; use lowercase letters, digits and dashes only, starting with a letter or digit`,
   badSha256: (where: string, got: unknown) =>
@@ -69,8 +68,6 @@ export const messages = {
   emptyText: (where: string) => `${where} is empty; give a value`,
   textTooLong: (where: string, limit: number) => `${where} is longer than ${limit} characters; shorten it`,
   schemaOther: (where: string, detail: string) => `${where}: ${detail}`,
-  /** For a predicate phrase such as "is empty; give a value". */
-  invalidValue: (where: string, predicate: string) => `${where} ${predicate}`,
   unsupportedVersion: (got: unknown) =>
     `dendrolog: ${q(got)} is not a recipe format this version reads; this version reads format 1 (write "dendrolog: 1")`,
 

@@ -116,7 +116,7 @@ function describeError(e: ErrorObject, path: (string | number)[], name: string, 
       }
       if (path[0] === 'name') return { pos: doc.where(path), msg: messages.badSlug(name, value) };
       if (path[path.length - 1] === 'sha256') return { pos: doc.where(path), msg: messages.badSha256(name, value) };
-      return { pos: doc.where(path), msg: messages.badPattern(name, value, `it must match ${String(p.pattern)}`) };
+      return { pos: doc.where(path), msg: messages.schemaOther(name, `${JSON.stringify(value)} does not match ${String(p.pattern)}`) };
     case 'minItems':
       return { pos: doc.where(path), msg: messages.outOfRange(name, value, `a list of at least ${p.limit} item(s)`) };
     case 'uniqueItems':

@@ -66,3 +66,26 @@ describe('command line', () => {
     expect(io.out()).toMatch(/Report: .*report\.html/);
   });
 });
+
+describe('command line usage messages', () => {
+  it('says an option needs its value', async () => {
+    const io = capture();
+    expect(await main(['run', 'x.yaml', '--out'])).toBe(2);
+    // the first part is Node's own parseArgs wording
+    expect(io.err()).toBe(messages.usageOptionNeedsValue("Option '--out <value>' argument missing", 'run') + '\n');
+  });
+
+  it('refuses extra arguments, naming them', async () => {
+    const io = capture();
+    expect(await main(['check', 'a.yaml', 'b.yaml'])).toBe(2);
+    expect(io.err()).toBe(messages.usageTooManyArguments('check', 'a recipe file', ['a.yaml', 'b.yaml']) + '\n');
+  });
+
+  it('says when the data file for predict does not exist', async () => {
+    const dir = makeFolder({ 'recipe.yaml': SMALL_RECIPE, 'data/obs.csv': smallData() });
+    const io = capture();
+    expect(await main(['run', join(dir, 'recipe.yaml'), '--cache', join(dir, 'c'), '--workers', '1'])).toBe(0);
+    expect(await main(['predict', join(dir, 'out', 'small'), 'nowhere.csv', '--out', join(dir, 'p.csv')])).toBe(2);
+    expect(io.err()).toBe(messages.dataFileMissing('nowhere.csv') + '\n');
+  });
+});
