@@ -8,12 +8,9 @@
  */
 import { meanOf } from './mean.js';
 
-/** Column-major predictors; the same shape the forest engine takes. */
-export interface Matrix {
-  columns: Float64Array[];
-  names: string[];
-  rows: number;
-}
+import type { Matrix } from './checks.js';
+
+export type { Matrix };
 
 export interface LinearModel {
   kind: 'linear';

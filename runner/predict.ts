@@ -1,4 +1,5 @@
-import { existsSync, readFileSync, writeFileSync } from 'node:fs';
+import { closeSync, existsSync, openSync, readFileSync, readSync, writeFileSync } from 'node:fs';
+import { readHeaderLine } from '../steps/readers/csv.js';
 import { dirname, join, resolve } from 'node:path';
 import { stepRegistry } from '../steps/index.js';
 import { applyDesign } from '../steps/design.js';
@@ -64,7 +65,10 @@ export async function predictRun(folder: string, dataFile: string, outFile: stri
     progress: () => {},
   });
   // only delimited text has a header to look at first; other formats must carry every declared column
-  const header = main.format === 'csv' || main.format === 'tsv' ? readHeader(dataPath) : Object.keys(main.columns);
+  const header =
+    (main.format === 'csv' || main.format === 'tsv') && main.header !== false
+      ? readHeader(dataPath, main.delimiter ?? (main.format === 'tsv' ? '\t' : ','))
+      : Object.keys(main.columns);
   const absentTarget = [...targetInputs].filter((c) => c in main.columns && !header.includes(c));
   // a declared column nothing in the recipe uses may be absent too; it is filled as missing
   const used = usedColumns(recipe);
@@ -206,10 +210,18 @@ function withoutTarget(step: CleanStep, target: Set<string>): CleanStep | null {
   }
 }
 
-function readHeader(path: string): string[] {
-  const first = readFileSync(path, 'utf8').split(/\r?\n/, 1)[0].replace(/^\ufeff/, '');
-  const delimiter = path.toLowerCase().endsWith('.tsv') ? '\t' : ',';
-  return first.split(delimiter).map((h) => h.trim().replace(/^"(.*)"$/, '$1'));
+/** The header row of delimited text, read from the first 64 KiB only (the CSV reader's own parser). */
+function readHeader(path: string, delimiter: string): string[] {
+  const fd = openSync(path, 'r');
+  try {
+    const head = Buffer.alloc(65536);
+    const n = readSync(fd, head, 0, head.length, 0);
+    const text = head.subarray(0, n).toString('utf8');
+    const end = text.search(/\r?\n/);
+    return readHeaderLine(end < 0 ? text : text.slice(0, end), delimiter, displayOf(path));
+  } finally {
+    closeSync(fd);
+  }
 }
 
 function formatValue(c: Column, r: number): string {

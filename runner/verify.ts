@@ -52,10 +52,10 @@ export async function verifyRun(folder: string, opts: { workers: number; progres
   const envChanges: string[] = [];
   if (env.node !== manifest.environment.node) envChanges.push(`Node.js ${manifest.environment.node} → ${env.node}`);
   if (env.dendrolog !== manifest.environment.dendrolog) envChanges.push(`dendrolog ${manifest.environment.dendrolog} → ${env.dendrolog}`);
-  for (const [name, v] of Object.entries({ ...manifest.environment.dependencies, ...env.dependencies })) {
+  for (const name of new Set([...Object.keys(manifest.environment.dependencies), ...Object.keys(env.dependencies)])) {
     const was = manifest.environment.dependencies[name];
     const now = env.dependencies[name];
-    if (was !== now) envChanges.push(`${name} ${was ?? '(absent)'} → ${now ?? v ?? '(absent)'}`);
+    if (was !== now) envChanges.push(`${name} ${was ?? '(absent)'} → ${now ?? '(absent)'}`);
   }
   if (envChanges.length === 0 && softwareFingerprint() !== manifest.environment.fingerprint) {
     envChanges.push(`dendrolog's step or engine code (fingerprint ${manifest.environment.fingerprint.slice(0, 12)}… → ${softwareFingerprint().slice(0, 12)}…)`);

@@ -2,12 +2,10 @@ import { column, isMissing, type Frame } from '../runner/frame.js';
 import { DendrologError, messages } from '../runner/messages.js';
 import type { FeatureStep } from '../runner/recipe-types.js';
 
-/** Column-major numeric matrix handed to the model engines. */
-export interface Matrix {
-  columns: Float64Array[];
-  names: string[];
-  rows: number;
-}
+import type { Matrix } from '../models/checks.js';
+
+/** Column-major numeric matrix handed to the model engines (the engines' own type). */
+export type { Matrix };
 
 type LearnedStep = Exclude<FeatureStep, { kind: 'derive' }>;
 

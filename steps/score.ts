@@ -85,19 +85,12 @@ export const score: StepDefinition<ScoreParams, ScoreOutput> = {
     }
     const interval = (v: number[]): Interval =>
       v.length < params.resamples / 2 ? { low: null, high: null } : { low: quantile(v, 0.05), high: quantile(v, 0.95) };
+    // the final fit recorded each numeric predictor's training range
     const outsideRange: Record<string, number> = {};
-    for (const p of fitted.design.predictors) {
-      const c = column(frame, p);
-      if (!(c.values instanceof Float64Array) || fitted.design.oneHot[p]) continue;
-      let lo = Infinity;
-      let hi = -Infinity;
-      for (const r of split.train) {
-        const v = c.values[r];
-        if (v < lo) lo = v;
-        if (v > hi) hi = v;
-      }
+    for (const [p, range] of Object.entries(fitted.ranges)) {
+      const values = column(frame, p).values as Float64Array;
       let n = 0;
-      for (const r of split.test) if (c.values[r] < lo || c.values[r] > hi) n++;
+      for (const r of split.test) if (values[r] < range.min || values[r] > range.max) n++;
       if (n > 0) outsideRange[p] = n;
     }
     return {
