@@ -17,6 +17,26 @@ export interface LinearModel {
   names: string[];
   intercept: number;
   coefficients: Float64Array;
+  /**
+   * Predictors left out because each is a linear combination of earlier ones (with
+   * `dropCollinear`), with the predictors it combines; not serialized.
+   */
+  collinear?: Collinearity[];
+}
+
+/** One predictor that is (to the tolerance) a linear combination of the earlier predictors named. */
+export interface Collinearity {
+  name: string;
+  with: string[];
+}
+
+export interface FitLinearOptions {
+  /**
+   * Leave out each predictor that is a linear combination of earlier ones, keeping the user's
+   * order, instead of throwing. The fitted values are the same either way (the columns span the
+   * same space); only the split of coefficients among the collinear predictors is not defined.
+   */
+  dropCollinear?: boolean;
 }
 
 /**
@@ -113,7 +133,8 @@ function backSolve(r: Float64Array[], c: ArrayLike<number>, size: number): Float
  *
  * Throws `LinearModelError` on NaN or ±Infinity (naming the column and the first bad row,
  * counted from 0), on fewer rows than predictors + 1, and on collinear predictors (naming
- * them), because in each case there is no single well-defined answer to return.
+ * them; with `dropCollinear` they are left out and listed in `collinear` instead), because in
+ * each case there is no single well-defined answer to return.
  *
  * Example:
  * ```ts
@@ -121,7 +142,7 @@ function backSolve(r: Float64Array[], c: ArrayLike<number>, size: number): Float
  * fitLinear(x, new Float64Array([1, 3, 5])); // intercept 1, coefficients [2]
  * ```
  */
-export function fitLinear(x: Matrix, y: Float64Array): LinearModel {
+export function fitLinear(x: Matrix, y: Float64Array, opts: FitLinearOptions = {}): LinearModel {
   checkShape(x, 'fitLinear');
   const n = x.rows;
   const p = x.columns.length;
@@ -165,6 +186,12 @@ export function fitLinear(x: Matrix, y: Float64Array): LinearModel {
     if (s > 0) for (let i = 0; i < n; i++) aj[i] /= s;
     a.push(aj);
   }
+  if (constant.length > 0 && opts.dropCollinear) {
+    const keep = x.names.flatMap((name, j) => (constant.includes(name) ? [] : [j]));
+    const reduced = fitLinear({ names: keep.map((j) => x.names[j]), rows: n, columns: keep.map((j) => x.columns[j]) }, y, opts);
+    // an empty `with`: collinear with the intercept alone
+    return { ...reduced, collinear: [...constant.map((name) => ({ name, with: [] })), ...(reduced.collinear ?? [])] };
+  }
   if (constant.length > 0) {
     throw new LinearModelError(
       `fitLinear: ${constant.length === 1 ? 'predictor' : 'predictors'} ${quote(constant)} ${constant.length === 1 ? 'is' : 'are'} constant (or nearly so for ${constant.length === 1 ? 'its' : 'their'} size), so collinear with the intercept; drop ${constant.length === 1 ? 'it' : 'them'} and fit again`,
@@ -185,7 +212,7 @@ export function fitLinear(x: Matrix, y: Float64Array): LinearModel {
   // error message in the user's column order.
   const reflections: Reflection[] = [];
   const r: Float64Array[] = []; // r[q] = column q of R (rows 0..q)
-  const collinear: { name: string; with: string[] }[] = [];
+  const collinear: Collinearity[] = [];
   const accepted: number[] = [];
   for (let j = 0; j < p; j++) {
     const col = a[j];
@@ -215,6 +242,11 @@ export function fitLinear(x: Matrix, y: Float64Array): LinearModel {
     r.push(rq);
     accepted.push(j);
     for (let k = j + 1; k < p; k++) reflect(h, a[k]);
+  }
+  if (collinear.length > 0 && opts.dropCollinear) {
+    const kept = accepted.map((j) => x.names[j]);
+    const reduced = fitLinear({ names: kept, rows: n, columns: accepted.map((j) => x.columns[j]) }, y);
+    return { ...reduced, collinear };
   }
   if (collinear.length > 0) {
     const names = new Set<string>();

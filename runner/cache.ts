@@ -1,48 +1,183 @@
-import { randomBytes } from 'node:crypto';
-import { mkdirSync, readFileSync, renameSync, rmSync, writeFileSync, existsSync } from 'node:fs';
+import { createHash, randomBytes } from 'node:crypto';
+import * as fs from 'node:fs';
 import { join } from 'node:path';
-import { sha256 } from './hash.js';
+import type { OutputCodec } from './step-types.js';
 
-/** Result of a cache read: a hit, a miss, or an entry that failed its checksum (already removed). */
-export type CacheRead = { status: 'hit'; bytes: Uint8Array } | { status: 'miss' } | { status: 'corrupt' };
+/** First line of every entry; a change to the layout below changes the number. */
+const FORMAT = 'dendrolog-cache-entry 2';
+const HEADER_LIMIT = 512;
+
+/** Why a stored entry was not used; the entry file is already gone when this is returned. */
+export type CacheDiscard =
+  | { reason: 'checksum' }
+  | { reason: 'key'; storedKey: string }
+  | { reason: 'codec'; storedCodec: string }
+  | { reason: 'format'; start: string };
+
+/** Result of a cache read: a hit, a miss, or an entry that could not be trusted (already removed). */
+export type CacheRead = { status: 'hit'; bytes: Uint8Array } | { status: 'miss' } | ({ status: 'discarded' } & CacheDiscard);
+
+/** Result of a cache write: stored, or not, with the file-system error code that prevented it. */
+export type CacheWrite = { stored: true } | { stored: false; code: string; detail: string };
+
+/** The file operations the cache uses; tests replace some to simulate a full or read-only disk. */
+export interface CacheIo {
+  readFileSync(path: string): Buffer;
+  writeFileSync(path: string, data: Uint8Array): void;
+  renameSync(from: string, to: string): void;
+  mkdirSync(path: string, opts: { recursive: true }): unknown;
+  rmSync(path: string, opts: { force: true }): void;
+}
+
+const nodeIo: CacheIo = {
+  readFileSync: (p) => fs.readFileSync(p),
+  writeFileSync: (p, d) => fs.writeFileSync(p, d),
+  renameSync: (a, b) => fs.renameSync(a, b),
+  mkdirSync: (p, o) => fs.mkdirSync(p, o),
+  rmSync: (p, o) => fs.rmSync(p, o),
+};
 
 /**
- * Content-addressed store: `<dir>/<key[0:2]>/<key>` holds a 64-hex checksum line, then the output.
- * Writes go to a unique temporary file renamed into place, so readers on a shared filesystem see
- * either nothing or a whole entry, even with several processes writing.
+ * Content-addressed store: `<dir>/<key[0:2]>/<key>` holds a short text header, then the output:
  *
- * Example: `new Cache('.dendrolog/cache').put(key, bytes)`, then `.get(key).status === 'hit'`.
+ * ```
+ * dendrolog-cache-entry 2
+ * key <the step key, 64 hex>
+ * codec <frame|json>
+ * sha256 <64 hex over every byte of the entry except this line>
+ * <the packed output>
+ * ```
+ *
+ * The key inside the entry binds it to its path, so an entry copied over another is refused, not
+ * served. Writes go to a unique temporary file renamed into place, so readers on a shared
+ * filesystem see either nothing or a whole entry, even with several processes writing. A write the
+ * file system refuses (full disk, read-only folder) is reported, never thrown, and leaves no
+ * temporary file behind.
+ *
+ * Example: `new Cache('.dendrolog/cache').put(key, 'json', bytes)`, then `.get(key, 'json').status === 'hit'`.
  */
 export class Cache {
-  constructor(readonly dir: string) {}
+  private readonly io: CacheIo;
+
+  constructor(
+    readonly dir: string,
+    io: Partial<CacheIo> = {},
+  ) {
+    this.io = { ...nodeIo, ...io };
+  }
 
   private pathOf(key: string): string {
     return join(this.dir, key.slice(0, 2), key);
   }
 
-  get(key: string): CacheRead {
+  /** The entry for key if it is whole, holds that key and is in the codec the step writes. */
+  get(key: string, codec: OutputCodec): CacheRead {
     const p = this.pathOf(key);
-    if (!existsSync(p)) return { status: 'miss' };
     let data: Buffer;
     try {
-      data = readFileSync(p);
+      data = this.io.readFileSync(p);
     } catch {
       return { status: 'miss' };
     }
-    const sum = data.subarray(0, 64).toString('latin1');
-    const bytes = data.subarray(65);
-    if (data.length < 65 || data[64] !== 10 || sha256(bytes) !== sum) {
-      rmSync(p, { force: true });
-      return { status: 'corrupt' };
+    const entry = parseEntry(data);
+    // the previous layout (a bare checksum line): unreadable now, and simply recomputed
+    if (entry === 'previous') return { status: 'miss' };
+    const problem: CacheDiscard | null =
+      'reason' in entry
+        ? entry
+        : entry.storedKey !== key
+          ? { reason: 'key', storedKey: entry.storedKey }
+          : entry.codec !== codec
+            ? { reason: 'codec', storedCodec: entry.codec }
+            : null;
+    if (problem) {
+      this.discard(key);
+      return { status: 'discarded', ...problem };
     }
+    const { bytes } = entry as { bytes: Buffer };
     return { status: 'hit', bytes: new Uint8Array(bytes.buffer, bytes.byteOffset, bytes.byteLength) };
   }
 
-  put(key: string, bytes: Uint8Array): void {
+  /** Stores bytes under key; a file-system refusal comes back as `{stored: false}` with its code. */
+  put(key: string, codec: OutputCodec, bytes: Uint8Array): CacheWrite {
     const p = this.pathOf(key);
-    mkdirSync(join(this.dir, key.slice(0, 2)), { recursive: true });
     const tmp = `${p}.tmp-${process.pid}-${randomBytes(6).toString('hex')}`;
-    writeFileSync(tmp, Buffer.concat([Buffer.from(sha256(bytes) + '\n', 'latin1'), bytes]));
-    renameSync(tmp, p);
+    let placed = false;
+    try {
+      this.io.mkdirSync(join(this.dir, key.slice(0, 2)), { recursive: true });
+      this.io.writeFileSync(tmp, encodeEntry(key, codec, bytes));
+      this.io.renameSync(tmp, p);
+      placed = true;
+      return { stored: true };
+    } catch (e) {
+      const code = (e as NodeJS.ErrnoException).code;
+      if (typeof code !== 'string') throw e;
+      return { stored: false, code, detail: (e as Error).message };
+    } finally {
+      // a full disk leaves a partial or empty temporary file; it must not outlive the failed write
+      if (!placed) {
+        try {
+          this.io.rmSync(tmp, { force: true });
+        } catch {
+          // the folder refuses removal too; nothing more can be done from here
+        }
+      }
+    }
   }
+
+  /** Removes an entry that could not be used, so the recomputed output replaces it. */
+  discard(key: string): void {
+    try {
+      this.io.rmSync(this.pathOf(key), { force: true });
+    } catch {
+      // a read-only cache keeps the entry; it is discarded again, with a warning, on every read
+    }
+  }
+}
+
+/** The bytes of one entry file: header lines, then the output. */
+export function encodeEntry(key: string, codec: OutputCodec, bytes: Uint8Array): Buffer {
+  const head = Buffer.from(`${FORMAT}\nkey ${key}\ncodec ${codec}\n`, 'latin1');
+  const sum = entrySum(head, bytes);
+  return Buffer.concat([head, Buffer.from(`sha256 ${sum}\n`, 'latin1'), bytes]);
+}
+
+/** SHA-256 over the header lines before the checksum and the output, without copying the output. */
+function entrySum(head: Uint8Array, bytes: Uint8Array): string {
+  return createHash('sha256').update(head).update(bytes).digest('hex');
+}
+
+type ParsedEntry = { storedKey: string; codec: string; bytes: Buffer } | CacheDiscard | 'previous';
+
+function parseEntry(data: Buffer): ParsedEntry {
+  const lines: string[] = [];
+  const ends: number[] = [];
+  let at = 0;
+  while (lines.length < 4) {
+    const nl = data.indexOf(10, at);
+    if (nl < 0 || nl > HEADER_LIMIT) break;
+    lines.push(data.subarray(at, nl).toString('latin1'));
+    at = nl + 1;
+    ends.push(at);
+  }
+  if (lines[0] !== FORMAT) {
+    const first = lines[0] ?? data.subarray(0, Math.min(data.length, 40)).toString('latin1');
+    if (/^[0-9a-f]{64}$/.test(first)) return 'previous';
+    // an entry cut off inside its first line (or empty) is damage, not a foreign format
+    if (lines.length === 0 && FORMAT.startsWith(first)) return { reason: 'checksum' };
+    return { reason: 'format', start: printable(first) };
+  }
+  const key = /^key ([0-9a-f]{64})$/.exec(lines[1] ?? '');
+  const codec = /^codec ([a-z]+)$/.exec(lines[2] ?? '');
+  const sum = /^sha256 ([0-9a-f]{64})$/.exec(lines[3] ?? '');
+  if (!key || !codec || !sum) return { reason: 'checksum' };
+  const bytes = data.subarray(ends[3]);
+  if (entrySum(data.subarray(0, ends[2]), bytes) !== sum[1]) return { reason: 'checksum' };
+  return { storedKey: key[1], codec: codec[1], bytes };
+}
+
+/** The start of a foreign entry, safe to quote in one terminal line. */
+function printable(s: string): string {
+  const clean = s.replace(/[^\x20-\x7e]/g, '?');
+  return clean.length > 40 ? clean.slice(0, 40) + '…' : clean;
 }

@@ -1,9 +1,9 @@
 import { availableParallelism } from 'node:os';
-import { relative } from 'node:path';
+import { relative, resolve } from 'node:path';
 import { parseArgs } from 'node:util';
 import { DendrologError, messages } from './messages.js';
 import { streamProgress } from './progress.js';
-import { loadRecipe } from './recipe.js';
+import { displayOf, loadRecipe } from './recipe.js';
 import { DEFAULT_CACHE, runRecipe } from './run.js';
 import { closest } from './suggest.js';
 import { verifyRun } from './verify.js';
@@ -133,10 +133,20 @@ export async function main(argv: string[]): Promise<number> {
       err.write(`${e.message}\n`);
       return e.exitCode;
     }
+    // the file system refusing (full disk, no permission, a folder where a file should be) is the
+    // machine's state, not a bug: say which file and what to do
+    const sys = e as NodeJS.ErrnoException;
+    if (sys && typeof sys.code === 'string' && typeof sys.path === 'string' && FILE_SYSTEM_CODES.has(sys.code)) {
+      err.write(`${messages.fileSystemRefused(sys.code, sys.syscall ?? 'use', displayOf(resolve(sys.path)))}\n`);
+      return 1;
+    }
     err.write(`dendrolog: unexpected internal error; please report it with the recipe that caused it\n${(e as Error).stack ?? e}\n`);
     return 1;
   }
 }
+
+/** File-system error codes that describe the machine's state rather than a bug in dendrolog. */
+const FILE_SYSTEM_CODES = new Set(['ENOSPC', 'EDQUOT', 'EACCES', 'EPERM', 'EROFS', 'EISDIR', 'ENOTDIR', 'ENOENT', 'EMFILE', 'ENFILE', 'EBUSY', 'ENAMETOOLONG', 'ELOOP', 'EIO']);
 
 type OptionSpec = Record<string, { type: 'string' | 'boolean' }>;
 

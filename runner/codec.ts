@@ -1,5 +1,6 @@
 import { decodeFrame, encodeFrame } from './frame.js';
 import type { FrameOutput, OutputCodec, Warning } from './step-types.js';
+import { parseJson } from './dict.js';
 
 /**
  * A step's output as cache bytes: 4-byte length, the step's warnings as JSON, then the output in
@@ -23,7 +24,9 @@ export function packEntry(codec: OutputCodec, output: unknown, warnings: Warning
 /** Inverse of packEntry; `body` is the encoded output alone, whose SHA-256 the manifest records. */
 export function unpackEntry(codec: OutputCodec, payload: Uint8Array): { output: unknown; body: Uint8Array; stepWarnings: Warning[] } {
   const n = new DataView(payload.buffer, payload.byteOffset, payload.byteLength).getUint32(0, true);
+  if (4 + n > payload.length) throw new Error(`the step's warnings claim ${n} bytes, more than the ${payload.length - 4} stored`);
   const stepWarnings = JSON.parse(Buffer.from(payload.subarray(4, 4 + n)).toString('utf8')) as Warning[];
+  if (!Array.isArray(stepWarnings)) throw new Error("the step's warnings are not a list");
   const body = payload.subarray(4 + n);
   return { output: decodeOutput(codec, body), body, stepWarnings };
 }
@@ -34,5 +37,5 @@ export function decodeOutput(codec: OutputCodec, body: Uint8Array): unknown {
     const { frame, notes } = decodeFrame(body);
     return { frame, notes };
   }
-  return JSON.parse(Buffer.from(body).toString('utf8'));
+  return parseJson(Buffer.from(body).toString('utf8'));
 }

@@ -1,8 +1,7 @@
 import { spawnSync } from 'node:child_process';
 import { existsSync, readFileSync } from 'node:fs';
-import { dirname, join } from 'node:path';
+import { dirname, join, relative, resolve, sep } from 'node:path';
 import { fileURLToPath } from 'node:url';
-import { readdirSync } from 'node:fs';
 import { hashValue, sha256 } from './hash.js';
 import { packageRoot } from './paths.js';
 
@@ -47,22 +46,48 @@ export function gitState(dir: string): { commit: string; dirty: boolean } | null
 let fingerprint: string | undefined;
 
 /**
+ * Where step outputs are computed: the step registry (every step kind and all it imports), and the
+ * executor and thread worker that build a step's context, seed its generators and carry its output
+ * through the codec. Their import closure is every file whose code can shape an output.
+ */
+export const OUTPUT_ENTRIES = ['steps/index', 'runner/execute', 'runner/step-worker'];
+
+/**
  * A hash of what computes the step outputs: dendrolog's version, the runtime dependency versions,
- * and the code of the steps and model engines as loaded. It is part of every step key, so a cache
- * filled by other code is never reused, and verify can tell a software change from a data change.
+ * and the code of every file in the import closure of OUTPUT_ENTRIES, as loaded. It is part of
+ * every step key, so a cache filled by other code is never reused, and verify can tell a software
+ * change from a data change.
  */
 export function softwareFingerprint(): string {
   if (fingerprint) return fingerprint;
-  const here = dirname(fileURLToPath(import.meta.url));
-  const code: Record<string, string> = {};
-  for (const folder of ['steps', 'steps/readers', 'models']) {
-    const dir = join(here, '..', folder);
-    if (!existsSync(dir)) continue;
-    for (const f of readdirSync(dir).sort()) {
-      if (/\.(js|ts)$/.test(f)) code[`${folder}/${f}`] = sha256(readFileSync(join(dir, f)));
+  const root = join(dirname(fileURLToPath(import.meta.url)), '..');
+  const env = environment();
+  fingerprint = hashValue({ dendrolog: env.dendrolog, dependencies: env.dependencies, code: codeHashes(root, OUTPUT_ENTRIES) });
+  return fingerprint;
+}
+
+/**
+ * SHA-256 of every source file reachable from the entries through relative imports (static,
+ * dynamic, and module URLs such as a worker's `new URL('./x.js', import.meta.url)`), keyed by its
+ * path from root. Works on the TypeScript sources and on the compiled dist/ alike: an import of
+ * `./x.js` is the file x.ts where that exists beside the importer.
+ *
+ * Example: `codeHashes('/src/dendrolog', ['steps/index'])` holds 'runner/frame.ts'.
+ */
+export function codeHashes(root: string, entries: string[]): Record<string, string> {
+  const ext = existsSync(join(root, `${entries[0]}.ts`)) ? '.ts' : '.js';
+  const seen = new Map<string, string>();
+  const queue = entries.map((e) => join(root, e + ext));
+  while (queue.length > 0) {
+    const file = queue.pop()!;
+    const key = relative(root, file).split(sep).join('/');
+    if (seen.has(key) || !existsSync(file)) continue;
+    const text = readFileSync(file);
+    seen.set(key, sha256(text));
+    for (const m of text.toString('utf8').matchAll(/['"](\.\.?\/[^'"\n]+?)\.js['"]/g)) {
+      const base = resolve(dirname(file), m[1]);
+      queue.push(existsSync(base + ext) ? base + ext : base + '.js');
     }
   }
-  const env = environment();
-  fingerprint = hashValue({ dendrolog: env.dendrolog, dependencies: env.dependencies, code });
-  return fingerprint;
+  return Object.fromEntries([...seen].sort(([a], [b]) => (a < b ? -1 : a > b ? 1 : 0)));
 }

@@ -6,6 +6,7 @@ import { messages } from './messages.js';
 import type { Progress } from './progress.js';
 import { generator, seedString } from './rng.js';
 import { StepPool } from './step-pool.js';
+import { displayOf } from './recipe.js';
 import type { OutputCodec, StepContext, StepInstance, Warning } from './step-types.js';
 import { WarningLog } from './warnings.js';
 
@@ -27,6 +28,9 @@ export interface Execution {
   onThreads: number;
 }
 
+/** A step's output as decoded from its packed bytes, fresh or cached. */
+type Decoded = ReturnType<typeof unpackEntry>;
+
 /** The executor interface: something that runs planned step instances against a cache. */
 export interface Executor {
   run(steps: StepInstance[]): Promise<Execution>;
@@ -41,10 +45,12 @@ export interface LocalExecutorOptions {
 
 /**
  * Runs steps in plan order on this machine. Each step is either read from the cache, after its
- * checksum passes, or run and stored. Consecutive steps marked `parallel` that do not depend on one
- * another (grid cells, final fits, explanations) run side by side on a pool of `workers` threads,
- * one step per thread; every other step runs here, and a forest fit there spreads its trees over
- * the threads instead. Outputs handed downstream are always the decoded bytes, so a warm and a cold
+ * entry proves to hold this key, in this codec, with a passing checksum and a body that decodes, or
+ * run and stored; an entry that fails any of these is discarded with a warning and recomputed. A
+ * cache that refuses a write is warned about once and not written again in this run. Consecutive
+ * steps marked `parallel` that do not depend on one another (grid cells, final fits, explanations)
+ * run side by side on a pool of `workers` threads, one step per thread; every other step runs here,
+ * and a forest fit there spreads its trees over the threads instead. Outputs handed downstream are always the decoded bytes, so a warm and a cold
  * run, and any number of threads, compute on equal values.
  */
 export function localExecutor(opts: LocalExecutorOptions): Executor {
@@ -57,11 +63,48 @@ export function localExecutor(opts: LocalExecutorOptions): Executor {
       let pool: StepPool | null = null;
       let onThreads = 0;
 
-      const lookup = (step: StepInstance): Uint8Array | null => {
-        const cached = opts.cache?.get(step.key);
-        if (cached?.status === 'hit') return cached.bytes;
-        if (cached?.status === 'corrupt') warnings.add('cache-corrupt', messages.cacheCorrupt(step.key));
+      let cacheWritable = true;
+      // cache trouble is shown as it happens and kept with the run's warnings
+      const cacheWarning = (code: string, message: string) => {
+        warnings.add(code, message);
+        opts.progress.note(message);
+      };
+      /** The step's cached output, decoded; null when there is none or it cannot be trusted. */
+      const lookup = (step: StepInstance): Decoded | null => {
+        const cache = opts.cache;
+        if (!cache) return null;
+        const codec = stepRegistry[step.kind].codec;
+        const got = cache.get(step.key, codec);
+        if (got.status === 'hit') {
+          try {
+            return unpackEntry(codec, got.bytes);
+          } catch (e) {
+            // bytes that pass their checksum yet do not decode would otherwise stop every later run
+            cache.discard(step.key);
+            cacheWarning('cache-undecodable', messages.cacheEntryUndecodable(step.id, step.key, (e as Error).message));
+            return null;
+          }
+        }
+        if (got.status === 'discarded') {
+          if (got.reason === 'checksum') cacheWarning('cache-corrupt', messages.cacheCorrupt(step.key));
+          else if (got.reason === 'key') cacheWarning('cache-other-key', messages.cacheEntryOtherKey(step.id, step.key, got.storedKey));
+          else if (got.reason === 'codec') cacheWarning('cache-other-codec', messages.cacheEntryOtherCodec(step.id, step.key, got.storedCodec, codec));
+          else cacheWarning('cache-unknown-format', messages.cacheEntryUnknownFormat(step.id, step.key, got.start));
+        }
         return null;
+      };
+      /** Stores a freshly computed output and decodes it, so downstream sees what a warm run would. */
+      const store = (step: StepInstance, payload: Uint8Array): Decoded => {
+        const codec = stepRegistry[step.kind].codec;
+        if (opts.cache && cacheWritable) {
+          const written = opts.cache.put(step.key, codec, payload);
+          if (!written.stored) {
+            // one line for the whole run: a full or read-only disk refuses every later write too
+            cacheWritable = false;
+            cacheWarning('cache-unwritable', messages.cacheUnwritable(displayOf(opts.cache.dir), written.code));
+          }
+        }
+        return unpackEntry(codec, payload);
       };
       const runHere = async (step: StepInstance): Promise<Uint8Array> => {
         const def = stepRegistry[step.kind];
@@ -95,10 +138,9 @@ export function localExecutor(opts: LocalExecutorOptions): Executor {
           inputs: step.inputs.map((id) => bodies.get(id)!),
         });
       };
-      const settle = (step: StepInstance, payload: Uint8Array, status: 'ran' | 'cached', seconds: number) => {
+      const settle = (step: StepInstance, entry: Decoded, status: 'ran' | 'cached', seconds: number) => {
         const def = stepRegistry[step.kind];
-        if (status === 'ran') opts.cache?.put(step.key, payload);
-        const { output, body, stepWarnings } = unpackEntry(def.codec, payload);
+        const { output, body, stepWarnings } = entry;
         for (const w of stepWarnings) warnings.add(w.code, w.message, w.count);
         outputs.set(step.id, output);
         bodies.set(step.id, { codec: def.codec, body });
@@ -112,10 +154,11 @@ export function localExecutor(opts: LocalExecutorOptions): Executor {
           const t0 = performance.now();
           if (batch.length < 2 || opts.workers < 2) {
             const step = steps[i];
-            opts.progress.start(step.id);
+            // looked up before the progress line starts, so a cache warning gets a line of its own
             const hit = lookup(step);
-            const payload = hit ?? (await runHere(step));
-            settle(step, payload, hit ? 'cached' : 'ran', (performance.now() - t0) / 1000);
+            opts.progress.start(step.id);
+            const entry = hit ?? store(step, await runHere(step));
+            settle(step, entry, hit ? 'cached' : 'ran', (performance.now() - t0) / 1000);
             i++;
             continue;
           }
@@ -124,7 +167,7 @@ export function localExecutor(opts: LocalExecutorOptions): Executor {
           opts.progress.start(`${misses} of ${batch.length} steps on ${Math.min(opts.workers, misses)} threads`);
           const results = await Promise.all(
             batch.map(async (step, k) => {
-              if (hits[k]) return { payload: hits[k]!, seconds: 0 };
+              if (hits[k]) return { payload: null, seconds: 0 };
               if (misses > 1) return runOnPool(step);
               const t = performance.now();
               const payload = await runHere(step);
@@ -132,7 +175,10 @@ export function localExecutor(opts: LocalExecutorOptions): Executor {
             }),
           );
           // lines, cache writes and outputs follow plan order, whatever order the threads finished in
-          batch.forEach((step, k) => settle(step, results[k].payload, hits[k] ? 'cached' : 'ran', results[k].seconds));
+          batch.forEach((step, k) => {
+            const r = results[k];
+            settle(step, hits[k] ?? store(step, r.payload!), hits[k] ? 'cached' : 'ran', r.seconds);
+          });
           i += batch.length;
         }
       } finally {

@@ -1,6 +1,7 @@
 import * as aq from 'arquero';
 import type { ColumnType } from './recipe-types.js';
 import type { ColumnValues } from '../steps/readers/values.js';
+import { dict, has, parseJson } from './dict.js';
 
 /** A named, typed column. Numbers and dates: Float64Array with NaN for missing (dates in ms since epoch). */
 export interface Column {
@@ -56,10 +57,18 @@ export function takeRows(frame: Frame, rows: ArrayLike<number>): Frame {
   };
 }
 
+/**
+ * Column names arquero cannot hold: its tables keep columns in plain objects, where `__proto__`
+ * would replace the prototype. Such a column never reaches an expression; the recipe check refuses
+ * expressions that read or make one (messages.expressionReservedColumn).
+ */
+export const ARQUERO_UNSAFE_NAMES: ReadonlySet<string> = new Set(['__proto__']);
+
 /** Converts to an arquero table for expressions: missing as null, dates as Date objects. */
 export function toArquero(frame: Frame): aq.ColumnTable {
-  const data: Record<string, unknown[]> = {};
+  const data = dict<unknown[]>();
   for (const c of frame.columns) {
+    if (ARQUERO_UNSAFE_NAMES.has(c.name)) continue;
     const out = new Array<unknown>(frame.rows);
     for (let i = 0; i < frame.rows; i++) {
       const v = c.values[i];
@@ -122,7 +131,7 @@ export function encodeFrame(frame: Frame, notes: unknown = null): Uint8Array {
   const header = {
     rows: frame.rows,
     columns: frame.columns.map((c) => ({ name: c.name, type: c.type })),
-    text: Object.fromEntries(frame.columns.filter((c) => !(c.values instanceof Float64Array)).map((c) => [c.name, c.values])),
+    text: dict(frame.columns.filter((c) => !(c.values instanceof Float64Array)).map((c) => [c.name, c.values])),
     notes,
   };
   const json = Buffer.from(JSON.stringify(header), 'utf8');
@@ -147,20 +156,30 @@ export function decodeFrame(bytes: Uint8Array): { frame: Frame; notes: unknown }
   const view = new DataView(bytes.buffer, bytes.byteOffset, bytes.byteLength);
   if (view.getUint32(0, true) !== MAGIC) throw new Error('not a dendrolog frame');
   const jsonLen = view.getUint32(4, true);
-  const header = JSON.parse(Buffer.from(bytes.subarray(8, 8 + jsonLen)).toString('utf8')) as {
+  const header = parseJson(Buffer.from(bytes.subarray(8, 8 + jsonLen)).toString('utf8')) as {
     rows: number;
     columns: { name: string; type: ColumnType }[];
     text: Record<string, (string | null)[]>;
     notes: unknown;
   };
+  if (!Number.isSafeInteger(header.rows) || header.rows < 0 || !Array.isArray(header.columns)) throw new Error('the frame header is malformed');
   const headLen = 8 + jsonLen;
   let offset = headLen + ((8 - (headLen % 8)) % 8);
   const columns: Column[] = header.columns.map((c) => {
-    if (c.name in header.text) return { ...c, values: header.text[c.name] };
+    if (has(header.text, c.name)) {
+      const values = header.text[c.name];
+      if (!Array.isArray(values) || values.length !== header.rows) throw new Error(`text column ${JSON.stringify(c.name)} does not hold ${header.rows} values`);
+      return { ...c, values };
+    }
     const values = new Float64Array(header.rows);
     new Uint8Array(values.buffer).set(bytes.subarray(offset, offset + header.rows * 8));
     offset += header.rows * 8;
     return { ...c, values };
   });
+  // a short body would otherwise leave the missing values as zeros, numbers that look real
+  if (offset !== bytes.length) {
+    const d = offset - bytes.length;
+    throw new Error(`the frame holds ${Math.abs(d)} bytes ${d > 0 ? 'fewer' : 'more'} than its header describes`);
+  }
   return { frame: { rows: header.rows, columns }, notes: header.notes };
 }

@@ -1,4 +1,5 @@
 import { createHash } from 'node:crypto';
+import { dict } from './dict.js';
 
 /**
  * Canonical JSON: object keys sorted, no whitespace, so equal values always hash equally.
@@ -12,7 +13,7 @@ export function canonicalJson(value: unknown): string {
 function sortKeys(value: unknown): unknown {
   if (Array.isArray(value)) return value.map(sortKeys);
   if (value && typeof value === 'object' && !(value instanceof Date)) {
-    const out: Record<string, unknown> = {};
+    const out = dict<unknown>();
     for (const k of Object.keys(value as Record<string, unknown>).sort()) {
       const v = (value as Record<string, unknown>)[k];
       if (v !== undefined) out[k] = sortKeys(v);

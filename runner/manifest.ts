@@ -24,6 +24,8 @@ export interface Manifest {
     cells: { cell: Record<string, unknown>; crossValidated: unknown; perFold: unknown }[];
     metrics: { holdout: unknown; holdoutInterval90: unknown; crossValidated: unknown; training: unknown; outOfBag: { r2: number | null } };
     skill: Record<string, number | null>;
+    /** Why the model could not be compared (its cross-validated score is undefined); absent when it could. */
+    failed?: string;
     /** What the learned feature steps took from the rows each fit saw. */
     learned: { final: unknown; folds: unknown[] };
     importance: unknown;
@@ -31,6 +33,11 @@ export interface Manifest {
   }[];
   headline: { model: string; metric: string; value: number | null; label: 'holdout' };
   holdoutPredictionsSha256: string;
+  /**
+   * The headline model as written to model.bin, so predict and verify can tell the run's own file
+   * from a truncated, edited or foreign one. Absent in manifests of older runs.
+   */
+  modelFile?: { file: 'model.bin'; sha256: string; bytes: number };
   environment: Environment & { fingerprint: string };
   git: { commit: string; dirty: boolean } | null;
   warnings: Warning[];
@@ -40,7 +47,7 @@ export interface Manifest {
 
 /**
  * The run's reproducibility record. Everything outside `timing` is identical across reruns of the
- * same recipe, data and software.
+ * same recipe, data and software. `modelBin` is the model.bin written beside it.
  */
 export function buildManifest(
   recipe: Recipe,
@@ -49,6 +56,7 @@ export function buildManifest(
   results: Results,
   timing: { started: Date; seconds: number },
   outDir: string,
+  modelBin: Uint8Array,
 ): Manifest {
   const headlineModel = results.models.find((m) => m.name === results.chosenModel)!;
   return {
@@ -78,6 +86,7 @@ export function buildManifest(
         outOfBag: { r2: m.oobR2 },
       },
       skill: m.skill,
+      ...(m.failed ? { failed: m.failed } : {}),
       learned: m.learned,
       importance: m.explain ? { measuredOn: 'holdout', repeats: m.explain.repeats, values: m.explain.importance } : null,
       partialDependence: m.explain ? { measuredOn: 'training', rows: m.explain.pdRows, curves: m.explain.partialDependence } : null,
@@ -89,6 +98,7 @@ export function buildManifest(
       label: 'holdout',
     },
     holdoutPredictionsSha256: sha256(JSON.stringify(results.holdoutRows.predicted)),
+    modelFile: { file: 'model.bin', sha256: sha256(modelBin), bytes: modelBin.length },
     environment: { ...environment(), fingerprint: softwareFingerprint() },
     git: gitState(origin.dir),
     warnings: results.warnings,

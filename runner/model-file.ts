@@ -1,6 +1,13 @@
+import { existsSync, readFileSync } from 'node:fs';
+import { join } from 'node:path';
 import { gunzipSync, gzipSync } from 'node:zlib';
 import type { FitOutput } from '../steps/fit.js';
 import type { Recipe } from './recipe-types.js';
+import { sha256 } from './hash.js';
+import type { Manifest } from './manifest.js';
+import { messages } from './messages.js';
+import { displayOf } from './recipe.js';
+import { parseJson } from './dict.js';
 
 const MAGIC = 'DLM1';
 
@@ -51,6 +58,52 @@ export function readModelFile(data: Uint8Array): ModelFile {
   const raw = gunzipSync(data);
   if (raw.subarray(0, 4).toString('latin1') !== MAGIC) throw new Error('not a dendrolog model file');
   const n = raw.readUInt32LE(4);
-  const header = JSON.parse(raw.subarray(8, 8 + n).toString('utf8')) as Omit<ModelFile, 'bytes'>;
+  if (8 + n > raw.length) throw new Error(`the model header claims ${n} bytes, more than the file holds`);
+  const header = parseJson(raw.subarray(8, 8 + n).toString('utf8')) as Omit<ModelFile, 'bytes'>;
   return { ...header, bytes: new Uint8Array(raw.subarray(8 + n)) };
+}
+
+/** Why a run folder's model.bin cannot be used, as a message naming the file and an exit code. */
+export interface ModelFileProblem {
+  kind: 'missing' | 'unrecorded' | 'unreadable' | 'truncated' | 'changed' | 'undecodable';
+  message: string;
+  exitCode: 1 | 2;
+}
+
+/**
+ * Reads a run folder's model.bin and checks it against the size and SHA-256 its manifest recorded,
+ * so a truncated copy, an edit or another run's file is named instead of being used.
+ *
+ * Example: `const r = readRunModel(folder, readManifest(folder)); if ('problem' in r) throw …`
+ */
+export function readRunModel(outDir: string, manifest: Manifest): { model: ModelFile } | { problem: ModelFileProblem } {
+  const path = join(outDir, 'model.bin');
+  const file = displayOf(path);
+  const problem = (kind: ModelFileProblem['kind'], message: string, exitCode: 1 | 2 = 1) => ({ problem: { kind, message, exitCode } });
+  if (!existsSync(path)) return problem('missing', messages.modelFileMissing(displayOf(outDir)), 2);
+  const recorded = manifest.modelFile;
+  if (!recorded) return problem('unrecorded', messages.modelFileUnrecorded(file));
+  let data: Buffer;
+  try {
+    data = readFileSync(path);
+  } catch (e) {
+    return problem('unreadable', messages.modelFileUndecodable(file, (e as Error).message));
+  }
+  const decoded = decodeModel(data);
+  const actual = sha256(data);
+  if (actual !== recorded.sha256) {
+    // shorter and no longer a whole gzip stream: cut off, rather than some other model
+    if (data.length < recorded.bytes && 'error' in decoded) return problem('truncated', messages.modelFileTruncated(file, data.length, recorded.bytes));
+    return problem('changed', messages.modelFileChanged(file, recorded.sha256, actual));
+  }
+  if ('error' in decoded) return problem('undecodable', messages.modelFileUndecodable(file, decoded.error));
+  return decoded;
+}
+
+function decodeModel(data: Uint8Array): { model: ModelFile } | { error: string } {
+  try {
+    return { model: readModelFile(data) };
+  } catch (e) {
+    return { error: (e as Error).message };
+  }
 }

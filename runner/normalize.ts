@@ -9,11 +9,18 @@ import type {
   SourceFormat,
   SourceSpec,
 } from './recipe-types.js';
+import { dict, dictOf } from './dict.js';
 
 /** Seed used when the recipe gives none; written into the normalized recipe and the manifest. */
 export const DEFAULT_SEED = 1;
 /** Tokens read as missing when a source lists none. */
 export const DEFAULT_MISSING = ['', 'NA'];
+/**
+ * Most categories a one_hot step expands into indicator columns unless the recipe raises it: each
+ * level is a column of the model matrix, so a free-text or identifier column would make a matrix
+ * too wide to fit (and a level seen once teaches a model nothing).
+ */
+export const DEFAULT_MAX_LEVELS = 1000;
 /** Upper bound on grid cells across all models unless the recipe raises it. */
 export const DEFAULT_MAX_CELLS = 200;
 
@@ -62,8 +69,8 @@ export function formatOf(file: string): SourceFormat {
 }
 
 /**
- * A source with every default of its format written out: delimited text gets its delimiter,
- * decimal mark and header flag; NetCDF its variables (the declared columns, until the reader
+ * A source with every default of its format written out: text (csv, tsv, json) gets its encoding
+ * (utf-8), delimited text its delimiter, decimal mark and header flag; NetCDF its variables (the declared columns, until the reader
  * tells coordinates from variables) and an empty select.
  *
  * Example: `normalizeSource({file: 'a.tsv', columns: {x: 'number'}}).delimiter === '\t'`
@@ -75,11 +82,12 @@ export function normalizeSource(s: Raw): SourceSpec {
     file,
     format,
     sha256: (s.sha256 as string | undefined) ?? null,
-    columns: { ...(s.columns as SourceSpec['columns']) },
+    columns: dictOf(s.columns as SourceSpec['columns']),
     missing: ((s.missing as unknown[] | undefined) ?? DEFAULT_MISSING).map(String),
     undeclared: (s.undeclared as SourceSpec['undeclared'] | undefined) ?? 'ignore',
     date_format: (s.date_format as SourceSpec['date_format'] | undefined) ?? 'YYYY-MM-DD',
   };
+  if (format === 'csv' || format === 'tsv' || format === 'json') spec.encoding = (s.encoding as string | undefined) ?? 'utf-8';
   if (format === 'csv' || format === 'tsv') {
     spec.delimiter = (s.delimiter as string | undefined) ?? (format === 'tsv' ? '\t' : ',');
     spec.decimal = (s.decimal as '.' | ',' | undefined) ?? '.';
@@ -87,7 +95,7 @@ export function normalizeSource(s: Raw): SourceSpec {
   }
   if (format === 'netcdf') {
     if (s.variables !== undefined) spec.variables = (s.variables as string[]).map(String);
-    spec.select = { ...((s.select as SourceSpec['select'] | undefined) ?? {}) };
+    spec.select = dictOf(s.select as SourceSpec['select'] | undefined);
   }
   return spec;
 }
@@ -99,11 +107,11 @@ export function normalizeSource(s: Raw): SourceSpec {
  */
 export function normalizeRecipe(raw: Raw): Recipe {
   const groups = (raw.groups as string | undefined) ?? null;
-  const sources: Record<string, SourceSpec> = {};
+  const sources = dict<SourceSpec>();
   for (const [name, s] of Object.entries(raw.sources as Record<string, Raw>)) {
     sources[name] = normalizeSource(s);
   }
-  const models: Record<string, ModelSpec> = {};
+  const models = dict<ModelSpec>();
   for (const [name, m] of Object.entries(raw.models as Record<string, Raw>)) {
     const kind = m.kind as ModelKind;
     const grid: ModelSpec['grid'] = {};
@@ -189,11 +197,16 @@ function normalizeFeature(step: Raw): FeatureStep {
   const r = v as Raw;
   switch (kind) {
     case 'derive':
-      return { kind, columns: { ...(v as Record<string, string>) } };
+      return { kind, columns: dictOf(v as Record<string, string>) };
     case 'impute':
       return { kind, columns: r.columns as string[], with: (r.with as 'mean' | 'median' | undefined) ?? 'median' };
     case 'one_hot':
-      return { kind, column: r.column as string, unseen: (r.unseen as 'error' | 'other' | undefined) ?? 'error' };
+      return {
+        kind,
+        column: r.column as string,
+        unseen: (r.unseen as 'error' | 'other' | undefined) ?? 'error',
+        max_levels: (r.max_levels as number | undefined) ?? DEFAULT_MAX_LEVELS,
+      };
     case 'standardize':
       return { kind, columns: r.columns as string[] };
   }

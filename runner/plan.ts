@@ -8,6 +8,8 @@ import type { RecipeOrigin } from './recipe.js';
 import { displayOf, resolveSourcePath } from './recipe.js';
 import type { Recipe, SourceSpec } from './recipe-types.js';
 import type { StepInstance } from './step-types.js';
+import { expressionLocator } from '../steps/expressions.js';
+import { dict } from './dict.js';
 
 /** Bootstrap resamples behind each holdout interval. */
 export const BOOTSTRAP_RESAMPLES = 1000;
@@ -49,7 +51,7 @@ export function planRecipe(recipe: Recipe, origin: RecipeOrigin): Plan {
     return id;
   };
 
-  const sources: Record<string, string> = {};
+  const sources = dict<string>();
   for (const [name, s] of Object.entries(recipe.sources)) {
     const r = resolveSourcePath(origin, s.file);
     if ('problem' in r) throw new DendrologError(`${origin.doc.where(['sources', name, 'file'])}: ${r.problem}`, 2);
@@ -73,12 +75,14 @@ export function planRecipe(recipe: Recipe, origin: RecipeOrigin): Plan {
   });
   recipe.clean.forEach((c, i) => {
     const { kind, ...params } = c;
-    last = add(`clean[${i}] ${kind}`, kind, params, [last]);
+    const locator = c.kind === 'keep_rows' ? expressionLocator(`clean[${i}] keep_rows`, [[null, origin.doc.where(['clean', i, 'keep_rows'])]]) : {};
+    last = add(`clean[${i}] ${kind}`, kind, params, [last], locator);
     dataSteps.push(last);
   });
   recipe.features.forEach((f, i) => {
     if (f.kind !== 'derive') return;
-    last = add(`features[${i}] derive`, 'derive', { columns: f.columns }, [last]);
+    const positions = Object.keys(f.columns).map((name): [string, string] => [name, origin.doc.where(['features', i, 'derive', name])]);
+    last = add(`features[${i}] derive`, 'derive', { columns: f.columns }, [last], expressionLocator(`features[${i}] derive`, positions));
     dataSteps.push(last);
   });
   const modelTable = add(
@@ -96,7 +100,7 @@ export function planRecipe(recipe: Recipe, origin: RecipeOrigin): Plan {
   // phase by phase across models, so the heavy independent steps (every model's grid cells, then the
   // final fits, then the explanations) sit next to each other and can run side by side
   const names = Object.keys(recipe.models);
-  const cells = Object.fromEntries(
+  const cells = dict(
     names.map((name) => {
       const m = recipe.models[name];
       const time = ev.folds.by === 'time' ? recipe.time : null;
@@ -110,27 +114,27 @@ export function planRecipe(recipe: Recipe, origin: RecipeOrigin): Plan {
       return [name, ids];
     }),
   );
-  const choose = Object.fromEntries(
+  const choose = dict(
     names.map((name) => [
       name,
       add(`choose ${name}`, 'choose', { target: recipe.target, choose_by: ev.choose_by, k: ev.folds.k }, [modelTable, holdout, ...cells[name]]),
     ]),
   );
-  const fit = Object.fromEntries(
+  const fit = dict(
     names.map((name) => {
       const m = recipe.models[name];
       return [name, add(`fit ${name}`, 'fit', { model: name, kind: m.kind, ...common }, [modelTable, holdout, choose[name]])];
     }),
   );
   const scoreParams = { target: recipe.target, groups: recipe.groups, resamples: BOOTSTRAP_RESAMPLES, byGroups: ev.holdout.by === 'groups' };
-  const score = Object.fromEntries(names.map((name) => [name, add(`score ${name}`, 'score', scoreParams, [modelTable, holdout, fit[name]])]));
-  const explain = Object.fromEntries(
+  const score = dict(names.map((name) => [name, add(`score ${name}`, 'score', scoreParams, [modelTable, holdout, fit[name]])]));
+  const explain = dict(
     names.map((name) => [
       name,
       recipe.models[name].kind === 'mean' ? null : add(`explain ${name}`, 'explain', { target: recipe.target, ...EXPLAIN }, [modelTable, holdout, fit[name]]),
     ]),
   );
-  const models: Plan['models'] = Object.fromEntries(
+  const models: Plan['models'] = dict(
     names.map((name) => [name, { cells: cells[name], choose: choose[name], fit: fit[name], score: score[name], explain: explain[name] }]),
   );
   return { steps, sources, dataSteps, modelTable, holdout, folds, models };

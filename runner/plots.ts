@@ -36,11 +36,25 @@ const CONFIG = {
  * it draws, so data values cannot become markup.
  */
 export async function renderSvg(spec: TopLevelSpec): Promise<string> {
-  const compiled = vl.compile({ ...spec, config: CONFIG } as TopLevelSpec).spec;
+  const compiled = vl.compile({ ...(guardTitles(spec) as TopLevelSpec), config: CONFIG } as TopLevelSpec).spec;
   const view = new vega.View(vega.parse(compiled), { renderer: 'none' });
   const svg = await view.toSVG();
   view.finalize();
   return svg;
+}
+
+/**
+ * Vega looks some title texts up in plain objects, so a title that is exactly the name of an
+ * Object.prototype member (a column called "constructor") fails to render. A zero-width space after
+ * such a title keeps it as text and shows the same.
+ */
+function guardTitles(value: unknown, key = ''): unknown {
+  if (typeof value === 'string') return key === 'title' && Reflect.has(Object.prototype, value) ? value + '\u200b' : value;
+  if (Array.isArray(value)) return value.map((v) => guardTitles(v, key));
+  if (value && typeof value === 'object') {
+    return Object.fromEntries(Object.entries(value).map(([k, v]) => [k, guardTitles(v, k === 'text' ? 'title' : k)]));
+  }
+  return value;
 }
 
 async function figure(id: string, title: string, description: string, spec: Record<string, unknown>): Promise<Figure> {

@@ -1,5 +1,6 @@
-import { closeSync, existsSync, openSync, readFileSync, readSync, writeFileSync } from 'node:fs';
+import { closeSync, existsSync, openSync, readFileSync, readSync, statSync } from 'node:fs';
 import { readHeaderLine } from '../steps/readers/csv.js';
+import { StrictTextStream } from '../steps/readers/text-decode.js';
 import { dirname, join, resolve } from 'node:path';
 import { stepRegistry } from '../steps/index.js';
 import { applyDesign } from '../steps/design.js';
@@ -8,14 +9,18 @@ import type { Column, Frame } from './frame.js';
 import { column, isMissing } from './frame.js';
 import { sha256 } from './hash.js';
 import { DendrologError, messages } from './messages.js';
-import { readModelFile } from './model-file.js';
+import { readRunModel } from './model-file.js';
 import { sourceParams } from './plan.js';
 import { displayOf, referencedColumns, resolveSourcePath } from './recipe.js';
 import type { CleanStep, Recipe } from './recipe-types.js';
 import { generator, seedString } from './rng.js';
 import { readManifest } from './run-folder.js';
+import { checkPredictionsTarget, replaceFile } from './predictions-file.js';
 import type { FrameOutput, StepContext } from './step-types.js';
+import { expressionLocator } from '../steps/expressions.js';
 import { WarningLog } from './warnings.js';
+import { dict, has } from './dict.js';
+import { recipeFromManifest } from './stored-recipe.js';
 
 /** Hidden column that follows each input row through cleaning, so every row can be accounted for. */
 const ROW = '__dendrolog_row';
@@ -41,13 +46,20 @@ export interface PredictionSummary {
 export async function predictRun(folder: string, dataFile: string, outFile: string): Promise<PredictionSummary> {
   const outDir = resolve(folder);
   const manifest = readManifest(outDir);
-  const modelPath = join(outDir, 'model.bin');
-  if (!existsSync(modelPath)) throw new DendrologError(messages.modelFileMissing(displayOf(outDir)), 2);
-  const model = readModelFile(readFileSync(modelPath));
-  const recipe = manifest.recipe.normalized as Recipe;
+  // only the model this run wrote: a truncated, edited or foreign model.bin is refused by name
+  const loaded = readRunModel(outDir, manifest);
+  if ('problem' in loaded) throw new DendrologError(loaded.problem.message, loaded.problem.exitCode);
+  const { model } = loaded;
+  const recipe = recipeFromManifest(manifest, displayOf(join(outDir, 'manifest.json')));
   const recipeDir = dirname(resolve(outDir, manifest.recipe.file));
   const dataPath = resolve(dataFile);
   if (!existsSync(dataPath)) throw new DendrologError(messages.dataFileMissing(dataFile), 2);
+  if (!statSync(dataPath).isFile()) throw new DendrologError(messages.dataFileNotAFile(dataFile), 2);
+  checkPredictionsTarget(outFile, {
+    folder: outDir,
+    data: dataPath,
+    runInputs: [resolve(outDir, manifest.recipe.file), ...Object.values(recipe.sources).map((s) => resolve(recipeDir, s.file))],
+  });
 
   const mainName = Object.keys(recipe.sources)[0];
   const main = recipe.sources[mainName];
@@ -67,14 +79,14 @@ export async function predictRun(folder: string, dataFile: string, outFile: stri
   // only delimited text has a header to look at first; other formats must carry every declared column
   const header =
     (main.format === 'csv' || main.format === 'tsv') && main.header !== false
-      ? readHeader(dataPath, main.delimiter ?? (main.format === 'tsv' ? '\t' : ','))
+      ? readHeader(dataPath, main.delimiter ?? (main.format === 'tsv' ? '\t' : ','), main.encoding ?? 'utf-8')
       : Object.keys(main.columns);
-  const absentTarget = [...targetInputs].filter((c) => c in main.columns && !header.includes(c));
+  const absentTarget = [...targetInputs].filter((c) => has(main.columns, c) && !header.includes(c));
   // a declared column nothing in the recipe uses may be absent too; it is filled as missing
   const used = usedColumns(recipe);
   const absentUnused = Object.keys(main.columns).filter((c) => !used.has(c) && !targetInputs.has(c) && !header.includes(c));
   const absent = [...absentTarget, ...absentUnused];
-  const spec = { ...main, columns: Object.fromEntries(Object.entries(main.columns).filter(([c]) => !absent.includes(c))) };
+  const spec = { ...main, columns: dict(Object.entries(main.columns).filter(([c]) => !absent.includes(c))) };
   const read = (await stepRegistry.source.run([], sourceParams(spec, sha256(readFileSync(dataPath))) as never, ctx({ path: dataPath, display: displayOf(dataPath) }))) as FrameOutput;
   const input = read.frame;
   for (const c of absent) {
@@ -99,6 +111,8 @@ export async function predictRun(folder: string, dataFile: string, outFile: stri
     frame = joined.frame;
   }
   const skippedSteps: string[] = [];
+  // the run's recipe as kept in its manifest has no positions; expression messages name the file
+  const recipeWhere = displayOf(resolve(outDir, manifest.recipe.file));
   const targetAbsent = absentTarget.length > 0;
   for (const [i, step] of recipe.clean.entries()) {
     const adapted = targetAbsent ? withoutTarget(step, targetInputs) : step;
@@ -107,23 +121,25 @@ export async function predictRun(folder: string, dataFile: string, outFile: stri
       continue;
     }
     const { kind, ...params } = adapted;
-    const out = (await stepRegistry[kind].run([{ frame, notes: read.notes }], params as never, ctx({}))) as FrameOutput;
+    const locator = kind === 'keep_rows' ? expressionLocator(`clean[${i}] keep_rows`, [[null, recipeWhere]]) : {};
+    const out = (await stepRegistry[kind].run([{ frame, notes: read.notes }], params as never, ctx(locator))) as FrameOutput;
     const before = frame;
     markGone(before, out.frame, (k) => `removed by clean[${i}] ${kind}: ${rowReason(adapted, before, k)}`);
     frame = out.frame;
   }
-  for (const f of recipe.features) {
+  for (const [i, f] of recipe.features.entries()) {
     if (f.kind !== 'derive') continue;
-    const columns = Object.fromEntries(Object.entries(f.columns).filter(([name]) => !(targetAbsent && name === recipe.target)));
+    const columns = dict(Object.entries(f.columns).filter(([name]) => !(targetAbsent && name === recipe.target)));
     if (Object.keys(columns).length === 0) continue;
-    frame = ((await stepRegistry.derive.run([{ frame, notes: read.notes }], { columns } as never, ctx({}))) as FrameOutput).frame;
+    const locator = expressionLocator(`features[${i}] derive`, Object.keys(columns).map((name): [string, string] => [name, recipeWhere]));
+    frame = ((await stepRegistry.derive.run([{ frame, notes: read.notes }], { columns } as never, ctx(locator))) as FrameOutput).frame;
   }
 
   // rows with a missing predictor that no impute step fills cannot be predicted; say so per row
   const rowsOf = column(frame, ROW).values as Float64Array;
   const usable: number[] = [];
   for (let k = 0; k < frame.rows; k++) {
-    const missing = model.design.predictors.filter((p) => isMissing(column(frame, p), k) && !(p in model.design.impute));
+    const missing = model.design.predictors.filter((p) => isMissing(column(frame, p), k) && !has(model.design.impute, p));
     if (missing.length) reason[rowsOf[k]] = `missing ${missing.join(', ')}`;
     else usable.push(k);
   }
@@ -151,7 +167,7 @@ export async function predictRun(folder: string, dataFile: string, outFile: stri
     fields.push(String(r + 1), predictions[r] === null ? '' : String(predictions[r]), outside[r], predictions[r] === null ? (reason[r] ?? 'not predicted') : '');
     lines.push(fields.map(csvField).join(','));
   }
-  writeFileSync(outFile, lines.join('\n') + '\n');
+  replaceFile(outFile, lines.join('\n') + '\n');
   return {
     rows: input.rows,
     predicted: predictions.filter((p) => p !== null).length,
@@ -210,13 +226,16 @@ function withoutTarget(step: CleanStep, target: Set<string>): CleanStep | null {
   }
 }
 
-/** The header row of delimited text, read from the first 64 KiB only (the CSV reader's own parser). */
-function readHeader(path: string, delimiter: string): string[] {
+/**
+ * The header row of delimited text, read from the first 64 KiB only (the CSV reader's own parser),
+ * decoded as the source step decodes the whole file (a character cut at 64 KiB waits, unreported).
+ */
+function readHeader(path: string, delimiter: string, encoding: string): string[] {
   const fd = openSync(path, 'r');
   try {
     const head = Buffer.alloc(65536);
     const n = readSync(fd, head, 0, head.length, 0);
-    const text = head.subarray(0, n).toString('utf8');
+    const text = new StrictTextStream(encoding, displayOf(path)).push(head.subarray(0, n));
     const end = text.search(/\r?\n/);
     return readHeaderLine(end < 0 ? text : text.slice(0, end), delimiter, displayOf(path));
   } finally {

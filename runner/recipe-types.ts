@@ -21,6 +21,8 @@ export interface SourceSpec {
   undeclared: 'ignore' | 'error' | 'text';
   /** Layout of dates written as text. */
   date_format: DateFormat;
+  /** Text formats (csv, tsv, json) only: the encoding label the file is decoded with, strictly. */
+  encoding?: string;
   /** Delimited text (csv, tsv) only. */
   delimiter?: string;
   decimal?: '.' | ',';
@@ -46,7 +48,7 @@ export type CleanStep =
 export type FeatureStep =
   | { kind: 'derive'; columns: Record<string, string> }
   | { kind: 'impute'; columns: string[]; with: 'mean' | 'median' }
-  | { kind: 'one_hot'; column: string; unseen: 'error' | 'other' }
+  | { kind: 'one_hot'; column: string; unseen: 'error' | 'other'; max_levels: number }
   | { kind: 'standardize'; columns: string[] };
 
 export type ModelKind = 'random_forest' | 'decision_tree' | 'linear' | 'mean';

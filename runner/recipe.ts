@@ -1,5 +1,4 @@
-import * as aq from 'arquero';
-import { existsSync, readFileSync, realpathSync, statSync } from 'node:fs';
+import { existsSync, lstatSync, readFileSync, realpathSync, statSync } from 'node:fs';
 import { dirname, isAbsolute, relative, resolve } from 'node:path';
 import { sha256 } from './hash.js';
 import { DendrologError, messages, RecipeErrors } from './messages.js';
@@ -8,7 +7,14 @@ import type { ColumnType, Recipe, SourceSpec } from './recipe-types.js';
 import { closest } from './suggest.js';
 import { validateRecipe } from './validate.js';
 import { parseValue } from '../steps/readers/values.js';
+import { COMMON_ENCODINGS, decodeStrict, encodingName } from '../steps/readers/text-decode.js';
+import { expressionProblem } from '../steps/expressions.js';
 import { readYaml, type PositionedDocument } from './yaml-read.js';
+import { has } from './dict.js';
+import { ARQUERO_UNSAFE_NAMES } from './frame.js';
+
+/** A recipe describes an analysis; anything larger is data in the wrong place, or an attack on the parser. */
+export const MAX_RECIPE_BYTES = 1 << 20;
 
 /** Where a recipe came from: its file, folder, bytes' hash and a locator for its positions. */
 export interface RecipeOrigin {
@@ -38,17 +44,38 @@ export function loadRecipe(path: string, opts: { checkFiles?: boolean } = {}): L
   const abs = resolve(path);
   if (!existsSync(abs) || !statSync(abs).isFile()) throw new DendrologError(messages.recipeFileMissing(path), 2);
   const displayPath = displayOf(abs);
-  const text = readFileSync(abs, 'utf8');
+  const size = statSync(abs).size;
+  if (size > MAX_RECIPE_BYTES) throw new DendrologError(messages.recipeTooLarge(displayPath, size, MAX_RECIPE_BYTES), 2);
+  const bytes = readFileSync(abs);
+  // strict, so a stray Latin-1 byte is named rather than turned into U+FFFD; a UTF-8 byte order mark
+  // (as some Windows editors write) is accepted and dropped by the decoder, and still in the hash
+  const text = decodeStrict(bytes, 'utf-8', displayPath, (at) => new DendrologError(messages.recipeNotUtf8(displayPath, at.line, at.offset, at.byte), 2));
   const { doc, problems } = readYaml(text, displayPath);
   if (!doc) throw new RecipeErrors(problems);
   const schemaProblems = validateRecipe(doc);
   if (schemaProblems.length > 0) throw new RecipeErrors(schemaProblems);
   const recipe = normalizeRecipe(doc.value as Record<string, unknown>);
-  const origin: RecipeOrigin = { path: abs, dir: dirname(abs), displayPath, sha256: sha256(text), text, doc };
+  const origin: RecipeOrigin = { path: abs, dir: dirname(abs), displayPath, sha256: sha256(bytes), text, doc };
   const meaning = checkMeaning(recipe, doc);
   if (opts.checkFiles) meaning.push(...checkFiles(recipe, origin));
+  meaning.push(...checkReportFolder(recipe.report.folder, origin, opts.checkFiles === true));
   if (meaning.length > 0) throw new RecipeErrors(meaning);
   return { recipe, origin };
+}
+
+/**
+ * Reads, validates, normalizes and checks recipe text that is not a file of its own (the recipe a
+ * run record keeps); throws RecipeErrors with positions in that text.
+ */
+export function recipeFromText(text: string, displayPath: string): { recipe: Recipe; doc: PositionedDocument } {
+  const { doc, problems } = readYaml(text, displayPath);
+  if (!doc) throw new RecipeErrors(problems);
+  const schemaProblems = validateRecipe(doc);
+  if (schemaProblems.length > 0) throw new RecipeErrors(schemaProblems);
+  const recipe = normalizeRecipe(doc.value as Record<string, unknown>);
+  const meaning = checkMeaning(recipe, doc);
+  if (meaning.length > 0) throw new RecipeErrors(meaning);
+  return { recipe, doc };
 }
 
 /** A path as the user should see it: relative to the working folder when inside it. */
@@ -70,7 +97,42 @@ export function resolveSourcePath(origin: Pick<RecipeOrigin, 'dir'>, file: strin
   if (!inside(abs, origin.dir)) return { problem: messages.sourcePathEscapes(file) };
   if (!existsSync(abs)) return { problem: messages.sourceFileMissing(file, displayOf(abs)) };
   if (!inside(realpathSync(abs), realpathSync(origin.dir))) return { problem: messages.sourcePathEscapes(file) };
+  // a folder (or a device, a pipe) would fail deep in a reader, or block it, instead of here
+  const st = statSync(abs);
+  if (!st.isFile()) return { problem: messages.sourceNotAFile(file, displayOf(abs), st.isDirectory()) };
   return { path: abs };
+}
+
+/**
+ * report.folder must stay inside the recipe's folder, as source paths do, so that a recipe cannot
+ * make a run write elsewhere; --out is the explicit way to do that. With `onDisk`, the part of the
+ * path that exists is also followed through links.
+ */
+function checkReportFolder(folder: string, origin: RecipeOrigin, onDisk: boolean): string[] {
+  const problem = [`${origin.doc.where(['report', 'folder'])}: ${messages.reportFolderEscapes(folder)}`];
+  const within = (p: string, root: string) => {
+    const rel = relative(root, p);
+    return rel === '' || (!rel.startsWith('..') && !isAbsolute(rel));
+  };
+  const abs = resolve(origin.dir, folder);
+  if (isAbsolute(folder) || !within(abs, origin.dir)) return problem;
+  if (!onDisk) return [];
+  // the part that exists decides where the run folder would land; the recipe's folder exists
+  let existing = abs;
+  const present = (p: string) => {
+    try {
+      return lstatSync(p) !== undefined;
+    } catch {
+      return false;
+    }
+  };
+  while (!present(existing)) existing = dirname(existing);
+  try {
+    return within(realpathSync(existing), realpathSync(origin.dir)) ? [] : problem;
+  } catch {
+    // a link to nowhere: where the run would write cannot be told
+    return problem;
+  }
 }
 
 function checkFiles(recipe: Recipe, origin: RecipeOrigin): string[] {
@@ -104,15 +166,19 @@ function checkSource(s: SourceSpec, name: string, doc: PositionedDocument): stri
   const add = (path: (string | number)[], msg: string) => problems.push(`${doc.where(['sources', name, ...path])}: ${msg}`);
   const raw = ((doc.value as Record<string, Record<string, Record<string, unknown>>>).sources?.[name] ?? {}) as Record<string, unknown>;
   const text = s.format === 'csv' || s.format === 'tsv';
-  for (const k of TEXT_OPTIONS) if (k in raw && !text) add([k], messages.sourceOptionNotForFormat(k, s.format, 'csv and tsv'));
-  for (const k of NETCDF_OPTIONS) if (k in raw && s.format !== 'netcdf') add([k], messages.sourceOptionNotForFormat(k, s.format, 'netcdf'));
+  for (const k of TEXT_OPTIONS) if (has(raw, k) && !text) add([k], messages.sourceOptionNotForFormat(k, s.format, 'csv and tsv'));
+  for (const k of NETCDF_OPTIONS) if (has(raw, k) && s.format !== 'netcdf') add([k], messages.sourceOptionNotForFormat(k, s.format, 'netcdf'));
+  if (has(raw, 'encoding')) {
+    if (!text && s.format !== 'json') add(['encoding'], messages.sourceOptionNotForFormat('encoding', s.format, 'csv, tsv and json'));
+    else if (typeof raw.encoding === 'string' && !encodingName(raw.encoding)) add(['encoding'], messages.unknownEncoding(raw.encoding, closest(raw.encoding, COMMON_ENCODINGS)));
+  }
   if (text && s.decimal === ',' && s.delimiter === ',') {
     add(['decimal'], messages.schemaOther(`sources.${name}.decimal`, 'a decimal comma needs another delimiter; set delimiter: ";" (or a tab)'));
   }
   if (s.format === 'netcdf') {
     if (!s.variables) add([], messages.netcdfVariablesNeeded());
     (s.variables ?? []).forEach((v, i) => {
-      if (!(v in s.columns)) add(['variables', i], messages.netcdfVariableNotDeclared(v));
+      if (!has(s.columns, v)) add(['variables', i], messages.netcdfVariableNotDeclared(v));
     });
     for (const [dim, range] of Object.entries(s.select ?? {})) {
       const type = s.columns[dim];
@@ -136,16 +202,6 @@ export function referencedColumns(expr: string): string[] {
   const re = /\bd\.([A-Za-z_$][\w$]*)|\bd\[\s*["']([^"']+)["']\s*\]/g;
   for (let m = re.exec(expr); m; m = re.exec(expr)) out.add(m[1] ?? m[2]);
   return [...out];
-}
-
-/** Compiles an arquero expression without data; returns the compiler's complaint, if any. */
-export function compileProblem(expr: string): string | undefined {
-  try {
-    aq.parse({ x: expr });
-    return undefined;
-  } catch (e) {
-    return (e as Error).message.split('\n')[0];
-  }
 }
 
 /**
@@ -178,7 +234,7 @@ function checkMeaning(recipe: Recipe, doc: PositionedDocument): string[] {
     }
     for (const key of j.on) {
       need(['join', i, 'on'], key, `join[${i}]`);
-      if (!(key in other.columns)) {
+      if (!has(other.columns, key)) {
         const known = Object.keys(other.columns);
         add(['join', i, 'on'], messages.unknownColumn(key, `join[${i}] (source ${j.with})`, known, closest(key, known)));
       }
@@ -206,6 +262,9 @@ function checkMeaning(recipe: Recipe, doc: PositionedDocument): string[] {
         if (step.min === null && step.max === null) {
           add(['clean', i, 'within'], messages.schemaOther(label, 'gives neither min nor max; add at least one'));
         }
+        if (step.min !== null && step.max !== null && step.min > step.max) {
+          add(['clean', i, 'within', 'min'], messages.withinInverted(label, step.min, step.max));
+        }
         break;
       case 'keep_rows':
         checkExpression(['clean', i, 'keep_rows'], step.expr, label);
@@ -219,6 +278,7 @@ function checkMeaning(recipe: Recipe, doc: PositionedDocument): string[] {
     switch (step.kind) {
       case 'derive':
         for (const [name, expr] of Object.entries(step.columns)) {
+          if (ARQUERO_UNSAFE_NAMES.has(name)) add(['features', i, 'derive', name], messages.expressionReservedColumn(name, label));
           checkExpression(['features', i, 'derive', name], expr, label);
           if (cols.has(name)) add(['features', i, 'derive', name], messages.duplicateColumn(name, label));
         }
@@ -276,11 +336,19 @@ function checkMeaning(recipe: Recipe, doc: PositionedDocument): string[] {
   return problems;
 
   function checkExpression(path: (string | number)[], expr: string, label: string) {
-    const problem = compileProblem(expr);
-    if (problem) {
-      add(path, messages.expressionCompile(expr, problem));
+    const problem = expressionProblem(expr);
+    if (problem?.kind === 'compile') {
+      add(path, messages.expressionCompile(expr, problem.detail));
       return;
     }
-    for (const c of referencedColumns(expr)) need(path, c, label);
+    if (problem?.kind === 'whole-table') {
+      const { name, family, start, end } = problem.call;
+      problems.push(`${doc.whereInValue(path, start, end)}: ${messages.expressionWholeTable(expr, name, family)}`);
+    }
+    if (problem?.kind === 'not-repeatable') add(path, messages.expressionNotRepeatable(expr, problem.name));
+    for (const c of referencedColumns(expr)) {
+      if (ARQUERO_UNSAFE_NAMES.has(c)) add(path, messages.expressionReservedColumn(c, label));
+      else need(path, c, label);
+    }
   }
 }

@@ -14,13 +14,17 @@ export function reportView(recipe: Recipe, results: Results, manifest: Manifest,
   const best = results.models.find((m) => m.name === results.chosenModel)!;
   // the grid table shows the choosing metric and R²; the manifest keeps all four
   const gridMetrics = [...new Set([recipe.evaluation.choose_by, 'r2' as const])];
+  // intervals from a handful of holdout groups or rows carry the label wherever they are shown
+  const unreliable = results.holdout.unreliable;
+  const intervalText = (low: number | null, high: number | null) =>
+    low === null ? '' : `${formatNumber(low)} to ${formatNumber(high)}${unreliable ? ', unreliable' : ''}`;
   const metricRow = (label: string, source: string, m: MetricSet, interval?: Results['models'][number]['intervals']) => ({
     label,
     source,
     n: formatCount(m.n),
     values: recipe.evaluation.metrics.map((k) => ({
       value: m[k].value === null ? `undefined (${m[k].reason})` : formatNumber(m[k].value),
-      interval: interval && interval[k].low !== null ? `${formatNumber(interval[k].low)} to ${formatNumber(interval[k].high)}` : '',
+      interval: interval ? intervalText(interval[k].low, interval[k].high) : '',
     })),
   });
   return {
@@ -31,12 +35,13 @@ export function reportView(recipe: Recipe, results: Results, manifest: Manifest,
     headline: {
       model: best.name,
       kind: best.kind,
-      r2: formatNumber(best.holdout.r2.value),
+      r2: best.holdout.r2.value === null ? 'undefined' : formatNumber(best.holdout.r2.value),
       r2Reason: best.holdout.r2.reason ?? '',
-      r2Interval: best.intervals.r2.low === null ? '' : `${formatNumber(best.intervals.r2.low)} to ${formatNumber(best.intervals.r2.high)}`,
+      r2Interval: intervalText(best.intervals.r2.low, best.intervals.r2.high),
+      unreliable: unreliable ?? '',
       rmse: formatNumber(best.holdout.rmse.value),
       holdoutRows: formatCount(results.holdout.test),
-      skill: Object.entries(best.skill).map(([b, s]) => ({ baseline: b, value: formatNumber(s) })),
+      skill: Object.entries(best.skill).map(([b, s]) => ({ baseline: b, value: s === null ? `undefined (${best.skillReasons[b] ?? 'no value'})` : formatNumber(s) })),
       warnings: results.warnings.length,
     },
     sources: results.sources.map((s) => ({
@@ -109,6 +114,7 @@ export function reportView(recipe: Recipe, results: Results, manifest: Manifest,
       name: m.name,
       kind: m.kind,
       isHeadline: m.name === results.chosenModel,
+      failed: m.failed ?? '',
       chosen: m.chosenLabel,
       fixed: Object.entries(m.cells[0].cell)
         .filter(([k]) => !varying.includes(k))
@@ -118,10 +124,11 @@ export function reportView(recipe: Recipe, results: Results, manifest: Manifest,
       cells: m.cells.map((c, i) => ({
         label: cellLabel(c.cell),
         values: varying.map((k) => formatSetting(c.cell[k])),
-        chosen: i === m.chosen,
+        chosen: i === m.chosen && m.failed === null,
+        failed: c.failed ?? '',
         scores: gridMetrics.flatMap((k) => {
           const s = c.perFold[k];
-          return [formatNumber(c.pooled[k].value), s.mean === null ? '—' : `${formatNumber(s.mean)} ± ${formatNumber(s.sd)}`];
+          return [c.pooled[k].value === null ? 'undefined' : formatNumber(c.pooled[k].value), s.mean === null ? '—' : `${formatNumber(s.mean)} ± ${formatNumber(s.sd)}`];
         }),
       })),
       used: Object.entries(m.used).map(([k, v]) => ({ name: k, value: formatSetting(v) })),

@@ -15,6 +15,11 @@ import type { Recipe } from './recipe-types.js';
 import type { FrameOutput, Warning } from './step-types.js';
 import { WarningLog } from './warnings.js';
 import { column } from './frame.js';
+import { dict } from './dict.js';
+import { DendrologError, messages } from './messages.js';
+import { metricReasons, negligibleAgainst } from '../models/metrics.js';
+import { METRIC_WORDS } from '../steps/choose.js';
+import { constantPredictors } from '../steps/cross-validate.js';
 
 export interface SourceResult {
   name: string;
@@ -43,6 +48,10 @@ export interface ModelResult {
   crossValidated: MetricSet;
   /** 1 − MSE(model) / MSE(baseline) on the holdout, per baseline model present. */
   skill: Record<string, number | null>;
+  /** Why a skill score is undefined, per baseline whose skill is null. */
+  skillReasons: Record<string, string>;
+  /** Why the model cannot be compared (its cross-validated score is undefined), or null. */
+  failed: string | null;
   /** Permutation importance (holdout rows) and partial dependence (training rows); none for mean. */
   explain: ExplainOutput | null;
   learned: { final: FitOutput['design']; folds: FitOutput['design'][] };
@@ -52,7 +61,17 @@ export interface ModelResult {
 export interface Results {
   sources: SourceResult[];
   cleaning: { id: string; rowsIn: number; rowsOut: number; detail: string }[];
-  holdout: { by: string; fraction: number; train: number; test: number; trainGroups: number; testGroups: number; cutoff: number | null };
+  holdout: {
+    by: string;
+    fraction: number;
+    train: number;
+    test: number;
+    trainGroups: number;
+    testGroups: number;
+    cutoff: number | null;
+    /** Why the holdout intervals are unreliable (too few groups or rows), or null. */
+    unreliable: string | null;
+  };
   folds: { k: number; by: string; gap: number };
   models: ModelResult[];
   /** The model with the best cross-validated score; its holdout score is the headline. */
@@ -94,17 +113,26 @@ export function gatherResults(recipe: Recipe, plan: Plan, exec: Execution): Resu
   const folds = out(plan.folds) as FoldsOutput;
   const baselines = Object.entries(recipe.models).filter(([, m]) => m.kind === 'mean' || m.kind === 'linear');
   const scores = new Map(Object.entries(plan.models).map(([name, ids]) => [name, out(ids.score) as ScoreOutput]));
-  const mse = (m: MetricSet) => (m.rmse.value === null ? null : m.rmse.value ** 2);
   const models: ModelResult[] = Object.entries(plan.models).map(([name, ids]) => {
     const chosen = out(ids.choose) as ChooseOutput;
     const fitted = out(ids.fit) as FitOutput;
     const score = scores.get(name)!;
-    const skill: Record<string, number | null> = {};
+    const skill = dict<number | null>();
+    const skillReasons = dict<string>();
+    // the skill ratio has the baseline's MSE as its denominator: like R²'s, it means nothing when
+    // that error is rounding noise against the size of the target
+    const size = score.observed.reduce((a, v) => Math.max(a, Math.abs(v)), 0);
     for (const [b] of baselines) {
       if (b === name) continue;
-      const mb = mse(scores.get(b)!.holdout);
-      const mm = mse(score.holdout);
-      skill[b] = mb === null || mm === null || mb === 0 ? null : 1 - mm / mb;
+      const base = scores.get(b)!.holdout;
+      const undefinedBecause =
+        base.rmse.value === null ? metricReasons.partUndefined('baseline', base.rmse.reason ?? '')
+        : score.holdout.rmse.value === null ? metricReasons.partUndefined('model', score.holdout.rmse.reason ?? '')
+        : negligibleAgainst(base.rmse.value, size) ? metricReasons.negligibleBaselineError()
+        : null;
+      // as a ratio of RMSEs, squared: the MSEs of a target near 1e300 would overflow
+      skill[b] = undefinedBecause !== null ? null : 1 - (score.holdout.rmse.value! / base.rmse.value!) ** 2;
+      if (undefinedBecause !== null) skillReasons[b] = undefinedBecause;
     }
     return {
       name,
@@ -120,15 +148,33 @@ export function gatherResults(recipe: Recipe, plan: Plan, exec: Execution): Resu
       training: score.training,
       crossValidated: chosen.cells[chosen.chosen].pooled,
       skill,
+      skillReasons,
+      failed: chosen.failed,
       explain: ids.explain ? (out(ids.explain) as ExplainOutput) : null,
       learned: { final: fitted.design, folds: (out(ids.cells[chosen.chosen]) as CrossValidateOutput).learned },
     };
   });
-  let best = models[0];
-  for (const m of models) if (better(m.crossValidated, best.crossValidated, recipe.evaluation.choose_by)) best = m;
+  // a model whose cross-validated score is undefined is never the headline
+  const comparable = models.filter((m) => m.failed === null);
+  if (comparable.length === 0) {
+    throw new DendrologError(
+      messages.noModelScored(METRIC_WORDS[recipe.evaluation.choose_by], models.map((m) => ({ model: m.name, reason: m.cells[0].failed ?? '' }))),
+      1,
+    );
+  }
+  let best = comparable[0];
+  for (const m of comparable) if (better(m.crossValidated, best.crossValidated, recipe.evaluation.choose_by)) best = m;
   const warnings = new WarningLog();
   for (const w of exec.warnings) warnings.add(w.code, w.message, w.count);
+  const unreliable = holdoutUnreliable(split);
   evaluationWarnings(recipe, models, best, scores.get(best.name)!, warnings);
+  if (unreliable) warnings.add('holdout-unreliable', messages.holdoutUnreliable(unreliable));
+  const modelFrame = (out(plan.modelTable) as FrameOutput).frame;
+  for (const p of constantPredictors(modelFrame, recipe.predictors, split.train)) warnings.add('constant-predictor', messages.predictorConstant(p));
+  for (const m of models) {
+    const collinear = [...new Set([m.used, ...m.cells[m.chosen].used].flatMap((u) => (Array.isArray(u.collinear) ? (u.collinear as string[]) : [])))];
+    if (collinear.length > 0) warnings.add('linear-collinear', messages.linearCollinear(m.name, collinear));
+  }
   const bestScore = scores.get(best.name)!;
   const targetValues = column((out(plan.modelTable) as FrameOutput).frame, recipe.target).values as Float64Array;
   return {
@@ -142,6 +188,7 @@ export function gatherResults(recipe: Recipe, plan: Plan, exec: Execution): Resu
       test: split.test.length,
       trainGroups: split.trainGroups,
       testGroups: split.testGroups,
+      unreliable,
     },
     folds: { k: folds.k, by: folds.by, gap: recipe.evaluation.folds.gap },
     models,
@@ -154,6 +201,22 @@ export function gatherResults(recipe: Recipe, plan: Plan, exec: Execution): Resu
       ...split.test.map((row, k) => ({ row, set: 'holdout' as const, observed: targetValues[row], predicted: bestScore.predictions[k] })),
     ].sort((a, b) => a.row - b.row),
   };
+}
+
+/** Fewer holdout units than this give bootstrap intervals too coarse to trust. */
+export const MIN_HOLDOUT_GROUPS = 5;
+export const MIN_HOLDOUT_ROWS = 20;
+
+/**
+ * What makes the holdout intervals unreliable, or null: a bootstrap over fewer than 5 groups (or
+ * 20 rows) can draw only a handful of distinct resamples, so its percentiles are mostly ties.
+ */
+export function holdoutUnreliable(split: HoldoutOutput): string | null {
+  if (split.by === 'groups' && split.testGroups < MIN_HOLDOUT_GROUPS) {
+    return `${split.testGroups} holdout group${split.testGroups === 1 ? '' : 's'} (fewer than ${MIN_HOLDOUT_GROUPS})`;
+  }
+  if (split.test.length < MIN_HOLDOUT_ROWS) return `${split.test.length} holdout rows (fewer than ${MIN_HOLDOUT_ROWS})`;
+  return null;
 }
 
 function evaluationWarnings(recipe: Recipe, models: ModelResult[], best: ModelResult, score: ScoreOutput, log: WarningLog) {

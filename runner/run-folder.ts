@@ -1,8 +1,9 @@
-import { existsSync, readFileSync } from 'node:fs';
-import { join } from 'node:path';
+import { existsSync, lstatSync, readdirSync, readFileSync } from 'node:fs';
+import { dirname, join } from 'node:path';
 import { DendrologError, messages } from './messages.js';
 import { manifestProblems, type Manifest } from './manifest.js';
 import { displayOf } from './recipe.js';
+import { parseJson } from './dict.js';
 
 /**
  * Reads and checks a run folder's manifest.json; stops with a clear message when it is missing or
@@ -13,11 +14,96 @@ export function readManifest(folder: string): Manifest {
   if (!existsSync(path)) throw new DendrologError(messages.notARunFolder(displayOf(folder)), 2);
   let manifest: unknown;
   try {
-    manifest = JSON.parse(readFileSync(path, 'utf8'));
+    manifest = parseJson(readFileSync(path, 'utf8'));
   } catch (e) {
     throw new DendrologError(messages.manifestUnreadable(displayOf(path), (e as Error).message), 2);
   }
   const problems = manifestProblems(manifest);
   if (problems.length > 0) throw new DendrologError(messages.manifestUnreadable(displayOf(path), problems.slice(0, 3).join('; ')), 2);
   return manifest as Manifest;
+}
+
+/** The file that marks a folder as a run folder dendrolog wrote, so only such folders are ever replaced. */
+export const RUN_MARKER = '.dendrolog-run';
+
+/** Version of the marker's JSON; a marker of another version is not trusted. */
+const MARKER_FORMAT = 1;
+
+/**
+ * Files that run folders of dendrolog versions before the marker held. A folder without a marker is
+ * taken as such an old run folder only when it holds a dendrolog manifest and nothing but these.
+ */
+const UNMARKED_RUN_FILES = new Set(['manifest.json', 'report.html', 'summary.md', 'model.bin', 'predictions.csv']);
+
+/**
+ * The marker's text: which files dendrolog put in the folder, so that replacing the folder later
+ * can tell them from files someone added.
+ *
+ * Example: `runMarker(['report.html'])` → `{"dendrolog_run_folder": 1, "files": ["report.html"]}`
+ */
+export function runMarker(files: string[]): string {
+  return JSON.stringify({ dendrolog_run_folder: MARKER_FORMAT, files: [...files].sort() }, null, 2) + '\n';
+}
+
+/** The files a folder's marker lists, or null when the folder has no readable marker of this format. */
+function markedFiles(folder: string): Set<string> | null {
+  try {
+    // a link could make any folder look marked
+    if (!lstatSync(join(folder, RUN_MARKER)).isFile()) return null;
+    const marker = JSON.parse(readFileSync(join(folder, RUN_MARKER), 'utf8')) as unknown;
+    if (typeof marker !== 'object' || marker === null) return null;
+    const { dendrolog_run_folder: format, files } = marker as Record<string, unknown>;
+    if (format !== MARKER_FORMAT || !Array.isArray(files) || !files.every((f) => typeof f === 'string')) return null;
+    return new Set(files as string[]);
+  } catch {
+    return null;
+  }
+}
+
+/** Whether manifest.json in folder is a dendrolog manifest (of any version that had `manifest: 1`). */
+function holdsDendrologManifest(folder: string): boolean {
+  try {
+    const m = JSON.parse(readFileSync(join(folder, 'manifest.json'), 'utf8')) as Record<string, unknown>;
+    return m.manifest === 1 && typeof m.recipe === 'object' && m.recipe !== null && 'sha256' in m.recipe;
+  } catch {
+    return false;
+  }
+}
+
+/**
+ * Why the folder at path may not be replaced by a run folder, or null when it may: it is missing,
+ * an empty folder, a folder whose marker lists every file in it, or an old run folder that holds a
+ * dendrolog manifest and only the files runs wrote. Links are never followed or replaced.
+ *
+ * Example: `replaceProblem('recipes/lake/data')` → a message naming the folder
+ */
+export function replaceProblem(path: string): string | null {
+  let st;
+  try {
+    st = lstatSync(path);
+  } catch (e) {
+    if ((e as NodeJS.ErrnoException).code !== 'ENOTDIR') return null;
+    // something on the way is a file, so the run folder could never be made: name it
+    let up = dirname(path);
+    for (;;) {
+      try {
+        lstatSync(up);
+        return messages.outputNotAFolder(displayOf(up));
+      } catch {
+        if (dirname(up) === up) return messages.outputNotAFolder(displayOf(path));
+        up = dirname(up);
+      }
+    }
+  }
+  if (!st.isDirectory()) return messages.outputNotAFolder(displayOf(path));
+  const entries = readdirSync(path);
+  if (entries.length === 0) return null;
+  const plainFile = (name: string) => lstatSync(join(path, name)).isFile();
+  const marked = markedFiles(path);
+  if (marked) {
+    const other = entries.filter((e) => e !== RUN_MARKER && !(marked.has(e) && plainFile(e))).sort();
+    return other.length ? messages.outputFolderHasOtherFiles(displayOf(path), other) : null;
+  }
+  const oldRunFolder = entries.every((e) => UNMARKED_RUN_FILES.has(e) && plainFile(e)) && holdsDendrologManifest(path);
+  return oldRunFolder ? null : messages.outputFolderNotDendrologs(displayOf(path));
 }

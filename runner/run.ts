@@ -2,7 +2,7 @@ import { resolve } from 'node:path';
 import { Cache } from './cache.js';
 import { localExecutor, type Execution } from './execute.js';
 import { buildManifest, manifestProblems, type Manifest } from './manifest.js';
-import { writeFolderAtomically } from './output.js';
+import { prepareRunFolder, writeFolderAtomically } from './output.js';
 import { planRecipe, type Plan } from './plan.js';
 import type { Progress } from './progress.js';
 import { loadRecipe, type RecipeOrigin } from './recipe.js';
@@ -12,6 +12,7 @@ import { reportView } from './report-view.js';
 import { gatherResults, type Results } from './results.js';
 import { buildFigures } from './plots.js';
 import { writeModelFile } from './model-file.js';
+import { shortenTexts } from './shorten.js';
 
 export interface RunOptions {
   /** Output folder; default `<recipe folder>/<report.folder>/<recipe name>`. */
@@ -54,18 +55,18 @@ export async function runRecipe(recipePath: string, opts: RunOptions): Promise<R
   const t0 = performance.now();
   // 1–3: read, validate and normalize in one place; nothing later sees raw YAML
   const { recipe, origin } = loadRecipe(recipePath, { checkFiles: true });
+  const outDir = resolve(opts.out ?? resolve(origin.dir, recipe.report.folder, recipe.name));
+  // a folder that may not be replaced is refused before the work, not after it
+  prepareRunFolder(outDir);
   // 4–6: plan, execute, gather
   const cache = opts.noCache ? null : new Cache(resolve(opts.cache ?? DEFAULT_CACHE));
   const { execution, results } = await executeRecipe(recipe, origin, { cache, workers: opts.workers ?? 1, progress: opts.progress });
   // 7: render and write
-  const outDir = resolve(opts.out ?? resolve(origin.dir, recipe.report.folder, recipe.name));
-  const manifest = buildManifest(
-    recipe,
-    origin,
-    execution,
-    results,
-    { started, seconds: (performance.now() - t0) / 1000 },
-    outDir,
+  const modelBin = writeModelFile(results.headlineFit, recipe);
+  // texts from the data are shortened in the record; the recipe stays whole, since verify reruns it
+  const manifest = shortenTexts(
+    buildManifest(recipe, origin, execution, results, { started, seconds: (performance.now() - t0) / 1000 }, outDir, modelBin),
+    new Set(['recipe', 'environment']),
   );
   const problems = manifestProblems(manifest);
   if (problems.length > 0) throw new Error(`the manifest does not match schemas/manifest.v1.json: ${problems.join('; ')}`);
@@ -74,7 +75,7 @@ export async function runRecipe(recipePath: string, opts: RunOptions): Promise<R
     'report.html': renderReport(view),
     'summary.md': renderSummary(view),
     'manifest.json': JSON.stringify(manifest, null, 2) + '\n',
-    'model.bin': writeModelFile(results.headlineFit, recipe),
+    'model.bin': modelBin,
     'predictions.csv': predictionsCsv(results),
   });
   return { outDir, manifest, results, stepsOnThreads: execution.onThreads };

@@ -24,9 +24,19 @@ function validator(): ReturnType<Ajv['compile']> {
  */
 export function validateRecipe(doc: PositionedDocument): string[] {
   const validate = validator();
-  if (validate(doc.value)) return [];
+  // YAML reads .inf, .nan and literals beyond ±1.8e308 (1e309) as non-finite numbers; the schema
+  // refuses them too, but would call Infinity "null" (its JSON form), so they are named here first
+  const nonFinite = nonFiniteNumbers(doc.value);
+  const nonFiniteProblems = nonFinite.map((f) => `${doc.where(f.path)}: ${messages.recipeNumberNotFinite(describePath(f.path), f.value)}`);
+  if (validate(doc.value)) return nonFiniteProblems;
+  const nonFinitePointers = nonFinite.map((f) => '/' + f.path.map((s) => String(s).replace(/~/g, '~0').replace(/\//g, '~1')).join('/'));
+  // a schema error at a non-finite value, or about the value or list holding it, says nothing more
+  const aboutNonFinite = (e: ErrorObject) =>
+    e.keyword !== 'additionalProperties' &&
+    e.keyword !== 'required' &&
+    nonFinitePointers.some((p) => p === e.instancePath || p.startsWith(e.instancePath + '/'));
   // propertyNames failures arrive twice: as a pattern error naming the key, and as this wrapper
-  const errors = (validate.errors ?? []).filter((e) => e.keyword !== 'if' && e.keyword !== 'propertyNames');
+  const errors = (validate.errors ?? []).filter((e) => e.keyword !== 'if' && e.keyword !== 'propertyNames' && !aboutNonFinite(e));
   const paths = errors.map((e) => e.instancePath);
   // Branch errors of anyOf at a path are noise when a deeper path explains the failure.
   const hasDeeper = (p: string): boolean => paths.some((q) => q.startsWith(p + '/'));
@@ -64,8 +74,7 @@ export function validateRecipe(doc: PositionedDocument): string[] {
     for (const e of list) out.push(describeError(e, path, name, doc));
   }
   const seen = new Set<string>();
-  return out
-    .map((o) => `${o.pos}: ${o.msg}`)
+  return [...nonFiniteProblems, ...out.map((o) => `${o.pos}: ${o.msg}`)]
     .filter((s) => (seen.has(s) ? false : (seen.add(s), true)))
     .sort(byPosition);
 }
@@ -134,6 +143,19 @@ function describeError(e: ErrorObject, path: (string | number)[], name: string, 
   }
 }
 
+
+/** Every number in a parsed document that is not finite, with its path. */
+function nonFiniteNumbers(root: unknown): { path: (string | number)[]; value: number }[] {
+  const found: { path: (string | number)[]; value: number }[] = [];
+  const walk = (v: unknown, path: (string | number)[]) => {
+    if (typeof v === 'number') {
+      if (!Number.isFinite(v)) found.push({ path, value: v });
+    } else if (Array.isArray(v)) v.forEach((x, i) => walk(x, [...path, i]));
+    else if (v !== null && typeof v === 'object') for (const [k, x] of Object.entries(v)) walk(x, [...path, k]);
+  };
+  walk(root, []);
+  return found;
+}
 
 function expectedOf(list: ErrorObject[]): string {
   const parts: string[] = [];

@@ -5,12 +5,15 @@ import { Cache } from './cache.js';
 import { environment, softwareFingerprint } from './environment.js';
 import { sha256 } from './hash.js';
 import { buildManifest } from './manifest.js';
+import { readRunModel, writeModelFile } from './model-file.js';
 import { DendrologError, messages } from './messages.js';
 import type { Progress } from './progress.js';
 import { displayOf, type RecipeOrigin } from './recipe.js';
 import type { Recipe } from './recipe-types.js';
 import { readManifest } from './run-folder.js';
 import { executeRecipe } from './run.js';
+import { dict } from './dict.js';
+import { recipeFromManifest } from './stored-recipe.js';
 
 export interface Verification {
   reproduced: boolean;
@@ -31,9 +34,14 @@ export async function verifyRun(folder: string, opts: { workers: number; progres
   const recipePath = resolve(outDir, manifest.recipe.file);
   const recipeDir = dirname(recipePath);
   const causes: string[] = [];
+  // the folder's own model.bin must be the file the run wrote, whatever the rerun gives
+  const modelCheck = readRunModel(outDir, manifest);
+  const modelProblem = 'problem' in modelCheck ? modelCheck.problem : null;
+  const modelBroken = modelProblem && modelProblem.kind !== 'unrecorded' ? modelProblem.message : null;
 
   if (!existsSync(recipePath)) throw new DendrologError(messages.recipeOfRunMissing(displayOf(recipePath)), 1);
-  const recipeSha = sha256(readFileSync(recipePath, 'utf8'));
+  // the file's bytes, as the manifest records them (decoded text would hide a changed byte order mark or a stray byte)
+  const recipeSha = sha256(readFileSync(recipePath));
   if (recipeSha !== manifest.recipe.sha256) {
     causes.push(`the recipe changed since the run: ${displayOf(recipePath)} had SHA-256 ${manifest.recipe.sha256.slice(0, 12)}…, now ${recipeSha.slice(0, 12)}…; the run's own recipe (kept in the manifest) was executed below`);
   }
@@ -63,10 +71,10 @@ export async function verifyRun(folder: string, opts: { workers: number; progres
   if (envChanges.length) causes.push(`software changed since the run: ${envChanges.join(', ')}`);
 
   // a pinned hash would stop the rerun at a changed file; the change is reported above instead
-  const kept = manifest.recipe.normalized as unknown as Recipe;
+  const kept = recipeFromManifest(manifest, displayOf(join(outDir, 'manifest.json')));
   const recipe: Recipe = {
     ...kept,
-    sources: Object.fromEntries(Object.entries(kept.sources).map(([name, s]) => [name, { ...s, sha256: null }])),
+    sources: dict(Object.entries(kept.sources).map(([name, s]) => [name, { ...s, sha256: null }])),
   };
   const display = displayOf(recipePath);
   const origin: RecipeOrigin = {
@@ -75,13 +83,13 @@ export async function verifyRun(folder: string, opts: { workers: number; progres
     displayPath: display,
     sha256: manifest.recipe.sha256,
     text: '',
-    doc: { displayPath: display, value: recipe, where: () => `${display} (as kept in the manifest)`, whereKey: () => display },
+    doc: { displayPath: display, value: recipe, where: () => `${display} (as kept in the manifest)`, whereKey: () => display, whereInValue: () => display },
   };
   const cacheDir = mkdtempSync(join(tmpdir(), 'dendrolog-verify-'));
   let rerun;
   try {
     const { execution, results } = await executeRecipe(recipe, origin, { cache: new Cache(cacheDir), workers: opts.workers, progress: opts.progress });
-    rerun = buildManifest(recipe, origin, execution, results, { started: new Date(), seconds: 0 }, outDir);
+    rerun = buildManifest(recipe, origin, execution, results, { started: new Date(), seconds: 0 }, outDir, writeModelFile(results.headlineFit, recipe));
   } finally {
     rmSync(cacheDir, { recursive: true, force: true });
   }
@@ -114,14 +122,19 @@ export async function verifyRun(folder: string, opts: { workers: number; progres
     if (JSON.stringify(r.metrics) !== JSON.stringify(m.metrics)) metricDiffs.push(`model ${m.name}: metrics differ`);
   }
   if (rerun.holdoutPredictionsSha256 !== manifest.holdoutPredictionsSha256) metricDiffs.push('the holdout predictions differ');
+  if (manifest.modelFile && rerun.modelFile?.sha256 !== manifest.modelFile.sha256) metricDiffs.push('the headline model the rerun writes to model.bin differs from the recorded one');
 
-  const reproduced = !firstDiff && metricDiffs.length === 0 && recipeSha === manifest.recipe.sha256;
+  const reproduced = !firstDiff && metricDiffs.length === 0 && !modelBroken && recipeSha === manifest.recipe.sha256;
   const where = relative(process.cwd(), outDir) || '.';
   if (reproduced) {
-    lines.push(`reproduced: ${where} — all ${manifest.steps.length} step outputs, the metrics of ${manifest.models.length} models and the holdout predictions match the manifest`);
+    lines.push(
+      `reproduced: ${where} — all ${manifest.steps.length} step outputs, the metrics of ${manifest.models.length} models, the holdout predictions${manifest.modelFile ? ' and model.bin' : ''} match the manifest`,
+    );
+    if (modelProblem) lines.push(`note: ${modelProblem.message}`);
     if (envChanges.length) lines.push(`note: ${causes[causes.length - 1]}`);
   } else {
     lines.push(`not reproduced: ${where}`);
+    if (modelBroken) lines.push(`model file: ${modelBroken}`);
     if (firstDiff) lines.push(`first difference: ${firstDiff}`);
     else lines.push(`every step output matches${metricDiffs.length ? ', but ' + metricDiffs.join('; ') : ''}`);
     for (const d of firstDiff ? metricDiffs : []) lines.push(`also: ${d}`);

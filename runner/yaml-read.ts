@@ -1,4 +1,4 @@
-import { isMap, isPair, isScalar, LineCounter, parseDocument, type Document, type Node } from 'yaml';
+import { isMap, isPair, isScalar, LineCounter, parseDocument, visit, type Document, type Node } from 'yaml';
 import { messages } from './messages.js';
 
 /** A YAML document read with its positions, so later errors can point at file:line:column. */
@@ -10,6 +10,12 @@ export interface PositionedDocument {
   where(path: (string | number)[]): string;
   /** `file:line:column` of the key at the end of a path (for unknown keys). */
   whereKey(path: (string | number)[]): string;
+  /**
+   * `file:line:column` of characters start..end of the string value at a path (a call inside an
+   * expression); the value's own position when that piece cannot be found verbatim in the file
+   * (escapes or folded lines inside it).
+   */
+  whereInValue(path: (string | number)[], start: number, end: number): string;
 }
 
 export interface YamlProblem {
@@ -31,7 +37,9 @@ export function readYaml(text: string, displayPath: string): { doc?: PositionedD
   const doc = parseDocument(text, {
     version: '1.2',
     schema: 'core',
-    uniqueKeys: true,
+    // the library compares each key with every earlier one (quadratic: 160,000 keys never finish);
+    // duplicateKeys below does the same check with one Set per mapping
+    uniqueKeys: false,
     prettyErrors: false,
     lineCounter,
   });
@@ -39,15 +47,13 @@ export function readYaml(text: string, displayPath: string): { doc?: PositionedD
     const p = lineCounter.linePos(offset);
     return `${displayPath}:${p.line}:${p.col}`;
   };
-  if (doc.errors.length > 0) {
-    const problems = doc.errors.map((e) => {
-      const offset = e.pos[0];
-      if (e.code === 'DUPLICATE_KEY') {
-        return `${at(offset)}: ${messages.yamlDuplicateKey(keyTextAt(text, offset))}`;
-      }
-      return `${at(offset)}: ${messages.yamlSyntax(firstLine(e.message))}`;
-    });
-    return { problems };
+  const found = [
+    ...doc.errors.map((e) => ({ offset: e.pos[0], message: messages.yamlSyntax(firstLine(e.message)) })),
+    ...duplicateKeys(doc, text),
+  ];
+  if (found.length > 0) {
+    found.sort((a, b) => a.offset - b.offset);
+    return { problems: found.map((p) => `${at(p.offset)}: ${p.message}`) };
   }
   let value: unknown;
   try {
@@ -68,7 +74,20 @@ export function readYaml(text: string, displayPath: string): { doc?: PositionedD
     }
     return where(path);
   };
-  return { doc: { displayPath, value, where, whereKey }, problems: [] };
+  const whereInValue = (path: (string | number)[], start: number, end: number): string => {
+    const node = doc.getIn(path, true) as Node | undefined;
+    if (!node || !isScalar(node) || typeof node.value !== 'string' || !node.range) return where(path);
+    const piece = node.value.slice(start, end);
+    if (!piece) return where(path);
+    // the same text may occur more than once: find the occurrence with as many before it
+    let before = 0;
+    for (let i = node.value.indexOf(piece); i >= 0 && i < start; i = node.value.indexOf(piece, i + 1)) before++;
+    const source = text.slice(node.range[0], node.range[1]);
+    let j = source.indexOf(piece);
+    for (; j >= 0 && before > 0; before--) j = source.indexOf(piece, j + 1);
+    return j >= 0 ? at(node.range[0] + j) : where(path);
+  };
+  return { doc: { displayPath, value, where, whereKey, whereInValue }, problems: [] };
 }
 
 function nodeOffset(doc: Document, path: (string | number)[]): number {
@@ -79,12 +98,32 @@ function nodeOffset(doc: Document, path: (string | number)[]): number {
   return 0;
 }
 
-function firstLine(s: string): string {
-  return s.split('\n')[0].replace(/ at line \d+, column \d+:?$/, '');
+/**
+ * Keys that repeat within one mapping, at the repeat's position, in time linear in the keys. Scalar
+ * keys are equal when their values are (so `1` and `"1"` differ, as in YAML); other keys compare by
+ * their source text.
+ */
+function duplicateKeys(doc: Document, text: string): { offset: number; message: string }[] {
+  const out: { offset: number; message: string }[] = [];
+  visit(doc, {
+    Map(_, map) {
+      const seen = new Set<unknown>();
+      for (const pair of map.items) {
+        const key = pair.key as Node | null;
+        if (!key || !key.range) continue;
+        const id = isScalar(key) ? key.value : `\u0000${text.slice(key.range[0], key.range[1])}`;
+        if (!seen.has(id)) {
+          seen.add(id);
+          continue;
+        }
+        const shown = isScalar(key) ? String(key.value) : text.slice(key.range[0], Math.min(key.range[1], key.range[0] + 60));
+        out.push({ offset: key.range[0], message: messages.yamlDuplicateKey(shown) });
+      }
+    },
+  });
+  return out;
 }
 
-function keyTextAt(text: string, offset: number): string {
-  const rest = text.slice(offset);
-  const m = /^["']?([^"':\n]+)["']?\s*:/.exec(rest);
-  return m ? m[1].trim() : rest.split('\n')[0];
+function firstLine(s: string): string {
+  return s.split('\n')[0].replace(/ at line \d+, column \d+:?$/, '');
 }

@@ -1,4 +1,5 @@
 import { metrics, type MetricSet } from '../models/metrics.js';
+import { messages } from '../runner/messages.js';
 import type { FrameOutput, StepDefinition } from '../runner/step-types.js';
 import { targetOf } from './design.js';
 import type { CrossValidateOutput } from './cross-validate.js';
@@ -24,12 +25,17 @@ export interface CellScore {
   /** Per-fold metrics, then their mean ± sd. */
   perFold: { r2: Spread; rmse: Spread; mae: Spread; bias: Spread };
   used: Record<string, unknown>[];
+  /** Why the cell's cross-validated score on the criterion is undefined, or null when it is defined. */
+  failed: string | null;
 }
 
 export interface ChooseOutput {
   cells: CellScore[];
+  /** The best cell with a defined score; 0 when every cell failed. */
   chosen: number;
   choose_by: 'rmse' | 'mae' | 'r2';
+  /** Why the model failed: no cell has a defined cross-validated score on the criterion. Null when one has. */
+  failed: string | null;
 }
 
 /**
@@ -39,7 +45,8 @@ export interface ChooseOutput {
  */
 export const choose: StepDefinition<ChooseParams, ChooseOutput> = {
   kind: 'choose',
-  version: 2,
+  // 3: a cell whose score is undefined is marked failed and never chosen
+  version: 3,
   codec: 'json',
   run(inputs, params) {
     const frame = (inputs[0] as FrameOutput).frame;
@@ -74,16 +81,34 @@ export const choose: StepDefinition<ChooseParams, ChooseOutput> = {
           bias: spread(perFold.bias),
         },
         used: cv.used,
+        failed: null as string | null,
       };
+    });
+    cells.forEach((c, i) => {
+      const m = c.pooled[params.choose_by];
+      // metrics() returns null with the reason for anything not finite (or R² of a constant target)
+      const nonFinite = cvs[i].nonFinite;
+      c.failed = nonFinite ?? (m.value === null ? (m.reason ?? 'no value') : null);
+      // the JSON form holds a non-finite prediction as null, so the scores above silently skipped it
+      if (nonFinite) {
+        for (const k of ['r2', 'rmse', 'mae', 'bias'] as const) {
+          c.pooled[k] = { value: null, reason: nonFinite };
+          c.perFold[k] = { mean: null, sd: null };
+        }
+      }
     });
     let chosen = 0;
     cells.forEach((c, i) => {
       if (better(c.pooled, cells[chosen].pooled, params.choose_by)) chosen = i;
     });
-    return { cells, chosen, choose_by: params.choose_by };
+    const failed = cells.every((c) => c.failed !== null) ? messages.modelScoreNotFinite(METRIC_WORDS[params.choose_by], cells[0].failed!) : null;
+    return { cells, chosen, choose_by: params.choose_by, failed };
   },
-  summary: (o) => `${o.cells.length} cell${o.cells.length === 1 ? '' : 's'}, chose #${o.chosen + 1}`,
+  summary: (o) => (o.failed ? 'failed: no cell has a defined score' : `${o.cells.length} cell${o.cells.length === 1 ? '' : 's'}, chose #${o.chosen + 1}`),
 };
+
+/** How each choosing metric is named in messages. */
+export const METRIC_WORDS: Record<'rmse' | 'mae' | 'r2', string> = { rmse: 'RMSE', mae: 'MAE', r2: 'R²' };
 
 /** Whether metric set a beats b on the criterion; an undefined value never wins. */
 export function better(a: MetricSet, b: MetricSet, by: 'rmse' | 'mae' | 'r2'): boolean {

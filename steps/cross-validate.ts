@@ -2,9 +2,12 @@ import type { FeatureStep, ModelKind } from '../runner/recipe-types.js';
 import type { FrameOutput, StepDefinition } from '../runner/step-types.js';
 import { applyDesign, learnDesign, targetOf, type LearnedDesign } from './design.js';
 import { foldRows, type FoldsOutput } from './folds.js';
-import { column } from '../runner/frame.js';
+import { column, type Frame } from '../runner/frame.js';
+import { DendrologError, messages } from '../runner/messages.js';
+import { EngineInputError } from '../models/engine-errors.js';
+import { LinearModelError } from '../models/linear.js';
 import type { HoldoutOutput } from './holdout.js';
-import { modelKinds, type Cell } from './model-kinds.js';
+import { cellLabel, modelKinds, type Cell } from './model-kinds.js';
 
 export interface CrossValidateParams {
   model: string;
@@ -25,6 +28,11 @@ export interface CrossValidateOutput {
   used: Record<string, unknown>[];
   /** What the learned feature steps took from each fold's training rows. */
   learned: LearnedDesign[];
+  /**
+   * The first prediction that was not a finite number, described; null when all were. Kept apart
+   * because the JSON form of the predictions holds such values as null, like untested rows.
+   */
+  nonFinite: string | null;
 }
 
 /**
@@ -33,7 +41,8 @@ export interface CrossValidateOutput {
  */
 export const crossValidate: StepDefinition<CrossValidateParams, CrossValidateOutput> = {
   kind: 'cross_validate',
-  version: 2,
+  // 3: every predictor constant is refused; engine errors become messages; collinear linear predictors are left out
+  version: 3,
   codec: 'json',
   usesSeed: true,
   parallel: true,
@@ -44,7 +53,12 @@ export const crossValidate: StepDefinition<CrossValidateParams, CrossValidateOut
     const predictions = new Array<number | null>(split.train.length).fill(null);
     const used: Record<string, unknown>[] = [];
     const learned: LearnedDesign[] = [];
+    let nonFinite: string | null = null;
     const times = params.time ? (column(frame, params.time).values as Float64Array) : null;
+    const constant = constantPredictors(frame, params.predictors, split.train);
+    if (params.predictors.length > 0 && constant.length === params.predictors.length) {
+      throw new DendrologError(messages.predictorsAllConstant(constant), 1);
+    }
     for (let f = 0; f < folds.k; f++) {
       const { fit: fitAt, test: testAt } = foldRows(folds, f, (k) => (times ? times[split.train[k]] : NaN));
       const fitRows = fitAt.map((k) => split.train[k]);
@@ -53,14 +67,56 @@ export const crossValidate: StepDefinition<CrossValidateParams, CrossValidateOut
       const x = applyDesign(design, frame, fitRows);
       const y = targetOf(frame, params.target, fitRows);
       const adapter = modelKinds[params.kind];
-      const fitted = await adapter.fit(x, y, params.cell, { seed: ctx.seedFor('fit', f), workers: ctx.workers });
-      const p = await adapter.predict(fitted.bytes, applyDesign(design, frame, testRows));
+      const where = `cross-validation fold ${f + 1} of ${folds.k}, ${cellLabel(params.cell)}`;
+      const fitted = await engineCall(params.model, where, () => adapter.fit(x, y, params.cell, { seed: ctx.seedFor('fit', f), workers: ctx.workers }));
+      const p = await engineCall(params.model, where, () => adapter.predict(fitted.bytes, applyDesign(design, frame, testRows)));
       testAt.forEach((k, j) => (predictions[k] = p[j]));
+      const bad = p.findIndex((v) => !Number.isFinite(v));
+      if (bad >= 0 && nonFinite === null) nonFinite = messages.predictionNotFinite(p[bad], `cross-validation fold ${f + 1}`);
       used.push(fitted.used);
       learned.push(design);
       ctx.progress((f + 1) / folds.k);
     }
-    return { cell: params.cell, predictions, fold: folds.fold, used, learned };
+    return { cell: params.cell, predictions, fold: folds.fold, used, learned, nonFinite };
   },
   summary: (o) => `${o.used.length} folds`,
 };
+
+/**
+ * Runs an engine call, turning the engines' own input errors (which know nothing of recipes) into
+ * a message that names the model and where it was being fitted; anything else is a real bug and
+ * passes through.
+ *
+ * Example: `await engineCall('linear', 'final fit', () => adapter.fit(x, y, cell, opts))`
+ */
+export async function engineCall<T>(model: string, where: string, call: () => Promise<T>): Promise<T> {
+  try {
+    return await call();
+  } catch (e) {
+    if (e instanceof EngineInputError || e instanceof LinearModelError) {
+      throw new DendrologError(messages.modelEngineFailed(model, where, e.message), 1);
+    }
+    throw e;
+  }
+}
+
+/**
+ * The predictors that hold a single value over the given rows (missing values aside; a column with
+ * no value at all is not listed): no model can learn from them.
+ *
+ * Example: `constantPredictors(frame, ['x1', 'x2'], train)` is `['x2']` when x2 is 4 on every training row.
+ */
+export function constantPredictors(frame: Frame, predictors: string[], rows: number[]): string[] {
+  return predictors.filter((p) => {
+    const values = column(frame, p).values;
+    let first: unknown;
+    for (const r of rows) {
+      const v = values[r];
+      if (v === null || (typeof v === 'number' && Number.isNaN(v))) continue;
+      if (first === undefined) first = v;
+      else if (v !== first) return false;
+    }
+    // a column missing on every row is not "constant": the missing-value checks speak for it
+    return first !== undefined;
+  });
+}

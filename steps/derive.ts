@@ -1,5 +1,7 @@
 import { columnFromValues, toArquero, type Frame } from '../runner/frame.js';
 import type { FrameOutput, StepDefinition } from '../runner/step-types.js';
+import { assertRowWise, checkTextSize, expressionSite, withinBudget } from './expressions.js';
+import { dict } from '../runner/dict.js';
 
 export interface DeriveParams {
   columns: Record<string, string>;
@@ -8,6 +10,7 @@ export interface DeriveParams {
 /**
  * Adds columns computed row by row from arquero expressions. Non-finite results (a log of zero,
  * arithmetic on a missing value) become missing and are reported as a warning with their count.
+ * Each expression must be row-wise and finish within its time budget (see ./expressions.ts).
  */
 export const derive: StepDefinition<DeriveParams, FrameOutput> = {
   kind: 'derive',
@@ -15,11 +18,17 @@ export const derive: StepDefinition<DeriveParams, FrameOutput> = {
   codec: 'frame',
   run(inputs, params, ctx) {
     const input = (inputs[0] as FrameOutput).frame;
-    const table = toArquero(input).derive(params.columns);
+    const sites = Object.entries(params.columns).map(([name, expr]) => [name, expressionSite(ctx.locator, 'derive', expr, name)] as const);
+    // all refused before any is evaluated, as `check` would have
+    for (const [, site] of sites) assertRowWise(site);
+    const table = toArquero(input);
     const frame: Frame = { rows: input.rows, columns: [...input.columns] };
-    const changed: Record<string, number> = {};
-    for (const name of Object.keys(params.columns)) {
-      const { column, nonFinite } = columnFromValues(name, table.array(name) as ArrayLike<unknown>);
+    const changed = dict<number>();
+    // one column at a time, so a failure names its expression; no expression may name a sibling
+    for (const [name, site] of sites) {
+      const values = withinBudget(site, input.rows, () => table.derive({ [name]: site.expr }).array(name) as ArrayLike<unknown>);
+      checkTextSize(site, values);
+      const { column, nonFinite } = columnFromValues(name, values);
       frame.columns.push(column);
       if (nonFinite > 0) {
         changed[name] = nonFinite;

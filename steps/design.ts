@@ -1,6 +1,7 @@
 import { column, isMissing, type Frame } from '../runner/frame.js';
 import { DendrologError, messages } from '../runner/messages.js';
 import type { FeatureStep } from '../runner/recipe-types.js';
+import { dict, has } from '../runner/dict.js';
 
 import type { Matrix } from '../models/checks.js';
 
@@ -32,7 +33,7 @@ export const OTHER = '(other)';
  * `['tp', 'land_use=farm', 'land_use=forest']` when land_use is one-hot encoded.
  */
 export function learnDesign(frame: Frame, rows: ArrayLike<number>, steps: FeatureStep[], predictors: string[]): LearnedDesign {
-  const learned: LearnedDesign = { predictors, names: [], impute: {}, standardize: {}, oneHot: {} };
+  const learned: LearnedDesign = { predictors, names: [], impute: dict(), standardize: dict(), oneHot: dict() };
   for (const step of steps.filter((s): s is LearnedStep => s.kind !== 'derive')) {
     if (step.kind === 'impute') {
       for (const c of step.columns) {
@@ -41,7 +42,7 @@ export function learnDesign(frame: Frame, rows: ArrayLike<number>, steps: Featur
       }
     } else if (step.kind === 'standardize') {
       for (const c of step.columns) {
-        const v = presentValues(frame, c, rows).map((x) => (c in learned.impute && Number.isNaN(x) ? learned.impute[c] : x));
+        const v = presentValues(frame, c, rows).map((x) => (has(learned.impute, c) && Number.isNaN(x) ? learned.impute[c] : x));
         const m = mean(v);
         const sd = Math.sqrt(v.reduce((s, x) => s + (x - m) ** 2, 0) / Math.max(1, v.length - 1));
         learned.standardize[c] = { mean: m, sd: sd > 0 ? sd : 1 };
@@ -53,6 +54,7 @@ export function learnDesign(frame: Frame, rows: ArrayLike<number>, steps: Featur
         const v = values[rows[i]];
         if (v !== null && !(typeof v === 'number' && Number.isNaN(v))) seen.add(String(v));
       }
+      if (seen.size > step.max_levels) throw new DendrologError(messages.tooManyLevels(step.column, seen.size, step.max_levels), 1);
       learned.oneHot[step.column] = { categories: [...seen].sort(), unseen: step.unseen };
     }
   }

@@ -1,5 +1,6 @@
 import { column, isMissing, takeRows } from '../runner/frame.js';
 import type { FrameOutput, StepDefinition } from '../runner/step-types.js';
+import { dict } from '../runner/dict.js';
 
 export interface DropMissingParams {
   columns: string[];
@@ -14,7 +15,7 @@ export const dropMissing: StepDefinition<DropMissingParams, FrameOutput> = {
     const input = (inputs[0] as FrameOutput).frame;
     const cols = params.columns.map((n) => column(input, n));
     const keep: number[] = [];
-    const byColumn: Record<string, number> = {};
+    const byColumn = dict<number>();
     for (let i = 0; i < input.rows; i++) {
       const gone = cols.find((c) => isMissing(c, i));
       if (gone) byColumn[gone.name] = (byColumn[gone.name] ?? 0) + 1;

@@ -3,8 +3,10 @@ import type { FrameOutput, StepDefinition } from '../runner/step-types.js';
 import { column, type Frame } from '../runner/frame.js';
 import type { ChooseOutput } from './choose.js';
 import { applyDesign, learnDesign, targetOf, type LearnedDesign } from './design.js';
+import { engineCall } from './cross-validate.js';
 import type { HoldoutOutput } from './holdout.js';
 import { modelKinds, type Cell } from './model-kinds.js';
+import { dict } from '../runner/dict.js';
 
 export interface FitParams {
   model: string;
@@ -31,7 +33,8 @@ export interface FitOutput {
 /** Refits a model's chosen cell on all training rows (never the holdout), with features learned on the same rows. */
 export const fit: StepDefinition<FitParams, FitOutput> = {
   kind: 'fit',
-  version: 2,
+  // 3: collinear linear predictors are left out (listed in used); engine errors become messages
+  version: 3,
   codec: 'json',
   usesSeed: true,
   parallel: true,
@@ -43,7 +46,9 @@ export const fit: StepDefinition<FitParams, FitOutput> = {
     const design = learnDesign(frame, split.train, params.features, params.predictors);
     const x = applyDesign(design, frame, split.train);
     const y = targetOf(frame, params.target, split.train);
-    const fitted = await modelKinds[params.kind].fit(x, y, cell, { seed: ctx.seedFor('fit'), workers: ctx.workers });
+    const fitted = await engineCall(params.model, 'final fit on all training rows', () =>
+      modelKinds[params.kind].fit(x, y, cell, { seed: ctx.seedFor('fit'), workers: ctx.workers }),
+    );
     return {
       model: params.model,
       kind: params.kind,
@@ -61,7 +66,7 @@ export const fit: StepDefinition<FitParams, FitOutput> = {
 
 /** Min and max of each numeric predictor over some rows (missing values skipped). */
 export function trainingRanges(frame: Frame, predictors: string[], rows: number[]): Record<string, { min: number; max: number }> {
-  const out: Record<string, { min: number; max: number }> = {};
+  const out = dict<{ min: number; max: number }>();
   for (const p of predictors) {
     const c = column(frame, p);
     if (!(c.values instanceof Float64Array)) continue;

@@ -67,7 +67,12 @@ export const folds: StepDefinition<FoldsParams, FoldsOutput> = {
         for (let b = 0; b < starts.length; b++) if (t[r] >= starts[b]) f = b;
         fold[k] = f;
       });
-      return { k: params.k, by: params.by, fold, trainBefore: starts.map((s) => s - params.gap * unit) };
+      const trainBefore = starts.map((s) => s - params.gap * unit);
+      // a gap wider than the history before a block would leave that fold nothing to learn from
+      trainBefore.forEach((limit, b) => {
+        if (!(sorted[0] < limit)) throw new DendrologError(messages.timeGapTooLarge(params.gap, unit === DAY_MS ? 'days' : 'time units', b + 1), 1);
+      });
+      return { k: params.k, by: params.by, fold, trainBefore };
     }
     if (params.by === 'groups' && params.groups) {
       const groups = shuffle([...rowsByGroup(frame, params.groups, split.train).values()], rand);

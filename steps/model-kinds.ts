@@ -70,9 +70,11 @@ export const modelKinds: Record<ModelKind, ModelKindAdapter> = {
   linear: {
     async fit(x, y) {
       const kept = linearColumns(x);
-      const model = fitLinear(selectColumns(x, kept), y);
-      const dropped = x.names.filter((n) => !kept.includes(n));
-      return { bytes: serializeLinear(model), used: dropped.length ? { dropped } : {} };
+      // an exactly redundant predictor changes no fitted value, so the baseline leaves it out and says so
+      const model = fitLinear(selectColumns(x, kept), y, { dropCollinear: true });
+      const dropped = x.names.filter((n) => !model.names.includes(n));
+      const collinear = (model.collinear ?? []).map((c) => (c.with.length ? `${c.name} (a linear combination of ${c.with.join(', ')})` : `${c.name} (nearly constant)`));
+      return { bytes: serializeLinear(model), used: { ...(dropped.length ? { dropped } : {}), ...(collinear.length ? { collinear } : {}) } };
     },
     async predict(bytes, x) {
       const model = deserializeLinear(bytes);

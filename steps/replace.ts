@@ -1,5 +1,6 @@
 import type { Frame } from '../runner/frame.js';
 import type { FrameOutput, StepDefinition } from '../runner/step-types.js';
+import { dict } from '../runner/dict.js';
 
 export interface ReplaceParams {
   columns: string[];
@@ -14,7 +15,7 @@ export const replace: StepDefinition<ReplaceParams, FrameOutput> = {
   codec: 'frame',
   run(inputs, params) {
     const input = (inputs[0] as FrameOutput).frame;
-    const changed: Record<string, number> = {};
+    const changed = dict<number>();
     const columns = input.columns.map((c) => {
       if (!params.columns.includes(c.name)) return c;
       let n = 0;

@@ -2,9 +2,11 @@ import { metrics, type MetricSet } from '../models/metrics.js';
 import { column } from '../runner/frame.js';
 import type { FrameOutput, StepDefinition } from '../runner/step-types.js';
 import { applyDesign, targetOf } from './design.js';
+import { engineCall } from './cross-validate.js';
 import type { FitOutput } from './fit.js';
 import type { HoldoutOutput } from './holdout.js';
 import { modelKinds } from './model-kinds.js';
+import { dict } from '../runner/dict.js';
 
 export interface ScoreParams {
   target: string;
@@ -42,7 +44,8 @@ export interface ScoreOutput {
 /** Scores a fitted model once on the holdout rows, with seeded bootstrap intervals. */
 export const score: StepDefinition<ScoreParams, ScoreOutput> = {
   kind: 'score',
-  version: 3,
+  // 4: stable metric sums; R² undefined for a negligible spread; no interval around an undefined value
+  version: 4,
   codec: 'json',
   usesSeed: true,
   async run(inputs, params, ctx) {
@@ -52,8 +55,8 @@ export const score: StepDefinition<ScoreParams, ScoreOutput> = {
     const adapter = modelKinds[fitted.kind];
     const bytes = new Uint8Array(Buffer.from(fitted.bytes, 'base64'));
     const y = targetOf(frame, params.target, split.test);
-    const pred = await adapter.predict(bytes, applyDesign(fitted.design, frame, split.test));
-    const trainPred = await adapter.predict(bytes, applyDesign(fitted.design, frame, split.train));
+    const pred = await engineCall(fitted.model, 'prediction of the holdout rows', () => adapter.predict(bytes, applyDesign(fitted.design, frame, split.test)));
+    const trainPred = await engineCall(fitted.model, 'prediction of the training rows', () => adapter.predict(bytes, applyDesign(fitted.design, frame, split.train)));
     const rand = ctx.rng('bootstrap');
     const units: number[][] = [];
     if (params.byGroups && params.groups) {
@@ -83,10 +86,12 @@ export const score: StepDefinition<ScoreParams, ScoreOutput> = {
         if (v !== null) draws[name].push(v);
       }
     }
-    const interval = (v: number[]): Interval =>
-      v.length < params.resamples / 2 ? { low: null, high: null } : { low: quantile(v, 0.05), high: quantile(v, 0.95) };
+    const holdout = metrics(y, pred);
+    // no interval around a value that is itself undefined, nor from resamples that mostly had none
+    const interval = (name: 'r2' | 'rmse' | 'mae' | 'bias', v: number[]): Interval =>
+      holdout[name].value === null || v.length < params.resamples / 2 ? { low: null, high: null } : { low: quantile(v, 0.05), high: quantile(v, 0.95) };
     // the final fit recorded each numeric predictor's training range
-    const outsideRange: Record<string, number> = {};
+    const outsideRange = dict<number>();
     for (const [p, range] of Object.entries(fitted.ranges)) {
       const values = column(frame, p).values as Float64Array;
       let n = 0;
@@ -95,8 +100,8 @@ export const score: StepDefinition<ScoreParams, ScoreOutput> = {
     }
     return {
       model: fitted.model,
-      holdout: metrics(y, pred),
-      intervals: { r2: interval(draws.r2), rmse: interval(draws.rmse), mae: interval(draws.mae), bias: interval(draws.bias) },
+      holdout,
+      intervals: { r2: interval('r2', draws.r2), rmse: interval('rmse', draws.rmse), mae: interval('mae', draws.mae), bias: interval('bias', draws.bias) },
       training: metrics(targetOf(frame, params.target, split.train), trainPred),
       predictions: Array.from(pred),
       observed: Array.from(y),

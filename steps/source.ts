@@ -1,4 +1,5 @@
 import type { Frame } from '../runner/frame.js';
+import { DendrologError, messages } from '../runner/messages.js';
 import type { ColumnType, CoordinateRange, DateFormat, SourceFormat } from '../runner/recipe-types.js';
 import type { FrameOutput, StepDefinition } from '../runner/step-types.js';
 import { readArrow } from './readers/arrow.js';
@@ -19,6 +20,8 @@ export interface SourceParams {
   /** The options below are optional so a step planned with only the four above still reads as before. */
   undeclared?: 'ignore' | 'error' | 'text';
   date_format?: DateFormat;
+  /** Text formats only: a TextDecoder label; absent means utf-8. */
+  encoding?: string;
   delimiter?: string;
   decimal?: '.' | ',';
   header?: boolean;
@@ -45,6 +48,7 @@ export function readRequest(params: SourceParams, path: string, display: string)
     missing: params.missing,
     undeclared: params.undeclared ?? 'ignore',
     dateFormat: params.date_format ?? 'YYYY-MM-DD',
+    encoding: params.encoding ?? 'utf-8',
     delimiter: params.delimiter ?? (params.format === 'tsv' ? '\t' : ','),
     decimal: params.decimal ?? '.',
     header: params.header ?? true,
@@ -60,12 +64,18 @@ export function readRequest(params: SourceParams, path: string, display: string)
  */
 export const source: StepDefinition<SourceParams, FrameOutput> = {
   kind: 'source',
-  version: 2,
+  // 3: text decoded strictly (declared encodings), impossible dates refused, a table without rows refused,
+  // numbers beyond the float64 range (1e309) refused
+  version: 3,
   codec: 'frame',
   async run(_inputs, params, ctx) {
     const req = readRequest(params, ctx.locator.path, ctx.locator.display);
     req.progress = (f) => ctx.progress(f);
     const read = await READERS[params.format](req);
+    if (read.rows === 0) {
+      const selected = params.format === 'netcdf' && Object.keys(req.select).length > 0;
+      throw new DendrologError(messages.sourceNoRows(ctx.locator.display, selected ? 'no rows are left after "select"' : 'the file holds no rows'), 1);
+    }
     const frame: Frame = { rows: read.rows, columns: read.columns };
     const declared = Object.keys(params.columns).length;
     const extraText = read.columns.length - declared;

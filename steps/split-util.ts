@@ -1,11 +1,16 @@
-import { column, type Frame } from '../runner/frame.js';
+import { column, isMissing, type Frame } from '../runner/frame.js';
 import { DendrologError, messages } from '../runner/messages.js';
 
 /** Row indices of each group, groups in order of first appearance. */
 export function rowsByGroup(frame: Frame, groups: string, rows?: ArrayLike<number>): Map<string, number[]> {
-  const values = column(frame, groups).values;
+  const c = column(frame, groups);
+  const values = c.values;
   const out = new Map<string, number[]>();
   const n = rows ? rows.length : frame.rows;
+  let missing = 0;
+  for (let k = 0; k < n; k++) if (isMissing(c, rows ? rows[k] : k)) missing++;
+  // rows without a group would silently form one group of their own and stay together by accident
+  if (missing > 0) throw new DendrologError(messages.groupsMissing(groups, missing), 1);
   for (let k = 0; k < n; k++) {
     const i = rows ? rows[k] : k;
     const g = String(values[i]);

@@ -11,6 +11,8 @@ export interface ReadRequest {
   missing: string[];
   undeclared: 'ignore' | 'error' | 'text';
   dateFormat: DateFormat;
+  /** Text formats (csv, tsv, json): the encoding's label, decoded strictly; utf-8 unless the source declares another. */
+  encoding: string;
   /** Delimited text only. */
   delimiter: string;
   decimal: '.' | ',';
@@ -154,6 +156,8 @@ export function convertValue(v: unknown, type: ColumnType, missing: Set<string>,
       if (typeof v === 'number' || typeof v === 'bigint') {
         const x = Number(v);
         if (Number.isNaN(x)) return null;
+        // JSON's 1e309 and a binary file's infinities are numbers no metric can use: refused
+        if (!Number.isFinite(x)) return undefined;
         if (missing.size > 0 && missing.has(String(x))) return null;
         return x;
       }
@@ -174,5 +178,7 @@ export function showValue(v: unknown): string {
   if (typeof v === 'string') return v;
   if (typeof v === 'bigint') return v.toString();
   if (v instanceof Date) return v.toISOString();
+  // JSON.stringify writes non-finite numbers as "null"
+  if (typeof v === 'number' && !Number.isFinite(v)) return String(v);
   return JSON.stringify(v) ?? String(v);
 }

@@ -1,5 +1,6 @@
 import { closeSync, fstatSync, openSync, readSync } from 'node:fs';
 import { DendrologError, messages } from '../../runner/messages.js';
+import { StrictTextStream } from './text-decode.js';
 
 /** Receives each record with the 1-based line of the file where it starts. Blank lines are not records. */
 export type RecordSink = (fields: string[], line: number) => void;
@@ -145,8 +146,10 @@ export class DelimitedStream {
 export const CHUNK_BYTES = 1 << 20;
 
 /**
- * Streams a file through a DelimitedStream in chunks of `chunkBytes`, decoding UTF-8 across chunk
- * boundaries, so no single string ever holds the file. Calls `onChunk` with the bytes read so far.
+ * Streams a file through a DelimitedStream in chunks of `chunkBytes`, decoding its encoding (UTF-8
+ * unless given) strictly and across chunk boundaries, so no single string ever holds the file and a
+ * byte that is not text stops the read naming its line and byte offset. Calls `onChunk` with the
+ * bytes read so far.
  *
  * Example: `streamDelimitedFile('a.csv', ',', 'a.csv', (f, line) => ...)`
  */
@@ -155,23 +158,23 @@ export function streamDelimitedFile(
   delimiter: string,
   display: string,
   sink: RecordSink,
-  opts: { chunkBytes?: number; onChunk?: (bytesRead: number, totalBytes: number) => void } = {},
+  opts: { chunkBytes?: number; encoding?: string; onChunk?: (bytesRead: number, totalBytes: number) => void } = {},
 ): void {
   const parser = new DelimitedStream(delimiter, display, sink);
   const fd = openSync(path, 'r');
   try {
     const total = fstatSync(fd).size;
     const buf = Buffer.allocUnsafe(Math.max(4, opts.chunkBytes ?? CHUNK_BYTES));
-    const decoder = new TextDecoder('utf-8');
+    const decoder = new StrictTextStream(opts.encoding ?? 'utf-8', display);
     let done = 0;
     for (;;) {
       const got = readSync(fd, buf, 0, buf.length, null);
       if (got === 0) break;
       done += got;
-      parser.push(decoder.decode(buf.subarray(0, got), { stream: true }));
+      parser.push(decoder.push(buf.subarray(0, got)));
       opts.onChunk?.(done, total);
     }
-    parser.push(decoder.decode());
+    parser.push(decoder.end());
     parser.end();
   } finally {
     closeSync(fd);

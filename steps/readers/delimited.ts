@@ -4,7 +4,7 @@ import type { ColumnType } from '../../runner/recipe-types.js';
 import { closest } from '../../runner/suggest.js';
 import { columnSink, type ColumnSink, type ReadRequest, type ReadResult } from './columns.js';
 import { streamDelimitedFile } from './csv-stream.js';
-import { parseValue, typeLabel } from './values.js';
+import { overflowsFloat, parseValue, typeLabel } from './values.js';
 
 /**
  * Reads a delimited text file (csv, tsv) by streaming it in chunks and parsing each record straight
@@ -40,7 +40,7 @@ export function readDelimited(req: ReadRequest): ReadResult {
       if (at < 0) throw new DendrologError(messages.columnNotInFile(display, name, header, closest(name, header)), 1);
       return { at, sink: columnSink(name, type), label: typeLabel(type, req.dateFormat, req.decimal) };
     });
-    undeclared = header.filter((h) => !(h in req.columns));
+    undeclared = header.filter((h) => !Object.hasOwn(req.columns, h));
     if (undeclared.length > 0 && req.undeclared === 'error') throw new DendrologError(messages.undeclaredColumns(display, undeclared), 1);
     if (req.undeclared === 'text') {
       for (const h of undeclared) sinks.push({ at: header.indexOf(h), sink: columnSink(h, 'string'), label: 'string' });
@@ -70,13 +70,17 @@ export function readDelimited(req: ReadRequest): ReadResult {
         const s = sinks[k];
         const raw = fields[s.at];
         const v = parseValue(raw, s.sink.type as ColumnType, missing, opts);
-        if (v === undefined) throw new DendrologError(messages.valueParse(display, line, s.sink.name, raw, s.label), 1);
+        if (v === undefined) {
+          if (s.sink.type === 'number' && overflowsFloat(raw, req.decimal)) throw new DendrologError(messages.valueNotFinite(`${display}:${line}`, s.sink.name, raw), 1);
+          throw new DendrologError(messages.valueParse(display, line, s.sink.name, raw, s.label), 1);
+        }
         s.sink.add(v);
       }
       rows++;
     },
     {
       chunkBytes: req.chunkBytes,
+      encoding: req.encoding,
       onChunk: (done) => {
         // after the first chunk, size the columns for the whole file so they are not regrown repeatedly
         if (!reserved && rows > 0) {
@@ -89,6 +93,8 @@ export function readDelimited(req: ReadRequest): ReadResult {
     },
   );
   if (width < 0) throw new DendrologError(messages.csvEmpty(display), 1);
+  // said here, by the reader that knows why, rather than by whichever later step first needs a row
+  if (rows === 0) throw new DendrologError(messages.sourceNoRows(display, req.header ? 'the file has a header row but no data rows' : 'the file has no data rows'), 1);
   return {
     columns: sinks.map((s) => s.sink.finish()),
     rows,

@@ -2,7 +2,8 @@ import { readFileSync } from 'node:fs';
 import { DendrologError, messages } from '../../runner/messages.js';
 import { closest } from '../../runner/suggest.js';
 import { columnSink, convertValue, showValue, type ReadRequest, type ReadResult } from './columns.js';
-import { typeLabel } from './values.js';
+import { decodeStrict } from './text-decode.js';
+import { overflowsFloat, typeLabel } from './values.js';
 
 /**
  * Reads a JSON file holding an array of records (`[{"a": 1}, ...]`) or an object of columns
@@ -15,8 +16,10 @@ import { typeLabel } from './values.js';
 export function readJson(req: ReadRequest): ReadResult {
   const { display } = req;
   let doc: unknown;
+  // decoded before parsing, so a stray byte is named by line and offset rather than silently replaced
+  const text = decodeStrict(readFileSync(req.path), req.encoding, display);
   try {
-    doc = JSON.parse(readFileSync(req.path, 'utf8'));
+    doc = JSON.parse(text);
   } catch (e) {
     throw new DendrologError(messages.sourceUnreadable(display, 'JSON', (e as Error).message), 1);
   }
@@ -26,6 +29,7 @@ export function readJson(req: ReadRequest): ReadResult {
   let where: (row: number) => string;
   if (Array.isArray(doc)) {
     const records = doc;
+    if (records.length === 0) throw new DendrologError(messages.sourceNoRows(display, 'the file holds an empty array'), 1);
     const keys = new Set<string>();
     records.forEach((r, i) => {
       if (r === null || typeof r !== 'object' || Array.isArray(r)) {
@@ -35,7 +39,8 @@ export function readJson(req: ReadRequest): ReadResult {
     });
     fileColumns = [...keys];
     rows = records.length;
-    get = (name) => (keys.has(name) ? (i) => (records[i] as Record<string, unknown>)[name] : null);
+    // a record lacking the key has it missing; never read a name through the record's prototype
+    get = (name) => (keys.has(name) ? (i) => (Object.hasOwn(records[i], name) ? (records[i] as Record<string, unknown>)[name] : undefined) : null);
     where = (i) => `record ${i + 1}`;
   } else if (doc !== null && typeof doc === 'object') {
     const cols = doc as Record<string, unknown>;
@@ -46,8 +51,8 @@ export function readJson(req: ReadRequest): ReadResult {
       if (rows >= 0 && v.length !== rows) throw new DendrologError(messages.jsonShape(display, `column "${k}" has ${v.length} values, but the columns before it have ${rows}`), 1);
       rows = v.length;
     }
-    rows = Math.max(rows, 0);
-    get = (name) => (Array.isArray(cols[name]) ? (i) => (cols[name] as unknown[])[i] : null);
+    if (rows <= 0) throw new DendrologError(messages.sourceNoRows(display, fileColumns.length === 0 ? 'the file holds an empty object' : 'the file\'s columns hold no values'), 1);
+    get = (name) => (Object.hasOwn(cols, name) && Array.isArray(cols[name]) ? (i) => (cols[name] as unknown[])[i] : null);
     where = (i) => `value ${i + 1} of the column`;
   } else {
     throw new DendrologError(messages.jsonShape(display, `the file holds ${showValue(doc)}`), 1);
@@ -69,7 +74,7 @@ export function buildColumns(
   const { display } = req;
   const missing = new Set(req.missing);
   const opts = { decimal: '.' as const, dateFormat: req.dateFormat };
-  const undeclared = fileColumns.filter((c) => !(c in req.columns));
+  const undeclared = fileColumns.filter((c) => !Object.hasOwn(req.columns, c));
   if (undeclared.length > 0 && req.undeclared === 'error') throw new DendrologError(messages.undeclaredColumns(display, undeclared), 1);
   const wanted = Object.entries(req.columns);
   if (req.undeclared === 'text') for (const c of undeclared) wanted.push([c, 'string']);
@@ -81,6 +86,7 @@ export function buildColumns(
     for (let i = 0; i < rows; i++) {
       const raw = at(i);
       const v = convertValue(raw, type, missing, opts);
+      if (v === undefined && type === 'number' && overflowsFloat(raw)) throw new DendrologError(messages.valueNotFinite(`${display}: ${where(i)}`, name, showValue(raw)), 1);
       if (v === undefined) throw new DendrologError(messages.valueParseAt(display, where(i), name, showValue(raw), typeLabel(type, req.dateFormat)), 1);
       sink.add(v);
     }

@@ -2,6 +2,7 @@ import { closeSync, openSync, readFileSync, readSync, statSync } from 'node:fs';
 import { NetCDFReader } from 'netcdfjs';
 import { DendrologError, messages } from '../../runner/messages.js';
 import type { Attributes, NcType } from './cf.js';
+import { dict } from '../../runner/dict.js';
 
 /** One variable of a NetCDF file, as both backends describe it. */
 export interface NcVariable {
@@ -72,7 +73,7 @@ function openClassic(path: string, display: string): NcFile {
     dims: v.dimensions.map((d) => dims[d].name),
     shape: v.dimensions.map((d) => (d === records.id ? records.length : dims[d].size)),
     type: NC3_TYPES[v.type] ?? 'byte',
-    attrs: Object.fromEntries((v.attributes as { name: string; value: unknown }[]).map((a) => [a.name, a.value])),
+    attrs: dict((v.attributes as { name: string; value: unknown }[]).map((a) => [a.name, a.value])),
   }));
   const raw = new Map(reader.variables.map((v) => [v.name, v]));
   return {
@@ -149,7 +150,7 @@ async function openHdf5(path: string, display: string): Promise<NcFile> {
       const entity = file.get(name) as unknown;
       if (!entity || typeof entity !== 'object' || !('shape' in entity) || !('slice' in entity)) continue;
       const ds = entity as H5Dataset;
-      const attrs: Attributes = {};
+      const attrs: Attributes = dict();
       for (const [k, a] of Object.entries(ds.attrs)) if (!NC4_INTERNAL.has(k)) attrs[k] = a.value;
       const nameAttr = ds.attrs.NAME?.value;
       // a dimension without a coordinate variable is stored as a dataset marked like this

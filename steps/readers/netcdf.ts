@@ -6,6 +6,7 @@ import { textOf, timeDecoder, unpack } from './cf.js';
 import type { ReadRequest, ReadResult } from './columns.js';
 import { openNetcdf, type NcFile, type NcVariable } from './netcdf-files.js';
 import { parseDate } from './values.js';
+import { dict } from '../../runner/dict.js';
 
 const NUMERIC = new Set(['byte', 'ubyte', 'short', 'ushort', 'int', 'uint', 'int64', 'uint64', 'float', 'double']);
 
@@ -59,7 +60,7 @@ function readOpen(file: NcFile, req: ReadRequest): ReadResult {
     if (t !== 'number' && t !== 'date') throw new DendrologError(messages.netcdfDimensionValues(display, v.name, t), 1);
   }
 
-  const units: Record<string, string> = {};
+  const units = dict<string>();
   // coordinates of every dimension, decoded to dates where declared so
   const coords = dims.map((d, i) => {
     const cv = byName.get(d);

@@ -4,7 +4,7 @@ import { DendrologError, messages } from '../../runner/messages.js';
 import type { ColumnType } from '../../runner/recipe-types.js';
 import { closest } from '../../runner/suggest.js';
 import { convertValue, showValue, type ReadRequest, type ReadResult } from './columns.js';
-import { typeLabel } from './values.js';
+import { overflowsFloat, typeLabel } from './values.js';
 
 /**
  * Reads a Parquet file with hyparquet, one row group at a time and only the declared columns, so
@@ -23,7 +23,7 @@ export async function readParquet(req: ReadRequest): Promise<ReadResult> {
     throw new DendrologError(messages.sourceUnreadable(display, 'Parquet', (e as Error).message), 1);
   }
   const fileColumns = parquetSchema(metadata).children.map((c) => c.element.name);
-  const undeclared = fileColumns.filter((c) => !(c in req.columns));
+  const undeclared = fileColumns.filter((c) => !Object.hasOwn(req.columns, c));
   if (undeclared.length > 0 && req.undeclared === 'error') throw new DendrologError(messages.undeclaredColumns(display, undeclared), 1);
   const wanted: [string, ColumnType][] = Object.entries(req.columns);
   if (req.undeclared === 'text') for (const c of undeclared) wanted.push([c, 'string']);
@@ -56,7 +56,12 @@ export async function readParquet(req: ReadRequest): Promise<ReadResult> {
             const raw = columnData[k];
             const v = convertValue(raw, type, missing, opts);
             if (v === undefined) {
-              failure = new DendrologError(messages.valueParseAt(display, `row ${rowStart + k + 1}`, columnName, showValue(raw), typeLabel(type, req.dateFormat)), 1);
+              failure = new DendrologError(
+                type === 'number' && overflowsFloat(raw)
+                  ? messages.valueNotFinite(`${display}: row ${rowStart + k + 1}`, columnName, showValue(raw))
+                  : messages.valueParseAt(display, `row ${rowStart + k + 1}`, columnName, showValue(raw), typeLabel(type, req.dateFormat)),
+                1,
+              );
               return;
             }
             values[rowStart + k] = v === null ? (values instanceof Float64Array ? NaN : null) : v;

@@ -52,6 +52,8 @@ export function parseValue(
         if (!NUMBER.test(t)) return undefined;
         v = Number(t);
       }
+      // a literal beyond ±1.8e308 (such as 1e309) reads as Infinity: refused, as the text "Infinity" is
+      if (!Number.isFinite(v)) return undefined;
       // a numeric missing token such as -9999 also matches "-9999.0"
       const numeric = numericTokens(missing);
       if (numeric.size > 0 && numeric.has(v)) return null;
@@ -63,6 +65,21 @@ export function parseValue(
     case 'category':
       return raw;
   }
+}
+
+/**
+ * Whether a value a reader could not take is a number too large for a 64-bit float: a numeric
+ * literal such as "1e309" (either decimal mark), or an infinite number from a JSON or binary file.
+ * Readers use it to say "out of range" rather than "not a number".
+ *
+ * Example: `overflowsFloat('1e309') === true`; `overflowsFloat('1,5e400', ',') === true`; `overflowsFloat('abc') === false`.
+ */
+export function overflowsFloat(raw: unknown, decimal: '.' | ',' = '.'): boolean {
+  if (typeof raw === 'number') return raw === Infinity || raw === -Infinity;
+  if (typeof raw !== 'string') return false;
+  const t = raw.trim();
+  if (decimal === ',') return NUMBER_COMMA.test(t) && !Number.isFinite(Number(t.replace(',', '.')));
+  return NUMBER.test(t) && !Number.isFinite(Number(t));
 }
 
 const NUMERIC_TOKENS = new WeakMap<Set<string>, Set<number>>();
@@ -87,11 +104,13 @@ export function parseDate(t: string, format: DateFormat): number | undefined {
   if (format === 'YYYY-MM-DD') {
     const m = DATE.exec(t);
     if (!m) return undefined;
+    // Date.parse rolls 2020-02-30 forward to March and 24:00 to the next day, with or without a
+    // zone, so every field is checked against the calendar before it is trusted
+    if (!dayExists(Number(m[1]), Number(m[2]), Number(m[3]))) return undefined;
+    if (m[4] && (Number(m[4]) > 23 || Number(m[5]) > 59 || (m[6] !== undefined && Number(m[6]) > 59))) return undefined;
+    if (m[8] && m[8] !== 'Z' && (Number(m[8].slice(1, 3)) > 23 || Number(m[8].slice(-2)) > 59)) return undefined;
     const ms = Date.parse(m[4] ? (m[8] ? t.replace(' ', 'T') : t.replace(' ', 'T') + 'Z') : `${t}T00:00:00Z`);
     if (Number.isNaN(ms)) return undefined;
-    // reject calendar overflow such as 2021-02-30, which Date.parse rolls forward
-    const d = new Date(ms);
-    if (!m[8] && (d.getUTCMonth() + 1 !== Number(m[2]) || d.getUTCDate() !== Number(m[3]))) return undefined;
     return ms;
   }
   const layout = LAYOUTS[format];
@@ -106,6 +125,14 @@ export function parseDate(t: string, format: DateFormat): number | undefined {
   const d = new Date(ms);
   if (d.getUTCFullYear() !== part.y || d.getUTCMonth() + 1 !== part.m || d.getUTCDate() !== part.d) return undefined;
   return ms;
+}
+
+/** Whether a day exists in the proleptic Gregorian calendar (month 1–12; no rolling over). */
+function dayExists(year: number, month: number, day: number): boolean {
+  if (month < 1 || month > 12 || day < 1) return false;
+  const leap = year % 4 === 0 && (year % 100 !== 0 || year % 400 === 0);
+  const days = [31, leap ? 29 : 28, 31, 30, 31, 30, 31, 31, 30, 31, 30, 31][month - 1];
+  return day <= days;
 }
 
 /** What a type is called in messages. */

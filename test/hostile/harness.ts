@@ -88,7 +88,7 @@ export async function expectOutcome(
     if (typeof want.err === 'string') expect(r.err).toContain(want.err);
     else expect(r.err).toMatch(want.err);
   }
-  expect(r.code).toBe(want.code);
+  expect(r.code, `exit code; stderr: ${r.err}`).toBe(want.code);
   expectOnlyChangedUnder(before, treeHash(dir), ['cache/', ...(want.changes ?? [])]);
   return r;
 }

@@ -336,3 +336,22 @@ describe('serializeLinear / deserializeLinear', () => {
     expect(catchError(() => serializeLinear(m)).message).toContain('2 coefficients but 1 names');
   });
 });
+
+describe('fitLinear with dropCollinear', () => {
+  it('leaves out a predictor that is a multiple of an earlier one, names both, and fits the same values', () => {
+    // x2 = 2·x1 spans no new direction, so the least-squares fitted values with x1 alone are the answer
+    const x = matrix({ x1: [1, 2, 3, 4, 6], x2: [2, 4, 6, 8, 12], x3: [1, 0, 1, 0, 0] });
+    const y = new Float64Array([2.1, 3.9, 7.2, 8.1, 12.3]);
+    const m = fitLinear(x, y, { dropCollinear: true });
+    expect(m.names).toEqual(['x1', 'x3']);
+    expect(m.collinear).toEqual([{ name: 'x2', with: ['x1'] }]);
+    const alone = fitLinear(matrix({ x1: [1, 2, 3, 4, 6], x3: [1, 0, 1, 0, 0] }), y);
+    expect(m.intercept).toBe(alone.intercept);
+    expect(Array.from(m.coefficients)).toEqual(Array.from(alone.coefficients));
+  });
+  it('leaves out a nearly constant predictor as collinear with the intercept', () => {
+    const m = fitLinear(matrix({ a: [1e9, 1e9 + 1e-6, 1e9, 1e9], b: [1, 2, 3, 5] }), new Float64Array([1, 2, 3, 4]), { dropCollinear: true });
+    expect(m.names).toEqual(['b']);
+    expect(m.collinear).toEqual([{ name: 'a', with: [] }]);
+  });
+});

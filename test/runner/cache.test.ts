@@ -1,4 +1,4 @@
-import { readFileSync, readdirSync, writeFileSync } from 'node:fs';
+import { copyFileSync, existsSync, mkdirSync, readFileSync, readdirSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import { Cache } from '../../runner/cache.js';
@@ -6,46 +6,143 @@ import { sha256 } from '../../runner/hash.js';
 import { makeFolder } from '../helpers.js';
 
 const key = sha256('a step');
+const other = sha256('another step');
 const bytes = new Uint8Array([1, 2, 3, 250]);
+const entryOf = (dir: string, k = key) => join(dir, k.slice(0, 2), k);
+const leftovers = (dir: string) => (existsSync(dir) ? readdirSync(dir, { recursive: true, encoding: 'utf8' }).filter((f) => f.includes('.tmp-')) : []);
+const fsError = (code: string) => Object.assign(new Error(`${code}: simulated`), { code });
 
 describe('cache', () => {
   it('misses when nothing is stored', () => {
-    expect(new Cache(makeFolder({})).get(key)).toEqual({ status: 'miss' });
+    expect(new Cache(makeFolder({})).get(key, 'json')).toEqual({ status: 'miss' });
   });
 
   it('returns stored bytes on a hit, under <key[0:2]>/<key>', () => {
     const dir = makeFolder({});
     const cache = new Cache(dir);
-    cache.put(key, bytes);
-    const got = cache.get(key);
+    expect(cache.put(key, 'json', bytes)).toEqual({ stored: true });
+    const got = cache.get(key, 'json');
     expect(got.status).toBe('hit');
     expect(got.status === 'hit' && Array.from(got.bytes)).toEqual(Array.from(bytes));
     expect(readdirSync(join(dir, key.slice(0, 2)))).toEqual([key]);
   });
 
-  it('reports a corrupted entry and removes it', () => {
+  it('heads each entry with its format, key, codec and checksum', () => {
     const dir = makeFolder({});
-    const cache = new Cache(dir);
-    cache.put(key, bytes);
-    const path = join(dir, key.slice(0, 2), key);
-    const raw = readFileSync(path);
-    raw[raw.length - 1] ^= 0xff;
-    writeFileSync(path, raw);
-    expect(cache.get(key)).toEqual({ status: 'corrupt' });
-    expect(cache.get(key)).toEqual({ status: 'miss' });
+    new Cache(dir).put(key, 'frame', bytes);
+    const raw = readFileSync(entryOf(dir));
+    const lines = raw.toString('latin1').split('\n').slice(0, 4);
+    expect(lines.slice(0, 3)).toEqual(['dendrolog-cache-entry 2', `key ${key}`, 'codec frame']);
+    // the checksum covers the lines above it and the output, so none can change unnoticed
+    const head = Buffer.from(lines.slice(0, 3).join('\n') + '\n', 'latin1');
+    expect(lines[3]).toBe(`sha256 ${sha256(Buffer.concat([head, bytes]))}`);
+    expect(Array.from(raw.subarray(raw.length - bytes.length))).toEqual(Array.from(bytes));
   });
 
-  it('treats a truncated entry as corrupt', () => {
+  it('discards a corrupted entry and removes it', () => {
     const dir = makeFolder({});
     const cache = new Cache(dir);
-    cache.put(key, bytes);
-    writeFileSync(join(dir, key.slice(0, 2), key), 'abc');
-    expect(cache.get(key)).toEqual({ status: 'corrupt' });
+    cache.put(key, 'json', bytes);
+    const raw = readFileSync(entryOf(dir));
+    raw[raw.length - 1] ^= 0xff;
+    writeFileSync(entryOf(dir), raw);
+    expect(cache.get(key, 'json')).toEqual({ status: 'discarded', reason: 'checksum' });
+    expect(cache.get(key, 'json')).toEqual({ status: 'miss' });
+  });
+
+  it('treats a truncated or empty entry as corrupt', () => {
+    const dir = makeFolder({});
+    const cache = new Cache(dir);
+    cache.put(key, 'json', bytes);
+    writeFileSync(entryOf(dir), 'dendrolog-cache-entry 2\nkey ab');
+    expect(cache.get(key, 'json')).toEqual({ status: 'discarded', reason: 'checksum' });
+    cache.put(key, 'json', bytes);
+    writeFileSync(entryOf(dir), '');
+    expect(cache.get(key, 'json')).toEqual({ status: 'discarded', reason: 'checksum' });
+  });
+
+  it('refuses an entry copied over another key, naming the key it holds', () => {
+    const dir = makeFolder({});
+    const cache = new Cache(dir);
+    cache.put(key, 'json', bytes);
+    cache.put(other, 'json', new Uint8Array([9]));
+    copyFileSync(entryOf(dir, other), entryOf(dir, key));
+    expect(cache.get(key, 'json')).toEqual({ status: 'discarded', reason: 'key', storedKey: other });
+    expect(existsSync(entryOf(dir))).toBe(false);
+    expect(cache.get(other, 'json').status).toBe('hit');
+  });
+
+  it('refuses an entry in another codec than the step writes', () => {
+    const dir = makeFolder({});
+    const cache = new Cache(dir);
+    cache.put(key, 'json', bytes);
+    expect(cache.get(key, 'frame')).toEqual({ status: 'discarded', reason: 'codec', storedCodec: 'json' });
+  });
+
+  it('reads an entry of the previous layout as a plain miss, and overwrites it', () => {
+    const dir = makeFolder({});
+    const cache = new Cache(dir);
+    mkdirSync(join(dir, key.slice(0, 2)));
+    writeFileSync(entryOf(dir), Buffer.concat([Buffer.from(sha256(bytes) + '\n', 'latin1'), bytes]));
+    expect(cache.get(key, 'json')).toEqual({ status: 'miss' });
+    cache.put(key, 'json', bytes);
+    expect(cache.get(key, 'json').status).toBe('hit');
+  });
+
+  it('discards an entry in a format it does not know, quoting its start', () => {
+    const dir = makeFolder({});
+    mkdirSync(join(dir, key.slice(0, 2)));
+    writeFileSync(entryOf(dir), 'PK\u0003\u0004 a zip file\n');
+    expect(new Cache(dir).get(key, 'json')).toEqual({ status: 'discarded', reason: 'format', start: 'PK?? a zip file' });
   });
 
   it('leaves no temporary files behind', () => {
     const dir = makeFolder({});
-    new Cache(dir).put(key, bytes);
-    expect(readdirSync(join(dir, key.slice(0, 2))).filter((f) => f.includes('tmp'))).toEqual([]);
+    new Cache(dir).put(key, 'json', bytes);
+    expect(leftovers(dir)).toEqual([]);
+  });
+});
+
+describe('cache on a full or read-only disk', () => {
+  it('reports ENOSPC from a write that got halfway, and removes the partial temporary file', () => {
+    const dir = makeFolder({});
+    const cache = new Cache(dir, {
+      writeFileSync: (p, data) => {
+        writeFileSync(p, data.subarray(0, 3));
+        throw fsError('ENOSPC');
+      },
+    });
+    expect(cache.put(key, 'json', bytes)).toEqual({ stored: false, code: 'ENOSPC', detail: 'ENOSPC: simulated' });
+    expect(leftovers(dir)).toEqual([]);
+    expect(readdirSync(join(dir, key.slice(0, 2)))).toEqual([]);
+    expect(cache.get(key, 'json')).toEqual({ status: 'miss' });
+  });
+
+  it('reports EROFS when the folder cannot be made, and EACCES when the rename is refused', () => {
+    const dir = makeFolder({});
+    const readOnly = new Cache(join(dir, 'cache'), { mkdirSync: () => { throw fsError('EROFS'); } });
+    expect(readOnly.put(key, 'json', bytes)).toMatchObject({ stored: false, code: 'EROFS' });
+    const noRename = new Cache(dir, { renameSync: () => { throw fsError('EACCES'); } });
+    expect(noRename.put(key, 'json', bytes)).toMatchObject({ stored: false, code: 'EACCES' });
+    expect(leftovers(dir)).toEqual([]);
+  });
+
+  it('reports ENOTDIR for a cache folder below a file (what a real unwritable path gives, even as root)', () => {
+    const dir = makeFolder({ 'a-file': 'x' });
+    const cache = new Cache(join(dir, 'a-file', 'cache'));
+    expect(cache.put(key, 'json', bytes)).toMatchObject({ stored: false, code: 'ENOTDIR' });
+    expect(cache.get(key, 'json')).toEqual({ status: 'miss' });
+  });
+
+  it('rethrows an error that is not the file system’s, still without a temporary file', () => {
+    const dir = makeFolder({});
+    const cache = new Cache(dir, {
+      writeFileSync: (p, data) => {
+        writeFileSync(p, data);
+        throw new TypeError('a bug');
+      },
+    });
+    expect(() => cache.put(key, 'json', bytes)).toThrow('a bug');
+    expect(leftovers(dir)).toEqual([]);
   });
 });

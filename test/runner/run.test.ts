@@ -6,6 +6,7 @@ import { DendrologError, messages } from '../../runner/messages.js';
 import { silentProgress } from '../../runner/progress.js';
 import { displayOf } from '../../runner/recipe.js';
 import { runRecipe } from '../../runner/run.js';
+import { RUN_MARKER } from '../../runner/run-folder.js';
 import { makeFolder, SMALL_RECIPE, smallData } from '../helpers.js';
 
 async function run(files: Record<string, string>, opts: { cache?: string; out?: string } = {}) {
@@ -33,12 +34,12 @@ async function failure(files: Record<string, string>): Promise<DendrologError & 
 const withoutTiming = (m: object) => ({ ...m, timing: undefined });
 
 describe('running a recipe', () => {
-  it('scores a linear model almost perfectly on nearly linear data, and writes its five outputs', async () => {
+  it('scores a linear model almost perfectly on nearly linear data, and writes its five outputs and the run folder marker', async () => {
     const { result } = await run({ 'data/obs.csv': smallData() });
     const linear = result.results.models.find((m) => m.name === 'linear')!;
     expect(linear.holdout.r2.value).toBeGreaterThan(0.99);
     expect(result.results.chosenModel).toBe('linear');
-    expect(readdirSync(result.outDir).sort()).toEqual(['manifest.json', 'model.bin', 'predictions.csv', 'report.html', 'summary.md']);
+    expect(readdirSync(result.outDir).sort()).toEqual([RUN_MARKER, 'manifest.json', 'model.bin', 'predictions.csv', 'report.html', 'summary.md']);
   });
 
   it('takes every step from the cache the second time, with an identical manifest apart from timing', async () => {

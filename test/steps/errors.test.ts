@@ -121,7 +121,7 @@ describe('a missing predictor value when building the model matrix', () => {
 
   it('stops on a missing category of a one-hot encoded predictor', () => {
     const f = frame({ missingKind: [7, 8] });
-    const oneHot: FeatureStep = { kind: 'one_hot', column: 'kind', unseen: 'other' };
+    const oneHot: FeatureStep = { kind: 'one_hot', column: 'kind', unseen: 'other', max_levels: 1000 };
     const design = learnDesign(f, all, [oneHot], ['kind']);
     const e = errorOf(() => applyDesign(design, f, all));
     expect([e.message, e.exitCode]).toEqual([messages.missingInPredictor('kind', 2), 1]);

@@ -80,10 +80,10 @@ describe('learned feature steps inside cross-validation', () => {
       rows: 4,
       columns: [{ name: 'land', type: 'category', values: ['farm', 'farm', 'forest', 'urban'] }],
     };
-    const design = learnDesign(frame, [0, 1, 2], [{ kind: 'one_hot', column: 'land', unseen: 'error' }], ['land']);
+    const design = learnDesign(frame, [0, 1, 2], [{ kind: 'one_hot', column: 'land', unseen: 'error', max_levels: 1000 }], ['land']);
     expect(design.names).toEqual(['land=farm', 'land=forest']);
     expect(() => applyDesign(design, frame, [3])).toThrow(/category "urban", which the training rows never had/);
-    const other = learnDesign(frame, [0, 1, 2], [{ kind: 'one_hot', column: 'land', unseen: 'other' }], ['land']);
+    const other = learnDesign(frame, [0, 1, 2], [{ kind: 'one_hot', column: 'land', unseen: 'other', max_levels: 1000 }], ['land']);
     expect(Array.from(applyDesign(other, frame, [3]).columns.map((c) => c[0]))).toEqual([0, 0, 1]);
   });
 });

@@ -27,7 +27,7 @@ describe('source options in the recipe', () => {
   it('take their format from the extension, and their defaults from the format', () => {
     expect(['a.csv', 'b.TSV', 'c.json', 'd.parquet', 'e.feather', 'f.arrows', 'g.nc', 'h.txt'].map(formatOf)).toEqual(['csv', 'tsv', 'json', 'parquet', 'arrow', 'arrow', 'netcdf', 'csv']);
     expect(normalizeSource({ file: 'a.tsv', columns: { x: 'number' } })).toEqual({
-      file: 'a.tsv', format: 'tsv', sha256: null, columns: { x: 'number' }, missing: ['', 'NA'], undeclared: 'ignore', date_format: 'YYYY-MM-DD', delimiter: '\t', decimal: '.', header: true,
+      file: 'a.tsv', format: 'tsv', sha256: null, columns: { x: 'number' }, missing: ['', 'NA'], undeclared: 'ignore', date_format: 'YYYY-MM-DD', encoding: 'utf-8', delimiter: '\t', decimal: '.', header: true,
     });
     expect(normalizeSource({ file: 'g.nc', columns: { x: 'number' }, variables: ['x'] })).toEqual({
       file: 'g.nc', format: 'netcdf', sha256: null, columns: { x: 'number' }, missing: ['', 'NA'], undeclared: 'ignore', date_format: 'YYYY-MM-DD', variables: ['x'], select: {},

@@ -1,0 +1,85 @@
+import { stringify } from 'yaml';
+import { canonicalJson } from './hash.js';
+import type { Manifest } from './manifest.js';
+import { DendrologError, messages, RecipeErrors } from './messages.js';
+import { recipeFromText } from './recipe.js';
+import { MODEL_DEFAULTS } from './normalize.js';
+import type { CleanStep, FeatureStep, ModelSpec, Recipe } from './recipe-types.js';
+
+/**
+ * The recipe a run record keeps, checked before verify or predict use it: written back in the
+ * recipe's own shape and read through the same schema, normalization and meaning checks as a
+ * recipe file, then compared with what was stored. A record edited by hand (a model's kind
+ * removed, a step mangled) is refused with the reason instead of failing somewhere inside a step.
+ *
+ * Example: `recipeFromManifest(readManifest('out/lake'), 'out/lake/manifest.json').name`
+ */
+export function recipeFromManifest(manifest: Manifest, manifestPath: string): Recipe {
+  const stored: unknown = manifest.recipe.normalized;
+  const where = `${manifestPath} (recipe.normalized)`;
+  let recipe: Recipe;
+  try {
+    recipe = recipeFromText(stringify(recipeShape(stored)), where).recipe;
+  } catch (e) {
+    if (e instanceof RecipeErrors) throw new DendrologError(messages.storedRecipeInvalid(manifestPath, e.problems), 2);
+    if (e instanceof TypeError) throw new DendrologError(messages.storedRecipeInvalid(manifestPath, [e.message]), 2);
+    throw e;
+  }
+  // a newer dendrolog may write out defaults an older one left implicit; everything stored must match
+  if (!contains(recipe, stored)) {
+    throw new DendrologError(messages.storedRecipeInvalid(manifestPath, ['it is not the normalized form dendrolog writes (a value was edited or left out)']), 2);
+  }
+  return recipe;
+}
+
+type Raw = Record<string, unknown>;
+
+/** A normalized recipe written back as a recipe file would say it; null means "not given". */
+function recipeShape(stored: unknown): Raw {
+  if (stored === null || typeof stored !== 'object' || Array.isArray(stored)) throw new TypeError('recipe.normalized is not an object');
+  const r = stored as Recipe;
+  const out: Raw = { ...r };
+  out.sources = Object.fromEntries(Object.entries(r.sources ?? {}).map(([name, s]) => [name, withoutNulls(s as unknown as Raw)]));
+  out.clean = (r.clean ?? []).map(cleanShape);
+  out.features = (r.features ?? []).map(featureShape);
+  out.models = Object.fromEntries(Object.entries(r.models ?? {}).map(([name, m]) => [name, modelShape(m)]));
+  out.evaluation = { ...r.evaluation, holdout: withoutNulls((r.evaluation?.holdout ?? {}) as unknown as Raw) };
+  return withoutNulls(out);
+}
+
+/** Whether `whole` holds every value of `part`, at the same place (objects may have more keys). */
+function contains(whole: unknown, part: unknown): boolean {
+  if (part === null || typeof part !== 'object') return canonicalJson(whole) === canonicalJson(part);
+  if (whole === null || typeof whole !== 'object' || Array.isArray(whole) !== Array.isArray(part)) return false;
+  if (Array.isArray(part)) return part.length === (whole as unknown[]).length && part.every((v, i) => contains((whole as unknown[])[i], v));
+  return Object.entries(part).every(([k, v]) => Object.hasOwn(whole, k) && contains((whole as Raw)[k], v));
+}
+
+/**
+ * A model with the grid values that are its kind's defaults left out (normalization puts them back),
+ * since some defaults, such as mtry: null, are not values a recipe may write.
+ */
+function modelShape(m: ModelSpec): Raw {
+  if (m === null || typeof m !== 'object') return m;
+  const defaults = Object.hasOwn(MODEL_DEFAULTS, m.kind) ? MODEL_DEFAULTS[m.kind] : {};
+  const grid = Object.entries(m.grid ?? {}).filter(([k, v]) => !(Object.hasOwn(defaults, k) && canonicalJson(defaults[k]) === canonicalJson(v)));
+  return grid.length ? { ...m, grid: Object.fromEntries(grid) } : { kind: m.kind };
+}
+
+function cleanShape(step: CleanStep): Raw {
+  const { kind, ...params } = step;
+  if (kind === 'drop_missing') return { drop_missing: step.columns };
+  if (kind === 'keep_rows') return { keep_rows: step.expr };
+  return { [kind]: withoutNulls(params as Raw) };
+}
+
+function featureShape(step: FeatureStep): Raw {
+  const { kind, ...params } = step;
+  if (kind === 'derive') return { derive: step.columns };
+  return { [kind]: params };
+}
+
+/** A copy without the keys whose value is null: the recipe file's way of not giving them. */
+function withoutNulls(o: Raw): Raw {
+  return Object.fromEntries(Object.entries(o ?? {}).filter(([, v]) => v !== null));
+}
