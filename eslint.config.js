@@ -13,14 +13,14 @@ export default tseslint.config(
   },
   {
     // a name a user chose may be "constructor" or "__proto__": `name in record` finds those on every
-    // plain object, so looking a computed name up must go through Object.hasOwn (runner/dict.ts)
-    files: ['runner/**/*.ts', 'steps/**/*.ts', 'models/**/*.ts'],
+    // plain object, so looking a computed name up must go through Object.hasOwn (core/dict.ts)
+    files: ['core/**/*.ts', 'runner/**/*.ts', 'steps/**/*.ts', 'models/**/*.ts'],
     rules: {
       'no-restricted-syntax': [
         'error',
         {
           selector: "BinaryExpression[operator='in'][left.type!='Literal']",
-          message: 'Use Object.hasOwn(record, name) (or has() from runner/dict.ts): `in` also finds Object.prototype members such as "constructor".',
+          message: 'Use Object.hasOwn(record, name) (or has() from core/dict.ts): `in` also finds Object.prototype members such as "constructor".',
         },
       ],
     },

@@ -47,6 +47,8 @@ export function checkInteger(what: string, value: unknown, min: number, max?: nu
  * should the product round below 3.)
  */
 export function resolveMtry(mtry: unknown, p: number): number {
+  // the regression default of common practice: a third of the predictors, rounded down, at least 1
+  if (mtry === null) return Math.max(1, Math.floor(p / 3));
   if (typeof mtry !== 'number' || !Number.isFinite(mtry) || mtry <= 0) throw new EngineInputError(msg.mtryInvalid(Number(mtry), p));
   if (mtry < 1) return Math.max(1, Math.floor(mtry * p + 1e-9));
   if (!Number.isInteger(mtry)) throw new EngineInputError(msg.mtryInvalid(mtry, p));

@@ -46,8 +46,11 @@ export interface ForestOptions {
    * not split, leaves may be smaller) is minLeaf 1 with minSplit k + 1.
    */
   minSplit?: number;
-  /** Integer >= 1: features tried at each split; 0 < mtry < 1: that fraction of the predictors, rounded down, at least 1. */
-  mtry: number;
+  /**
+   * Integer >= 1: features tried at each split; 0 < mtry < 1: that fraction of the predictors, rounded
+   * down, at least 1; null: a third of the predictors, rounded down, at least 1.
+   */
+  mtry: number | null;
   /** Rows drawn per tree as a fraction of the training rows (0, 1]; default 1. */
   sampleFraction?: number;
   /** Draw with replacement (bootstrap); default true. */
@@ -185,7 +188,13 @@ async function fitResolved(
   }
 }
 
-async function fitWith(x: Matrix, y: Float64Array, s: ForestSettings, kind: Forest['kind'], pool: ForestPool | null): Promise<Forest> {
+async function fitWith(x: Matrix, target: Float64Array, s: ForestSettings, kind: Forest['kind'], pool: ForestPool | null): Promise<Forest> {
+  // Split gains are sums of squared target values: above about 1e154 they overflow and every split
+  // looks worthless. Growing on the target times a power of two, then scaling leaf values, out-of-bag
+  // predictions and importances back, is exact in floating point, so ordinary targets (scale 1) and
+  // huge or tiny ones give the forest the unscaled values would.
+  const scale = targetScale(target);
+  const y = scale === 1 ? target : target.map((v) => v * scale);
   const n = x.rows;
   const p = x.columns.length;
   const threaded = pool !== null;
@@ -234,7 +243,7 @@ async function fitWith(x: Matrix, y: Float64Array, s: ForestSettings, kind: Fore
     const builder = new TreeBuilder(data, params);
     for (let i = 0; i < s.trees; i++) combiner.add(i, builder.grow(i));
   }
-  return {
+  const forest: Forest = {
     kind,
     featureNames: [...x.names],
     trainingRows: n,
@@ -243,6 +252,30 @@ async function fitWith(x: Matrix, y: Float64Array, s: ForestSettings, kind: Fore
     oob: combiner.oobResult(y),
     impurityImportance: combiner.importance(),
   };
+  if (scale !== 1) {
+    const back = 1 / scale;
+    for (const t of forest.trees) for (let i = 0; i < t.value.length; i++) t.value[i] *= back;
+    for (let i = 0; i < forest.oob.predictions.length; i++) forest.oob.predictions[i] *= back;
+    for (let f = 0; f < forest.impurityImportance.length; f++) forest.impurityImportance[f] *= back * back;
+  }
+  return forest;
+}
+
+/**
+ * A power of two that brings the target's largest magnitude near 1 when it is beyond 2^±400, else 1.
+ * Multiplying by a power of two changes only the exponent, so nothing is rounded.
+ */
+export function targetScale(y: Float64Array): number {
+  let max = 0;
+  for (let i = 0; i < y.length; i++) {
+    const a = Math.abs(y[i]);
+    if (a > max) max = a;
+  }
+  if (!(max > 0) || !Number.isFinite(max)) return 1;
+  const e = Math.floor(Math.log2(max));
+  if (e < 400 && e > -400) return 1;
+  // two steps, since 2^-e itself may not be representable for e near ±1023
+  return 2 ** Math.trunc(-e / 2) * 2 ** (-e - Math.trunc(-e / 2));
 }
 
 /**

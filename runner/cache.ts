@@ -1,7 +1,7 @@
 import { createHash, randomBytes } from 'node:crypto';
 import * as fs from 'node:fs';
 import { join } from 'node:path';
-import type { OutputCodec } from './step-types.js';
+import type { OutputCodec } from '../core/step-types.js';
 
 /** First line of every entry; a change to the layout below changes the number. */
 const FORMAT = 'dendrolog-cache-entry 2';

@@ -1,11 +1,11 @@
-import { availableParallelism } from 'node:os';
 import { relative, resolve } from 'node:path';
 import { parseArgs } from 'node:util';
-import { DendrologError, messages } from './messages.js';
+import { DendrologError, messages } from '../core/messages.js';
 import { streamProgress } from './progress.js';
-import { displayOf, loadRecipe } from './recipe.js';
-import { DEFAULT_CACHE, runRecipe } from './run.js';
-import { closest } from './suggest.js';
+import { loadRecipe } from './recipe.js';
+import { displayOf } from './paths.js';
+import { DEFAULT_CACHE, defaultWorkers, runRecipe } from './run.js';
+import { closest } from '../core/suggest.js';
 import { verifyRun } from './verify.js';
 import { compareManifests, comparisonMarkdown } from './compare.js';
 import { predictRun } from './predict.js';
@@ -175,7 +175,7 @@ function onePositional(positionals: string[], command: string, what = 'a recipe 
 
 /** --workers: default the number of cores; results are identical for any value. */
 function workersOf(value: string | boolean | undefined): number {
-  if (value === undefined) return availableParallelism();
+  if (value === undefined) return defaultWorkers();
   const workers = Number(value);
   if (!Number.isInteger(workers) || workers < 1 || workers > 256) {
     throw new DendrologError(messages.usageOptionValue('--workers', String(value), 'a whole number from 1 to 256'), 2);

@@ -2,7 +2,7 @@ import { spawnSync } from 'node:child_process';
 import { existsSync, readFileSync } from 'node:fs';
 import { dirname, join, relative, resolve, sep } from 'node:path';
 import { fileURLToPath } from 'node:url';
-import { hashValue, sha256 } from './hash.js';
+import { hashValue, sha256 } from '../core/hash.js';
 import { packageRoot } from './paths.js';
 
 export interface Environment {
@@ -72,7 +72,7 @@ export function softwareFingerprint(): string {
  * path from root. Works on the TypeScript sources and on the compiled dist/ alike: an import of
  * `./x.js` is the file x.ts where that exists beside the importer.
  *
- * Example: `codeHashes('/src/dendrolog', ['steps/index'])` holds 'runner/frame.ts'.
+ * Example: `codeHashes('/src/dendrolog', ['steps/index'])` holds 'core/frame.ts'.
  */
 export function codeHashes(root: string, entries: string[]): Record<string, string> {
   const ext = existsSync(join(root, `${entries[0]}.ts`)) ? '.ts' : '.js';

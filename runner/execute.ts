@@ -1,13 +1,13 @@
 import { stepRegistry } from '../steps/index.js';
 import type { Cache } from './cache.js';
-import { packEntry, unpackEntry } from './codec.js';
-import { sha256 } from './hash.js';
-import { messages } from './messages.js';
+import { packEntry, unpackEntry } from '../core/codec.js';
+import { sha256 } from '../core/hash.js';
+import { messages } from '../core/messages.js';
 import type { Progress } from './progress.js';
-import { generator, seedString } from './rng.js';
+import { generator, seedString } from '../core/rng.js';
 import { StepPool } from './step-pool.js';
-import { displayOf } from './recipe.js';
-import type { OutputCodec, StepContext, StepInstance, Warning } from './step-types.js';
+import { displayOf } from './paths.js';
+import type { OutputCodec, StepContext, StepInstance, Warning } from '../core/step-types.js';
 import { WarningLog } from './warnings.js';
 
 export interface StepRecord {

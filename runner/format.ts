@@ -2,14 +2,16 @@
  * Number formatting for the report and summary: stable across machines (no locale), enough digits
  * to compare, never "NaN".
  *
- * Example: `formatNumber(0.123456) === '0.123'`, `formatNumber(1234.5) === '1234.5'`, `formatNumber(null) === '—'`
+ * Example: `formatNumber(0.123456) === '0.123'`, `formatNumber(1234.5) === '1234.5'`, `formatNumber(6.1e300) === '6.100e+300'`, `formatNumber(null) === '—'`
  */
 export function formatNumber(v: number | null | undefined, digits = 3): string {
   if (v === null || v === undefined || Number.isNaN(v)) return '—';
   if (!Number.isFinite(v)) return v > 0 ? '∞' : '−∞';
   const a = Math.abs(v);
   let s: string;
-  if (a >= 1000) s = v.toFixed(1);
+  // from a billion on, digits past the fourth are noise to a reader: 6.125e+300, not 17 digits
+  if (a >= 1e9) s = v.toExponential(digits);
+  else if (a >= 1000) s = v.toFixed(1);
   else if (a >= 100) s = v.toFixed(Math.max(1, digits - 2));
   // below 1e-9 a value is rounding noise (a bias of 5e-15 on training rows), not information
   else if (a >= 0.01 || a < 1e-9) s = v.toFixed(digits);

@@ -4,11 +4,11 @@ import { join, relative } from 'node:path';
 import { packageRoot } from './paths.js';
 import type { Execution } from './execute.js';
 import { environment, gitState, softwareFingerprint, type Environment } from './environment.js';
-import { sha256 } from './hash.js';
+import { sha256 } from '../core/hash.js';
 import type { RecipeOrigin } from './recipe.js';
-import type { Recipe } from './recipe-types.js';
+import type { Recipe } from '../core/recipe-types.js';
 import type { Results } from './results.js';
-import type { Warning } from './step-types.js';
+import type { Warning } from '../core/step-types.js';
 
 export interface Manifest {
   manifest: 1;
@@ -97,7 +97,7 @@ export function buildManifest(
       value: headlineModel.holdout.r2.value,
       label: 'holdout',
     },
-    holdoutPredictionsSha256: sha256(JSON.stringify(results.holdoutRows.predicted)),
+    holdoutPredictionsSha256: holdoutPredictionsSha256(results),
     modelFile: { file: 'model.bin', sha256: sha256(modelBin), bytes: modelBin.length },
     environment: { ...environment(), fingerprint: softwareFingerprint() },
     git: gitState(origin.dir),
@@ -108,6 +108,11 @@ export function buildManifest(
       steps: exec.records.map((r) => ({ id: r.id, status: r.status, seconds: Number(r.seconds.toFixed(3)) })),
     },
   };
+}
+
+/** SHA-256 of the headline model's holdout predictions: the run's fingerprint of what it predicted. */
+export function holdoutPredictionsSha256(results: Results): string {
+  return sha256(JSON.stringify(results.holdoutRows.predicted));
 }
 
 let validator: ReturnType<Ajv['compile']> | undefined;

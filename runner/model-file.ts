@@ -1,13 +1,13 @@
 import { existsSync, readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { gunzipSync, gzipSync } from 'node:zlib';
-import type { FitOutput } from '../steps/fit.js';
-import type { Recipe } from './recipe-types.js';
-import { sha256 } from './hash.js';
+import type { FitOutput } from '../steps/index.js';
+import type { Recipe } from '../core/recipe-types.js';
+import { sha256 } from '../core/hash.js';
 import type { Manifest } from './manifest.js';
-import { messages } from './messages.js';
-import { displayOf } from './recipe.js';
-import { parseJson } from './dict.js';
+import { messages } from '../core/messages.js';
+import { displayOf } from './paths.js';
+import { parseJson } from '../core/dict.js';
 
 const MAGIC = 'DLM1';
 
@@ -22,6 +22,11 @@ export interface ModelFile {
   ranges: FitOutput['ranges'];
   target: string;
   trainingRows: number;
+  /**
+   * The holdout predictions' SHA-256 of the run that wrote the file, as its manifest records it, so
+   * a model.bin from another run is told apart even when a manifest was edited to match its bytes.
+   */
+  run?: { holdoutPredictionsSha256: string };
   /** The engine's own serialized model. */
   bytes: Uint8Array;
 }
@@ -32,7 +37,7 @@ export interface ModelFile {
  *
  * Example: `readModelFile(writeModelFile(fit, recipe)).kind === fit.kind`
  */
-export function writeModelFile(fit: FitOutput, recipe: Recipe): Uint8Array {
+export function writeModelFile(fit: FitOutput, recipe: Recipe, run: { holdoutPredictionsSha256: string }): Uint8Array {
   const header = Buffer.from(
     JSON.stringify({
       format: 1,
@@ -44,6 +49,7 @@ export function writeModelFile(fit: FitOutput, recipe: Recipe): Uint8Array {
       ranges: fit.ranges,
       target: recipe.target,
       trainingRows: fit.trainingRows,
+      run,
     }),
     'utf8',
   );
@@ -97,6 +103,7 @@ export function readRunModel(outDir: string, manifest: Manifest): { model: Model
     return problem('changed', messages.modelFileChanged(file, recorded.sha256, actual));
   }
   if ('error' in decoded) return problem('undecodable', messages.modelFileUndecodable(file, decoded.error));
+  if (decoded.model.run?.holdoutPredictionsSha256 !== manifest.holdoutPredictionsSha256) return problem('changed', messages.modelFileOtherRun(file));
   return decoded;
 }
 

@@ -8,8 +8,8 @@ import type {
   Recipe,
   SourceFormat,
   SourceSpec,
-} from './recipe-types.js';
-import { dict, dictOf } from './dict.js';
+} from '../core/recipe-types.js';
+import { dict, dictOf, table } from '../core/dict.js';
 
 /** Seed used when the recipe gives none; written into the normalized recipe and the manifest. */
 export const DEFAULT_SEED = 1;
@@ -45,7 +45,7 @@ export const MODEL_DEFAULTS: Record<ModelKind, Record<string, (number | boolean 
 type Raw = Record<string, unknown>;
 
 /** File extensions and the format each implies when a source gives no `format`; anything else is read as csv. */
-export const FORMAT_BY_EXTENSION: Record<string, SourceFormat> = {
+export const FORMAT_BY_EXTENSION: Record<string, SourceFormat> = table({
   csv: 'csv',
   tsv: 'tsv',
   tab: 'tsv',
@@ -60,7 +60,7 @@ export const FORMAT_BY_EXTENSION: Record<string, SourceFormat> = {
   nc4: 'netcdf',
   cdf: 'netcdf',
   netcdf: 'netcdf',
-};
+});
 
 /** The format a file's extension implies (csv when the extension says nothing). */
 export function formatOf(file: string): SourceFormat {

@@ -1,7 +1,9 @@
 import { randomBytes } from 'node:crypto';
-import { lstatSync, mkdirSync, readdirSync, renameSync, rmSync, writeFileSync, writeSync } from 'node:fs';
+import { lstatSync, mkdirSync, mkdtempSync, readdirSync, renameSync, rmdirSync, rmSync, writeFileSync, writeSync } from 'node:fs';
+import { hostname } from 'node:os';
 import { basename, dirname, join } from 'node:path';
-import { DendrologError } from './messages.js';
+import { DendrologError, messages } from '../core/messages.js';
+import { displayOf } from './paths.js';
 import { replaceProblem, RUN_MARKER, runMarker } from './run-folder.js';
 
 /**
@@ -22,7 +24,22 @@ export function prepareRunFolder(target: string): void {
   recoverLeftovers(target);
   const problem = replaceProblem(target);
   if (problem) throw new DendrologError(problem, 2);
+  // a folder that cannot be made or written (a read-only disk, /proc, a name too long) is found now,
+  // not after the work: a probe folder in the nearest folder that exists, removed at once, so a
+  // failed run leaves no folder it made
+  try {
+    let existing = dirname(target);
+    while (lstatSync(existing, { throwIfNoEntry: false }) === undefined) existing = dirname(existing);
+    rmdirSync(mkdtempSync(join(existing, `.${basename(target)}.probe-`)));
+  } catch (e) {
+    const code = (e as NodeJS.ErrnoException).code;
+    if (typeof code !== 'string') throw e;
+    throw new DendrologError(messages.outputUnwritable(displayOf(target), code), 2);
+  }
 }
+
+/** This machine's name as it appears in leftover folder names, so hosts sharing a disk tell theirs apart. */
+const HOST = hostname().replace(/[^A-Za-z0-9.-]/g, '').slice(0, 64) || 'host';
 
 /**
  * Writes a run's files into a fresh temporary folder beside the target, then swaps it into place,
@@ -36,14 +53,14 @@ export function writeFolderAtomically(target: string, files: Record<string, stri
   const parent = dirname(target);
   mkdirSync(parent, { recursive: true });
   prepareRunFolder(target);
-  const tag = `${process.pid}-${randomBytes(4).toString('hex')}`;
+  const tag = `${process.pid}-${randomBytes(4).toString('hex')}-${HOST}`;
   const staging = join(parent, `.${basename(target)}.writing-${tag}`);
   const old = join(parent, `.${basename(target)}.old-${tag}`);
   let movedAside = false;
   mkdirSync(staging);
   try {
     // the marker comes first, so a staging folder a kill leaves behind is recognisably dendrolog's
-    writeFileSync(join(staging, RUN_MARKER), runMarker(Object.keys(files)));
+    writeFileSync(join(staging, RUN_MARKER), runMarker(files));
     for (const [name, content] of Object.entries(files)) writeFileSync(join(staging, name), content);
     if (exists(target)) {
       renameSync(target, old);
@@ -71,7 +88,7 @@ function exists(path: string): boolean {
 
 /**
  * Deals with the folders a killed run leaves beside its target, named as writeFolderAtomically
- * names them (`.<name>.writing-<pid>-<8 hex>`, `.<name>.old-<pid>-<8 hex>`), once the process
+ * names them (`.<name>.writing-<pid>-<8 hex>-<host>`, `.<name>.old-…`), once the process
  * that made them is gone: when the kill fell between the two renames the target is missing and the
  * previous run folder sits aside, so that one is put back; the rest are removed. A folder holding
  * anything a run does not write is left alone, whatever its name.
@@ -79,7 +96,8 @@ function exists(path: string): boolean {
 function recoverLeftovers(target: string): void {
   const parent = dirname(target);
   const name = basename(target).replace(/[.*+?^${}()|[\]\\]/g, '\\$&');
-  const pattern = new RegExp(`^\\.${name}\\.(writing|old)-(\\d+)-[0-9a-f]{8}$`);
+  // the host part is absent in folders of versions before it
+  const pattern = new RegExp(`^\\.${name}\\.(writing|old)-(\\d+)-[0-9a-f]{8}(?:-([A-Za-z0-9.-]+))?$`);
   let entries: string[];
   try {
     entries = readdirSync(parent);
@@ -95,7 +113,7 @@ function recoverLeftovers(target: string): void {
     if (!st?.isDirectory()) continue;
     // a rename sets ctime, so this is when the folder was last written or moved aside
     const time = Math.max(st.mtimeMs, st.ctimeMs);
-    if (!abandoned(Number(m[2]), time)) continue;
+    if (!abandoned(Number(m[2]), time, m[3] ?? HOST)) continue;
     if (replaceProblem(path) === null) leftovers.push({ path, kind: m[1], time });
   }
   if (!exists(target)) {
@@ -108,10 +126,15 @@ function recoverLeftovers(target: string): void {
   for (const l of leftovers) rmSync(l.path, { recursive: true, force: true });
 }
 
-/** Whether the process that made a leftover folder can no longer be writing it. */
-function abandoned(pid: number, time: number): boolean {
+/**
+ * Whether the process that made a leftover folder can no longer be writing it. Another host's
+ * process ids mean nothing here, so its folders count as abandoned only by age.
+ */
+function abandoned(pid: number, time: number, host: string): boolean {
+  if (Date.now() - time > ABANDONED_AFTER_MS) return true;
+  if (host !== HOST) return false;
   // writing is synchronous, so this process is never in the middle of writing another folder
-  if (pid === process.pid || Date.now() - time > ABANDONED_AFTER_MS) return true;
+  if (pid === process.pid) return true;
   try {
     process.kill(pid, 0);
     return false;

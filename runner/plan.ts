@@ -1,15 +1,16 @@
 import { readFileSync } from 'node:fs';
 import { stepRegistry } from '../steps/index.js';
-import { cellLabel, gridCells, varyingParams } from '../steps/model-kinds.js';
-import { hashValue, sha256 } from './hash.js';
+import { cellLabel, gridCells, varyingParams } from '../steps/index.js';
+import { hashValue, sha256 } from '../core/hash.js';
 import { softwareFingerprint } from './environment.js';
-import { DendrologError, messages } from './messages.js';
+import { DendrologError, messages } from '../core/messages.js';
 import type { RecipeOrigin } from './recipe.js';
-import { displayOf, resolveSourcePath } from './recipe.js';
-import type { Recipe, SourceSpec } from './recipe-types.js';
-import type { StepInstance } from './step-types.js';
-import { expressionLocator } from '../steps/expressions.js';
-import { dict } from './dict.js';
+import { resolveSourcePath } from './recipe.js';
+import { displayOf } from './paths.js';
+import type { Recipe, SourceSpec } from '../core/recipe-types.js';
+import type { StepInstance } from '../core/step-types.js';
+import { expressionLocator } from '../steps/index.js';
+import { dict } from '../core/dict.js';
 
 /** Bootstrap resamples behind each holdout interval. */
 export const BOOTSTRAP_RESAMPLES = 1000;

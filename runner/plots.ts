@@ -1,9 +1,9 @@
 import * as vega from 'vega';
 import * as vl from 'vega-lite';
 import type { TopLevelSpec } from 'vega-lite';
-import { varyingParams } from '../steps/model-kinds.js';
+import { varyingParams } from '../steps/index.js';
 import { formatSetting } from './format.js';
-import type { Recipe } from './recipe-types.js';
+import type { Recipe } from '../core/recipe-types.js';
 import type { Results } from './results.js';
 
 /** A rendered figure: inline SVG plus the words a reader without the picture needs. */

@@ -1,8 +1,8 @@
 import { randomBytes } from 'node:crypto';
 import { closeSync, lstatSync, openSync, readSync, realpathSync, renameSync, rmSync, statSync, writeFileSync } from 'node:fs';
-import { basename, dirname, isAbsolute, join, relative, resolve } from 'node:path';
-import { DendrologError, messages } from './messages.js';
-import { displayOf } from './recipe.js';
+import { basename, dirname, join, resolve } from 'node:path';
+import { DendrologError, messages } from '../core/messages.js';
+import { displayOf, isInside } from './paths.js';
 
 /** What predict reads, and so must never write over. */
 export interface PredictInputs {
@@ -36,8 +36,7 @@ export function checkPredictionsTarget(out: string, inputs: PredictInputs): void
   };
   if (isSameFile(inputs.data)) throw new DendrologError(messages.predictionsOverInput(out), 2);
   const folder = realPathOf(resolve(inputs.folder));
-  const rel = relative(folder, real);
-  if (rel === '' || (!rel.startsWith('..') && !isAbsolute(rel))) {
+  if (isInside(folder, real, true)) {
     throw new DendrologError(messages.predictionsIntoRunFolder(out, displayOf(resolve(inputs.folder))), 2);
   }
   for (const p of inputs.runInputs) if (isSameFile(p)) throw new DendrologError(messages.predictionsOverRunInput(out, displayOf(resolve(p))), 2);

@@ -1,17 +1,18 @@
-import { existsSync, lstatSync, readFileSync, realpathSync, statSync } from 'node:fs';
-import { dirname, isAbsolute, relative, resolve } from 'node:path';
-import { sha256 } from './hash.js';
-import { DendrologError, messages, RecipeErrors } from './messages.js';
+import { existsSync, lstatSync, readdirSync, readFileSync, realpathSync, statSync } from 'node:fs';
+import { dirname, isAbsolute, resolve } from 'node:path';
+import { displayOf, isInside } from './paths.js';
+import { sha256 } from '../core/hash.js';
+import { DendrologError, messages, RecipeErrors } from '../core/messages.js';
 import { normalizeRecipe } from './normalize.js';
-import type { ColumnType, Recipe, SourceSpec } from './recipe-types.js';
-import { closest } from './suggest.js';
+import type { ColumnType, Recipe, SourceSpec } from '../core/recipe-types.js';
+import { closest } from '../core/suggest.js';
 import { validateRecipe } from './validate.js';
-import { parseValue } from '../steps/readers/values.js';
-import { COMMON_ENCODINGS, decodeStrict, encodingName } from '../steps/readers/text-decode.js';
-import { expressionProblem } from '../steps/expressions.js';
+import { parseValue } from '../steps/index.js';
+import { COMMON_ENCODINGS, decodeStrict, encodingName } from '../steps/index.js';
+import { expressionProblem } from '../steps/index.js';
 import { readYaml, type PositionedDocument } from './yaml-read.js';
-import { has } from './dict.js';
-import { ARQUERO_UNSAFE_NAMES } from './frame.js';
+import { has } from '../core/dict.js';
+import { ARQUERO_UNSAFE_NAMES } from '../core/frame.js';
 
 /** A recipe describes an analysis; anything larger is data in the wrong place, or an attack on the parser. */
 export const MAX_RECIPE_BYTES = 1 << 20;
@@ -42,6 +43,10 @@ export interface LoadedRecipe {
  */
 export function loadRecipe(path: string, opts: { checkFiles?: boolean } = {}): LoadedRecipe {
   const abs = resolve(path);
+  if (existsSync(abs) && statSync(abs).isDirectory()) {
+    const yamls = readdirSync(abs).filter((f) => /\.ya?ml$/i.test(f)).sort();
+    throw new DendrologError(messages.recipeIsFolder(path, yamls), 2);
+  }
   if (!existsSync(abs) || !statSync(abs).isFile()) throw new DendrologError(messages.recipeFileMissing(path), 2);
   const displayPath = displayOf(abs);
   const size = statSync(abs).size;
@@ -78,11 +83,7 @@ export function recipeFromText(text: string, displayPath: string): { recipe: Rec
   return { recipe, doc };
 }
 
-/** A path as the user should see it: relative to the working folder when inside it. */
-export function displayOf(abs: string): string {
-  const rel = relative(process.cwd(), abs);
-  return rel && !rel.startsWith('..') && !isAbsolute(rel) ? rel : abs;
-}
+export { displayOf };
 
 /**
  * Resolves a source path against the recipe's folder, refusing paths that leave it (also through links).
@@ -90,13 +91,9 @@ export function displayOf(abs: string): string {
  */
 export function resolveSourcePath(origin: Pick<RecipeOrigin, 'dir'>, file: string): { path: string } | { problem: string } {
   const abs = resolve(origin.dir, file);
-  const inside = (p: string, root: string) => {
-    const rel = relative(root, p);
-    return rel !== '' && !rel.startsWith('..') && !isAbsolute(rel);
-  };
-  if (!inside(abs, origin.dir)) return { problem: messages.sourcePathEscapes(file) };
+  if (!isInside(origin.dir, abs)) return { problem: messages.sourcePathEscapes(file) };
   if (!existsSync(abs)) return { problem: messages.sourceFileMissing(file, displayOf(abs)) };
-  if (!inside(realpathSync(abs), realpathSync(origin.dir))) return { problem: messages.sourcePathEscapes(file) };
+  if (!isInside(realpathSync(origin.dir), realpathSync(abs))) return { problem: messages.sourcePathEscapes(file) };
   // a folder (or a device, a pipe) would fail deep in a reader, or block it, instead of here
   const st = statSync(abs);
   if (!st.isFile()) return { problem: messages.sourceNotAFile(file, displayOf(abs), st.isDirectory()) };
@@ -110,12 +107,8 @@ export function resolveSourcePath(origin: Pick<RecipeOrigin, 'dir'>, file: strin
  */
 function checkReportFolder(folder: string, origin: RecipeOrigin, onDisk: boolean): string[] {
   const problem = [`${origin.doc.where(['report', 'folder'])}: ${messages.reportFolderEscapes(folder)}`];
-  const within = (p: string, root: string) => {
-    const rel = relative(root, p);
-    return rel === '' || (!rel.startsWith('..') && !isAbsolute(rel));
-  };
   const abs = resolve(origin.dir, folder);
-  if (isAbsolute(folder) || !within(abs, origin.dir)) return problem;
+  if (isAbsolute(folder) || !isInside(origin.dir, abs, true)) return problem;
   if (!onDisk) return [];
   // the part that exists decides where the run folder would land; the recipe's folder exists
   let existing = abs;
@@ -128,7 +121,7 @@ function checkReportFolder(folder: string, origin: RecipeOrigin, onDisk: boolean
   };
   while (!present(existing)) existing = dirname(existing);
   try {
-    return within(realpathSync(existing), realpathSync(origin.dir)) ? [] : problem;
+    return isInside(realpathSync(origin.dir), realpathSync(existing), true) ? [] : problem;
   } catch {
     // a link to nowhere: where the run would write cannot be told
     return problem;
@@ -221,6 +214,10 @@ function checkMeaning(recipe: Recipe, doc: PositionedDocument): string[] {
   };
 
   for (const name of sourceNames) problems.push(...checkSource(recipe.sources[name], name, doc));
+  // a terminal escape or a NUL in the title would reach summary.md and anyone who prints it
+  // eslint-disable-next-line no-control-regex -- finding control characters is the point
+  const control = /[\u0000-\u0008\u000b-\u001f\u007f]/.exec(recipe.title);
+  if (control) add(['title'], messages.controlCharacter('title', control[0].charCodeAt(0)));
 
   recipe.join.forEach((j, i) => {
     const other = recipe.sources[j.with];

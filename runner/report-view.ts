@@ -1,13 +1,14 @@
 import type { MetricSet } from '../models/metrics.js';
-import { cellLabel, varyingParams } from '../steps/model-kinds.js';
+import { cellLabel, varyingParams } from '../steps/index.js';
 import { formatCount, formatNumber, formatSetting } from './format.js';
 import type { Manifest } from './manifest.js';
-import type { Recipe } from './recipe-types.js';
+import type { Recipe } from '../core/recipe-types.js';
 import type { Results } from './results.js';
 import type { Figure } from './plots.js';
 import { BOOTSTRAP_RESAMPLES } from './plan.js';
+import { table } from '../core/dict.js';
 
-const METRIC_LABELS: Record<string, string> = { r2: 'R²', rmse: 'RMSE', mae: 'MAE', bias: 'Bias (mean error)' };
+const METRIC_LABELS: Record<string, string> = table({ r2: 'R²', rmse: 'RMSE', mae: 'MAE', bias: 'Bias (mean error)' });
 
 /** Everything the templates show, already formatted: templates only lay it out and escape it. */
 export function reportView(recipe: Recipe, results: Results, manifest: Manifest, figures: Record<string, Figure[]> = {}) {

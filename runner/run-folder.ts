@@ -1,9 +1,10 @@
 import { existsSync, lstatSync, readdirSync, readFileSync } from 'node:fs';
 import { dirname, join } from 'node:path';
-import { DendrologError, messages } from './messages.js';
+import { DendrologError, messages } from '../core/messages.js';
 import { manifestProblems, type Manifest } from './manifest.js';
-import { displayOf } from './recipe.js';
-import { parseJson } from './dict.js';
+import { displayOf } from './paths.js';
+import { parseJson } from '../core/dict.js';
+import { sha256 } from '../core/hash.js';
 
 /**
  * Reads and checks a run folder's manifest.json; stops with a clear message when it is missing or
@@ -37,12 +38,40 @@ const UNMARKED_RUN_FILES = new Set(['manifest.json', 'report.html', 'summary.md'
 
 /**
  * The marker's text: which files dendrolog put in the folder, so that replacing the folder later
- * can tell them from files someone added.
+ * can tell them from files someone added, and each file's SHA-256, so that verify can tell a file
+ * edited or deleted after the run (a report whose numbers were changed by hand) from the run's own.
  *
- * Example: `runMarker(['report.html'])` → `{"dendrolog_run_folder": 1, "files": ["report.html"]}`
+ * Example: `runMarker({'report.html': html})` → `{"dendrolog_run_folder": 1, "files": ["report.html"], "sha256": {...}}`
  */
-export function runMarker(files: string[]): string {
-  return JSON.stringify({ dendrolog_run_folder: MARKER_FORMAT, files: [...files].sort() }, null, 2) + '\n';
+export function runMarker(files: Record<string, string | Uint8Array>): string {
+  const names = Object.keys(files).sort();
+  const sums = Object.fromEntries(names.map((n) => [n, sha256(files[n])]));
+  return JSON.stringify({ dendrolog_run_folder: MARKER_FORMAT, files: names, sha256: sums }, null, 2) + '\n';
+}
+
+/**
+ * What differs between a run folder and what its marker says the run wrote: files missing, replaced
+ * by something other than a plain file, or changed since. Empty for an untouched folder, and for a
+ * folder written before markers held checksums (nothing to compare with).
+ */
+export function runFolderChanges(folder: string): string[] {
+  let marker: { files?: unknown; sha256?: unknown };
+  try {
+    if (!lstatSync(join(folder, RUN_MARKER)).isFile()) return [messages.runFileChanged(RUN_MARKER)];
+    marker = JSON.parse(readFileSync(join(folder, RUN_MARKER), 'utf8')) as typeof marker;
+  } catch {
+    return existsSync(join(folder, RUN_MARKER)) ? [messages.runFileChanged(RUN_MARKER)] : [];
+  }
+  const sums = marker.sha256;
+  if (sums === null || typeof sums !== 'object') return [];
+  const out: string[] = [];
+  for (const [name, sum] of Object.entries(sums as Record<string, unknown>)) {
+    const path = join(folder, name);
+    const st = lstatSync(path, { throwIfNoEntry: false });
+    if (!st) out.push(messages.runFileMissing(name));
+    else if (!st.isFile() || sha256(readFileSync(path)) !== sum) out.push(messages.runFileChanged(name));
+  }
+  return out;
 }
 
 /** The files a folder's marker lists, or null when the folder has no readable marker of this format. */

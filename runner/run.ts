@@ -1,12 +1,13 @@
+import { availableParallelism } from 'node:os';
 import { resolve } from 'node:path';
 import { Cache } from './cache.js';
 import { localExecutor, type Execution } from './execute.js';
-import { buildManifest, manifestProblems, type Manifest } from './manifest.js';
+import { buildManifest, holdoutPredictionsSha256, manifestProblems, type Manifest } from './manifest.js';
 import { prepareRunFolder, writeFolderAtomically } from './output.js';
 import { planRecipe, type Plan } from './plan.js';
 import type { Progress } from './progress.js';
 import { loadRecipe, type RecipeOrigin } from './recipe.js';
-import type { Recipe } from './recipe-types.js';
+import type { Recipe } from '../core/recipe-types.js';
 import { renderReport, renderSummary } from './render.js';
 import { reportView } from './report-view.js';
 import { gatherResults, type Results } from './results.js';
@@ -20,6 +21,7 @@ export interface RunOptions {
   /** Cache folder; default `.dendrolog/cache` under the working folder. */
   cache?: string;
   noCache?: boolean;
+  /** Threads for grid cells, final fits and trees; default defaultWorkers(), one per core. */
   workers?: number;
   progress: Progress;
 }
@@ -30,6 +32,11 @@ export interface RunResult {
   outDir: string;
   manifest: Manifest;
   results: Results;
+}
+
+/** Threads when none are asked for, for the command line and the API alike: one per core. Results never depend on it. */
+export function defaultWorkers(): number {
+  return availableParallelism();
 }
 
 /** Default cache folder, relative to the working folder. */
@@ -60,9 +67,9 @@ export async function runRecipe(recipePath: string, opts: RunOptions): Promise<R
   prepareRunFolder(outDir);
   // 4–6: plan, execute, gather
   const cache = opts.noCache ? null : new Cache(resolve(opts.cache ?? DEFAULT_CACHE));
-  const { execution, results } = await executeRecipe(recipe, origin, { cache, workers: opts.workers ?? 1, progress: opts.progress });
+  const { execution, results } = await executeRecipe(recipe, origin, { cache, workers: opts.workers ?? defaultWorkers(), progress: opts.progress });
   // 7: render and write
-  const modelBin = writeModelFile(results.headlineFit, recipe);
+  const modelBin = writeModelFile(results.headlineFit, recipe, { holdoutPredictionsSha256: holdoutPredictionsSha256(results) });
   // texts from the data are shortened in the record; the recipe stays whole, since verify reruns it
   const manifest = shortenTexts(
     buildManifest(recipe, origin, execution, results, { started, seconds: (performance.now() - t0) / 1000 }, outDir, modelBin),

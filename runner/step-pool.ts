@@ -1,6 +1,6 @@
 import type { Worker } from 'node:worker_threads';
 import { startModuleWorker } from '../models/worker-start.js';
-import { DendrologError } from './messages.js';
+import { DendrologError } from '../core/messages.js';
 import type { StepJob, StepReply } from './step-worker.js';
 
 /**

@@ -5,10 +5,10 @@
  */
 import { parentPort } from 'node:worker_threads';
 import { stepRegistry } from '../steps/index.js';
-import { decodeOutput, packEntry } from './codec.js';
-import { DendrologError } from './messages.js';
-import { generator, seedString } from './rng.js';
-import type { OutputCodec, StepContext } from './step-types.js';
+import { decodeOutput, packEntry } from '../core/codec.js';
+import { DendrologError } from '../core/messages.js';
+import { generator, seedString } from '../core/rng.js';
+import type { OutputCodec, StepContext } from '../core/step-types.js';
 import { WarningLog } from './warnings.js';
 
 /** What the executor sends for one step. */

@@ -1,10 +1,10 @@
 import { stringify } from 'yaml';
-import { canonicalJson } from './hash.js';
+import { canonicalJson } from '../core/hash.js';
 import type { Manifest } from './manifest.js';
-import { DendrologError, messages, RecipeErrors } from './messages.js';
+import { DendrologError, messages, RecipeErrors } from '../core/messages.js';
 import { recipeFromText } from './recipe.js';
 import { MODEL_DEFAULTS } from './normalize.js';
-import type { CleanStep, FeatureStep, ModelSpec, Recipe } from './recipe-types.js';
+import type { CleanStep, FeatureStep, ModelSpec, Recipe } from '../core/recipe-types.js';
 
 /**
  * The recipe a run record keeps, checked before verify or predict use it: written back in the
@@ -16,12 +16,17 @@ import type { CleanStep, FeatureStep, ModelSpec, Recipe } from './recipe-types.j
  */
 export function recipeFromManifest(manifest: Manifest, manifestPath: string): Recipe {
   const stored: unknown = manifest.recipe.normalized;
-  const where = `${manifestPath} (recipe.normalized)`;
+  // positions in the text written back here would point nowhere in the record: keep only the words,
+  // which name the key (such as models.linear)
+  const where = 'stored recipe';
   let recipe: Recipe;
   try {
     recipe = recipeFromText(stringify(recipeShape(stored)), where).recipe;
   } catch (e) {
-    if (e instanceof RecipeErrors) throw new DendrologError(messages.storedRecipeInvalid(manifestPath, e.problems), 2);
+    if (e instanceof RecipeErrors) {
+      const words = e.problems.map((p) => (p.startsWith(`${where}:`) ? p.slice(where.length).replace(/^:\d+:\d+: /, '') : p));
+      throw new DendrologError(messages.storedRecipeInvalid(manifestPath, words), 2);
+    }
     if (e instanceof TypeError) throw new DendrologError(messages.storedRecipeInvalid(manifestPath, [e.message]), 2);
     throw e;
   }
@@ -66,15 +71,17 @@ function modelShape(m: ModelSpec): Raw {
   return grid.length ? { ...m, grid: Object.fromEntries(grid) } : { kind: m.kind };
 }
 
-function cleanShape(step: CleanStep): Raw {
+function cleanShape(step: CleanStep, i: number): Raw {
   const { kind, ...params } = step;
+  if (typeof kind !== 'string') throw new TypeError(`clean[${i}] has no kind`);
   if (kind === 'drop_missing') return { drop_missing: step.columns };
   if (kind === 'keep_rows') return { keep_rows: step.expr };
   return { [kind]: withoutNulls(params as Raw) };
 }
 
-function featureShape(step: FeatureStep): Raw {
+function featureShape(step: FeatureStep, i: number): Raw {
   const { kind, ...params } = step;
+  if (typeof kind !== 'string') throw new TypeError(`features[${i}] has no kind`);
   if (kind === 'derive') return { derive: step.columns };
   return { [kind]: params };
 }

@@ -1,9 +1,9 @@
 import { Ajv, type ErrorObject } from 'ajv';
 import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
-import { messages } from './messages.js';
+import { messages } from '../core/messages.js';
 import { packageRoot } from './paths.js';
-import { closest } from './suggest.js';
+import { closest } from '../core/suggest.js';
 import type { PositionedDocument } from './yaml-read.js';
 
 let compiled: ReturnType<Ajv['compile']> | undefined;

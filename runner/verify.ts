@@ -3,16 +3,17 @@ import { tmpdir } from 'node:os';
 import { dirname, join, relative, resolve } from 'node:path';
 import { Cache } from './cache.js';
 import { environment, softwareFingerprint } from './environment.js';
-import { sha256 } from './hash.js';
-import { buildManifest } from './manifest.js';
+import { sha256 } from '../core/hash.js';
+import { buildManifest, holdoutPredictionsSha256 } from './manifest.js';
 import { readRunModel, writeModelFile } from './model-file.js';
-import { DendrologError, messages } from './messages.js';
+import { DendrologError, messages } from '../core/messages.js';
 import type { Progress } from './progress.js';
-import { displayOf, type RecipeOrigin } from './recipe.js';
-import type { Recipe } from './recipe-types.js';
-import { readManifest } from './run-folder.js';
+import { type RecipeOrigin } from './recipe.js';
+import { displayOf } from './paths.js';
+import type { Recipe } from '../core/recipe-types.js';
+import { readManifest, runFolderChanges } from './run-folder.js';
 import { executeRecipe } from './run.js';
-import { dict } from './dict.js';
+import { dict } from '../core/dict.js';
 import { recipeFromManifest } from './stored-recipe.js';
 
 export interface Verification {
@@ -89,7 +90,7 @@ export async function verifyRun(folder: string, opts: { workers: number; progres
   let rerun;
   try {
     const { execution, results } = await executeRecipe(recipe, origin, { cache: new Cache(cacheDir), workers: opts.workers, progress: opts.progress });
-    rerun = buildManifest(recipe, origin, execution, results, { started: new Date(), seconds: 0 }, outDir, writeModelFile(results.headlineFit, recipe));
+    rerun = buildManifest(recipe, origin, execution, results, { started: new Date(), seconds: 0 }, outDir, writeModelFile(results.headlineFit, recipe, { holdoutPredictionsSha256: holdoutPredictionsSha256(results) }));
   } finally {
     rmSync(cacheDir, { recursive: true, force: true });
   }
@@ -124,17 +125,20 @@ export async function verifyRun(folder: string, opts: { workers: number; progres
   if (rerun.holdoutPredictionsSha256 !== manifest.holdoutPredictionsSha256) metricDiffs.push('the holdout predictions differ');
   if (manifest.modelFile && rerun.modelFile?.sha256 !== manifest.modelFile.sha256) metricDiffs.push('the headline model the rerun writes to model.bin differs from the recorded one');
 
-  const reproduced = !firstDiff && metricDiffs.length === 0 && !modelBroken && recipeSha === manifest.recipe.sha256;
+  // the files people read (report, summary, predictions) must be the ones the run wrote
+  const folderChanges = runFolderChanges(outDir);
+  const reproduced = !firstDiff && metricDiffs.length === 0 && !modelBroken && folderChanges.length === 0 && recipeSha === manifest.recipe.sha256;
   const where = relative(process.cwd(), outDir) || '.';
   if (reproduced) {
     lines.push(
-      `reproduced: ${where} — all ${manifest.steps.length} step outputs, the metrics of ${manifest.models.length} models, the holdout predictions${manifest.modelFile ? ' and model.bin' : ''} match the manifest`,
+      `reproduced: ${where} — all ${manifest.steps.length} step outputs, the metrics of ${manifest.models.length} models, the holdout predictions${manifest.modelFile ? ' and model.bin' : ''} match the manifest, and the run folder's files are the ones the run wrote`,
     );
     if (modelProblem) lines.push(`note: ${modelProblem.message}`);
     if (envChanges.length) lines.push(`note: ${causes[causes.length - 1]}`);
   } else {
     lines.push(`not reproduced: ${where}`);
     if (modelBroken) lines.push(`model file: ${modelBroken}`);
+    for (const c of folderChanges) lines.push(`run folder: ${c}`);
     if (firstDiff) lines.push(`first difference: ${firstDiff}`);
     else lines.push(`every step output matches${metricDiffs.length ? ', but ' + metricDiffs.join('; ') : ''}`);
     for (const d of firstDiff ? metricDiffs : []) lines.push(`also: ${d}`);

@@ -1,5 +1,5 @@
 import { isMap, isPair, isScalar, LineCounter, parseDocument, visit, type Document, type Node } from 'yaml';
-import { messages } from './messages.js';
+import { messages } from '../core/messages.js';
 
 /** A YAML document read with its positions, so later errors can point at file:line:column. */
 export interface PositionedDocument {
@@ -100,8 +100,9 @@ function nodeOffset(doc: Document, path: (string | number)[]): number {
 
 /**
  * Keys that repeat within one mapping, at the repeat's position, in time linear in the keys. Scalar
- * keys are equal when their values are (so `1` and `"1"` differ, as in YAML); other keys compare by
- * their source text.
+ * keys are equal when they become the same JavaScript property: `true` and `"true"`, or `1` and
+ * `"1"`, differ in YAML but would overwrite each other in the recipe that is read, so they repeat
+ * here. Other keys compare by their source text.
  */
 function duplicateKeys(doc: Document, text: string): { offset: number; message: string }[] {
   const out: { offset: number; message: string }[] = [];
@@ -111,7 +112,7 @@ function duplicateKeys(doc: Document, text: string): { offset: number; message: 
       for (const pair of map.items) {
         const key = pair.key as Node | null;
         if (!key || !key.range) continue;
-        const id = isScalar(key) ? key.value : `\u0000${text.slice(key.range[0], key.range[1])}`;
+        const id = isScalar(key) ? String(key.value) : `\u0000${text.slice(key.range[0], key.range[1])}`;
         if (!seen.has(id)) {
           seen.add(id);
           continue;

@@ -1,6 +1,6 @@
 import { metrics, type MetricSet } from '../models/metrics.js';
-import { messages } from '../runner/messages.js';
-import type { FrameOutput, StepDefinition } from '../runner/step-types.js';
+import { messages } from '../core/messages.js';
+import type { FrameOutput, StepDefinition } from '../core/step-types.js';
 import { targetOf } from './design.js';
 import type { CrossValidateOutput } from './cross-validate.js';
 import type { HoldoutOutput } from './holdout.js';

@@ -1,9 +1,9 @@
-import type { FeatureStep, ModelKind } from '../runner/recipe-types.js';
-import type { FrameOutput, StepDefinition } from '../runner/step-types.js';
+import type { FeatureStep, ModelKind } from '../core/recipe-types.js';
+import type { FrameOutput, StepDefinition } from '../core/step-types.js';
 import { applyDesign, learnDesign, targetOf, type LearnedDesign } from './design.js';
 import { foldRows, type FoldsOutput } from './folds.js';
-import { column, type Frame } from '../runner/frame.js';
-import { DendrologError, messages } from '../runner/messages.js';
+import { column, type Frame } from '../core/frame.js';
+import { DendrologError, messages } from '../core/messages.js';
 import { EngineInputError } from '../models/engine-errors.js';
 import { LinearModelError } from '../models/linear.js';
 import type { HoldoutOutput } from './holdout.js';

@@ -1,7 +1,7 @@
-import { columnFromValues, toArquero, type Frame } from '../runner/frame.js';
-import type { FrameOutput, StepDefinition } from '../runner/step-types.js';
+import { columnFromValues, toArquero, type Frame } from '../core/frame.js';
+import type { FrameOutput, StepDefinition } from '../core/step-types.js';
 import { assertRowWise, checkTextSize, expressionSite, withinBudget } from './expressions.js';
-import { dict } from '../runner/dict.js';
+import { dict } from '../core/dict.js';
 
 export interface DeriveParams {
   columns: Record<string, string>;

@@ -1,7 +1,7 @@
-import { column, isMissing, type Frame } from '../runner/frame.js';
-import { DendrologError, messages } from '../runner/messages.js';
-import type { FeatureStep } from '../runner/recipe-types.js';
-import { dict, has } from '../runner/dict.js';
+import { column, isMissing, type Frame } from '../core/frame.js';
+import { DendrologError, messages } from '../core/messages.js';
+import type { FeatureStep } from '../core/recipe-types.js';
+import { dict, has } from '../core/dict.js';
 
 import type { Matrix } from '../models/checks.js';
 

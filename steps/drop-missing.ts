@@ -1,6 +1,6 @@
-import { column, isMissing, takeRows } from '../runner/frame.js';
-import type { FrameOutput, StepDefinition } from '../runner/step-types.js';
-import { dict } from '../runner/dict.js';
+import { column, isMissing, takeRows } from '../core/frame.js';
+import type { FrameOutput, StepDefinition } from '../core/step-types.js';
+import { dict } from '../core/dict.js';
 
 export interface DropMissingParams {
   columns: string[];

@@ -1,6 +1,6 @@
-import { column, takeRows, type Column, type Frame } from '../runner/frame.js';
-import { shuffle } from '../runner/rng.js';
-import type { FrameOutput, StepDefinition } from '../runner/step-types.js';
+import { column, takeRows, type Column, type Frame } from '../core/frame.js';
+import { shuffle } from '../core/rng.js';
+import type { FrameOutput, StepDefinition } from '../core/step-types.js';
 import { applyDesign, targetOf } from './design.js';
 import type { FitOutput } from './fit.js';
 import type { HoldoutOutput } from './holdout.js';

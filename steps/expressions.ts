@@ -12,7 +12,7 @@
 import * as aq from 'arquero';
 import { hasAggregate, hasWindow } from 'arquero/src/op/index.js';
 import vm from 'node:vm';
-import { DendrologError, messages } from '../runner/messages.js';
+import { DendrologError, messages } from '../core/messages.js';
 
 /** An aggregate or window function call inside an expression, with its character offsets. */
 export interface WholeTableCall {
@@ -62,13 +62,15 @@ export function expressionProblem(expr: string): ExpressionProblem | undefined {
       throw new Error(`${msg}: "${expr.slice(node.start - PARSE_PREFIX, node.end - PARSE_PREFIX)}"`);
     },
   };
+  let tree: unknown;
   try {
-    aq.parse({ x: expr }, options);
+    // one parse: the tree it returns is walked for calls whose value changes from run to run
+    tree = (aq.parse({ x: expr }, { ...options, ast: true }) as unknown as { exprs: unknown[] }).exprs[0];
   } catch (e) {
     if (call) return { kind: 'whole-table', call };
     return { kind: 'compile', detail: (e as Error).message.split('\n')[0] };
   }
-  const name = unrepeatableCall((aq.parse({ x: expr }, { ...options, ast: true }) as unknown as { exprs: unknown[] }).exprs[0]);
+  const name = unrepeatableCall(tree);
   return name ? { kind: 'not-repeatable', name } : undefined;
 }
 
@@ -212,6 +214,11 @@ export function checkTextSize(site: ExpressionSite, values: ArrayLike<unknown>):
   let total = 0;
   for (let i = 0; i < values.length; i++) {
     const v = values[i];
+    // a list (op.match gives one) or a record is no column value: it would turn into text and then
+    // into a missing number far from here
+    if (v !== null && typeof v === 'object' && !(v instanceof Date)) {
+      throw new DendrologError(located(site, messages.expressionNotAValue(site.step, site.expr, Array.isArray(v) ? 'a list' : 'a record', i + 1)), 1);
+    }
     if (typeof v !== 'string') continue;
     if (v.length > MAX_TEXT_VALUE_CHARS) {
       throw new DendrologError(located(site, messages.expressionTextTooLong(site.step, site.expr, v.length, MAX_TEXT_VALUE_CHARS, 'one value')), 1);

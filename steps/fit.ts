@@ -1,12 +1,12 @@
-import type { FeatureStep, ModelKind } from '../runner/recipe-types.js';
-import type { FrameOutput, StepDefinition } from '../runner/step-types.js';
-import { column, type Frame } from '../runner/frame.js';
+import type { FeatureStep, ModelKind } from '../core/recipe-types.js';
+import type { FrameOutput, StepDefinition } from '../core/step-types.js';
+import { column, type Frame } from '../core/frame.js';
 import type { ChooseOutput } from './choose.js';
 import { applyDesign, learnDesign, targetOf, type LearnedDesign } from './design.js';
 import { engineCall } from './cross-validate.js';
 import type { HoldoutOutput } from './holdout.js';
 import { modelKinds, type Cell } from './model-kinds.js';
-import { dict } from '../runner/dict.js';
+import { dict } from '../core/dict.js';
 
 export interface FitParams {
   model: string;

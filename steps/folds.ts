@@ -1,8 +1,8 @@
-import { column } from '../runner/frame.js';
-import { DendrologError, messages } from '../runner/messages.js';
-import { shuffle } from '../runner/rng.js';
-import type { SplitBy } from '../runner/recipe-types.js';
-import type { FrameOutput, StepDefinition } from '../runner/step-types.js';
+import { column } from '../core/frame.js';
+import { DendrologError, messages } from '../core/messages.js';
+import { shuffle } from '../core/rng.js';
+import type { SplitBy } from '../core/recipe-types.js';
+import type { FrameOutput, StepDefinition } from '../core/step-types.js';
 import type { HoldoutOutput } from './holdout.js';
 import { DAY_MS, rowsByGroup, timesOf } from './split-util.js';
 
@@ -47,7 +47,8 @@ export const folds: StepDefinition<FoldsParams, FoldsOutput> = {
     const position = new Map(split.train.map((r, k) => [r, k] as const));
     const fold = new Array<number>(split.train.length).fill(0);
     if (split.train.length < params.k * 2) {
-      throw new DendrologError(messages.tooFewRows(split.train.length, params.k * 2, `${params.k} folds`), 1);
+      const all = split.train.length + split.test.length;
+      throw new DendrologError(messages.foldsTooFew(split.train.length, 'rows', split.test.length, all, params.k, params.k * 2), 1);
     }
     if (params.by === 'time' && params.time) {
       const t = timesOf(frame, params.time, split.train);
@@ -77,7 +78,7 @@ export const folds: StepDefinition<FoldsParams, FoldsOutput> = {
     if (params.by === 'groups' && params.groups) {
       const groups = shuffle([...rowsByGroup(frame, params.groups, split.train).values()], rand);
       if (groups.length < params.k) {
-        throw new DendrologError(messages.tooFewRows(groups.length, params.k, `grouped folds (counting groups, not rows)`), 1);
+        throw new DendrologError(messages.foldsTooFew(groups.length, 'groups', split.testGroups, split.testGroups + groups.length, params.k, params.k), 1);
       }
       // stable sort keeps the shuffled order among equal sizes
       groups.sort((a, b) => b.length - a.length);

@@ -1,8 +1,8 @@
-import { column } from '../runner/frame.js';
-import { DendrologError, messages } from '../runner/messages.js';
-import { shuffle } from '../runner/rng.js';
-import type { SplitBy } from '../runner/recipe-types.js';
-import type { FrameOutput, StepDefinition } from '../runner/step-types.js';
+import { column } from '../core/frame.js';
+import { DendrologError, messages } from '../core/messages.js';
+import { shuffle } from '../core/rng.js';
+import type { SplitBy } from '../core/recipe-types.js';
+import type { FrameOutput, StepDefinition } from '../core/step-types.js';
 import { parseValue } from './readers/values.js';
 import { rowsByGroup, timesOf } from './split-util.js';
 

@@ -1,4 +1,5 @@
-import type { StepDefinition } from '../runner/step-types.js';
+import type { StepDefinition } from '../core/step-types.js';
+import { dict } from '../core/dict.js';
 import { choose } from './choose.js';
 import { crossValidate } from './cross-validate.js';
 import { derive } from './derive.js';
@@ -16,8 +17,28 @@ import { source } from './source.js';
 import { within } from './within.js';
 
 /** Every step kind, by name. Adding a kind: one file in steps/ and one line here. */
-export const stepRegistry: Record<string, StepDefinition<never, unknown>> = Object.fromEntries(
+export const stepRegistry: Record<string, StepDefinition<never, unknown>> = dict(
   [source, join, replace, dropMissing, keepRows, within, derive, modelTable, holdout, folds, crossValidate, choose, fit, score, explain].map(
     (s) => [s.kind, s as StepDefinition<never, unknown>],
   ),
 );
+
+// What the runner uses of the steps besides the registry: their output types, the grid of a model,
+// the model adapters and design for predict, the expression rules and the text readers the recipe
+// check shares. The runner imports steps/ through this file only.
+export { METRIC_WORDS, better } from './choose.js';
+export type { ChooseOutput } from './choose.js';
+export { constantPredictors } from './cross-validate.js';
+export type { CrossValidateOutput } from './cross-validate.js';
+export { applyDesign } from './design.js';
+export type { ExplainOutput } from './explain.js';
+export { expressionLocator, expressionProblem } from './expressions.js';
+export type { FitOutput } from './fit.js';
+export type { FoldsOutput } from './folds.js';
+export type { HoldoutOutput } from './holdout.js';
+export { cellLabel, gridCells, modelKinds, varyingParams } from './model-kinds.js';
+export type { ColumnProfile } from './profile.js';
+export { readHeaderLine } from './readers/csv.js';
+export { COMMON_ENCODINGS, StrictTextStream, decodeStrict, encodingName } from './readers/text-decode.js';
+export { parseValue } from './readers/values.js';
+export type { ScoreOutput } from './score.js';

@@ -1,5 +1,5 @@
-import { column, takeRows, type Column, type Frame } from '../runner/frame.js';
-import type { FrameOutput, StepDefinition } from '../runner/step-types.js';
+import { column, takeRows, type Column, type Frame } from '../core/frame.js';
+import type { FrameOutput, StepDefinition } from '../core/step-types.js';
 
 export interface JoinParams {
   with: string;

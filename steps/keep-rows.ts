@@ -1,6 +1,6 @@
-import { takeRows, toArquero } from '../runner/frame.js';
-import { DendrologError, messages } from '../runner/messages.js';
-import type { FrameOutput, StepDefinition } from '../runner/step-types.js';
+import { takeRows, toArquero } from '../core/frame.js';
+import { DendrologError, messages } from '../core/messages.js';
+import type { FrameOutput, StepDefinition } from '../core/step-types.js';
 import { assertRowWise, expressionSite, withinBudget } from './expressions.js';
 
 export interface KeepRowsParams {

@@ -1,6 +1,6 @@
 import { deserializeLinear, fitLinear, predictLinear, serializeLinear } from '../models/linear.js';
 import { deserializeMean, fitMean, predictMean, serializeMean } from '../models/mean.js';
-import type { ModelKind } from '../runner/recipe-types.js';
+import type { ModelKind } from '../core/recipe-types.js';
 import type { Matrix } from './design.js';
 
 /** One grid cell: a value for each hyperparameter of the model kind. */
@@ -23,29 +23,22 @@ export interface ModelKindAdapter {
 // The forest engine loads on first use, so runs without tree models never start its worker pool.
 const forestEngine = () => import('../models/forest.js');
 
-/** `mtry: null` means one third of the predictors, rounded down, at least 1 (common practice for regression). */
-export function resolveMtry(mtry: number | null, predictors: number): number {
-  if (mtry === null) return Math.max(1, Math.floor(predictors / 3));
-  if (mtry < 1) return Math.max(1, Math.floor(mtry * predictors));
-  return mtry;
-}
-
 export const modelKinds: Record<ModelKind, ModelKindAdapter> = {
   random_forest: {
     async fit(x, y, cell, opts) {
       const { fitForest, oob, serializeForest } = await forestEngine();
-      const mtry = resolveMtry(cell.mtry as number | null, x.names.length);
       const forest = await fitForest(x, y, {
         trees: cell.trees as number,
         maxDepth: cell.max_depth as number | null,
         minLeaf: cell.min_leaf as number,
-        mtry,
+        // the engine alone resolves null and fractions, so the count recorded is the count used
+        mtry: cell.mtry as number | null,
         sampleFraction: cell.sample_fraction as number,
         replace: cell.replace as boolean,
         seed: opts.seed,
         workers: opts.workers,
       });
-      return { bytes: serializeForest(forest), used: { ...cell, mtry }, oobR2: oob(forest).r2 };
+      return { bytes: serializeForest(forest), used: { ...cell, mtry: forest.options.mtry }, oobR2: oob(forest).r2 };
     },
     async predict(bytes, x) {
       const { deserializeForest, predictForest } = await forestEngine();

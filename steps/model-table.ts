@@ -1,6 +1,6 @@
-import { column, isMissing, takeRows, type Frame } from '../runner/frame.js';
-import { DendrologError, messages } from '../runner/messages.js';
-import type { FrameOutput, StepDefinition } from '../runner/step-types.js';
+import { column, isMissing, takeRows, type Frame } from '../core/frame.js';
+import { DendrologError, messages } from '../core/messages.js';
+import type { FrameOutput, StepDefinition } from '../core/step-types.js';
 
 export interface ModelTableParams {
   target: string;

@@ -1,5 +1,5 @@
-import { isMissing, type Frame } from '../runner/frame.js';
-import type { ColumnType } from '../runner/recipe-types.js';
+import { isMissing, type Frame } from '../core/frame.js';
+import type { ColumnType } from '../core/recipe-types.js';
 
 export interface ColumnProfile {
   name: string;

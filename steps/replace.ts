@@ -1,6 +1,6 @@
-import type { Frame } from '../runner/frame.js';
-import type { FrameOutput, StepDefinition } from '../runner/step-types.js';
-import { dict } from '../runner/dict.js';
+import type { Frame } from '../core/frame.js';
+import type { FrameOutput, StepDefinition } from '../core/step-types.js';
+import { dict } from '../core/dict.js';
 
 export interface ReplaceParams {
   columns: string[];

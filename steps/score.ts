@@ -1,12 +1,12 @@
 import { metrics, type MetricSet } from '../models/metrics.js';
-import { column } from '../runner/frame.js';
-import type { FrameOutput, StepDefinition } from '../runner/step-types.js';
+import { column } from '../core/frame.js';
+import type { FrameOutput, StepDefinition } from '../core/step-types.js';
 import { applyDesign, targetOf } from './design.js';
 import { engineCall } from './cross-validate.js';
 import type { FitOutput } from './fit.js';
 import type { HoldoutOutput } from './holdout.js';
 import { modelKinds } from './model-kinds.js';
-import { dict } from '../runner/dict.js';
+import { dict } from '../core/dict.js';
 
 export interface ScoreParams {
   target: string;

@@ -1,7 +1,7 @@
-import type { Frame } from '../runner/frame.js';
-import { DendrologError, messages } from '../runner/messages.js';
-import type { ColumnType, CoordinateRange, DateFormat, SourceFormat } from '../runner/recipe-types.js';
-import type { FrameOutput, StepDefinition } from '../runner/step-types.js';
+import type { Frame } from '../core/frame.js';
+import { DendrologError, messages } from '../core/messages.js';
+import type { ColumnType, CoordinateRange, DateFormat, SourceFormat } from '../core/recipe-types.js';
+import type { FrameOutput, StepDefinition } from '../core/step-types.js';
 import { readArrow } from './readers/arrow.js';
 import type { Reader, ReadRequest } from './readers/columns.js';
 import { readDelimited } from './readers/delimited.js';
@@ -10,6 +10,7 @@ import { readNetcdf } from './readers/netcdf.js';
 import { readParquet } from './readers/parquet.js';
 import { tableSha256 } from './readers/table-hash.js';
 import { profileFrame } from './profile.js';
+import { table } from '../core/dict.js';
 
 export interface SourceParams {
   /** SHA-256 of the file's bytes: the file's identity in the key, so moving it re-runs nothing. */
@@ -30,14 +31,14 @@ export interface SourceParams {
 }
 
 /** One reader per format; adding a format is one reader file and one line here. */
-export const READERS: Record<SourceFormat, Reader> = {
+export const READERS: Record<SourceFormat, Reader> = table({
   csv: readDelimited,
   tsv: readDelimited,
   json: readJson,
   parquet: readParquet,
   arrow: readArrow,
   netcdf: readNetcdf,
-};
+});
 
 /** The reader's request for a step's params and file, with each option's default filled in. */
 export function readRequest(params: SourceParams, path: string, display: string): ReadRequest {

@@ -1,5 +1,5 @@
-import { column, isMissing, type Frame } from '../runner/frame.js';
-import { DendrologError, messages } from '../runner/messages.js';
+import { column, isMissing, type Frame } from '../core/frame.js';
+import { DendrologError, messages } from '../core/messages.js';
 
 /** Row indices of each group, groups in order of first appearance. */
 export function rowsByGroup(frame: Frame, groups: string, rows?: ArrayLike<number>): Map<string, number[]> {

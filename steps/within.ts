@@ -1,5 +1,5 @@
-import { column, takeRows } from '../runner/frame.js';
-import type { FrameOutput, StepDefinition } from '../runner/step-types.js';
+import { column, takeRows } from '../core/frame.js';
+import type { FrameOutput, StepDefinition } from '../core/step-types.js';
 
 export interface WithinParams {
   column: string;

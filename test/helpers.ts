@@ -52,10 +52,10 @@ export function smallData(): string {
   return lines.join('\n') + '\n';
 }
 
-import type { Frame } from '../runner/frame.js';
-import { DendrologError } from '../runner/messages.js';
-import { generator, seedString } from '../runner/rng.js';
-import type { FrameOutput, StepContext } from '../runner/step-types.js';
+import type { Frame } from '../core/frame.js';
+import { DendrologError } from '../core/messages.js';
+import { generator, seedString } from '../core/rng.js';
+import type { FrameOutput, StepContext } from '../core/step-types.js';
 
 /** A step context for calling a step directly: seeded, one worker, warnings collected. */
 export function stepContext(warnings: string[] = [], seed = 1): StepContext {

@@ -1,6 +1,6 @@
 import { readFileSync } from 'node:fs';
 import { tableFromIPC } from '@uwdata/flechette';
-import { DendrologError, messages } from '../../runner/messages.js';
+import { DendrologError, messages } from '../../core/messages.js';
 import type { ReadRequest, ReadResult } from './columns.js';
 import { buildColumns } from './json.js';
 

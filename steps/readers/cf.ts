@@ -4,6 +4,7 @@
  * time coordinates (`units: "days since 1990-01-01"`, `calendar`).
  * Reference: CF Conventions 1.11, sections 2.5.1 (missing data), 8.1 (packed data), 4.4 (time).
  */
+import { table } from '../../core/dict.js';
 
 /** NetCDF external types as the readers name them. */
 export type NcType = 'byte' | 'ubyte' | 'char' | 'short' | 'ushort' | 'int' | 'uint' | 'int64' | 'uint64' | 'float' | 'double' | 'string';
@@ -13,7 +14,7 @@ export type NcType = 'byte' | 'ubyte' | 'char' | 'short' | 'ushort' | 'int' | 'u
  * variable sets no `_FillValue`. ncdump prints such values as "_" too. Bytes have none in use:
  * the netCDF guide notes every byte value may be data.
  */
-const DEFAULT_FILL: Partial<Record<NcType, number>> = {
+const DEFAULT_FILL: Partial<Record<NcType, number>> = table({
   short: -32767,
   ushort: 65535,
   int: -2147483647,
@@ -23,7 +24,7 @@ const DEFAULT_FILL: Partial<Record<NcType, number>> = {
   uint64: Number(18446744073709551614n),
   float: Math.fround(9.969209968386869e36),
   double: 9.969209968386869e36,
-};
+});
 
 export type Attributes = Record<string, unknown>;
 
@@ -66,7 +67,7 @@ export function unpack(raw: ArrayLike<number>, type: NcType, attrs: Attributes):
   return out;
 }
 
-const UNIT_MS: Record<string, number> = {
+const UNIT_MS: Record<string, number> = table({
   day: 86_400_000,
   days: 86_400_000,
   d: 86_400_000,
@@ -84,7 +85,7 @@ const UNIT_MS: Record<string, number> = {
   sec: 1000,
   secs: 1000,
   s: 1000,
-};
+});
 
 const REFERENCE =
   /^(-?\d{1,4})-(\d{1,2})-(\d{1,2})(?:(?:T|\s+)(\d{1,2}):(\d{1,2})(?::(\d{1,2}(?:\.\d*)?))?)?\s*(Z|UTC|GMT|[+-]\d{1,2}(?::?\d{2})?)?$/i;

@@ -1,5 +1,5 @@
-import type { Column } from '../../runner/frame.js';
-import type { ColumnType, CoordinateRange, DateFormat } from '../../runner/recipe-types.js';
+import type { Column } from '../../core/frame.js';
+import type { ColumnType, CoordinateRange, DateFormat } from '../../core/recipe-types.js';
 import { parseValue, type ValueOptions } from './values.js';
 
 /** What every reader is asked: the file, the declared columns and how to read values. */

@@ -1,5 +1,5 @@
 import { closeSync, fstatSync, openSync, readSync } from 'node:fs';
-import { DendrologError, messages } from '../../runner/messages.js';
+import { DendrologError, messages } from '../../core/messages.js';
 import { StrictTextStream } from './text-decode.js';
 
 /** Receives each record with the 1-based line of the file where it starts. Blank lines are not records. */

@@ -1,4 +1,4 @@
-import { messages, DendrologError } from '../../runner/messages.js';
+import { messages, DendrologError } from '../../core/messages.js';
 
 /** One parsed record with the 1-based line of the file where it starts. */
 export interface CsvRecord {

@@ -1,7 +1,7 @@
 import { statSync } from 'node:fs';
-import { DendrologError, messages } from '../../runner/messages.js';
-import type { ColumnType } from '../../runner/recipe-types.js';
-import { closest } from '../../runner/suggest.js';
+import { DendrologError, messages } from '../../core/messages.js';
+import type { ColumnType } from '../../core/recipe-types.js';
+import { closest } from '../../core/suggest.js';
 import { columnSink, type ColumnSink, type ReadRequest, type ReadResult } from './columns.js';
 import { streamDelimitedFile } from './csv-stream.js';
 import { overflowsFloat, parseValue, typeLabel } from './values.js';

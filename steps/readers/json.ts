@@ -1,6 +1,6 @@
 import { readFileSync } from 'node:fs';
-import { DendrologError, messages } from '../../runner/messages.js';
-import { closest } from '../../runner/suggest.js';
+import { DendrologError, messages } from '../../core/messages.js';
+import { closest } from '../../core/suggest.js';
 import { columnSink, convertValue, showValue, type ReadRequest, type ReadResult } from './columns.js';
 import { decodeStrict } from './text-decode.js';
 import { overflowsFloat, typeLabel } from './values.js';

@@ -1,8 +1,8 @@
 import { closeSync, openSync, readFileSync, readSync, statSync } from 'node:fs';
 import { NetCDFReader } from 'netcdfjs';
-import { DendrologError, messages } from '../../runner/messages.js';
+import { DendrologError, messages } from '../../core/messages.js';
 import type { Attributes, NcType } from './cf.js';
-import { dict } from '../../runner/dict.js';
+import { dict } from '../../core/dict.js';
 
 /** One variable of a NetCDF file, as both backends describe it. */
 export interface NcVariable {

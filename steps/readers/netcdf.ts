@@ -1,12 +1,12 @@
-import type { Column } from '../../runner/frame.js';
-import { DendrologError, messages } from '../../runner/messages.js';
-import type { ColumnType } from '../../runner/recipe-types.js';
-import { closest } from '../../runner/suggest.js';
+import type { Column } from '../../core/frame.js';
+import { DendrologError, messages } from '../../core/messages.js';
+import type { ColumnType } from '../../core/recipe-types.js';
+import { closest } from '../../core/suggest.js';
 import { textOf, timeDecoder, unpack } from './cf.js';
 import type { ReadRequest, ReadResult } from './columns.js';
 import { openNetcdf, type NcFile, type NcVariable } from './netcdf-files.js';
 import { parseDate } from './values.js';
-import { dict } from '../../runner/dict.js';
+import { dict } from '../../core/dict.js';
 
 const NUMERIC = new Set(['byte', 'ubyte', 'short', 'ushort', 'int', 'uint', 'int64', 'uint64', 'float', 'double']);
 

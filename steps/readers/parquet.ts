@@ -1,8 +1,8 @@
 import { asyncBufferFromFile, parquetMetadataAsync, parquetRead, parquetSchema, type FileMetaData } from 'hyparquet';
-import type { Column } from '../../runner/frame.js';
-import { DendrologError, messages } from '../../runner/messages.js';
-import type { ColumnType } from '../../runner/recipe-types.js';
-import { closest } from '../../runner/suggest.js';
+import type { Column } from '../../core/frame.js';
+import { DendrologError, messages } from '../../core/messages.js';
+import type { ColumnType } from '../../core/recipe-types.js';
+import { closest } from '../../core/suggest.js';
 import { convertValue, showValue, type ReadRequest, type ReadResult } from './columns.js';
 import { overflowsFloat, typeLabel } from './values.js';
 

@@ -1,7 +1,7 @@
 import { createHash, type Hash } from 'node:crypto';
-import type { Frame } from '../../runner/frame.js';
+import type { Frame } from '../../core/frame.js';
 
-const MAGIC = 0x31544c44; // "DLT1" little-endian, as runner/frame.ts writes it
+const MAGIC = 0x31544c44; // "DLT1" little-endian, as core/frame.ts writes it
 /** Text values stringified per piece: keeps every string small however long the column. */
 const PIECE = 8192;
 

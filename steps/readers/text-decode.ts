@@ -1,4 +1,4 @@
-import { DendrologError, messages } from '../../runner/messages.js';
+import { DendrologError, messages } from '../../core/messages.js';
 
 /** Where a byte sequence stops being text in its encoding: 0-based byte offset, 1-based line, and the byte there. */
 export interface UndecodableAt {
@@ -52,7 +52,11 @@ function shownName(label: string): string {
 /** The default failure: a source file's bytes are not text in its (declared or default) encoding. */
 function sourceFailure(display: string, label: string): (at: UndecodableAt) => Error {
   const declared = encodingName(label) !== 'utf-8';
-  return (at) => new DendrologError(messages.textNotDecodable(display, at.line, at.offset, at.byte, shownName(label), declared), 1);
+  return (at) => {
+    // FF FE and FE FF open UTF-16 files (little- and big-endian); no UTF-8 or Latin text starts so
+    const utf16 = at.offset === 0 && encodingName(label) === 'utf-8' ? ({ 0xff: 'utf-16le', 0xfe: 'utf-16be' } as const)[at.byte as 0xff | 0xfe] : undefined;
+    return new DendrologError(messages.textNotDecodable(display, at.line, at.offset, at.byte, shownName(label), declared, utf16), 1);
+  };
 }
 
 /** A surrogate, incomplete sequence or multi-byte lead is at most this many bytes before the next chunk. */

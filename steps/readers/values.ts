@@ -1,7 +1,8 @@
-import type { ColumnType, DateFormat } from '../../runner/recipe-types.js';
+import type { ColumnType, DateFormat } from '../../core/recipe-types.js';
+import { table } from '../../core/dict.js';
 
 /** A typed column: numbers and dates as Float64Array (NaN for missing, dates as ms since epoch), text as strings. */
-export type ColumnValues = Float64Array | (string | null)[];
+export type { ColumnValues } from '../../core/frame.js';
 
 /** How text values are read: the decimal mark of numbers and the layout of dates. */
 export interface ValueOptions {
@@ -18,13 +19,13 @@ const NUMBER = /^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?$/;
 const NUMBER_COMMA = /^[+-]?(\d+,?\d*|,\d+)([eE][+-]?\d+)?$/;
 const DATE = /^(\d{4})-(\d{2})-(\d{2})(?:[T ](\d{2}):(\d{2})(?::(\d{2})(?:\.(\d+))?)?(Z|[+-]\d{2}:?\d{2})?)?$/;
 /** Day-month-year layouts: groups are the date parts in the order the format names them, then hour and minute. */
-const LAYOUTS: Record<Exclude<DateFormat, 'YYYY-MM-DD'>, { re: RegExp; order: ['y' | 'm' | 'd', 'y' | 'm' | 'd', 'y' | 'm' | 'd']; time: boolean }> = {
+const LAYOUTS: Record<Exclude<DateFormat, 'YYYY-MM-DD'>, { re: RegExp; order: ['y' | 'm' | 'd', 'y' | 'm' | 'd', 'y' | 'm' | 'd']; time: boolean }> = table({
   'DD/MM/YYYY': { re: /^(\d{1,2})\/(\d{1,2})\/(\d{4})$/, order: ['d', 'm', 'y'], time: false },
   'MM/DD/YYYY': { re: /^(\d{1,2})\/(\d{1,2})\/(\d{4})$/, order: ['m', 'd', 'y'], time: false },
   'DD.MM.YYYY': { re: /^(\d{1,2})\.(\d{1,2})\.(\d{4})$/, order: ['d', 'm', 'y'], time: false },
   'YYYY-MM-DD HH:mm': { re: /^(\d{4})-(\d{2})-(\d{2})[T ](\d{2}):(\d{2})$/, order: ['y', 'm', 'd'], time: true },
   'DD/MM/YYYY HH:mm': { re: /^(\d{1,2})\/(\d{1,2})\/(\d{4}) (\d{2}):(\d{2})$/, order: ['d', 'm', 'y'], time: true },
-};
+});
 
 /**
  * Parses one text value as its declared type. Returns `null` for missing, `undefined` when it does not parse.

@@ -12,9 +12,9 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { parquetWriteFile } from 'hyparquet-writer';
-import type { Frame } from '../../runner/frame.js';
-import type { ColumnType } from '../../runner/recipe-types.js';
-import type { FrameOutput } from '../../runner/step-types.js';
+import type { Frame } from '../../core/frame.js';
+import type { ColumnType } from '../../core/recipe-types.js';
+import type { FrameOutput } from '../../core/step-types.js';
 import { source, type SourceParams } from '../../steps/source.js';
 
 const COLUMNS: Record<string, ColumnType> = {

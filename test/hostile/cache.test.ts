@@ -8,9 +8,9 @@ import { copyFileSync, existsSync, readdirSync, readFileSync, truncateSync, writ
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import { Cache } from '../../runner/cache.js';
-import { sha256 } from '../../runner/hash.js';
+import { sha256 } from '../../core/hash.js';
 import type { Manifest } from '../../runner/manifest.js';
-import { messages } from '../../runner/messages.js';
+import { messages } from '../../core/messages.js';
 import { silentProgress } from '../../runner/progress.js';
 import { displayOf, loadRecipe } from '../../runner/recipe.js';
 import { executeRecipe } from '../../runner/run.js';

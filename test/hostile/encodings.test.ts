@@ -7,7 +7,7 @@ import { createHash } from 'node:crypto';
 import { readFileSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
-import { messages } from '../../runner/messages.js';
+import { messages } from '../../core/messages.js';
 import { packageRoot } from '../../runner/paths.js';
 import { displayOf } from '../../runner/recipe.js';
 import { DelimitedStream } from '../../steps/readers/csv-stream.js';
@@ -75,6 +75,15 @@ describe('text sources are decoded strictly', () => {
     const s = scenario({ 'recipe.yaml': placeRecipe('    encoding: utf-16le\n') });
     writeFileSync(dataPath(s), Buffer.concat([Buffer.from([0xff, 0xfe]), Buffer.from(placeData(['Zürich', '東京']), 'utf16le')]));
     expect(categoriesOf(await runOk(s), 'place')).toEqual(['Zürich', '東京'].sort());
+  });
+
+  it('a UTF-16 file read as UTF-8 is named as UTF-16, with the encoding to declare', async () => {
+    const s = scenario({ 'recipe.yaml': placeRecipe() });
+    writeFileSync(dataPath(s), Buffer.concat([Buffer.from([0xff, 0xfe]), Buffer.from(placeData(['Zürich']), 'utf16le')]));
+    await expectOutcome(s.dir, ['run', s.recipe, '--cache', s.cache, '--workers', '1'], {
+      code: 1,
+      err: messages.textNotDecodable(displayOf(dataPath(s)), 1, 0, 0xff, 'UTF-8', false, 'utf-16le'),
+    });
   });
 
   it('a multi-byte character split across the 1 MiB read boundary is read whole', async () => {

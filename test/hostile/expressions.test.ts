@@ -5,11 +5,11 @@
 import { join } from 'node:path';
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { expectOutcome, lineColOf, scenario } from './harness.js';
-import { messages } from '../../runner/messages.js';
+import { messages } from '../../core/messages.js';
 import { displayOf } from '../../runner/recipe.js';
 import { EXPRESSION_BUDGET_VARIABLE, MAX_TEXT_VALUE_CHARS } from '../../steps/expressions.js';
-import type { Frame } from '../../runner/frame.js';
-import type { FrameOutput } from '../../runner/step-types.js';
+import type { Frame } from '../../core/frame.js';
+import type { FrameOutput } from '../../core/step-types.js';
 import { keepRows } from '../../steps/keep-rows.js';
 import { asOutput, SMALL_RECIPE, smallData, stepContext } from '../helpers.js';
 
@@ -193,5 +193,17 @@ describe('expressions whose value changes from run to run', () => {
     const text = SMALL_RECIPE.replace('target: y', 'features:\n  - derive: {x3: "op.year(op.datetime(2024, 0, 1)) + d.x1"}\ntarget: y');
     const s = scenario({ 'recipe.yaml': text });
     await expectOutcome(s.dir, ['check', s.recipe], { code: 0 });
+  });
+});
+
+describe('derived values that are not values', () => {
+  it('stop at the derived column when an expression gives a list, naming the row', async () => {
+    const expr = 'op.match(d.site, /S(\\\\d+)/)';
+    const text = SMALL_RECIPE.replace('target: y', `features:\n  - derive: {x3: "${expr}"}\ntarget: y`);
+    const s = scenario({ 'recipe.yaml': text });
+    await expectOutcome(s.dir, ['run', s.recipe, '--cache', s.cache, '--workers', '1'], {
+      code: 1,
+      err: messages.expressionNotAValue('features[0] derive, column "x3"', 'op.match(d.site, /S(\\d+)/)', 'a list', 1),
+    });
   });
 });

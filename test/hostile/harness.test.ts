@@ -1,7 +1,7 @@
 import { join } from 'node:path';
 import { describe, it } from 'vitest';
 import { expectOutcome, scenario } from './harness.js';
-import { messages } from '../../runner/messages.js';
+import { messages } from '../../core/messages.js';
 describe('bad-input harness', () => {
   it('a good run writes only its run folder and the cache', async () => {
     const s = scenario();

@@ -6,7 +6,7 @@
 import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
-import { LIST_LIMIT, listed, messages } from '../../runner/messages.js';
+import { LIST_LIMIT, listed, messages } from '../../core/messages.js';
 import { displayOf } from '../../runner/recipe.js';
 import { TEXT_LIMIT } from '../../runner/shorten.js';
 import { SMALL_RECIPE, smallData } from '../helpers.js';
@@ -130,5 +130,43 @@ describe('a groups column with gaps', () => {
     const data = SMALL_DATA.replace(/^S1,/gm, ',');
     const s = scenario({ 'data/obs.csv': data });
     await expectOutcome(s.dir, ['run', s.recipe, '--cache', s.cache, '--workers', '1'], { code: 1, err: messages.groupsMissing('site', 5) });
+  });
+});
+
+describe('control characters in the title', () => {
+  for (const [label, yaml, code] of [['ESC', '\\e[31mred', 0x1b], ['NUL', 'a\\0b', 0], ['BEL', 'ring\\a', 7]] as const) {
+    it(`refuse ${label} at the title`, async () => {
+      const text = SMALL_RECIPE.replace('name: small\n', `name: small\ntitle: "${yaml}"\n`);
+      const s = scenario({ 'recipe.yaml': text });
+      await expectOutcome(s.dir, ['check', s.recipe], {
+        code: 2,
+        err: `${displayOf(s.recipe)}:${lineColOf(text, `"${yaml}"`)}: ${messages.controlCharacter('title', code)}`,
+      });
+    });
+  }
+
+  it('accept a tab', async () => {
+    const s = scenario({ 'recipe.yaml': SMALL_RECIPE.replace('name: small\n', 'name: small\ntitle: "a\\tb"\n') });
+    await expectOutcome(s.dir, ['check', s.recipe], { code: 0 });
+  });
+});
+
+describe('a holdout that leaves too little to fold', () => {
+  it('says how much the holdout took and which setting to change', async () => {
+    const text = SMALL_RECIPE.replace('  folds: {k: 3}', '  holdout: {by: random, fraction: 0.95}\n  folds: {k: 3, by: random}');
+    const s = scenario({ 'recipe.yaml': text });
+    await expectOutcome(s.dir, ['run', s.recipe, '--cache', s.cache, '--workers', '1'], {
+      code: 1,
+      err: /^only \d training rows remain after the holdout took \d+ of 60, but 3 folds need at least 6; lower evaluation\.holdout\.fraction/,
+    });
+  });
+
+  it('counts groups when the folds are grouped', async () => {
+    const text = SMALL_RECIPE.replace('  folds: {k: 3}', '  holdout: {fraction: 0.8}\n  folds: {k: 3}');
+    const s = scenario({ 'recipe.yaml': text });
+    await expectOutcome(s.dir, ['run', s.recipe, '--cache', s.cache, '--workers', '1'], {
+      code: 1,
+      err: /^only [0-2] training groups remain after the holdout took \d+ of 12, but 3 folds need at least 3;/,
+    });
   });
 });

@@ -7,13 +7,15 @@
 import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
-import { canonicalJson } from '../../runner/hash.js';
-import { dict, parseJson } from '../../runner/dict.js';
-import { messages } from '../../runner/messages.js';
-import type { ColumnType } from '../../runner/recipe-types.js';
+import { canonicalJson } from '../../core/hash.js';
+import { dict, parseJson } from '../../core/dict.js';
+import { messages } from '../../core/messages.js';
+import type { ColumnType } from '../../core/recipe-types.js';
 import { readSource, fileWith, plain } from '../steps/readers/helpers.js';
 import { displayOf } from '../../runner/recipe.js';
 import { expectOutcome, lineColOf, scenario } from './harness.js';
+import { SMALL_RECIPE, smallData } from '../helpers.js';
+import { timeDecoder } from '../../steps/readers/cf.js';
 
 const RESERVED = ['__proto__', 'constructor', 'toString', 'hasOwnProperty', 'valueOf'];
 
@@ -157,4 +159,27 @@ describe('names that are also members of every object', () => {
     expect(v.impute.toString).toBeUndefined();
     expect(Object.keys(parseJson('{"__proto__": {"a": 1}}') as object)).toEqual(['__proto__']);
   });
+
+  it('read a source file whose extension is "constructor" as csv, the default for an unknown extension', async () => {
+    const s = scenario({ 'recipe.yaml': SMALL_RECIPE.replace('data/obs.csv', 'data/obs.constructor'), 'data/obs.constructor': smallData() });
+    await expectOutcome(s.dir, ['run', s.recipe, '--cache', s.cache, '--workers', '1'], { code: 0, changes: ['out/small/'] });
+  });
+
+  it('do not decode NetCDF time units named "constructor" or "toString"', () => {
+    for (const unit of ['constructor', 'toString', '__proto__']) expect(timeDecoder(`${unit} since 2000-01-01`, undefined).ok).toBe(false);
+    expect(timeDecoder('days since 2000-01-01', undefined).ok).toBe(true);
+  });
+});
+
+describe('keys that YAML tells apart but a recipe cannot', () => {
+  for (const [a, b] of [['true', '"true"'], ['1', '"1"'], ['null', '"null"']]) {
+    it(`refuses ${a} and ${b} in one mapping, at the repeat`, async () => {
+      const text = SMALL_RECIPE.replace('target: y', `features:\n  - derive: {x3: "d.x1 * 2", ${a}: "d.x2 + 1", ${b}: "d.x2 * 100"}\ntarget: y`);
+      const s = scenario({ 'recipe.yaml': text });
+      await expectOutcome(s.dir, ['check', s.recipe], {
+        code: 2,
+        err: `${displayOf(s.recipe)}:${lineColOf(text, `${b}:`)}: ${messages.yamlDuplicateKey(JSON.parse(b))}`,
+      });
+    });
+  }
 });

@@ -11,7 +11,7 @@ import { describe, expect, it } from 'vitest';
 import { metricReasons } from '../../models/metrics.js';
 import { engineMessages } from '../../models/engine-errors.js';
 import type { Manifest } from '../../runner/manifest.js';
-import { messages } from '../../runner/messages.js';
+import { messages } from '../../core/messages.js';
 import { SMALL_RECIPE, smallData } from '../helpers.js';
 import { expectOutcome, lineColOf, scenario } from './harness.js';
 

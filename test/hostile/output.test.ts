@@ -8,7 +8,7 @@ import { existsSync, linkSync, mkdirSync, readdirSync, readFileSync, symlinkSync
 import { join, resolve } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import { cli, expectOutcome, lineColOf, scenario, treeHash } from './harness.js';
-import { messages } from '../../runner/messages.js';
+import { messages } from '../../core/messages.js';
 import { displayOf } from '../../runner/recipe.js';
 import { RUN_MARKER } from '../../runner/run-folder.js';
 import { makeFolder, SMALL_RECIPE, smallData } from '../helpers.js';
@@ -199,6 +199,12 @@ describe('predict --out never writes over what it reads or over the run folder',
     const s = await ranScenario({ 'preds/keep.txt': 'x\n' });
     const out = join(s.dir, 'preds');
     await expectOutcome(s.dir, predict(s, out), { code: 2, err: messages.predictionsNotAFile(out) });
+  });
+
+  it('refuses a file in the run folder whose name starts with two dots', async () => {
+    const s = await ranScenario();
+    const out = join(s.run, '..pred.csv');
+    await expectOutcome(s.dir, predict(s, out), { code: 2, err: messages.predictionsIntoRunFolder(out, displayOf(s.run)) });
   });
 
   it('names a --out folder that does not exist, before any work', async () => {

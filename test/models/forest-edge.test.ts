@@ -9,6 +9,27 @@ import { friedman1 } from '../bench/friedman.js';
 import { sameBits } from './forest-helpers.js';
 
 describe('forest edge cases', () => {
+  for (const [label, factor] of [['2^1000', 2 ** 1000], ['2^-1000', 2 ** -1000]] as const) {
+    it(`grows the same forest on a target scaled by ${label} as on the unscaled one, scaled (squared sums would overflow or underflow)`, async () => {
+      const { x, y } = friedman1(300, 'scaled');
+      const big = y.map((v) => v * factor);
+      const opts = { trees: 20, maxDepth: null, minLeaf: 3, mtry: 3, seed: 's' };
+      const a = await fitForest(x, y, opts);
+      const b = await fitForest(x, big, opts);
+      // multiplying by a power of two is exact, so the trees and predictions agree bit for bit
+      expect(b.trees.map((t) => Array.from(t.feature))).toEqual(a.trees.map((t) => Array.from(t.feature)));
+      expect(sameBits(predictForest(b, x), predictForest(a, x).map((v) => v * factor))).toBe(true);
+      expect(oob(b).r2).toBe(oob(a).r2);
+    });
+  }
+
+  it('grows real splits on a target near 1e300, where it once made none', async () => {
+    const { x, y } = friedman1(300, 'huge');
+    const f = await fitDecisionTree(x, y.map((v) => v * 1e300), { maxDepth: 4, minLeaf: 3, seed: 's' });
+    expect(f.trees[0].feature.length).toBeGreaterThan(1);
+    expect(r2(y.map((v) => v * 1e300), predictForest(f, x)).value).toBeGreaterThan(0.5);
+  });
+
   it('predicts the mean for a constant target and ignores constant predictors', async () => {
     const { x } = friedman1(50, 'const');
     const y = new Float64Array(50).fill(2.5);

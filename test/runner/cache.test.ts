@@ -2,7 +2,7 @@ import { copyFileSync, existsSync, mkdirSync, readFileSync, readdirSync, writeFi
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import { Cache } from '../../runner/cache.js';
-import { sha256 } from '../../runner/hash.js';
+import { sha256 } from '../../core/hash.js';
 import { makeFolder } from '../helpers.js';
 
 const key = sha256('a step');

@@ -1,7 +1,7 @@
 import { join } from 'node:path';
 import { afterEach, describe, expect, it, vi } from 'vitest';
 import { main } from '../../runner/cli.js';
-import { messages } from '../../runner/messages.js';
+import { messages } from '../../core/messages.js';
 import { makeFolder, SMALL_RECIPE, smallData } from '../helpers.js';
 
 function capture() {

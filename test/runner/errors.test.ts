@@ -3,7 +3,7 @@ import { cpSync, rmSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { afterEach, beforeAll, describe, expect, it, vi } from 'vitest';
 import { main } from '../../runner/cli.js';
-import { DendrologError, messages, RecipeErrors } from '../../runner/messages.js';
+import { DendrologError, messages, RecipeErrors } from '../../core/messages.js';
 import { predictRun } from '../../runner/predict.js';
 import { silentProgress } from '../../runner/progress.js';
 import { displayOf, loadRecipe } from '../../runner/recipe.js';

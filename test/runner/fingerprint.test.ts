@@ -7,28 +7,31 @@ import { appendFileSync, cpSync } from 'node:fs';
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import { codeHashes, OUTPUT_ENTRIES } from '../../runner/environment.js';
-import { hashValue } from '../../runner/hash.js';
+import { hashValue } from '../../core/hash.js';
 import { packageRoot } from '../../runner/paths.js';
 import { makeFolder } from '../helpers.js';
 
 /** A copy of the source folders, and a function giving its fingerprint of code. */
 function copyOfSources() {
   const dir = makeFolder({});
-  for (const folder of ['runner', 'steps', 'models']) cpSync(join(packageRoot(), folder), join(dir, folder), { recursive: true });
+  for (const folder of ['core', 'runner', 'steps', 'models']) cpSync(join(packageRoot(), folder), join(dir, folder), { recursive: true });
   return { dir, code: () => hashValue(codeHashes(dir, OUTPUT_ENTRIES)) };
 }
 
 describe('software fingerprint', () => {
   it('covers the files that shape outputs outside steps/ and models/: frames, codecs, generators, hashing', () => {
     const files = Object.keys(codeHashes(packageRoot(), OUTPUT_ENTRIES));
-    for (const f of ['runner/frame.ts', 'runner/codec.ts', 'runner/rng.ts', 'runner/hash.ts', 'runner/dict.ts', 'models/forest-worker.ts', 'steps/readers/csv-stream.ts']) {
+    for (const f of ['core/frame.ts', 'core/codec.ts', 'core/rng.ts', 'core/hash.ts', 'core/dict.ts', 'models/forest-worker.ts', 'steps/readers/csv-stream.ts']) {
       expect(files).toContain(f);
     }
     // the report, the command line and the run record do not shape step outputs
-    for (const f of ['runner/cli.ts', 'runner/render.ts', 'runner/report-view.ts', 'runner/manifest.ts']) expect(files).not.toContain(f);
+    // nor does reading and checking a recipe: a new message wording must not throw the cache away
+    for (const f of ['runner/cli.ts', 'runner/render.ts', 'runner/report-view.ts', 'runner/manifest.ts', 'runner/recipe.ts', 'runner/validate.ts', 'runner/yaml-read.ts']) {
+      expect(files).not.toContain(f);
+    }
   });
 
-  for (const file of ['runner/frame.ts', 'runner/codec.ts', 'runner/rng.ts', 'models/forest-worker.ts']) {
+  for (const file of ['core/frame.ts', 'core/codec.ts', 'core/rng.ts', 'models/forest-worker.ts']) {
     it(`changes when ${file} changes`, () => {
       const copy = copyOfSources();
       const before = copy.code();

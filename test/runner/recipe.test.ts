@@ -1,6 +1,6 @@
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
-import { messages, RecipeErrors } from '../../runner/messages.js';
+import { messages, RecipeErrors } from '../../core/messages.js';
 import { DEFAULT_MISSING, MODEL_DEFAULTS } from '../../runner/normalize.js';
 import { displayOf, loadRecipe } from '../../runner/recipe.js';
 import { makeFolder, SMALL_RECIPE, smallData } from '../helpers.js';

@@ -2,14 +2,14 @@ import { readFileSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import { compareManifests, comparisonMarkdown } from '../../runner/compare.js';
-import { DendrologError, messages } from '../../runner/messages.js';
+import { DendrologError, messages } from '../../core/messages.js';
 import { predictRun } from '../../runner/predict.js';
 import { silentProgress } from '../../runner/progress.js';
 import { displayOf } from '../../runner/recipe.js';
 import { readManifest } from '../../runner/run-folder.js';
 import { runRecipe } from '../../runner/run.js';
 import { verifyRun } from '../../runner/verify.js';
-import { sha256 } from '../../runner/hash.js';
+import { sha256 } from '../../core/hash.js';
 import { makeFolder, SMALL_RECIPE, smallData } from '../helpers.js';
 
 const FOREST = SMALL_RECIPE.replace('mean: {kind: mean}', 'mean: {kind: mean}\n  forest: {kind: random_forest, grid: {trees: 20, min_leaf: [2, 4], mtry: 1}}').replace(

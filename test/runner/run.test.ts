@@ -2,7 +2,7 @@ import { existsSync, readFileSync, readdirSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { describe, expect, it, vi } from 'vitest';
 import { modelKinds } from '../../steps/model-kinds.js';
-import { DendrologError, messages } from '../../runner/messages.js';
+import { DendrologError, messages } from '../../core/messages.js';
 import { silentProgress } from '../../runner/progress.js';
 import { displayOf } from '../../runner/recipe.js';
 import { runRecipe } from '../../runner/run.js';

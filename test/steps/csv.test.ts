@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { DendrologError, messages } from '../../runner/messages.js';
+import { DendrologError, messages } from '../../core/messages.js';
 import { parseDelimited } from '../../steps/readers/csv.js';
 import { parseValue } from '../../steps/readers/values.js';
 

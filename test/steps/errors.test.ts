@@ -1,7 +1,7 @@
 import { describe, expect, it } from 'vitest';
-import type { Frame } from '../../runner/frame.js';
-import type { FeatureStep } from '../../runner/recipe-types.js';
-import { DendrologError, messages } from '../../runner/messages.js';
+import type { Frame } from '../../core/frame.js';
+import type { FeatureStep } from '../../core/recipe-types.js';
+import { DendrologError, messages } from '../../core/messages.js';
 import { applyDesign, learnDesign } from '../../steps/design.js';
 import { folds, type FoldsParams } from '../../steps/folds.js';
 import { holdout, type HoldoutOutput, type HoldoutParams } from '../../steps/holdout.js';

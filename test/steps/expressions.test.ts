@@ -1,6 +1,6 @@
 import { aggregateFunctions, windowFunctions } from 'arquero/src/op/index.js';
 import { describe, expect, it } from 'vitest';
-import { DendrologError } from '../../runner/messages.js';
+import { DendrologError } from '../../core/messages.js';
 import { expressionProblem, withinBudget } from '../../steps/expressions.js';
 
 describe('expressionProblem', () => {

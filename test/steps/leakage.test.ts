@@ -1,7 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import { rmse } from '../../models/metrics.js';
-import type { Frame } from '../../runner/frame.js';
-import type { FeatureStep } from '../../runner/recipe-types.js';
+import type { Frame } from '../../core/frame.js';
+import type { FeatureStep } from '../../core/recipe-types.js';
 import { crossValidate, type CrossValidateOutput } from '../../steps/cross-validate.js';
 import { applyDesign, learnDesign, targetOf } from '../../steps/design.js';
 import { foldRows, type FoldsOutput } from '../../steps/folds.js';

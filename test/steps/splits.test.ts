@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
-import type { Frame } from '../../runner/frame.js';
-import { DendrologError, messages } from '../../runner/messages.js';
+import type { Frame } from '../../core/frame.js';
+import { DendrologError, messages } from '../../core/messages.js';
 import { foldRows, folds, type FoldsOutput } from '../../steps/folds.js';
 import { holdout, type HoldoutOutput } from '../../steps/holdout.js';
 import { asOutput, stepContext } from '../helpers.js';
@@ -106,7 +106,7 @@ describe('folds', () => {
     };
     const s: HoldoutOutput = { train: [...Array(12).keys()], test: [], by: 'random', testGroups: 0, trainGroups: 3, cutoff: null };
     expect(() => folds.run([asOutput(few), s], { k: 4, by: 'groups', gap: 0, groups: 'site', time: null }, stepContext())).toThrow(
-      new DendrologError(messages.tooFewRows(3, 4, 'grouped folds (counting groups, not rows)'), 1),
+      new DendrologError(messages.foldsTooFew(3, 'groups', 0, 3, 4, 4), 1),
     );
   });
 });

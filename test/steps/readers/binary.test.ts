@@ -1,7 +1,7 @@
 import { describe, expect, it } from 'vitest';
-import { encodeFrame } from '../../../runner/frame.js';
-import { sha256 } from '../../../runner/hash.js';
-import { messages } from '../../../runner/messages.js';
+import { encodeFrame } from '../../../core/frame.js';
+import { sha256 } from '../../../core/hash.js';
+import { messages } from '../../../core/messages.js';
 import { tableSha256 } from '../../../steps/readers/table-hash.js';
 import { byName, errorOf, fileWith, readSource } from './helpers.js';
 import { writeArrow, writeParquet } from './writers.js';

@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { messages } from '../../../runner/messages.js';
+import { messages } from '../../../core/messages.js';
 import { parseDelimited } from '../../../steps/readers/csv.js';
 import { DelimitedStream, streamDelimitedFile } from '../../../steps/readers/csv-stream.js';
 import { readDelimited } from '../../../steps/readers/delimited.js';

@@ -3,7 +3,7 @@ import { join } from 'node:path';
 import { tableFromIPC } from '@uwdata/flechette';
 import { asyncBufferFromFile, parquetMetadataAsync, parquetRead } from 'hyparquet';
 import { describe, expect, it } from 'vitest';
-import { messages } from '../../../runner/messages.js';
+import { messages } from '../../../core/messages.js';
 import { errorOf, fileWith, readSource , describeNc, ncgen, NCGEN_INSTALLED } from './helpers.js';
 import { writeParquet } from './writers.js';
 

@@ -2,8 +2,8 @@ import { execFileSync } from 'node:child_process';
 import { writeFileSync } from 'node:fs';
 import { describe } from 'vitest';
 import { join } from 'node:path';
-import type { Column } from '../../../runner/frame.js';
-import type { FrameOutput } from '../../../runner/step-types.js';
+import type { Column } from '../../../core/frame.js';
+import type { FrameOutput } from '../../../core/step-types.js';
 import { source, type SourceParams } from '../../../steps/source.js';
 import { makeFolder, stepContext } from '../../helpers.js';
 

@@ -2,7 +2,7 @@ import { execFileSync } from 'node:child_process';
 import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { expect, it } from 'vitest';
-import { messages } from '../../../runner/messages.js';
+import { messages } from '../../../core/messages.js';
 import { timeDecoder } from '../../../steps/readers/cf.js';
 import { byName, errorOf, fileWith, readSource , describeNc, ncgen } from './helpers.js';
 

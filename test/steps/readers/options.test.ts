@@ -1,6 +1,6 @@
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
-import { messages, RecipeErrors } from '../../../runner/messages.js';
+import { messages, RecipeErrors } from '../../../core/messages.js';
 import { formatOf, normalizeSource } from '../../../runner/normalize.js';
 import { planRecipe } from '../../../runner/plan.js';
 import { loadRecipe } from '../../../runner/recipe.js';

@@ -1,7 +1,7 @@
 import { writeFileSync } from 'node:fs';
 import { tableFromArrays, tableToIPC } from '@uwdata/flechette';
 import { parquetWriteBuffer } from 'hyparquet-writer';
-import type { Frame } from '../../../runner/frame.js';
+import type { Frame } from '../../../core/frame.js';
 
 /** A frame's columns as plain values for the writers: null for missing, Date for dates. */
 function plainColumns(frame: Frame): Record<string, unknown[]> {

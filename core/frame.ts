@@ -1,7 +1,9 @@
 import * as aq from 'arquero';
 import type { ColumnType } from './recipe-types.js';
-import type { ColumnValues } from '../steps/readers/values.js';
 import { dict, has, parseJson } from './dict.js';
+
+/** A column's values: numbers and dates as Float64Array (NaN missing), text as strings (null missing). */
+export type ColumnValues = Float64Array | (string | null)[];
 
 /** A named, typed column. Numbers and dates: Float64Array with NaN for missing (dates in ms since epoch). */
 export interface Column {

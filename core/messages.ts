@@ -95,6 +95,8 @@ export const messages = {
     `"dendrolog ${cmd}" takes ${what}, but got ${got.length} arguments: ${listed(got, ' ')}`,
   dataFileMissing: (path: string) => `${path}: no such data file; give the path of a file shaped like the recipe's main source`,
   dataFileNotAFile: (path: string) => `${path}: is a folder or other non-file; give the path of a data file shaped like the recipe's main source`,
+  recipeIsFolder: (path: string, yamls: string[]) =>
+    `${path} is a folder; give the recipe file inside it` + (yamls.length ? ` (it holds ${listed(yamls.map((y) => q(y)))})` : ', such as recipes/lake-chlorophyll/recipe.yaml'),
   recipeFileMissing: (path: string) =>
     `${path}: no such recipe file; give the path of a recipe.yaml (for example recipes/lake-chlorophyll/recipe.yaml)`,
 
@@ -121,6 +123,8 @@ export const messages = {
     `${where} is ${q(got)}; give the 64 lowercase hex digits of the SHA-256 (sha256sum prints it)`,
   badName: (name: string, where: string, dashes: boolean) =>
     `${q(name)} is not allowed as a name in ${where}; use letters, digits${dashes ? ', underscores and dashes' : ' and underscores'}, starting with a letter or underscore`,
+  controlCharacter: (where: string, code: number) =>
+    `${where} holds the control character U+${code.toString(16).toUpperCase().padStart(4, '0')}, which would reach the report and summary as an invisible or terminal-controlling byte; remove it`,
   listRepeats: (where: string) => `${where} lists the same value twice; remove the repeat`,
   emptyMapping: (where: string) => `${where} is empty; give at least one entry`,
   oneStepPerItem: (where: string) => `${where} holds more than one step; give each step its own list item ("- ")`,
@@ -153,6 +157,8 @@ export const messages = {
     `write an expression over the row's own values, and leave statistics learned from the training rows to a learned feature step (impute, standardize)`,
   expressionNotRepeatable: (expr: string, fn: string) =>
     `expression ${q(expr)} calls op.${fn}${fn === 'random' || fn === 'now' ? '' : ' without arguments'}, whose value changes from run to run, so a rerun would not reproduce the analysis; use the row's own values (a date column, or a fixed date such as op.datetime(2024, 0, 1))`,
+  expressionNotAValue: (step: string, expr: string, what: string, row: number) =>
+    `${step}: expression ${q(expr)} gives ${what} in row ${row}, not a number, text or date (op.match, for example, gives a list); take one element, such as op.match(d.site, /(\\d+)/, 1)`,
   expressionTimeout: (step: string, expr: string, seconds: number, variable: string) =>
     `${step}: expression ${q(expr)} did not finish within its time budget of ${Math.round(seconds * 10) / 10} s (a regular expression that backtracks catastrophically, such as /(a+)+$/, does this); ` +
     `simplify the expression, or raise the budget's base with the environment variable ${variable} (seconds) if it is meant to be this slow`,
@@ -195,9 +201,11 @@ export const messages = {
   csvEmpty: (file: string) => `${file}: the file is empty; it needs a header row`,
   sourceNoRows: (file: string, detail: string) =>
     `${file}: ${detail}, so there is nothing to analyse; add the data rows, or check that the source names the right file`,
-  textNotDecodable: (file: string, line: number, offset: number, byte: number, encoding: string, declared: boolean) =>
+  textNotDecodable: (file: string, line: number, offset: number, byte: number, encoding: string, declared: boolean, utf16?: 'utf-16le' | 'utf-16be') =>
     `${file}:${line}: byte 0x${hexByte(byte)} at byte offset ${offset} is not valid ${encoding} text; ` +
-    (declared
+    (utf16
+      ? `the file starts with a UTF-16 byte order mark: declare "encoding: ${utf16}" on the source`
+      : declared
       ? `check the source's "encoding" (the file may be in another encoding), or fix the file`
       : `save the file as UTF-8, or declare its encoding on the source (for example "encoding: latin1" or "encoding: windows-1252")`),
   csvDuplicateHeader: (file: string, column: string) =>
@@ -256,8 +264,6 @@ export const messages = {
     `variable ${q(variable)} is not declared under "columns"; add "${variable}: number"`,
   targetAllMissing: (column: string) =>
     `the target ${q(column)} has no values left after cleaning; check the cleaning steps and the missing-value tokens`,
-  tooFewRows: (rows: number, needed: number, what: string) =>
-    `only ${rows} rows are left for ${what}, but at least ${needed} are needed; loosen the cleaning steps or use fewer folds`,
   predictorsAllConstant: (columns: string[]) =>
     `every predictor is constant over the training rows (${listed(columns)}), so no model can learn anything from them; check the cleaning steps and the holdout, or add predictors that vary`,
   predictorConstant: (column: string) =>
@@ -276,6 +282,8 @@ export const messages = {
     `the holdout intervals rest on ${what}, too few for a bootstrap to say how much the score varies; read them as unreliable, and use a larger holdout fraction if the data allow`,
   groupsMissing: (column: string, rows: number) =>
     `the groups column ${q(column)} has ${rows} missing values among the modelling rows, and a row without a group cannot be kept on one side of a split; drop them with "drop_missing: [${column}]", or fill them in the data`,
+  foldsTooFew: (left: number, unit: 'rows' | 'groups', heldOut: number, all: number, k: number, needed: number) =>
+    `only ${left} training ${unit} remain after the holdout took ${heldOut} of ${all}, but ${k} folds need at least ${needed}; lower evaluation.holdout.fraction, use fewer folds (evaluation.folds.k), or loosen the cleaning steps`,
   timeMissing: (column: string, rows: number) =>
     `the time column ${q(column)} has ${rows} missing values among the modelling rows; drop them with "drop_missing: [${column}]" or split another way`,
   timeTooFewBlocks: (distinct: number, k: number) =>
@@ -298,6 +306,14 @@ export const messages = {
     `${file}: the recipe this run record keeps is damaged, so the run cannot be rerun or applied (${listed(problems, '; ')}); run the recipe again to write a new record`,
   predictionsFolderMissing: (out: string, folder: string) =>
     `--out ${out}: the folder ${folder} does not exist; create it first, or write the predictions elsewhere`,
+  runFileChanged: (file: string) =>
+    `${file} is not the file the run wrote (its SHA-256 differs from the one the run recorded in .dendrolog-run); it was edited or replaced after the run: restore it from version control, or run the recipe again`,
+  runFileMissing: (file: string) =>
+    `${file}, which the run wrote, is gone from the run folder; restore it from version control, or run the recipe again`,
+  modelFileOtherRun: (file: string) =>
+    `${file} was written by another run (the holdout predictions it carries are not this run's); copy back this run's own model.bin, or run the recipe again`,
+  outputUnwritable: (folder: string, code: string) =>
+    `the run folder ${folder} cannot be written here (${code}: ${FILE_SYSTEM_ADVICE[code] ?? 'see the system error code'}); give --out a folder you can write, nothing was run`,
   recipeOfRunMissing: (file: string) =>
     `the run's recipe ${file} is gone; restore it (the manifest keeps its normalized form and SHA-256) or run the recipe again`,
   sourceOfRunMissing: (file: string) => `source file ${file} of the run is gone; restore it to verify the run`,

@@ -42,3 +42,13 @@ export function parseJson(text: string): unknown {
     v !== null && typeof v === 'object' && !Array.isArray(v) ? Object.assign(Object.create(null) as object, v) : v,
   );
 }
+
+/**
+ * A fixed lookup table without a prototype, for tables indexed by text that comes from a file or a
+ * recipe (an extension, a unit, a format name): a miss is undefined, never an Object.prototype member.
+ *
+ * Example: `table({day: 86400000})['constructor'] === undefined`
+ */
+export function table<T extends object>(entries: T): Readonly<T> {
+  return Object.freeze(Object.assign(Object.create(null) as T, entries));
+}

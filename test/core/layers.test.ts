@@ -1,0 +1,52 @@
+/**
+ * The folders lean one way: core/ under everything, steps/ and models/ on core/, runner/ on steps/
+ * only through the step registry. A change that crosses a line fails here, naming the import.
+ */
+import { readdirSync, readFileSync } from 'node:fs';
+import { join, relative, resolve, sep } from 'node:path';
+import { describe, expect, it } from 'vitest';
+import { packageRoot } from '../../runner/paths.js';
+
+const root = packageRoot();
+
+/** Every relative import in the .ts files under a folder, as [importing file, imported file], both from the root. */
+function importsUnder(folder: string): [string, string][] {
+  const out: [string, string][] = [];
+  const walk = (dir: string) => {
+    for (const e of readdirSync(dir, { withFileTypes: true })) {
+      const p = join(dir, e.name);
+      if (e.isDirectory()) walk(p);
+      else if (e.name.endsWith('.ts') && !e.name.endsWith('.d.ts')) {
+        for (const m of readFileSync(p, 'utf8').matchAll(/from '(\.{1,2}\/[^']+)\.js'/g)) {
+          const target = relative(root, resolve(dir, m[1])).split(sep).join('/');
+          out.push([relative(root, p).split(sep).join('/'), target]);
+        }
+      }
+    }
+  };
+  walk(join(root, folder));
+  return out;
+}
+
+const crossing = (folder: string, allowed: (target: string) => boolean) =>
+  importsUnder(folder)
+    .filter(([, t]) => !allowed(t))
+    .map(([f, t]) => `${f} imports ${t}`);
+
+describe('layers', () => {
+  it('keep core/ free of runner/, steps/ and models/', () => {
+    expect(crossing('core', (t) => t.startsWith('core/'))).toEqual([]);
+  });
+
+  it('keep models/ free of recipes: it imports only models/', () => {
+    expect(crossing('models', (t) => t.startsWith('models/'))).toEqual([]);
+  });
+
+  it('keep steps/ off runner/', () => {
+    expect(crossing('steps', (t) => !t.startsWith('runner/'))).toEqual([]);
+  });
+
+  it('let runner/ reach steps/ only through the registry', () => {
+    expect(crossing('runner', (t) => !t.startsWith('steps/') || t === 'steps/index')).toEqual([]);
+  });
+});
