@@ -39,11 +39,15 @@ export interface JoinSpec {
   keep: 'matched' | 'all';
 }
 
-export type CleanStep =
-  | { kind: 'replace'; columns: string[]; values: (string | number)[]; with: 'missing' | number }
-  | { kind: 'drop_missing'; columns: string[] }
-  | { kind: 'keep_rows'; expr: string }
-  | { kind: 'within'; column: string; min: number | null; max: number | null };
+/**
+ * A cleaning step as normalized: its kind and its parameters, every default written out. Each kind's
+ * parameters are its step definition's own (`steps/<kind>.ts`), which says through its recipe
+ * contract how the step reads, normalizes and checks; nothing outside it switches on the kind.
+ */
+export interface CleanStep {
+  kind: string;
+  [param: string]: unknown;
+}
 
 export type FeatureStep =
   | { kind: 'derive'; columns: Record<string, string> }

@@ -1,4 +1,5 @@
 import type { Frame } from './frame.js';
+import type { ColumnType } from './recipe-types.js';
 
 /** How a step's output becomes bytes for the cache and back. */
 export type OutputCodec = 'frame' | 'json';
@@ -59,6 +60,8 @@ export interface StepDefinition<P = unknown, O = unknown> {
   /** Whether neighbouring instances may run side by side on worker threads (heavy, independent steps). */
   parallel?: boolean;
   run(inputs: unknown[], params: P, ctx: StepContext): O | Promise<O>;
+  /** For kinds a recipe names: where and how (schema, defaults, columns, checks, predict). */
+  recipe?: RecipeContract<P>;
   /** A few words on the output for the progress line, such as "3,120 rows". */
   summary?(output: O): string;
 }
@@ -77,4 +80,41 @@ export interface StepInstance {
   key: string;
   /** The same without the software fingerprint: what random generators are seeded from. */
   seedKey: string;
+}
+
+/** A place in a step's value in the recipe, relative to it (e.g. `['columns', 0]`); `[]` is the value. */
+export type StepPath = (string | number)[];
+
+/** A column a step reads, and where the recipe names it. */
+export interface ColumnRead {
+  column: string;
+  at: StepPath;
+}
+
+/**
+ * How a step kind appears in a recipe, so that the schema, normalization, meaning checks, planning
+ * and predict all follow from its definition. Adding a cleaning step is its file and a registry line.
+ */
+export interface RecipeContract<P> {
+  /** The recipe list it is written in. */
+  section: 'clean';
+  /** JSON schema of the value under the step's key; `#/definitions/...` refers to the recipe schema's. */
+  schema: Record<string, unknown>;
+  /** Parameters from the schema-valid value, with every default written out. */
+  normalize(value: unknown): P;
+  /** The value a recipe would write for these parameters (a stored recipe is read back from it). */
+  shape(params: P): unknown;
+  /** Columns it reads, each where the recipe names it; they must exist at that point of the pipeline. */
+  reads(params: P): ColumnRead[];
+  /** Expressions it evaluates, where the recipe holds each; they are checked as row-wise expressions. */
+  expressions?(params: P): { expr: string; at: StepPath; column?: string }[];
+  /** What the schema cannot see: value ranges, column types at that point (`label` names the step). */
+  check?(params: P, types: ReadonlyMap<string, ColumnType>, label: string): { at: StepPath; message: string }[];
+  /**
+   * For predict on a file without some columns (the target): the step without them, or null when
+   * nothing of it is left to apply.
+   */
+  without(params: P, absent: ReadonlySet<string>): P | null;
+  /** Why the step removed one row, in words about that row, for predict's per-row reasons. */
+  rowReason(params: P, frame: Frame, row: number): string;
 }

@@ -10,6 +10,7 @@ import type {
   SourceSpec,
 } from '../core/recipe-types.js';
 import { dict, dictOf, table } from '../core/dict.js';
+import { recipeContract } from '../steps/index.js';
 
 /** Seed used when the recipe gives none; written into the normalized recipe and the manifest. */
 export const DEFAULT_SEED = 1;
@@ -163,33 +164,12 @@ export function normalizeRecipe(raw: Raw): Recipe {
   };
 }
 
+/** A cleaning step through its kind's own contract: `{kind, ...params}` with every default written out. */
 function normalizeClean(step: Raw): CleanStep {
   const [kind, v] = Object.entries(step)[0] as [string, unknown];
-  switch (kind) {
-    case 'replace': {
-      const r = v as Raw;
-      return {
-        kind,
-        columns: r.columns as string[],
-        values: r.values as (string | number)[],
-        with: r.with as 'missing' | number,
-      };
-    }
-    case 'drop_missing':
-      return { kind, columns: v as string[] };
-    case 'keep_rows':
-      return { kind, expr: v as string };
-    case 'within': {
-      const r = v as Raw;
-      return {
-        kind,
-        column: r.column as string,
-        min: (r.min as number | undefined) ?? null,
-        max: (r.max as number | undefined) ?? null,
-      };
-    }
-  }
-  throw new Error(`normalizeClean: schema let through clean step ${kind}`);
+  const contract = recipeContract('clean', kind);
+  if (!contract) throw new Error(`normalizeClean: schema let through clean step ${kind}`);
+  return { kind, ...(contract.normalize(v) as Record<string, unknown>) };
 }
 
 function normalizeFeature(step: Raw): FeatureStep {

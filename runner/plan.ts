@@ -7,9 +7,9 @@ import { DendrologError, messages } from '../core/messages.js';
 import type { RecipeOrigin } from './recipe.js';
 import { resolveSourcePath } from './recipe.js';
 import { displayOf } from './paths.js';
-import type { Recipe, SourceSpec } from '../core/recipe-types.js';
+import type { CleanStep, Recipe, SourceSpec } from '../core/recipe-types.js';
 import type { StepInstance } from '../core/step-types.js';
-import { expressionLocator } from '../steps/index.js';
+import { expressionLocator, recipeContract } from '../steps/index.js';
 import { dict } from '../core/dict.js';
 
 /** Bootstrap resamples behind each holdout interval. */
@@ -76,7 +76,7 @@ export function planRecipe(recipe: Recipe, origin: RecipeOrigin): Plan {
   });
   recipe.clean.forEach((c, i) => {
     const { kind, ...params } = c;
-    const locator = c.kind === 'keep_rows' ? expressionLocator(`clean[${i}] keep_rows`, [[null, origin.doc.where(['clean', i, 'keep_rows'])]]) : {};
+    const locator = cleanLocator(c, i, (path) => origin.doc.where(path));
     last = add(`clean[${i}] ${kind}`, kind, params, [last], locator);
     dataSteps.push(last);
   });
@@ -139,6 +139,17 @@ export function planRecipe(recipe: Recipe, origin: RecipeOrigin): Plan {
     names.map((name) => [name, { cells: cells[name], choose: choose[name], fit: fit[name], score: score[name], explain: explain[name] }]),
   );
   return { steps, sources, dataSteps, modelTable, holdout, folds, models };
+}
+
+/**
+ * What a cleaning step's messages need besides its params: where each of its expressions sits in
+ * the recipe (`where` turns a recipe path into file:line:column). Not part of the key.
+ */
+export function cleanLocator(step: CleanStep, i: number, where: (path: (string | number)[]) => string): Record<string, string> {
+  const { kind, ...params } = step;
+  const expressions = recipeContract('clean', kind)?.expressions?.(params) ?? [];
+  if (expressions.length === 0) return {};
+  return expressionLocator(`clean[${i}] ${kind}`, expressions.map((e): [string | null, string] => [e.column ?? null, where(['clean', i, kind, ...e.at])]));
 }
 
 /**

@@ -1,24 +1,19 @@
 import { closeSync, existsSync, openSync, readFileSync, readSync, statSync } from 'node:fs';
-import { readHeaderLine } from '../steps/index.js';
-import { StrictTextStream } from '../steps/index.js';
 import { dirname, join, resolve } from 'node:path';
-import { stepRegistry } from '../steps/index.js';
-import { applyDesign } from '../steps/index.js';
-import { modelKinds } from '../steps/index.js';
 import type { Column, Frame } from '../core/frame.js';
 import { column, isMissing } from '../core/frame.js';
 import { sha256 } from '../core/hash.js';
 import { DendrologError, messages } from '../core/messages.js';
 import { readRunModel } from './model-file.js';
-import { sourceParams } from './plan.js';
-import { referencedColumns, resolveSourcePath } from './recipe.js';
+import { cleanLocator, sourceParams } from './plan.js';
+import { StrictTextStream, applyDesign, expressionLocator, modelKinds, readHeaderLine, recipeContract, referencedColumns, stepRegistry } from '../steps/index.js';
+import { resolveSourcePath } from './recipe.js';
 import { displayOf } from './paths.js';
-import type { CleanStep, Recipe } from '../core/recipe-types.js';
+import type { Recipe } from '../core/recipe-types.js';
 import { generator, seedString } from '../core/rng.js';
 import { readManifest } from './run-folder.js';
 import { checkPredictionsTarget, replaceFile } from './predictions-file.js';
 import type { FrameOutput, StepContext } from '../core/step-types.js';
-import { expressionLocator } from '../steps/index.js';
 import { WarningLog } from './warnings.js';
 import { dict, has } from '../core/dict.js';
 import { recipeFromManifest } from './stored-recipe.js';
@@ -116,16 +111,17 @@ export async function predictRun(folder: string, dataFile: string, outFile: stri
   const recipeWhere = displayOf(resolve(outDir, manifest.recipe.file));
   const targetAbsent = absentTarget.length > 0;
   for (const [i, step] of recipe.clean.entries()) {
-    const adapted = targetAbsent ? withoutTarget(step, targetInputs) : step;
-    if (!adapted) {
-      skippedSteps.push(`clean[${i}] ${step.kind}`);
+    const { kind, ...stepParams } = step;
+    const contract = recipeContract('clean', kind)!;
+    const params = targetAbsent ? contract.without(stepParams, targetInputs) : stepParams;
+    if (params === null) {
+      skippedSteps.push(`clean[${i}] ${kind}`);
       continue;
     }
-    const { kind, ...params } = adapted;
-    const locator = kind === 'keep_rows' ? expressionLocator(`clean[${i}] keep_rows`, [[null, recipeWhere]]) : {};
+    const locator = cleanLocator({ kind, ...(params as Record<string, unknown>) }, i, () => recipeWhere);
     const out = (await stepRegistry[kind].run([{ frame, notes: read.notes }], params as never, ctx(locator))) as FrameOutput;
     const before = frame;
-    markGone(before, out.frame, (k) => `removed by clean[${i}] ${kind}: ${rowReason(adapted, before, k)}`);
+    markGone(before, out.frame, (k) => `removed by clean[${i}] ${kind}: ${contract.rowReason(params, before, k)}`);
     frame = out.frame;
   }
   for (const [i, f] of recipe.features.entries()) {
@@ -183,48 +179,13 @@ export async function predictRun(folder: string, dataFile: string, outFile: stri
 function usedColumns(recipe: Recipe): Set<string> {
   const used = new Set<string>(recipe.predictors);
   for (const j of recipe.join) j.on.forEach((c) => used.add(c));
-  for (const c of recipe.clean) {
-    if (c.kind === 'keep_rows') referencedColumns(c.expr).forEach((x) => used.add(x));
-    else if (c.kind === 'within') used.add(c.column);
-    else c.columns.forEach((x) => used.add(x));
-  }
+  for (const { kind, ...params } of recipe.clean) for (const r of recipeContract('clean', kind)?.reads(params) ?? []) used.add(r.column);
   for (const f of recipe.features) {
     if (f.kind === 'derive') Object.values(f.columns).forEach((e) => referencedColumns(e).forEach((x) => used.add(x)));
     else if (f.kind === 'one_hot') used.add(f.column);
     else f.columns.forEach((x) => used.add(x));
   }
   return used;
-}
-
-/** Why one row fails a cleaning step, in words about that row. */
-function rowReason(step: CleanStep, frame: Frame, k: number): string {
-  switch (step.kind) {
-    case 'drop_missing':
-      return `${step.columns.find((c) => isMissing(column(frame, c), k)) ?? step.columns.join(' or ')} is missing`;
-    case 'within': {
-      const v = (column(frame, step.column).values as Float64Array)[k];
-      return `${step.column} = ${v} is outside [${step.min ?? '-∞'}, ${step.max ?? '∞'}]`;
-    }
-    case 'keep_rows':
-      return `${JSON.stringify(step.expr)} is not true`;
-    case 'replace':
-      return 'replaced';
-  }
-}
-
-/** A cleaning step with the target's columns taken out, or null when nothing of it is left. */
-function withoutTarget(step: CleanStep, target: Set<string>): CleanStep | null {
-  switch (step.kind) {
-    case 'replace':
-    case 'drop_missing': {
-      const columns = step.columns.filter((c) => !target.has(c));
-      return columns.length ? { ...step, columns } : null;
-    }
-    case 'within':
-      return target.has(step.column) ? null : step;
-    case 'keep_rows':
-      return referencedColumns(step.expr).some((c) => target.has(c)) ? null : step;
-  }
 }
 
 /**

@@ -7,9 +7,7 @@ import { normalizeRecipe } from './normalize.js';
 import type { ColumnType, Recipe, SourceSpec } from '../core/recipe-types.js';
 import { closest } from '../core/suggest.js';
 import { validateRecipe } from './validate.js';
-import { parseValue } from '../steps/index.js';
-import { COMMON_ENCODINGS, decodeStrict, encodingName } from '../steps/index.js';
-import { expressionProblem } from '../steps/index.js';
+import { COMMON_ENCODINGS, decodeStrict, encodingName, expressionProblem, parseValue, recipeContract, referencedColumns } from '../steps/index.js';
 import { readYaml, type PositionedDocument } from './yaml-read.js';
 import { has } from '../core/dict.js';
 import { ARQUERO_UNSAFE_NAMES } from '../core/frame.js';
@@ -189,14 +187,6 @@ function checkSource(s: SourceSpec, name: string, doc: PositionedDocument): stri
   return problems;
 }
 
-/** Column names referenced as d.name or d["name"] in an arquero expression. */
-export function referencedColumns(expr: string): string[] {
-  const out = new Set<string>();
-  const re = /\bd\.([A-Za-z_$][\w$]*)|\bd\[\s*["']([^"']+)["']\s*\]/g;
-  for (let m = re.exec(expr); m; m = re.exec(expr)) out.add(m[1] ?? m[2]);
-  return [...out];
-}
-
 /**
  * Checks what the schema cannot: names that must exist, expressions that must compile, and
  * column types along the pipeline, all from the recipe alone (no data read).
@@ -243,30 +233,18 @@ function checkMeaning(recipe: Recipe, doc: PositionedDocument): string[] {
     }
   });
 
+  // each kind says through its contract what it reads, evaluates and requires
   recipe.clean.forEach((step, i) => {
     const label = `clean[${i}] (${step.kind})`;
-    switch (step.kind) {
-      case 'replace':
-        step.columns.forEach((c, k) => need(['clean', i, 'replace', 'columns', k], c, label));
-        break;
-      case 'drop_missing':
-        step.columns.forEach((c, k) => need(['clean', i, 'drop_missing', k], c, label));
-        break;
-      case 'within':
-        if (need(['clean', i, 'within', 'column'], step.column, label) && cols.get(step.column) !== 'number') {
-          add(['clean', i, 'within', 'column'], messages.schemaOther(label, `column "${step.column}" is ${cols.get(step.column)}, but within needs a number column`));
-        }
-        if (step.min === null && step.max === null) {
-          add(['clean', i, 'within'], messages.schemaOther(label, 'gives neither min nor max; add at least one'));
-        }
-        if (step.min !== null && step.max !== null && step.min > step.max) {
-          add(['clean', i, 'within', 'min'], messages.withinInverted(label, step.min, step.max));
-        }
-        break;
-      case 'keep_rows':
-        checkExpression(['clean', i, 'keep_rows'], step.expr, label);
-        break;
-    }
+    const contract = recipeContract('clean', step.kind);
+    if (!contract) return;
+    const { kind, ...params } = step;
+    const base = ['clean', i, kind];
+    const expressions = contract.expressions?.(params) ?? [];
+    for (const e of expressions) checkExpression([...base, ...e.at], e.expr, label);
+    const inExpressions = new Set(expressions.flatMap((e) => referencedColumns(e.expr)));
+    for (const r of contract.reads(params)) if (!inExpressions.has(r.column)) need([...base, ...r.at], r.column, label);
+    for (const c of contract.check?.(params, cols, label) ?? []) add([...base, ...c.at], c.message);
   });
 
   const oneHot = new Set<string>();

@@ -4,6 +4,7 @@ import type { Manifest } from './manifest.js';
 import { DendrologError, messages, RecipeErrors } from '../core/messages.js';
 import { recipeFromText } from './recipe.js';
 import { MODEL_DEFAULTS } from './normalize.js';
+import { recipeContract } from '../steps/index.js';
 import type { CleanStep, FeatureStep, ModelSpec, Recipe } from '../core/recipe-types.js';
 
 /**
@@ -74,9 +75,9 @@ function modelShape(m: ModelSpec): Raw {
 function cleanShape(step: CleanStep, i: number): Raw {
   const { kind, ...params } = step;
   if (typeof kind !== 'string') throw new TypeError(`clean[${i}] has no kind`);
-  if (kind === 'drop_missing') return { drop_missing: step.columns };
-  if (kind === 'keep_rows') return { keep_rows: step.expr };
-  return { [kind]: withoutNulls(params as Raw) };
+  const contract = recipeContract('clean', kind);
+  // an unknown kind is written back as it is, for the schema to name
+  return { [kind]: contract ? contract.shape(params) : params };
 }
 
 function featureShape(step: FeatureStep, i: number): Raw {

@@ -1,8 +1,6 @@
 import { Ajv, type ErrorObject } from 'ajv';
-import { readFileSync } from 'node:fs';
-import { join } from 'node:path';
 import { messages } from '../core/messages.js';
-import { packageRoot } from './paths.js';
+import { recipeSchema } from './schema.js';
 import { closest } from '../core/suggest.js';
 import type { PositionedDocument } from './yaml-read.js';
 
@@ -10,7 +8,7 @@ let compiled: ReturnType<Ajv['compile']> | undefined;
 
 function validator(): ReturnType<Ajv['compile']> {
   if (!compiled) {
-    const schema = JSON.parse(readFileSync(join(packageRoot(), 'schemas', 'recipe.v1.json'), 'utf8'));
+    const schema = recipeSchema();
     const ajv = new Ajv({ allErrors: true, verbose: true, strict: false });
     compiled = ajv.compile(schema);
   }

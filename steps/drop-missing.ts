@@ -34,4 +34,16 @@ export const dropMissing: StepDefinition<DropMissingParams, FrameOutput> = {
     };
   },
   summary: (o) => `${o.notes.rowsIn - o.notes.rowsOut} rows dropped`,
+  recipe: {
+    section: 'clean',
+    schema: { $ref: '#/definitions/columnList' },
+    normalize: (v) => ({ columns: (v as string[]).map(String) }),
+    shape: (p) => p.columns,
+    reads: (p) => p.columns.map((c, k) => ({ column: c, at: [k] })),
+    without: (p, absent) => {
+      const columns = p.columns.filter((c) => !absent.has(c));
+      return columns.length ? { columns } : null;
+    },
+    rowReason: (p, frame, row) => `${p.columns.find((c) => isMissing(column(frame, c), row)) ?? p.columns.join(' or ')} is missing`,
+  },
 };

@@ -229,3 +229,11 @@ export function checkTextSize(site: ExpressionSite, values: ArrayLike<unknown>):
     }
   }
 }
+
+/** Column names referenced as d.name or d["name"] in an arquero expression. */
+export function referencedColumns(expr: string): string[] {
+  const out = new Set<string>();
+  const re = /\bd\.([A-Za-z_$][\w$]*)|\bd\[\s*["']([^"']+)["']\s*\]/g;
+  for (let m = re.exec(expr); m; m = re.exec(expr)) out.add(m[1] ?? m[2]);
+  return [...out];
+}

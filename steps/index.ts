@@ -1,4 +1,4 @@
-import type { StepDefinition } from '../core/step-types.js';
+import type { RecipeContract, StepDefinition } from '../core/step-types.js';
 import { dict } from '../core/dict.js';
 import { choose } from './choose.js';
 import { crossValidate } from './cross-validate.js';
@@ -23,6 +23,24 @@ export const stepRegistry: Record<string, StepDefinition<never, unknown>> = dict
   ),
 );
 
+/**
+ * The recipe contract of a kind written under `section`, or undefined when no such kind is there.
+ *
+ * Example: `recipeContract('clean', 'within')?.reads({column: 'x', min: 0, max: null})`
+ */
+export function recipeContract(section: RecipeContract<unknown>['section'], kind: string): RecipeContract<unknown> | undefined {
+  const def = Object.hasOwn(stepRegistry, kind) ? stepRegistry[kind] : undefined;
+  const contract = def?.recipe as RecipeContract<unknown> | undefined;
+  return contract?.section === section ? contract : undefined;
+}
+
+/** The kinds written under a section of the recipe, in registry order, with their contracts. */
+export function recipeKinds(section: RecipeContract<unknown>['section']): [string, RecipeContract<unknown>][] {
+  return Object.values(stepRegistry)
+    .filter((d) => (d.recipe as RecipeContract<unknown> | undefined)?.section === section)
+    .map((d) => [d.kind, d.recipe as RecipeContract<unknown>]);
+}
+
 // What the runner uses of the steps besides the registry: their output types, the grid of a model,
 // the model adapters and design for predict, the expression rules and the text readers the recipe
 // check shares. The runner imports steps/ through this file only.
@@ -32,7 +50,7 @@ export { constantPredictors } from './cross-validate.js';
 export type { CrossValidateOutput } from './cross-validate.js';
 export { applyDesign } from './design.js';
 export type { ExplainOutput } from './explain.js';
-export { expressionLocator, expressionProblem } from './expressions.js';
+export { expressionLocator, expressionProblem, referencedColumns } from './expressions.js';
 export type { FitOutput } from './fit.js';
 export type { FoldsOutput } from './folds.js';
 export type { HoldoutOutput } from './holdout.js';

@@ -1,7 +1,7 @@
 import { takeRows, toArquero } from '../core/frame.js';
 import { DendrologError, messages } from '../core/messages.js';
 import type { FrameOutput, StepDefinition } from '../core/step-types.js';
-import { assertRowWise, expressionSite, withinBudget } from './expressions.js';
+import { assertRowWise, expressionSite, referencedColumns, withinBudget } from './expressions.js';
 
 export interface KeepRowsParams {
   expr: string;
@@ -47,6 +47,16 @@ export const keepRows: StepDefinition<KeepRowsParams, FrameOutput> = {
     };
   },
   summary: (o) => `${o.notes.rowsIn - o.notes.rowsOut} rows dropped`,
+  recipe: {
+    section: 'clean',
+    schema: { type: 'string', minLength: 1 },
+    normalize: (v) => ({ expr: v as string }),
+    shape: (p) => p.expr,
+    reads: (p) => referencedColumns(p.expr).map((column) => ({ column, at: [] })),
+    expressions: (p) => [{ expr: p.expr, at: [] }],
+    without: (p, absent) => (referencedColumns(p.expr).some((c) => absent.has(c)) ? null : p),
+    rowReason: (p) => `${JSON.stringify(p.expr)} is not true`,
+  },
 };
 
 /** A result that is not a condition, as the message shows it: `2.5 (a number) at row 3`. */

@@ -54,4 +54,28 @@ export const replace: StepDefinition<ReplaceParams, FrameOutput> = {
     };
   },
   summary: (o) => `${Object.values(o.notes.changed ?? {}).reduce((a, b) => a + b, 0)} values replaced`,
+  recipe: {
+    section: 'clean',
+    schema: {
+      type: 'object',
+      additionalProperties: false,
+      required: ['columns', 'values', 'with'],
+      properties: {
+        columns: { $ref: '#/definitions/columnList' },
+        values: { type: 'array', minItems: 1, items: { $ref: '#/definitions/scalar' } },
+        with: { anyOf: [{ const: 'missing' }, { type: 'number' }] },
+      },
+    },
+    normalize: (v) => {
+      const r = v as ReplaceParams;
+      return { columns: r.columns, values: r.values, with: r.with };
+    },
+    shape: (p) => ({ columns: p.columns, values: p.values, with: p.with }),
+    reads: (p) => p.columns.map((c, k) => ({ column: c, at: ['columns', k] })),
+    without: (p, absent) => {
+      const columns = p.columns.filter((c) => !absent.has(c));
+      return columns.length ? { ...p, columns } : null;
+    },
+    rowReason: () => 'replaced',
+  },
 };

@@ -1,4 +1,5 @@
 import { column, takeRows } from '../core/frame.js';
+import { messages } from '../core/messages.js';
 import type { FrameOutput, StepDefinition } from '../core/step-types.js';
 
 export interface WithinParams {
@@ -39,4 +40,31 @@ export const within: StepDefinition<WithinParams, FrameOutput> = {
     };
   },
   summary: (o) => `${o.notes.rowsIn - o.notes.rowsOut} rows dropped`,
+  recipe: {
+    section: 'clean',
+    schema: {
+      type: 'object',
+      additionalProperties: false,
+      required: ['column'],
+      properties: { column: { $ref: '#/definitions/columnName' }, min: { type: 'number' }, max: { type: 'number' } },
+    },
+    normalize: (v) => {
+      const r = v as { column: string; min?: number; max?: number };
+      return { column: r.column, min: r.min ?? null, max: r.max ?? null };
+    },
+    shape: (p) => ({ column: p.column, ...(p.min === null ? {} : { min: p.min }), ...(p.max === null ? {} : { max: p.max }) }),
+    reads: (p) => [{ column: p.column, at: ['column'] }],
+    check(p, types, label) {
+      const out: { at: (string | number)[]; message: string }[] = [];
+      const type = types.get(p.column);
+      if (type !== undefined && type !== 'number') {
+        out.push({ at: ['column'], message: messages.schemaOther(label, `column "${p.column}" is ${type}, but within needs a number column`) });
+      }
+      if (p.min === null && p.max === null) out.push({ at: [], message: messages.schemaOther(label, 'gives neither min nor max; add at least one') });
+      if (p.min !== null && p.max !== null && p.min > p.max) out.push({ at: ['min'], message: messages.withinInverted(label, p.min, p.max) });
+      return out;
+    },
+    without: (p, absent) => (absent.has(p.column) ? null : p),
+    rowReason: (p, frame, row) => `${p.column} = ${(column(frame, p.column).values as Float64Array)[row]} is outside [${p.min ?? '-∞'}, ${p.max ?? '∞'}]`,
+  },
 };
