@@ -2,6 +2,7 @@ import type { RecipeContract, StepDefinition } from '../core/step-types.js';
 import { dict } from '../core/dict.js';
 import { choose } from './choose.js';
 import { crossValidate } from './cross-validate.js';
+import { deduplicate } from './deduplicate.js';
 import { derive } from './derive.js';
 import { dropMissing } from './drop-missing.js';
 import { explain } from './explain.js';
@@ -18,7 +19,7 @@ import { within } from './within.js';
 
 /** Every step kind, by name. Adding a kind: one file in steps/ and one line here. */
 export const stepRegistry: Record<string, StepDefinition<never, unknown>> = dict(
-  [source, join, replace, dropMissing, keepRows, within, derive, modelTable, holdout, folds, crossValidate, choose, fit, score, explain].map(
+  [source, join, replace, dropMissing, keepRows, within, deduplicate, derive, modelTable, holdout, folds, crossValidate, choose, fit, score, explain].map(
     (s) => [s.kind, s as StepDefinition<never, unknown>],
   ),
 );
