@@ -1,5 +1,6 @@
 import type { Frame } from './frame.js';
 import type { ColumnType } from './recipe-types.js';
+import { generator, seedString } from './rng.js';
 
 /** How a step's output becomes bytes for the cache and back. */
 export type OutputCodec = 'frame' | 'json';
@@ -80,6 +81,8 @@ export interface StepInstance {
   key: string;
   /** The same without the software fingerprint: what random generators are seeded from. */
   seedKey: string;
+  /** The recipe's master seed, which the generators start from together with seedKey. */
+  seed: number;
 }
 
 /** A place in a step's value in the recipe, relative to it (e.g. `['columns', 0]`); `[]` is the value. */
@@ -117,4 +120,26 @@ export interface RecipeContract<P> {
   without(params: P, absent: ReadonlySet<string>): P | null;
   /** Why the step removed one row, in words about that row, for predict's per-row reasons. */
   rowReason(params: P, frame: Frame, row: number): string;
+}
+
+/**
+ * The one way a step's context is made, by the executor, a worker thread, predict and the tests
+ * alike: its generators follow from the instance's own seed and seedKey, so the same instance draws
+ * the same numbers wherever it runs.
+ *
+ * Example: `makeContext({key, seed: 7, seedKey, locator: {}}, {warn: log.add.bind(log), workers: 1})`
+ */
+export function makeContext(
+  instance: Pick<StepInstance, 'key' | 'seed' | 'seedKey' | 'locator'>,
+  hooks: { warn(code: string, message: string): void; workers: number; progress?(fraction: number): void },
+): StepContext {
+  return {
+    key: instance.key,
+    rng: (purpose, index) => generator(instance.seed, instance.seedKey, purpose, index),
+    seedFor: (purpose, index) => seedString(instance.seed, instance.seedKey, purpose, index),
+    warn: hooks.warn,
+    workers: hooks.workers,
+    locator: instance.locator,
+    progress: hooks.progress ?? (() => {}),
+  };
 }

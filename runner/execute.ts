@@ -4,11 +4,10 @@ import { packEntry, unpackEntry } from '../core/codec.js';
 import { sha256 } from '../core/hash.js';
 import { messages } from '../core/messages.js';
 import type { Progress } from './progress.js';
-import { generator, seedString } from '../core/rng.js';
 import { StepPool } from './step-pool.js';
 import { displayOf } from './paths.js';
-import type { OutputCodec, StepContext, StepInstance, Warning } from '../core/step-types.js';
-import { WarningLog } from './warnings.js';
+import { makeContext, type OutputCodec, type StepInstance, type Warning } from '../core/step-types.js';
+import { WarningLog } from '../core/warnings.js';
 
 export interface StepRecord {
   id: string;
@@ -38,7 +37,6 @@ export interface Executor {
 
 export interface LocalExecutorOptions {
   cache: Cache | null;
-  seed: number;
   workers: number;
   progress: Progress;
 }
@@ -109,15 +107,11 @@ export function localExecutor(opts: LocalExecutorOptions): Executor {
       const runHere = async (step: StepInstance): Promise<Uint8Array> => {
         const def = stepRegistry[step.kind];
         const stepWarnings = new WarningLog();
-        const ctx: StepContext = {
-          key: step.key,
-          rng: (purpose, index) => generator(opts.seed, step.seedKey, purpose, index),
-          seedFor: (purpose, index) => seedString(opts.seed, step.seedKey, purpose, index),
+        const ctx = makeContext(step, {
           warn: (code, message) => stepWarnings.add(code, message),
           workers: opts.workers,
-          locator: step.locator,
           progress: (f) => opts.progress.update(f),
-        };
+        });
         const output = await def.run(
           step.inputs.map((id) => outputs.get(id)),
           step.params as never,
@@ -131,7 +125,7 @@ export function localExecutor(opts: LocalExecutorOptions): Executor {
         return pool.run({
           kind: step.kind,
           params: step.params,
-          seed: opts.seed,
+          seed: step.seed,
           key: step.key,
           seedKey: step.seedKey,
           locator: step.locator,

@@ -48,7 +48,7 @@ export function planRecipe(recipe: Recipe, origin: RecipeOrigin): Plan {
     const seedKey = hashValue({ kind, version: def.version, params, seed, inputs: inputs.map((i) => seedKeyOf.get(i)) });
     keyOf.set(id, key);
     seedKeyOf.set(id, seedKey);
-    steps.push({ id, kind, params, inputs, locator, key, seedKey });
+    steps.push({ id, kind, params, inputs, locator, key, seedKey, seed: recipe.seed });
     return id;
   };
 

@@ -10,11 +10,10 @@ import { StrictTextStream, applyDesign, expressionLocator, modelKinds, readHeade
 import { resolveSourcePath } from './recipe.js';
 import { displayOf } from './paths.js';
 import type { Recipe } from '../core/recipe-types.js';
-import { generator, seedString } from '../core/rng.js';
 import { readManifest } from './run-folder.js';
 import { checkPredictionsTarget, replaceFile } from './predictions-file.js';
-import type { FrameOutput, StepContext } from '../core/step-types.js';
-import { WarningLog } from './warnings.js';
+import { makeContext, type FrameOutput, type StepContext } from '../core/step-types.js';
+import { WarningLog } from '../core/warnings.js';
 import { dict, has } from '../core/dict.js';
 import { recipeFromManifest } from './stored-recipe.js';
 
@@ -63,15 +62,8 @@ export async function predictRun(folder: string, dataFile: string, outFile: stri
   const targetInputs = new Set([recipe.target]);
   for (const f of recipe.features) if (f.kind === 'derive' && f.columns[recipe.target]) referencedColumns(f.columns[recipe.target]).forEach((c) => targetInputs.add(c));
   const warnings = new WarningLog();
-  const ctx = (locator: Record<string, string>): StepContext => ({
-    key: 'predict',
-    rng: (p, i) => generator(recipe.seed, 'predict', p, i),
-    seedFor: (p, i) => seedString(recipe.seed, 'predict', p, i),
-    warn: (code, message) => warnings.add(code, message),
-    workers: 1,
-    locator,
-    progress: () => {},
-  });
+  const ctx = (locator: Record<string, string>): StepContext =>
+    makeContext({ key: 'predict', seed: recipe.seed, seedKey: 'predict', locator }, { warn: (code, message) => warnings.add(code, message), workers: 1 });
   // only delimited text has a header to look at first; other formats must carry every declared column
   const header =
     (main.format === 'csv' || main.format === 'tsv') && main.header !== false

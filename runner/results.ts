@@ -13,7 +13,7 @@ import type { Execution } from './execute.js';
 import type { Plan } from './plan.js';
 import type { Recipe } from '../core/recipe-types.js';
 import type { FrameOutput, Warning } from '../core/step-types.js';
-import { WarningLog } from './warnings.js';
+import { WarningLog } from '../core/warnings.js';
 import { column } from '../core/frame.js';
 import { dict } from '../core/dict.js';
 import { DendrologError, messages } from '../core/messages.js';

@@ -102,7 +102,7 @@ export async function executeRecipe(
   opts.progress.note(
     `${recipe.name}: ${plan.steps.length} steps; ${cells} grid cells × ${recipe.evaluation.folds.k} folds = ${cells * recipe.evaluation.folds.k} cross-validation fits, then ${Object.keys(plan.models).length} final fits`,
   );
-  const executor = localExecutor({ cache: opts.cache, seed: recipe.seed, workers: opts.workers, progress: opts.progress });
+  const executor = localExecutor({ cache: opts.cache, workers: opts.workers, progress: opts.progress });
   const execution = await executor.run(plan.steps);
   return { plan, execution, results: gatherResults(recipe, plan, execution) };
 }

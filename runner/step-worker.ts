@@ -7,9 +7,8 @@ import { parentPort } from 'node:worker_threads';
 import { stepRegistry } from '../steps/index.js';
 import { decodeOutput, packEntry } from '../core/codec.js';
 import { DendrologError } from '../core/messages.js';
-import { generator, seedString } from '../core/rng.js';
-import type { OutputCodec, StepContext } from '../core/step-types.js';
-import { WarningLog } from './warnings.js';
+import { makeContext, type OutputCodec } from '../core/step-types.js';
+import { WarningLog } from '../core/warnings.js';
 
 /** What the executor sends for one step. */
 export interface StepJob {
@@ -32,16 +31,8 @@ if (port) {
     try {
       const def = stepRegistry[job.kind];
       const warnings = new WarningLog();
-      const ctx: StepContext = {
-        key: job.key,
-        rng: (purpose, index) => generator(job.seed, job.seedKey, purpose, index),
-        seedFor: (purpose, index) => seedString(job.seed, job.seedKey, purpose, index),
-        warn: (code, message) => warnings.add(code, message),
-        // cells already run side by side, one per thread; trees inside stay on this thread
-        workers: 1,
-        locator: job.locator,
-        progress: () => {},
-      };
+      // cells already run side by side, one per thread; trees inside stay on this thread
+      const ctx = makeContext(job, { warn: (code, message) => warnings.add(code, message), workers: 1 });
       const output = await def.run(job.inputs.map((i) => decodeOutput(i.codec, i.body)), job.params as never, ctx);
       const payload = packEntry(def.codec, output, warnings.list());
       port.postMessage({ id: job.id, payload } satisfies StepReply, [payload.buffer as ArrayBuffer]);

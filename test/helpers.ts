@@ -54,20 +54,11 @@ export function smallData(): string {
 
 import type { Frame } from '../core/frame.js';
 import { DendrologError } from '../core/messages.js';
-import { generator, seedString } from '../core/rng.js';
-import type { FrameOutput, StepContext } from '../core/step-types.js';
+import { makeContext, type FrameOutput, type StepContext } from '../core/step-types.js';
 
 /** A step context for calling a step directly: seeded, one worker, warnings collected. */
 export function stepContext(warnings: string[] = [], seed = 1): StepContext {
-  return {
-    key: 'test-step',
-    rng: (purpose, index) => generator(seed, 'test-step', purpose, index),
-    seedFor: (purpose, index) => seedString(seed, 'test-step', purpose, index),
-    warn: (code, message) => warnings.push(`${code}: ${message}`),
-    workers: 1,
-    locator: {},
-    progress: () => {},
-  };
+  return makeContext({ key: 'test-step', seed, seedKey: 'test-step', locator: {} }, { warn: (code, message) => warnings.push(`${code}: ${message}`), workers: 1 });
 }
 
 /** Wraps a frame as a step output. */

@@ -1,6 +1,8 @@
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
+import { makeContext, type StepInstance } from '../../core/step-types.js';
 import { planRecipe } from '../../runner/plan.js';
+import { stepRegistry } from '../../steps/index.js';
 import { loadRecipe } from '../../runner/recipe.js';
 import { makeFolder, SMALL_RECIPE, smallData } from '../helpers.js';
 
@@ -67,5 +69,29 @@ describe('step keys and the seed', () => {
     expect(diff).not.toContain('clean[0] within');
     expect(diff).toContain('holdout');
     expect(diff).toContain('score mean');
+  });
+});
+
+describe('step instances', () => {
+  it('are data: run from their JSON form alone, the seeded holdout and folds draw exactly as the originals', async () => {
+    const dir = makeFolder({ 'recipe.yaml': SMALL_RECIPE.replace('seed: 3', 'seed: 11'), 'data/obs.csv': smallData() });
+    const { recipe, origin } = loadRecipe(join(dir, 'recipe.yaml'));
+    const plan = planRecipe(recipe, origin);
+    const byId = new Map(plan.steps.map((s) => [s.id, s]));
+    const outputs = new Map<string, unknown>();
+    // run the data steps and the splits twice: from the instances, and from JSON copies of them
+    const runAll = async (copy: boolean) => {
+      outputs.clear();
+      for (const id of [...plan.dataSteps, 'holdout', 'folds']) {
+        const step = copy ? (JSON.parse(JSON.stringify(byId.get(id))) as StepInstance) : byId.get(id)!;
+        const out = await stepRegistry[step.kind].run(step.inputs.map((i) => outputs.get(i)), step.params as never, makeContext(step, { warn: () => {}, workers: 1 }));
+        outputs.set(step.id, out);
+      }
+      return { holdout: outputs.get('holdout'), folds: outputs.get('folds') };
+    };
+    const a = await runAll(false);
+    const b = await runAll(true);
+    expect(b).toEqual(a);
+    expect(byId.get('holdout')!.seed).toBe(11);
   });
 });

@@ -1,4 +1,4 @@
-import type { Warning } from '../core/step-types.js';
+import type { Warning } from './step-types.js';
 
 /**
  * Collects warnings as data: a repeat of the same code and message raises its count.
