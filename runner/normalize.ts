@@ -10,7 +10,7 @@ import type {
   SourceSpec,
 } from '../core/recipe-types.js';
 import { dict, dictOf, table } from '../core/dict.js';
-import { recipeContract } from '../steps/index.js';
+import { readDefaults, recipeContract } from '../steps/index.js';
 
 /** Seed used when the recipe gives none; written into the normalized recipe and the manifest. */
 export const DEFAULT_SEED = 1;
@@ -79,20 +79,21 @@ export function formatOf(file: string): SourceFormat {
 export function normalizeSource(s: Raw): SourceSpec {
   const file = String(s.file);
   const format = (s.format as SourceFormat | undefined) ?? formatOf(file);
+  const d = readDefaults(format);
   const spec: SourceSpec = {
     file,
     format,
     sha256: (s.sha256 as string | undefined) ?? null,
     columns: dictOf(s.columns as SourceSpec['columns']),
     missing: ((s.missing as unknown[] | undefined) ?? DEFAULT_MISSING).map(String),
-    undeclared: (s.undeclared as SourceSpec['undeclared'] | undefined) ?? 'ignore',
-    date_format: (s.date_format as SourceSpec['date_format'] | undefined) ?? 'YYYY-MM-DD',
+    undeclared: (s.undeclared as SourceSpec['undeclared'] | undefined) ?? d.undeclared,
+    date_format: (s.date_format as SourceSpec['date_format'] | undefined) ?? d.date_format,
   };
-  if (format === 'csv' || format === 'tsv' || format === 'json') spec.encoding = (s.encoding as string | undefined) ?? 'utf-8';
-  if (format === 'csv' || format === 'tsv') {
-    spec.delimiter = (s.delimiter as string | undefined) ?? (format === 'tsv' ? '\t' : ',');
-    spec.decimal = (s.decimal as '.' | ',' | undefined) ?? '.';
-    spec.header = (s.header as boolean | undefined) ?? true;
+  if (d.encoding !== undefined) spec.encoding = (s.encoding as string | undefined) ?? d.encoding;
+  if (d.delimiter !== undefined) {
+    spec.delimiter = (s.delimiter as string | undefined) ?? d.delimiter;
+    spec.decimal = (s.decimal as '.' | ',' | undefined) ?? d.decimal;
+    spec.header = (s.header as boolean | undefined) ?? d.header;
   }
   if (format === 'netcdf') {
     if (s.variables !== undefined) spec.variables = (s.variables as string[]).map(String);

@@ -6,7 +6,7 @@ import { sha256 } from '../core/hash.js';
 import { DendrologError, messages } from '../core/messages.js';
 import { readRunModel } from './model-file.js';
 import { cleanLocator, sourceParams } from './plan.js';
-import { StrictTextStream, applyDesign, expressionLocator, modelKinds, readHeaderLine, recipeContract, referencedColumns, stepRegistry } from '../steps/index.js';
+import { StrictTextStream, applyDesign, expressionLocator, modelKinds, readDefaults, readHeaderLine, recipeContract, referencedColumns, stepRegistry } from '../steps/index.js';
 import { resolveSourcePath } from './recipe.js';
 import { displayOf } from './paths.js';
 import type { Recipe } from '../core/recipe-types.js';
@@ -67,7 +67,7 @@ export async function predictRun(folder: string, dataFile: string, outFile: stri
   // only delimited text has a header to look at first; other formats must carry every declared column
   const header =
     (main.format === 'csv' || main.format === 'tsv') && main.header !== false
-      ? readHeader(dataPath, main.delimiter ?? (main.format === 'tsv' ? '\t' : ','), main.encoding ?? 'utf-8')
+      ? readHeader(dataPath, main.delimiter ?? readDefaults(main.format).delimiter!, main.encoding ?? readDefaults(main.format).encoding!)
       : Object.keys(main.columns);
   const absentTarget = [...targetInputs].filter((c) => has(main.columns, c) && !header.includes(c));
   // a declared column nothing in the recipe uses may be absent too; it is filled as missing

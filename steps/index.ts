@@ -57,6 +57,7 @@ export type { FoldsOutput } from './folds.js';
 export type { HoldoutOutput } from './holdout.js';
 export { cellLabel, gridCells, modelKinds, varyingParams } from './model-kinds.js';
 export type { ColumnProfile } from './profile.js';
+export { readDefaults } from './source.js';
 export { readHeaderLine } from './readers/csv.js';
 export { COMMON_ENCODINGS, StrictTextStream, decodeStrict, encodingName } from './readers/text-decode.js';
 export { parseValue } from './readers/values.js';

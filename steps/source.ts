@@ -40,19 +40,40 @@ export const READERS: Record<SourceFormat, Reader> = table({
   netcdf: readNetcdf,
 });
 
+/**
+ * Each read option's default for a format, the one place they are written: the recipe's
+ * normalization writes them out, and the reader falls back on them. Options a format does not
+ * have are undefined.
+ *
+ * Example: `readDefaults('tsv').delimiter === '\t'`, `readDefaults('parquet').encoding === undefined`
+ */
+export function readDefaults(format: SourceFormat) {
+  const text = format === 'csv' || format === 'tsv';
+  return {
+    undeclared: 'ignore' as const,
+    date_format: 'YYYY-MM-DD' as const,
+    encoding: text || format === 'json' ? 'utf-8' : undefined,
+    delimiter: text ? (format === 'tsv' ? '\t' : ',') : undefined,
+    decimal: text ? ('.' as const) : undefined,
+    header: text ? true : undefined,
+  };
+}
+
 /** The reader's request for a step's params and file, with each option's default filled in. */
 export function readRequest(params: SourceParams, path: string, display: string): ReadRequest {
+  const d = readDefaults(params.format);
   return {
     path,
     display,
     columns: params.columns,
     missing: params.missing,
-    undeclared: params.undeclared ?? 'ignore',
-    dateFormat: params.date_format ?? 'YYYY-MM-DD',
-    encoding: params.encoding ?? 'utf-8',
-    delimiter: params.delimiter ?? (params.format === 'tsv' ? '\t' : ','),
-    decimal: params.decimal ?? '.',
-    header: params.header ?? true,
+    undeclared: params.undeclared ?? d.undeclared,
+    dateFormat: params.date_format ?? d.date_format,
+    // readers of formats without these options never look at them
+    encoding: params.encoding ?? d.encoding ?? 'utf-8',
+    delimiter: params.delimiter ?? d.delimiter ?? ',',
+    decimal: params.decimal ?? d.decimal ?? '.',
+    header: params.header ?? d.header ?? true,
     variables: params.variables ?? null,
     select: params.select ?? {},
   };
