@@ -1,6 +1,6 @@
 import { columnFromValues, toArquero, type Frame } from '../core/frame.js';
 import type { FrameOutput, StepDefinition } from '../core/step-types.js';
-import { assertRowWise, checkTextSize, expressionSite, withinBudget } from './expressions.js';
+import { assertRowWise, checkTextSize, expressionSite, missingInputs, withinBudget, withMissingInputs } from './expressions.js';
 import { dict } from '../core/dict.js';
 
 export interface DeriveParams {
@@ -8,8 +8,9 @@ export interface DeriveParams {
 }
 
 /**
- * Adds columns computed row by row from arquero expressions. Non-finite results (a log of zero,
- * arithmetic on a missing value) become missing and are reported as a warning with their count.
+ * Adds columns computed row by row from arquero expressions. A row missing a column the expression
+ * names gets a missing value (never the 0 that arithmetic would make of it). Non-finite results (a
+ * log of zero) become missing and are reported as a warning with their count.
  * Each expression must be row-wise and finish within its time budget (see ./expressions.ts).
  */
 export const derive: StepDefinition<DeriveParams, FrameOutput> = {
@@ -26,7 +27,8 @@ export const derive: StepDefinition<DeriveParams, FrameOutput> = {
     const changed = dict<number>();
     // one column at a time, so a failure names its expression; no expression may name a sibling
     for (const [name, site] of sites) {
-      const values = withinBudget(site, input.rows, () => table.derive({ [name]: site.expr }).array(name) as ArrayLike<unknown>);
+      const computed = withinBudget(site, input.rows, () => table.derive({ [name]: site.expr }).array(name) as ArrayLike<unknown>);
+      const values = withMissingInputs(computed, missingInputs(input, site.expr));
       checkTextSize(site, values);
       const { column, nonFinite } = columnFromValues(name, values);
       frame.columns.push(column);

@@ -13,6 +13,7 @@ import * as aq from 'arquero';
 import { hasAggregate, hasWindow } from 'arquero/src/op/index.js';
 import vm from 'node:vm';
 import { DendrologError, messages } from '../core/messages.js';
+import { isMissing, type Frame } from '../core/frame.js';
 
 /** An aggregate or window function call inside an expression, with its character offsets. */
 export interface WholeTableCall {
@@ -237,3 +238,28 @@ export function referencedColumns(expr: string): string[] {
   for (let m = re.exec(expr); m; m = re.exec(expr)) out.add(m[1] ?? m[2]);
   return [...out];
 }
+
+/**
+ * The rows on which an expression's value is missing because a column it names is missing there.
+ * arquero hands a missing value to the expression as null, which arithmetic reads as 0 (null * 2 is
+ * 0, null + 'z' is 'nullz'), so a value computed from it would look right and be wrong. A derived
+ * value, or a keep_rows condition, of such a row is missing instead, as R's NA would be.
+ *
+ * Example: for `d.x * 2` over x = [1, missing], the mask is [0, 1].
+ */
+export function missingInputs(frame: Frame, expr: string): Uint8Array {
+  const mask = new Uint8Array(frame.rows);
+  const names = new Set(referencedColumns(expr));
+  for (const c of frame.columns) {
+    if (!names.has(c.name)) continue;
+    for (let i = 0; i < frame.rows; i++) if (isMissing(c, i)) mask[i] = 1;
+  }
+  return mask;
+}
+
+/** The values with every masked row set to missing (a copy when anything is masked). */
+export function withMissingInputs(values: ArrayLike<unknown>, mask: Uint8Array): ArrayLike<unknown> {
+  if (!mask.includes(1)) return values;
+  return Array.from(values, (v, i) => (mask[i] ? null : v));
+}
+

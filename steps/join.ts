@@ -1,4 +1,4 @@
-import { column, takeRows, type Column, type Frame } from '../core/frame.js';
+import { column, isMissing, takeRows, type Column, type Frame } from '../core/frame.js';
 import type { FrameOutput, StepDefinition } from '../core/step-types.js';
 
 export interface JoinParams {
@@ -19,15 +19,18 @@ export const join: StepDefinition<JoinParams, FrameOutput> = {
   run(inputs, params, ctx) {
     const left = (inputs[0] as FrameOutput).frame;
     const right = (inputs[1] as FrameOutput).frame;
+    // a row missing any key value has no key: missing never equals missing, so it finds no partner
+    // (as in SQL), and a right-hand row without a key is no one's partner
     const keyOf = (f: Frame) => {
       const cols = params.on.map((n) => column(f, n));
-      return (i: number) => JSON.stringify(cols.map((c) => c.values[i]));
+      return (i: number): string | null => (cols.some((c) => isMissing(c, i)) ? null : JSON.stringify(cols.map((c) => c.values[i])));
     };
     const rightKey = keyOf(right);
     const index = new Map<string, number[]>();
     let duplicated = 0;
     for (let i = 0; i < right.rows; i++) {
       const k = rightKey(i);
+      if (k === null) continue;
       const list = index.get(k);
       if (list) {
         list.push(i);
@@ -45,7 +48,8 @@ export const join: StepDefinition<JoinParams, FrameOutput> = {
     const rightRows: number[] = [];
     let unmatched = 0;
     for (let i = 0; i < left.rows; i++) {
-      const partners = index.get(leftKey(i));
+      const key = leftKey(i);
+      const partners = key === null ? undefined : index.get(key);
       if (!partners) {
         unmatched++;
         if (params.keep === 'all') {

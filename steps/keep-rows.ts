@@ -1,7 +1,7 @@
 import { takeRows, toArquero } from '../core/frame.js';
 import { DendrologError, messages } from '../core/messages.js';
 import type { FrameOutput, StepDefinition } from '../core/step-types.js';
-import { assertRowWise, expressionSite, referencedColumns, withinBudget } from './expressions.js';
+import { assertRowWise, expressionSite, missingInputs, referencedColumns, withinBudget, withMissingInputs } from './expressions.js';
 
 export interface KeepRowsParams {
   expr: string;
@@ -22,7 +22,9 @@ export const keepRows: StepDefinition<KeepRowsParams, FrameOutput> = {
     const site = expressionSite(ctx.locator, 'keep_rows', params.expr);
     assertRowWise(site);
     const table = toArquero(input);
-    const results = withinBudget(site, input.rows, () => table.derive({ keep: params.expr }).array('keep') as ArrayLike<unknown>);
+    const computed = withinBudget(site, input.rows, () => table.derive({ keep: params.expr }).array('keep') as ArrayLike<unknown>);
+    // a condition on a missing value is unknown, so the row goes (as a missing result always did)
+    const results = withMissingInputs(computed, missingInputs(input, params.expr));
     const kept: number[] = [];
     let odd = 0;
     let first = '';

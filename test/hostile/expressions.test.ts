@@ -11,6 +11,7 @@ import { EXPRESSION_BUDGET_VARIABLE, MAX_TEXT_VALUE_CHARS } from '../../steps/ex
 import type { Frame } from '../../core/frame.js';
 import type { FrameOutput } from '../../core/step-types.js';
 import { keepRows } from '../../steps/keep-rows.js';
+import { derive } from '../../steps/derive.js';
 import { asOutput, SMALL_RECIPE, smallData, stepContext } from '../helpers.js';
 
 /** SMALL_RECIPE with clean and features sections appended. */
@@ -205,5 +206,28 @@ describe('derived values that are not values', () => {
       code: 1,
       err: messages.expressionNotAValue('features[0] derive, column "x3"', 'op.match(d.site, /S(\\d+)/)', 'a list', 1),
     });
+  });
+});
+
+describe('expressions over missing values', () => {
+  const frame: Frame = {
+    rows: 4,
+    columns: [
+      { name: 'x', type: 'number', values: Float64Array.from([1, 4, 0, Number.NaN]) },
+      { name: 's', type: 'string', values: ['a', null, 'c', 'd'] },
+    ],
+  };
+
+  it('give a missing derived value where an input is missing, not the 0 that arithmetic makes of null', async () => {
+    const out = (await derive.run([asOutput(frame)], { columns: { y: 'd.x * 2', m: 'd.x + 1', t: "d.s + 'z'" } }, stepContext())) as FrameOutput;
+    const col = (name: string) => Array.from(out.frame.columns.find((c) => c.name === name)!.values as ArrayLike<number | string | null>, (v) => (typeof v === 'number' && Number.isNaN(v) ? null : v));
+    expect(col('y')).toEqual([2, 8, 0, null]);
+    expect(col('m')).toEqual([2, 5, 1, null]);
+    expect(col('t')).toEqual(['az', null, 'cz', 'dz']);
+  });
+
+  it('drop a row from keep_rows when the condition reads a missing value, even where null < 2 would be true', async () => {
+    const out = (await keepRows.run([asOutput(frame)], { expr: 'd.x < 2' }, stepContext())) as FrameOutput;
+    expect(Array.from(out.frame.columns[0].values as Float64Array)).toEqual([1, 0]);
   });
 });
