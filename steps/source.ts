@@ -1,6 +1,6 @@
 import type { Frame } from '../core/frame.js';
 import { DendrologError, messages } from '../core/messages.js';
-import type { ColumnType, CoordinateRange, DateFormat, SourceFormat } from '../core/recipe-types.js';
+import type { SourceFormat, SourceSpec } from '../core/recipe-types.js';
 import type { FrameOutput, StepDefinition } from '../core/step-types.js';
 import { readArrow } from './readers/arrow.js';
 import type { Reader, ReadRequest } from './readers/columns.js';
@@ -12,23 +12,16 @@ import { tableSha256 } from './readers/table-hash.js';
 import { profileFrame } from './profile.js';
 import { table } from '../core/dict.js';
 
-export interface SourceParams {
-  /** SHA-256 of the file's bytes: the file's identity in the key, so moving it re-runs nothing. */
-  sha256: string;
-  format: SourceFormat;
-  columns: Record<string, ColumnType>;
-  missing: string[];
-  /** The options below are optional so a step planned with only the four above still reads as before. */
-  undeclared?: 'ignore' | 'error' | 'text';
-  date_format?: DateFormat;
-  /** Text formats only: a TextDecoder label; absent means utf-8. */
-  encoding?: string;
-  delimiter?: string;
-  decimal?: '.' | ',';
-  header?: boolean;
-  variables?: string[];
-  select?: Record<string, CoordinateRange>;
-}
+/**
+ * The source step's params: the recipe's read options (SourceSpec) with the file's SHA-256 in place
+ * of its path and pin. The options past the four required ones are optional so a step planned with
+ * only those (as tests do) reads with their defaults (readDefaults).
+ */
+export type SourceParams = Pick<SourceSpec, 'format' | 'columns' | 'missing'> &
+  Partial<Omit<SourceSpec, 'file' | 'sha256' | 'format' | 'columns' | 'missing'>> & {
+    /** SHA-256 of the file's bytes: the file's identity in the key, so moving it re-runs nothing. */
+    sha256: string;
+  };
 
 /** One reader per format; adding a format is one reader file and one line here. */
 export const READERS: Record<SourceFormat, Reader> = table({
