@@ -329,6 +329,23 @@ export const messages = {
     `the manifest beside ${file} records no SHA-256 for it (an older dendrolog wrote the run), so the model cannot be checked; run the recipe again`,
   fileSystemRefused: (code: string, syscall: string, path: string) =>
     `${path}: the file system refused to ${syscall} it (${code}: ${FILE_SYSTEM_ADVICE[code] ?? 'see the system error code'}); nothing was lost, fix that and run the command again`,
+  // --- warnings (data: collected, merged, counted; in the run record and the report)
+  randomSplitWithGroups: (groups: string, what: string) =>
+    `the recipe declares groups (${groups}) but ${what} at random; rows of one group on both sides of a split make scores look better than they will be on new groups; split by groups`,
+  randomSplitWithTime: (time: string, what: string) =>
+    `the recipe declares a time column (${time}) but ${what} at random; neighbouring times on both sides of a split make scores look better than forecasts will be; split by time`,
+  gridEdge: (model: string, param: string, value: unknown, values: number[]) =>
+    `model "${model}": the chosen ${param} = ${value} is at the edge of its grid (${values.join(', ')}); a value beyond it might score better; widen the grid`,
+  outsideTrainingRange: (rows: number, predictor: string) =>
+    `${rows} holdout row${rows === 1 ? ' has' : 's have'} ${predictor} outside the training rows' range; there the model extrapolates, and a tree or forest cannot: it predicts as at the nearest edge of the training data`,
+  noBetterThanLinear: (best: string, linear: string) =>
+    `the chosen model "${best}" does not beat the linear baseline "${linear}"; prefer the simpler model`,
+  holdoutNoBetterThanLinear: (best: string, linear: string, skill: number) =>
+    `on the holdout, "${best}" does not beat the linear baseline "${linear}" (MSE skill ${skill.toFixed(3)}); the extra complexity buys nothing here`,
+  deriveNonFinite: (column: string, expr: string, count: number) =>
+    `derived column "${column}" = ${expr} gave ${count} non-finite values (out-of-domain inputs, such as the log of zero); they are treated as missing`,
+  joinDuplicateKeys: (source: string, rows: number, on: string[]) =>
+    `source "${source}" has ${rows} rows whose ${on.join(', ')} repeats an earlier row; each matching row of the main table was repeated once per partner; make the key unique if that is not intended`,
   // --- cache and output
   cacheCorrupt: (key: string) =>
     `cache entry ${key.slice(0, 12)} failed its checksum (damaged or cut short) and was discarded; the step was recomputed`,

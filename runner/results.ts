@@ -225,15 +225,9 @@ function evaluationWarnings(recipe: Recipe, models: ModelResult[], best: ModelRe
     if (ev[part].by !== 'random') continue;
     const what = part === 'holdout' ? 'the holdout is drawn' : 'the folds are drawn';
     if (recipe.groups) {
-      log.add(
-        'random-split-with-groups',
-        `the recipe declares groups (${recipe.groups}) but ${what} at random; rows of one group on both sides of a split make scores look better than they will be on new groups; split by groups`,
-      );
+      log.add('random-split-with-groups', messages.randomSplitWithGroups(recipe.groups, what));
     } else if (recipe.time) {
-      log.add(
-        'random-split-with-time',
-        `the recipe declares a time column (${recipe.time}) but ${what} at random; neighbouring times on both sides of a split make scores look better than forecasts will be; split by time`,
-      );
+      log.add('random-split-with-time', messages.randomSplitWithTime(recipe.time, what));
     }
   }
   for (const m of models) {
@@ -247,30 +241,21 @@ function evaluationWarnings(recipe: Recipe, models: ModelResult[], best: ModelRe
       const atLimit = (v === 1 && ['min_leaf', 'mtry', 'max_depth'].includes(param) && v === Math.min(...numeric)) ||
         (param === 'sample_fraction' && v === 1);
       if (!atLimit && (v === Math.min(...numeric) || v === Math.max(...numeric))) {
-        log.add(
-          'grid-edge',
-          `model "${m.name}": the chosen ${param} = ${v} is at the edge of its grid (${numeric.join(', ')}); a value beyond it might score better; widen the grid`,
-        );
+        log.add('grid-edge', messages.gridEdge(m.name, param, v, numeric));
       }
     }
   }
   for (const [p, n] of Object.entries(score.outsideRange)) {
-    log.add(
-      'outside-training-range',
-      `${n} holdout row${n === 1 ? ' has' : 's have'} ${p} outside the training rows' range; there the model extrapolates, and a tree or forest cannot: it predicts as at the nearest edge of the training data`,
-    );
+    log.add('outside-training-range', messages.outsideTrainingRange(n, p));
   }
   const linear = models.find((m) => m.kind === 'linear');
   if (linear && best !== linear && !better(best.crossValidated, linear.crossValidated, ev.choose_by)) {
-    log.add('no-better-than-linear', `the chosen model "${best.name}" does not beat the linear baseline "${linear.name}"; prefer the simpler model`);
+    log.add('no-better-than-linear', messages.noBetterThanLinear(best.name, linear.name));
   }
   if (linear && best !== linear) {
     const s = best.skill[linear.name];
     if (s !== null && s !== undefined && s <= 0) {
-      log.add(
-        'holdout-no-better-than-linear',
-        `on the holdout, "${best.name}" does not beat the linear baseline "${linear.name}" (MSE skill ${s.toFixed(3)}); the extra complexity buys nothing here`,
-      );
+      log.add('holdout-no-better-than-linear', messages.holdoutNoBetterThanLinear(best.name, linear.name, s));
     }
   }
 }

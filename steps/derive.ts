@@ -1,4 +1,5 @@
 import { columnFromValues, toArquero, type Frame } from '../core/frame.js';
+import { messages } from '../core/messages.js';
 import type { FrameOutput, StepDefinition } from '../core/step-types.js';
 import { assertRowWise, checkTextSize, expressionSite, missingInputs, withinBudget, withMissingInputs } from './expressions.js';
 import { dict } from '../core/dict.js';
@@ -34,10 +35,7 @@ export const derive: StepDefinition<DeriveParams, FrameOutput> = {
       frame.columns.push(column);
       if (nonFinite > 0) {
         changed[name] = nonFinite;
-        ctx.warn(
-          'derive-non-finite',
-          `derived column "${name}" = ${params.columns[name]} gave ${nonFinite} non-finite values (from missing or out-of-domain inputs); they are treated as missing`,
-        );
+        ctx.warn('derive-non-finite', messages.deriveNonFinite(name, params.columns[name], nonFinite));
       }
     }
     return {

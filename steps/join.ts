@@ -1,4 +1,5 @@
 import { column, isMissing, takeRows, type Column, type Frame } from '../core/frame.js';
+import { messages } from '../core/messages.js';
 import type { FrameOutput, StepDefinition } from '../core/step-types.js';
 
 export interface JoinParams {
@@ -38,10 +39,7 @@ export const join: StepDefinition<JoinParams, FrameOutput> = {
       } else index.set(k, [i]);
     }
     if (duplicated > 0) {
-      ctx.warn(
-        'join-duplicate-keys',
-        `source "${params.with}" has ${duplicated} rows whose ${params.on.join(', ')} repeats an earlier row; each matching row of the main table was repeated once per partner; make the key unique if that is not intended`,
-      );
+      ctx.warn('join-duplicate-keys', messages.joinDuplicateKeys(params.with, duplicated, params.on));
     }
     const leftKey = keyOf(left);
     const leftRows: number[] = [];
