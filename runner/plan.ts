@@ -9,7 +9,7 @@ import { resolveSourcePath } from './recipe.js';
 import { displayOf } from './paths.js';
 import type { CleanStep, Recipe, SourceSpec } from '../core/recipe-types.js';
 import type { StepInstance } from '../core/step-types.js';
-import { expressionLocator, recipeContract } from '../steps/index.js';
+import { expressionLocator, modelKinds, recipeContract } from '../steps/index.js';
 import { dict } from '../core/dict.js';
 
 /** Bootstrap resamples behind each holdout interval. */
@@ -132,7 +132,7 @@ export function planRecipe(recipe: Recipe, origin: RecipeOrigin): Plan {
   const explain = dict(
     names.map((name) => [
       name,
-      recipe.models[name].kind === 'mean' ? null : add(`explain ${name}`, 'explain', { target: recipe.target, ...EXPLAIN }, [modelTable, holdout, fit[name]]),
+      !modelKinds[recipe.models[name].kind].explained ? null : add(`explain ${name}`, 'explain', { target: recipe.target, ...EXPLAIN }, [modelTable, holdout, fit[name]]),
     ]),
   );
   const models: Plan['models'] = dict(

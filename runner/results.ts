@@ -4,14 +4,14 @@ import type { CrossValidateOutput } from '../steps/index.js';
 import type { FitOutput } from '../steps/index.js';
 import type { FoldsOutput } from '../steps/index.js';
 import type { HoldoutOutput } from '../steps/index.js';
-import { cellLabel } from '../steps/index.js';
+import { cellLabel, modelKinds } from '../steps/index.js';
 import type { ColumnProfile } from '../steps/index.js';
 import { better } from '../steps/index.js';
 import type { ScoreOutput } from '../steps/index.js';
 import type { ExplainOutput } from '../steps/index.js';
 import type { Execution } from './execute.js';
 import type { Plan } from './plan.js';
-import type { Recipe } from '../core/recipe-types.js';
+import type { ModelKind, Recipe } from '../core/recipe-types.js';
 import type { FrameOutput, Warning } from '../core/step-types.js';
 import { WarningLog } from '../core/warnings.js';
 import { column } from '../core/frame.js';
@@ -34,7 +34,7 @@ export interface SourceResult {
 
 export interface ModelResult {
   name: string;
-  kind: string;
+  kind: ModelKind;
   chooseBy: string;
   cells: ChooseOutput['cells'];
   chosen: number;
@@ -111,7 +111,7 @@ export function gatherResults(recipe: Recipe, plan: Plan, exec: Execution): Resu
   });
   const split = out(plan.holdout) as HoldoutOutput;
   const folds = out(plan.folds) as FoldsOutput;
-  const baselines = Object.entries(recipe.models).filter(([, m]) => m.kind === 'mean' || m.kind === 'linear');
+  const baselines = Object.entries(recipe.models).filter(([, m]) => modelKinds[m.kind].baseline !== null);
   const scores = new Map(Object.entries(plan.models).map(([name, ids]) => [name, out(ids.score) as ScoreOutput]));
   const models: ModelResult[] = Object.entries(plan.models).map(([name, ids]) => {
     const chosen = out(ids.choose) as ChooseOutput;
@@ -248,7 +248,7 @@ function evaluationWarnings(recipe: Recipe, models: ModelResult[], best: ModelRe
   for (const [p, n] of Object.entries(score.outsideRange)) {
     log.add('outside-training-range', messages.outsideTrainingRange(n, p));
   }
-  const linear = models.find((m) => m.kind === 'linear');
+  const linear = models.find((m) => modelKinds[m.kind].baseline === 'linear');
   if (linear && best !== linear && !better(best.crossValidated, linear.crossValidated, ev.choose_by)) {
     log.add('no-better-than-linear', messages.noBetterThanLinear(best.name, linear.name));
   }

@@ -16,6 +16,13 @@ export interface FittedModel {
 
 /** How the runner fits and applies one model kind. Adding a kind is one entry here. */
 export interface ModelKindAdapter {
+  /**
+   * The yardstick the kind is, if any: skill is measured against every baseline in the recipe, and
+   * a chosen model that does not beat the `linear` one is warned about. null for the kinds judged.
+   */
+  baseline: 'constant' | 'linear' | null;
+  /** Whether permutation importance and partial dependence can say anything about the kind (a constant cannot). */
+  explained: boolean;
   fit(x: Matrix, y: Float64Array, cell: Cell, opts: { seed: string; workers: number }): Promise<FittedModel>;
   predict(bytes: Uint8Array, x: Matrix): Promise<Float64Array>;
 }
@@ -25,6 +32,8 @@ const forestEngine = () => import('../models/forest.js');
 
 export const modelKinds: Record<ModelKind, ModelKindAdapter> = {
   random_forest: {
+    baseline: null,
+    explained: true,
     async fit(x, y, cell, opts) {
       const { fitForest, oob, serializeForest } = await forestEngine();
       const forest = await fitForest(x, y, {
@@ -46,6 +55,8 @@ export const modelKinds: Record<ModelKind, ModelKindAdapter> = {
     },
   },
   decision_tree: {
+    baseline: null,
+    explained: true,
     async fit(x, y, cell, opts) {
       const { fitDecisionTree, serializeForest } = await forestEngine();
       const tree = await fitDecisionTree(x, y, {
@@ -61,6 +72,8 @@ export const modelKinds: Record<ModelKind, ModelKindAdapter> = {
     },
   },
   linear: {
+    baseline: 'linear',
+    explained: true,
     async fit(x, y) {
       const kept = linearColumns(x);
       // an exactly redundant predictor changes no fitted value, so the baseline leaves it out and says so
@@ -75,6 +88,8 @@ export const modelKinds: Record<ModelKind, ModelKindAdapter> = {
     },
   },
   mean: {
+    baseline: 'constant',
+    explained: false,
     async fit(_x, y) {
       return { bytes: serializeMean(fitMean(y)), used: {} };
     },

@@ -95,3 +95,13 @@ describe('step instances', () => {
     expect(byId.get('holdout')!.seed).toBe(11);
   });
 });
+
+describe('model kinds in the plan', () => {
+  it('get an explanation step when their kind can be explained, and none for the constant mean', () => {
+    const dir = makeFolder({ 'recipe.yaml': SMALL_RECIPE.replace('  mean: {kind: mean}', '  mean: {kind: mean}\n  tree: {kind: decision_tree, grid: {max_depth: 2}}'), 'data/obs.csv': smallData() });
+    const { recipe, origin } = loadRecipe(join(dir, 'recipe.yaml'));
+    const plan = planRecipe(recipe, origin);
+    // permutation importance of a model that ignores its predictors is zero by construction
+    expect(Object.fromEntries(Object.entries(plan.models).map(([name, ids]) => [name, ids.explain !== null]))).toEqual({ linear: true, mean: false, tree: true });
+  });
+});
