@@ -3,6 +3,7 @@
  * Each quotes the bad value, says where it is, and says what to do.
  * Tests compare against these functions, never against copied strings.
  */
+import { table } from './dict.js';
 
 /** An error meant for the user: message is complete, exitCode says whose fault it was. */
 export class DendrologError extends Error {
@@ -63,7 +64,7 @@ const FS_WHY = new Map([
 const hexByte = (b: number): string => b.toString(16).toUpperCase().padStart(2, '0');
 
 /** What each file-system refusal means for the user, and what to do about it. */
-const FILE_SYSTEM_ADVICE: Readonly<Record<string, string>> = Object.assign(Object.create(null) as Record<string, string>, {
+const FILE_SYSTEM_ADVICE: Readonly<Record<string, string>> = table({
   ENOSPC: 'the disk is full; free some space',
   EDQUOT: 'your disk quota is used up; free some space',
   EACCES: 'no permission; check the owner and mode of the file or its folder',
@@ -79,6 +80,11 @@ const FILE_SYSTEM_ADVICE: Readonly<Record<string, string>> = Object.assign(Objec
   ELOOP: 'symbolic links loop; check the links on the path',
   EIO: 'the disk reported an input/output error; check the disk',
 });
+
+/** Whether a system error code describes the machine's state (a full disk, a missing permission) rather than a bug. */
+export function isFileSystemRefusal(code: string): boolean {
+  return Object.hasOwn(FILE_SYSTEM_ADVICE, code);
+}
 
 export const messages = {
   // --- usage

@@ -1,6 +1,6 @@
 import { relative, resolve } from 'node:path';
 import { parseArgs } from 'node:util';
-import { DendrologError, messages } from '../core/messages.js';
+import { DendrologError, isFileSystemRefusal, messages } from '../core/messages.js';
 import { streamProgress } from './progress.js';
 import { loadRecipe } from './recipe.js';
 import { displayOf } from './paths.js';
@@ -136,7 +136,7 @@ export async function main(argv: string[]): Promise<number> {
     // the file system refusing (full disk, no permission, a folder where a file should be) is the
     // machine's state, not a bug: say which file and what to do
     const sys = e as NodeJS.ErrnoException;
-    if (sys && typeof sys.code === 'string' && typeof sys.path === 'string' && FILE_SYSTEM_CODES.has(sys.code)) {
+    if (sys && typeof sys.code === 'string' && typeof sys.path === 'string' && isFileSystemRefusal(sys.code)) {
       err.write(`${messages.fileSystemRefused(sys.code, sys.syscall ?? 'use', displayOf(resolve(sys.path)))}\n`);
       return 1;
     }
@@ -144,9 +144,6 @@ export async function main(argv: string[]): Promise<number> {
     return 1;
   }
 }
-
-/** File-system error codes that describe the machine's state rather than a bug in dendrolog. */
-const FILE_SYSTEM_CODES = new Set(['ENOSPC', 'EDQUOT', 'EACCES', 'EPERM', 'EROFS', 'EISDIR', 'ENOTDIR', 'ENOENT', 'EMFILE', 'ENFILE', 'EBUSY', 'ENAMETOOLONG', 'ELOOP', 'EIO']);
 
 type OptionSpec = Record<string, { type: 'string' | 'boolean' }>;
 

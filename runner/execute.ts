@@ -48,8 +48,9 @@ export interface LocalExecutorOptions {
  * cache that refuses a write is warned about once and not written again in this run. Consecutive
  * steps marked `parallel` that do not depend on one another (grid cells, final fits, explanations)
  * run side by side on a pool of `workers` threads, one step per thread; every other step runs here,
- * and a forest fit there spreads its trees over the threads instead. Outputs handed downstream are always the decoded bytes, so a warm and a cold
- * run, and any number of threads, compute on equal values.
+ * and a forest fit there spreads its trees over the threads instead. Outputs handed downstream are
+ * always the decoded bytes, so a warm and a cold run, and any number of threads, compute on equal
+ * values.
  */
 export function localExecutor(opts: LocalExecutorOptions): Executor {
   return {
