@@ -40,22 +40,22 @@ export interface JoinSpec {
 }
 
 /**
- * A cleaning step as normalized: its kind and its parameters, every default written out. Each kind's
- * parameters are its step definition's own (`steps/<kind>.ts`), which says through its recipe
- * contract how the step reads, normalizes and checks; nothing outside it switches on the kind.
+ * A cleaning or feature step as normalized: its kind and its parameters, every default written
+ * out. Each kind's parameters are its definition's own (`steps/<kind>.ts`), which says through its
+ * recipe contract how the step reads, normalizes and checks; nothing outside it switches on the kind.
  */
-export interface CleanStep {
+export interface RecipeStep {
   kind: string;
   [param: string]: unknown;
 }
 
-export type FeatureStep =
-  | { kind: 'derive'; columns: Record<string, string> }
-  | { kind: 'impute'; columns: string[]; with: 'mean' | 'median' }
-  | { kind: 'one_hot'; column: string; unseen: 'error' | 'other'; max_levels: number }
-  | { kind: 'standardize'; columns: string[] };
+/** A step of the recipe's `clean` list. */
+export type CleanStep = RecipeStep;
+/** A step of the recipe's `features` list: computed row by row (derive) or learned from training rows. */
+export type FeatureStep = RecipeStep;
 
-export type ModelKind = 'random_forest' | 'decision_tree' | 'linear' | 'mean';
+/** A model kind: one of the adapters in steps/model-kinds.ts, which says its hyperparameters and their defaults. */
+export type ModelKind = string;
 
 export interface ModelSpec {
   kind: ModelKind;

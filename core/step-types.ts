@@ -94,13 +94,21 @@ export interface ColumnRead {
   at: StepPath;
 }
 
+/** A column a step adds, where the recipe names it, and the columns its value is computed from. */
+export interface ColumnWrite {
+  column: string;
+  type: ColumnType;
+  at: StepPath;
+  from: string[];
+}
+
 /**
  * How a step kind appears in a recipe, so that the schema, normalization, meaning checks, planning
- * and predict all follow from its definition. Adding a cleaning step is its file and a registry line.
+ * and predict all follow from its definition. Adding a kind is its file and a registry line.
  */
 export interface RecipeContract<P> {
   /** The recipe list it is written in. */
-  section: 'clean';
+  section: 'clean' | 'features';
   /** JSON schema of the value under the step's key; `#/definitions/...` refers to the recipe schema's. */
   schema: Record<string, unknown>;
   /** Parameters from the schema-valid value, with every default written out. */
@@ -109,17 +117,23 @@ export interface RecipeContract<P> {
   shape(params: P): unknown;
   /** Columns it reads, each where the recipe names it; they must exist at that point of the pipeline. */
   reads(params: P): ColumnRead[];
+  /** Columns it adds to the table (all later steps may read them), each with the columns it is computed from. */
+  writes?(params: P): ColumnWrite[];
+  /** Text or category columns it turns into numbers for the models, so they may be predictors. */
+  encodes?(params: P): string[];
+  /** The step in a few words for the report, such as `tp, srp by median`. */
+  describe?(params: P): string;
   /** Expressions it evaluates, where the recipe holds each; they are checked as row-wise expressions. */
   expressions?(params: P): { expr: string; at: StepPath; column?: string }[];
   /** What the schema cannot see: value ranges, column types at that point (`label` names the step). */
   check?(params: P, types: ReadonlyMap<string, ColumnType>, label: string): { at: StepPath; message: string }[];
   /**
    * For predict on a file without some columns (the target): the step without them, or null when
-   * nothing of it is left to apply.
+   * nothing of it is left to apply. Kinds without it apply unchanged.
    */
-  without(params: P, absent: ReadonlySet<string>): P | null;
-  /** Why the step removed one row, in words about that row, for predict's per-row reasons. */
-  rowReason(params: P, frame: Frame, row: number): string;
+  without?(params: P, absent: ReadonlySet<string>): P | null;
+  /** Why the step removed one row, in words about that row, for predict's per-row reasons (kinds that remove rows). */
+  rowReason?(params: P, frame: Frame, row: number): string;
 }
 
 /**

@@ -46,7 +46,5 @@ export const engineMessages = {
   namesDiffer: (expected: string[], got: string[]): string =>
     `the prediction matrix has columns [${got.join(', ')}] but the forest was fitted on [${expected.join(', ')}]; ` +
     `give the same columns in the same order`,
-  targetLengthHeldOut: (length: number, rows: number): string =>
-    `the held-out target has ${length} values but the held-out predictors have ${rows} rows`,
   notAForest: (why: string): string => `these bytes are not a dendrolog forest: ${why}`,
 };

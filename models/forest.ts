@@ -378,7 +378,7 @@ export function oob(f: Forest): OobResult {
  * error of the splits on it, per unit of in-bag weight, averaged over trees (units of the target
  * squared; the values add up to the mean training-MSE reduction of a tree). Being measured on the
  * data the trees were fitted to, it favours features with many split points and can credit noise;
- * prefer permutationImportance on held-out rows for conclusions.
+ * prefer permutation importance on held-out rows (the explain step) for conclusions.
  *
  * Example: `impurityImportance(forest)[2]` is feature 2's share.
  */
@@ -386,5 +386,4 @@ export function impurityImportance(f: Forest): Float64Array {
   return f.impurityImportance.slice();
 }
 
-export { permutationImportance } from './importance.js';
 export { serializeForest, deserializeForest } from './serialize.js';

@@ -36,6 +36,8 @@ export const metricReasons = {
   partUndefined: (which: 'baseline' | 'model', reason: string): string => `the ${which}'s RMSE is undefined (${reason})`,
   negligibleBaselineError: (): string =>
     `the baseline's error is rounding noise against the size of the observed values (at most ${NEGLIGIBLE_SPREAD.toPrecision(2)} of it), so the ratio has no denominator`,
+  skillOverflow: (ratio: number): string =>
+    `the model's RMSE is ${ratio.toPrecision(2)} times the baseline's, so the skill score is beyond the range of float64 numbers`,
   nonFinitePredicted: (value: number, row: number): string =>
     `the model predicted ${String(value)} at row ${row} (counted from 0), which is not a finite number`,
 };

@@ -101,7 +101,8 @@ export async function main(argv: string[]): Promise<number> {
       const s = await predictRun(positionals[0], positionals[1], values.out as string);
       out.write(
         `${s.predicted} of ${s.rows} rows predicted, ${s.notPredicted} not (reasons in the file), ${s.outsideRange} with a predictor outside the training range\n` +
-          (s.skippedSteps.length ? `the file has no target, so these cleaning steps that need it were skipped: ${s.skippedSteps.join(', ')}\n` : '') +
+          (s.skippedSteps.length ? `the file has no target, so these steps that need it were skipped: ${s.skippedSteps.join(', ')}\n` : '') +
+          s.warnings.map((w) => `warning: ${w.message}${w.count > 1 ? ` (×${w.count})` : ''}\n`).join('') +
           `Predictions: ${s.out}\n`,
       );
       return 0;

@@ -1,47 +1,21 @@
-import { DEFAULT_MIN_LEAF, DEFAULT_REPLACE, DEFAULT_SAMPLE_FRACTION, DEFAULT_TREES } from '../models/defaults.js';
 import type {
-  CleanStep,
   Evaluation,
-  FeatureStep,
   ModelKind,
+  RecipeStep,
   ModelSpec,
   Recipe,
   SourceFormat,
   SourceSpec,
 } from '../core/recipe-types.js';
 import { dict, dictOf, table } from '../core/dict.js';
-import { readDefaults, recipeContract } from '../steps/index.js';
+import { gridWithDefaults, readDefaults, recipeContract, type GridValue, type RecipeSection } from '../steps/index.js';
 
 /** Seed used when the recipe gives none; written into the normalized recipe and the manifest. */
 export const DEFAULT_SEED = 1;
 /** Tokens read as missing when a source lists none. */
 export const DEFAULT_MISSING = ['', 'NA'];
-/**
- * Most categories a one_hot step expands into indicator columns unless the recipe raises it: each
- * level is a column of the model matrix, so a free-text or identifier column would make a matrix
- * too wide to fit (and a level seen once teaches a model nothing).
- */
-export const DEFAULT_MAX_LEVELS = 1000;
 /** Upper bound on grid cells across all models unless the recipe raises it. */
 export const DEFAULT_MAX_CELLS = 200;
-
-/**
- * Hyperparameter defaults per model kind, the engine's own (models/defaults.ts says why each). `mtry: null` means one third of the predictors
- * (after one-hot expansion), rounded down, at least 1; the value used is recorded per fit.
- */
-export const MODEL_DEFAULTS: Record<ModelKind, Record<string, (number | boolean | null)[]>> = {
-  random_forest: {
-    trees: [DEFAULT_TREES],
-    max_depth: [null],
-    min_leaf: [DEFAULT_MIN_LEAF],
-    mtry: [null],
-    sample_fraction: [DEFAULT_SAMPLE_FRACTION],
-    replace: [DEFAULT_REPLACE],
-  },
-  decision_tree: { max_depth: [null], min_leaf: [DEFAULT_MIN_LEAF] },
-  linear: {},
-  mean: {},
-};
 
 type Raw = Record<string, unknown>;
 
@@ -116,13 +90,7 @@ export function normalizeRecipe(raw: Raw): Recipe {
   const models = dict<ModelSpec>();
   for (const [name, m] of Object.entries(raw.models as Record<string, Raw>)) {
     const kind = m.kind as ModelKind;
-    const grid: ModelSpec['grid'] = {};
-    const given = (m.grid as Raw | undefined) ?? {};
-    for (const [param, def] of Object.entries(MODEL_DEFAULTS[kind])) {
-      const v = given[param];
-      grid[param] = v === undefined ? [...def] : Array.isArray(v) ? [...v] : [v as number | boolean | null];
-    }
-    models[name] = { kind, grid };
+    models[name] = { kind, grid: gridWithDefaults(kind, (m.grid as Record<string, GridValue> | undefined) ?? {}) };
   }
   const ev = (raw.evaluation as Raw | undefined) ?? {};
   const holdout = (ev.holdout as Raw | undefined) ?? {};
@@ -153,8 +121,8 @@ export function normalizeRecipe(raw: Raw): Recipe {
       on: Array.isArray(j.on) ? j.on.map(String) : [String(j.on)],
       keep: (j.keep as 'matched' | 'all' | undefined) ?? 'matched',
     })),
-    clean: ((raw.clean as Raw[] | undefined) ?? []).map(normalizeClean),
-    features: ((raw.features as Raw[] | undefined) ?? []).map(normalizeFeature),
+    clean: ((raw.clean as Raw[] | undefined) ?? []).map((c) => normalizeStep('clean', c)),
+    features: ((raw.features as Raw[] | undefined) ?? []).map((f) => normalizeStep('features', f)),
     target: String(raw.target),
     predictors: (raw.predictors as string[]).map(String),
     groups,
@@ -165,31 +133,10 @@ export function normalizeRecipe(raw: Raw): Recipe {
   };
 }
 
-/** A cleaning step through its kind's own contract: `{kind, ...params}` with every default written out. */
-function normalizeClean(step: Raw): CleanStep {
+/** A cleaning or feature step through its kind's own contract: `{kind, ...params}` with every default written out. */
+function normalizeStep(section: RecipeSection, step: Raw): RecipeStep {
   const [kind, v] = Object.entries(step)[0] as [string, unknown];
-  const contract = recipeContract('clean', kind);
-  if (!contract) throw new Error(`normalizeClean: schema let through clean step ${kind}`);
+  const contract = recipeContract(section, kind);
+  if (!contract) throw new Error(`normalizeStep: schema let through ${section} step ${kind}`);
   return { kind, ...(contract.normalize(v) as Record<string, unknown>) };
-}
-
-function normalizeFeature(step: Raw): FeatureStep {
-  const [kind, v] = Object.entries(step)[0] as [string, unknown];
-  const r = v as Raw;
-  switch (kind) {
-    case 'derive':
-      return { kind, columns: dictOf(v as Record<string, string>) };
-    case 'impute':
-      return { kind, columns: r.columns as string[], with: (r.with as 'mean' | 'median' | undefined) ?? 'median' };
-    case 'one_hot':
-      return {
-        kind,
-        column: r.column as string,
-        unseen: (r.unseen as 'error' | 'other' | undefined) ?? 'error',
-        max_levels: (r.max_levels as number | undefined) ?? DEFAULT_MAX_LEVELS,
-      };
-    case 'standardize':
-      return { kind, columns: r.columns as string[] };
-  }
-  throw new Error(`normalizeFeature: schema let through feature step ${kind}`);
 }

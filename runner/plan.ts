@@ -7,9 +7,10 @@ import { DendrologError, messages } from '../core/messages.js';
 import type { RecipeOrigin } from './recipe.js';
 import { resolveSourcePath } from './recipe.js';
 import { displayOf } from './paths.js';
-import type { CleanStep, Recipe, SourceSpec } from '../core/recipe-types.js';
+import type { Recipe, RecipeStep, SourceSpec } from '../core/recipe-types.js';
 import type { StepInstance } from '../core/step-types.js';
-import { expressionLocator, modelKinds, recipeContract } from '../steps/index.js';
+import type { Frame } from '../core/frame.js';
+import { expressionLocator, isLearned, modelKinds, recipeContract, type RecipeSection } from '../steps/index.js';
 import { dict } from '../core/dict.js';
 
 /** Bootstrap resamples behind each holdout interval. */
@@ -27,6 +28,97 @@ export interface Plan {
   holdout: string;
   folds: string;
   models: Record<string, { cells: string[]; choose: string; fit: string; score: string; explain: string | null }>;
+  /** The choice of the headline model across models, the skill scores and the evaluation's warnings. */
+  headline: string;
+}
+
+/** Where a plan's files are and how its positions read: a recipe file's, or those of the recipe a run record keeps. */
+export interface PlanOrigin {
+  /** Absolute path of the folder the recipe's source paths are relative to. */
+  dir: string;
+  /** `file:line:column` of a place in the recipe (only the file when the positions are gone). */
+  where(path: (string | number)[]): string;
+}
+
+/** Adds one step instance to a plan and returns its id. */
+type AddStep = (id: string, kind: string, params: unknown, inputs: string[], locator?: Record<string, string>) => string;
+
+/**
+ * An empty plan and the one way instances enter it: each keyed by the SHA-256 of its kind, version,
+ * params, the master seed (for steps that draw random numbers), the software fingerprint and its
+ * inputs' keys.
+ */
+function planner(seed: number): { steps: StepInstance[]; add: AddStep } {
+  const steps: StepInstance[] = [];
+  const keyOf = new Map<string, string>();
+  const seedKeyOf = new Map<string, string>();
+  const software = softwareFingerprint();
+  const add: AddStep = (id, kind, params, inputs, locator = {}) => {
+    const def = stepRegistry[kind];
+    const usedSeed = def.usesSeed ? seed : undefined;
+    const key = hashValue({ kind, version: def.version, params, seed: usedSeed, software, inputs: inputs.map((i) => keyOf.get(i)) });
+    // random draws follow the analysis, not the code: a refactor must not reshuffle the folds
+    const seedKey = hashValue({ kind, version: def.version, params, seed: usedSeed, inputs: inputs.map((i) => seedKeyOf.get(i)) });
+    keyOf.set(id, key);
+    seedKeyOf.set(id, seedKey);
+    steps.push({ id, kind, params, inputs, locator, key, seedKey, seed });
+    return id;
+  };
+  return { steps, add };
+}
+
+/** Reads a source of the recipe: its file inside the recipe's folder, checked against its pin. */
+function addSource(add: AddStep, origin: PlanOrigin, name: string, s: SourceSpec): string {
+  const r = resolveSourcePath(origin, s.file);
+  if ('problem' in r) throw new DendrologError(`${origin.where(['sources', name, 'file'])}: ${r.problem}`, 2);
+  const fileSha = sha256(readFileSync(r.path));
+  if (s.sha256 && s.sha256 !== fileSha) {
+    throw new DendrologError(`${origin.where(['sources', name, 'sha256'])}: ${messages.sourceHashMismatch(s.file, s.sha256, fileSha)}`, 2);
+  }
+  return add(`source ${name}`, 'source', sourceParams(s, fileSha), [], { path: r.path, display: displayOf(r.path), file: s.file });
+}
+
+/** A data step of a plan, and why it removed a row (for predict's per-row reasons). */
+export interface DataStep {
+  id: string;
+  removed(before: Frame, row: number): string;
+}
+
+/**
+ * The data steps after the main table: joins, cleaning and the features computed row by row (derive;
+ * learned ones are part of every fit). With `without` (columns new data lacks, such as the target),
+ * each step does without them through its contract, and a step with nothing left is skipped.
+ */
+function addDataSteps(
+  recipe: Recipe,
+  origin: PlanOrigin,
+  add: AddStep,
+  sources: Record<string, string>,
+  first: string,
+  without: ReadonlySet<string> | null,
+): { steps: DataStep[]; skipped: string[]; last: string } {
+  const steps: DataStep[] = [];
+  const skipped: string[] = [];
+  let last = first;
+  recipe.join.forEach((j, i) => {
+    last = add(`join[${i}] ${j.with}`, 'join', j, [last, sources[j.with]]);
+    steps.push({ id: last, removed: () => `no partner in source "${j.with}" (join[${i}] on ${j.on.join(', ')})` });
+  });
+  const rowSteps = [...recipe.clean.map((c, i) => ['clean', c, i] as const), ...recipe.features.map((f, i) => ['features', f, i] as const)];
+  for (const [section, step, i] of rowSteps) {
+    if (section === 'features' && isLearned(step.kind)) continue;
+    const { kind, ...given } = step;
+    const contract = recipeContract(section, kind)!;
+    const params = without && contract.without ? contract.without(given, without) : given;
+    const id = `${section}[${i}] ${kind}`;
+    if (params === null) {
+      skipped.push(id);
+      continue;
+    }
+    last = add(id, kind, params, [last], stepLocator(section, { kind, ...(params as Record<string, unknown>) }, i, origin.where));
+    steps.push({ id: last, removed: (before, row) => `removed by ${id}: ${contract.rowReason?.(params, before, row) ?? 'the step removed it'}` });
+  }
+  return { steps, skipped, last };
 }
 
 /**
@@ -36,56 +128,14 @@ export interface Plan {
  * Example: changing `clean[1]` changes the keys of clean[1] and everything after it, nothing before.
  */
 export function planRecipe(recipe: Recipe, origin: RecipeOrigin): Plan {
-  const steps: StepInstance[] = [];
-  const keyOf = new Map<string, string>();
-  const seedKeyOf = new Map<string, string>();
-  const software = softwareFingerprint();
-  const add = (id: string, kind: string, params: unknown, inputs: string[], locator: Record<string, string> = {}) => {
-    const def = stepRegistry[kind];
-    const seed = def.usesSeed ? recipe.seed : undefined;
-    const key = hashValue({ kind, version: def.version, params, seed, software, inputs: inputs.map((i) => keyOf.get(i)) });
-    // random draws follow the analysis, not the code: a refactor must not reshuffle the folds
-    const seedKey = hashValue({ kind, version: def.version, params, seed, inputs: inputs.map((i) => seedKeyOf.get(i)) });
-    keyOf.set(id, key);
-    seedKeyOf.set(id, seedKey);
-    steps.push({ id, kind, params, inputs, locator, key, seedKey, seed: recipe.seed });
-    return id;
-  };
-
+  const { steps, add } = planner(recipe.seed);
+  const at: PlanOrigin = { dir: origin.dir, where: (path) => origin.doc.where(path) };
   const sources = dict<string>();
-  for (const [name, s] of Object.entries(recipe.sources)) {
-    const r = resolveSourcePath(origin, s.file);
-    if ('problem' in r) throw new DendrologError(`${origin.doc.where(['sources', name, 'file'])}: ${r.problem}`, 2);
-    const fileSha = sha256(readFileSync(r.path));
-    if (s.sha256 && s.sha256 !== fileSha) {
-      throw new DendrologError(`${origin.doc.where(['sources', name, 'sha256'])}: ${messages.sourceHashMismatch(s.file, s.sha256, fileSha)}`, 2);
-    }
-    sources[name] = add(
-      `source ${name}`,
-      'source',
-      sourceParams(s, fileSha),
-      [],
-      { path: r.path, display: displayOf(r.path), file: s.file },
-    );
-  }
-  const dataSteps: string[] = [sources[Object.keys(recipe.sources)[0]]];
-  let last = dataSteps[0];
-  recipe.join.forEach((j, i) => {
-    last = add(`join[${i}] ${j.with}`, 'join', j, [last, sources[j.with]]);
-    dataSteps.push(last);
-  });
-  recipe.clean.forEach((c, i) => {
-    const { kind, ...params } = c;
-    const locator = cleanLocator(c, i, (path) => origin.doc.where(path));
-    last = add(`clean[${i}] ${kind}`, kind, params, [last], locator);
-    dataSteps.push(last);
-  });
-  recipe.features.forEach((f, i) => {
-    if (f.kind !== 'derive') return;
-    const positions = Object.keys(f.columns).map((name): [string, string] => [name, origin.doc.where(['features', i, 'derive', name])]);
-    last = add(`features[${i}] derive`, 'derive', { columns: f.columns }, [last], expressionLocator(`features[${i}] derive`, positions));
-    dataSteps.push(last);
-  });
+  for (const [name, s] of Object.entries(recipe.sources)) sources[name] = addSource(add, at, name, s);
+  const main = sources[Object.keys(recipe.sources)[0]];
+  const data = addDataSteps(recipe, at, add, sources, main, null);
+  const dataSteps = [main, ...data.steps.map((d) => d.id)];
+  const last = data.last;
   const modelTable = add(
     'model table',
     'model_table',
@@ -96,7 +146,7 @@ export function planRecipe(recipe: Recipe, origin: RecipeOrigin): Plan {
   const ev = recipe.evaluation;
   const holdout = add('holdout', 'holdout', { ...ev.holdout, groups: recipe.groups, time: recipe.time }, [modelTable]);
   const folds = add('folds', 'folds', { ...ev.folds, groups: recipe.groups, time: recipe.time }, [modelTable, holdout]);
-  const learned = recipe.features.filter((f) => f.kind !== 'derive');
+  const learned = recipe.features.filter((f) => isLearned(f.kind));
   const common = { target: recipe.target, predictors: recipe.predictors, features: learned };
   // phase by phase across models, so the heavy independent steps (every model's grid cells, then the
   // final fits, then the explanations) sit next to each other and can run side by side
@@ -138,18 +188,75 @@ export function planRecipe(recipe: Recipe, origin: RecipeOrigin): Plan {
   const models: Plan['models'] = dict(
     names.map((name) => [name, { cells: cells[name], choose: choose[name], fit: fit[name], score: score[name], explain: explain[name] }]),
   );
-  return { steps, sources, dataSteps, modelTable, holdout, folds, models };
+  const headline = add(
+    'headline',
+    'headline',
+    {
+      models: names.map((name) => ({ name, kind: recipe.models[name].kind, grid: recipe.models[name].grid })),
+      choose_by: ev.choose_by,
+      holdout_by: ev.holdout.by,
+      folds_by: ev.folds.by,
+      groups: recipe.groups,
+      time: recipe.time,
+      predictors: recipe.predictors,
+    },
+    [modelTable, holdout, ...names.flatMap((name) => [choose[name], fit[name], score[name]])],
+  );
+  return { steps, sources, dataSteps, modelTable, holdout, folds, models, headline };
+}
+
+/** A file of new rows for `predict`, shaped like the recipe's main source. */
+export interface NewRowsFile {
+  /** Absolute path of the file. */
+  path: string;
+  /** Declared columns of the main source the file lacks: filled as missing. */
+  absent: string[];
+  /** Columns the data steps must do without (the target and what it is computed from), or null. */
+  without: ReadonlySet<string> | null;
+}
+
+/** The plan `predict` runs: the run's data steps applied to new rows. */
+export interface ApplyPlan {
+  steps: StepInstance[];
+  /** The new file as read, before anything is added to it. */
+  read: string;
+  /** From the numbered new rows to the last data step, in order. */
+  dataSteps: DataStep[];
+  /** Steps left out because nothing of them applies without the absent columns. */
+  skipped: string[];
 }
 
 /**
- * What a cleaning step's messages need besides its params: where each of its expressions sits in
- * the recipe (`where` turns a recipe path into file:line:column). Not part of the key.
+ * The apply mode of planning: the recipe's own data steps (joins with its other sources, cleaning,
+ * features computed row by row) over a new file instead of the main source, with the rows numbered
+ * so each one removed can be given its reason. The learned features and the model are applied from
+ * the run's model file afterwards.
+ *
+ * Example: `planApply(recipe, {dir, where: () => 'recipe.yaml'}, {path: '/data/new.csv', absent: ['chl'], without: new Set(['chl'])})`
  */
-export function cleanLocator(step: CleanStep, i: number, where: (path: (string | number)[]) => string): Record<string, string> {
+export function planApply(recipe: Recipe, origin: PlanOrigin, file: NewRowsFile): ApplyPlan {
+  const { steps, add } = planner(recipe.seed);
+  const [mainName, ...others] = Object.keys(recipe.sources);
+  const main = recipe.sources[mainName];
+  const absent = new Set(file.absent);
+  const spec = { ...main, columns: dict(Object.entries(main.columns).filter(([c]) => !absent.has(c))) };
+  const read = add(`source ${mainName} (new rows)`, 'source', sourceParams(spec, sha256(readFileSync(file.path))), [], { path: file.path, display: displayOf(file.path) });
+  const rows = add('new rows', 'new_rows', { absent: file.absent.map((c) => [c, main.columns[c]]) }, [read]);
+  const sources = dict<string>();
+  for (const name of others) sources[name] = addSource(add, origin, name, recipe.sources[name]);
+  const data = addDataSteps(recipe, origin, add, sources, rows, file.without);
+  return { steps, read, dataSteps: [{ id: rows, removed: () => 'not read' }, ...data.steps], skipped: data.skipped };
+}
+
+/**
+ * What a cleaning or feature step's messages need besides its params: where each of its
+ * expressions sits in the recipe (`where` turns a recipe path into file:line:column). Not part of the key.
+ */
+export function stepLocator(section: RecipeSection, step: RecipeStep, i: number, where: (path: (string | number)[]) => string): Record<string, string> {
   const { kind, ...params } = step;
-  const expressions = recipeContract('clean', kind)?.expressions?.(params) ?? [];
+  const expressions = recipeContract(section, kind)?.expressions?.(params) ?? [];
   if (expressions.length === 0) return {};
-  return expressionLocator(`clean[${i}] ${kind}`, expressions.map((e): [string | null, string] => [e.column ?? null, where(['clean', i, kind, ...e.at])]));
+  return expressionLocator(`${section}[${i}] ${kind}`, expressions.map((e): [string | null, string] => [e.column ?? null, where([section, i, kind, ...e.at])]));
 }
 
 /**

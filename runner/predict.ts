@@ -1,24 +1,20 @@
-import { closeSync, existsSync, openSync, readFileSync, readSync, statSync } from 'node:fs';
+import { closeSync, existsSync, openSync, readSync, statSync } from 'node:fs';
 import { dirname, join, resolve } from 'node:path';
-import type { Column, Frame } from '../core/frame.js';
+import type { Column } from '../core/frame.js';
 import { column, isMissing } from '../core/frame.js';
-import { sha256 } from '../core/hash.js';
 import { DendrologError, messages } from '../core/messages.js';
 import { readRunModel } from './model-file.js';
-import { cleanLocator, sourceParams } from './plan.js';
-import { StrictTextStream, applyDesign, expressionLocator, modelKinds, readDefaults, readHeaderLine, recipeContract, referencedColumns, stepRegistry } from '../steps/index.js';
-import { resolveSourcePath } from './recipe.js';
+import { planApply } from './plan.js';
+import { localExecutor } from './execute.js';
+import { silentProgress } from './progress.js';
+import { ROW_COLUMN, StrictTextStream, applyDesign, engineFor, isLearned, readDefaults, readHeaderLine, recipeContract } from '../steps/index.js';
 import { displayOf } from './paths.js';
 import type { Recipe } from '../core/recipe-types.js';
 import { readManifest } from './run-folder.js';
 import { checkPredictionsTarget, replaceFile } from './predictions-file.js';
-import { makeContext, type FrameOutput, type StepContext } from '../core/step-types.js';
-import { WarningLog } from '../core/warnings.js';
-import { dict, has } from '../core/dict.js';
+import type { FrameOutput, Warning } from '../core/step-types.js';
+import { has } from '../core/dict.js';
 import { recipeFromManifest } from './stored-recipe.js';
-
-/** Hidden column that follows each input row through cleaning, so every row can be accounted for. */
-const ROW = '__dendrolog_row';
 
 export interface PredictionSummary {
   rows: number;
@@ -26,6 +22,8 @@ export interface PredictionSummary {
   notPredicted: number;
   outsideRange: number;
   skippedSteps: string[];
+  /** What the data steps warned about (merged by message, counted). */
+  warnings: Warning[];
   out: string;
 }
 
@@ -58,12 +56,10 @@ export async function predictRun(folder: string, dataFile: string, outFile: stri
 
   const mainName = Object.keys(recipe.sources)[0];
   const main = recipe.sources[mainName];
-  // the target, and the raw columns it is derived from, may be absent from new data
+  // the target, and the raw columns a step computes it from, may be absent from new data
+  const rowSteps = rowWiseSteps(recipe);
   const targetInputs = new Set([recipe.target]);
-  for (const f of recipe.features) if (f.kind === 'derive' && f.columns[recipe.target]) referencedColumns(f.columns[recipe.target]).forEach((c) => targetInputs.add(c));
-  const warnings = new WarningLog();
-  const ctx = (locator: Record<string, string>): StepContext =>
-    makeContext({ key: 'predict', seed: recipe.seed, seedKey: 'predict', locator }, { warn: (code, message) => warnings.add(code, message), workers: 1 });
+  for (const s of rowSteps) for (const w of s.contract.writes?.(s.params) ?? []) if (w.column === recipe.target) w.from.forEach((c) => targetInputs.add(c));
   // only delimited text has a header to look at first; other formats must carry every declared column
   const header =
     (main.format === 'csv' || main.format === 'tsv') && main.header !== false
@@ -74,58 +70,27 @@ export async function predictRun(folder: string, dataFile: string, outFile: stri
   const used = usedColumns(recipe);
   const absentUnused = Object.keys(main.columns).filter((c) => !used.has(c) && !targetInputs.has(c) && !header.includes(c));
   const absent = [...absentTarget, ...absentUnused];
-  const spec = { ...main, columns: dict(Object.entries(main.columns).filter(([c]) => !absent.includes(c))) };
-  const read = (await stepRegistry.source.run([], sourceParams(spec, sha256(readFileSync(dataPath))) as never, ctx({ path: dataPath, display: displayOf(dataPath) }))) as FrameOutput;
-  const input = read.frame;
-  for (const c of absent) {
-    input.columns.push({ name: c, type: main.columns[c], values: main.columns[c] === 'number' || main.columns[c] === 'date' ? new Float64Array(input.rows).fill(NaN) : new Array(input.rows).fill(null) } as Column);
-  }
-  let frame: Frame = { rows: input.rows, columns: [...input.columns, { name: ROW, type: 'number', values: Float64Array.from({ length: input.rows }, (_, i) => i) }] };
 
-  const reason = new Array<string | null>(input.rows).fill(null);
-  const markGone = (before: Frame, after: Frame, why: (k: number) => string) => {
-    const kept = new Set(column(after, ROW).values as Float64Array);
-    (column(before, ROW).values as Float64Array).forEach((r, k) => {
-      if (!kept.has(r) && reason[r] === null) reason[r] = why(k);
-    });
-  };
-  for (const [i, j] of recipe.join.entries()) {
-    const other = recipe.sources[j.with];
-    const r = resolveSourcePath({ dir: recipeDir }, other.file);
-    if ('problem' in r) throw new DendrologError(r.problem, 1);
-    const right = (await stepRegistry.source.run([], sourceParams(other, sha256(readFileSync(r.path))) as never, ctx({ path: r.path, display: displayOf(r.path) }))) as FrameOutput;
-    const joined = (await stepRegistry.join.run([{ frame, notes: read.notes }, right], j as never, ctx({}))) as FrameOutput;
-    markGone(frame, joined.frame, () => `no partner in source "${j.with}" (join[${i}] on ${j.on.join(', ')})`);
-    frame = joined.frame;
-  }
-  const skippedSteps: string[] = [];
-  // the run's recipe as kept in its manifest has no positions; expression messages name the file
+  // the run's own data steps, planned in apply mode and run by the executor (nothing cached); the
+  // run's recipe as kept in its manifest has no positions, so messages name the recipe file
   const recipeWhere = displayOf(resolve(outDir, manifest.recipe.file));
-  const targetAbsent = absentTarget.length > 0;
-  for (const [i, step] of recipe.clean.entries()) {
-    const { kind, ...stepParams } = step;
-    const contract = recipeContract('clean', kind)!;
-    const params = targetAbsent ? contract.without(stepParams, targetInputs) : stepParams;
-    if (params === null) {
-      skippedSteps.push(`clean[${i}] ${kind}`);
-      continue;
-    }
-    const locator = cleanLocator({ kind, ...(params as Record<string, unknown>) }, i, () => recipeWhere);
-    const out = (await stepRegistry[kind].run([{ frame, notes: read.notes }], params as never, ctx(locator))) as FrameOutput;
-    const before = frame;
-    markGone(before, out.frame, (k) => `removed by clean[${i}] ${kind}: ${contract.rowReason(params, before, k)}`);
-    frame = out.frame;
-  }
-  for (const [i, f] of recipe.features.entries()) {
-    if (f.kind !== 'derive') continue;
-    const columns = dict(Object.entries(f.columns).filter(([name]) => !(targetAbsent && name === recipe.target)));
-    if (Object.keys(columns).length === 0) continue;
-    const locator = expressionLocator(`features[${i}] derive`, Object.keys(columns).map((name): [string, string] => [name, recipeWhere]));
-    frame = ((await stepRegistry.derive.run([{ frame, notes: read.notes }], { columns } as never, ctx(locator))) as FrameOutput).frame;
-  }
+  const plan = planApply(recipe, { dir: recipeDir, where: () => recipeWhere }, { path: dataPath, absent, without: absentTarget.length > 0 ? targetInputs : null });
+  const execution = await localExecutor({ cache: null, workers: 1, progress: silentProgress() }).run(plan.steps);
+  const frameOf = (id: string) => (execution.outputs.get(id) as FrameOutput).frame;
+  const input = frameOf(plan.read);
+  const reason = new Array<string | null>(input.rows).fill(null);
+  plan.dataSteps.forEach((step, s) => {
+    if (s === 0) return;
+    const before = frameOf(plan.dataSteps[s - 1].id);
+    const kept = new Set(column(frameOf(step.id), ROW_COLUMN).values as Float64Array);
+    (column(before, ROW_COLUMN).values as Float64Array).forEach((r, k) => {
+      if (!kept.has(r) && reason[r] === null) reason[r] = step.removed(before, k);
+    });
+  });
+  const frame = frameOf(plan.dataSteps[plan.dataSteps.length - 1].id);
 
   // rows with a missing predictor that no impute step fills cannot be predicted; say so per row
-  const rowsOf = column(frame, ROW).values as Float64Array;
+  const rowsOf = column(frame, ROW_COLUMN).values as Float64Array;
   const usable: number[] = [];
   for (let k = 0; k < frame.rows; k++) {
     const missing = model.design.predictors.filter((p) => isMissing(column(frame, p), k) && !has(model.design.impute, p));
@@ -135,7 +100,7 @@ export async function predictRun(folder: string, dataFile: string, outFile: stri
   const predictions = new Array<number | null>(input.rows).fill(null);
   const outside = new Array<string>(input.rows).fill('');
   if (usable.length) {
-    const p = await modelKinds[model.kind].predict(model.bytes, applyDesign(model.design, frame, usable));
+    const p = await engineFor(model.kind, model.model).predict(model.bytes, applyDesign(model.design, frame, usable), 'prediction of the new rows');
     usable.forEach((k, j) => {
       const r = rowsOf[k];
       predictions[r] = p[j];
@@ -149,7 +114,7 @@ export async function predictRun(folder: string, dataFile: string, outFile: stri
     });
   }
 
-  const declared = input.columns.filter((c) => !absent.includes(c.name));
+  const declared = input.columns;
   const lines = [[...declared.map((c) => c.name), 'input_row', `predicted_${recipe.target}`, 'outside_training_range', 'not_predicted_because'].map(csvField).join(',')];
   for (let r = 0; r < input.rows; r++) {
     const fields = declared.map((c) => formatValue(c, r));
@@ -162,21 +127,25 @@ export async function predictRun(folder: string, dataFile: string, outFile: stri
     predicted: predictions.filter((p) => p !== null).length,
     notPredicted: predictions.filter((p) => p === null).length,
     outsideRange: outside.filter((o) => o !== '').length,
-    skippedSteps,
+    skippedSteps: plan.skipped,
+    warnings: execution.warnings,
     out: outFile,
   };
+}
+
+/** The recipe's cleaning steps and the features computed row by row, in order, with their contracts. */
+function rowWiseSteps(recipe: Recipe) {
+  return [...recipe.clean.map((s, i) => ['clean', s, i] as const), ...recipe.features.map((s, i) => ['features', s, i] as const)]
+    .filter(([section, s]) => !(section === 'features' && isLearned(s.kind)))
+    .map(([section, { kind, ...params }, i]) => ({ section, i, kind, params, contract: recipeContract(section, kind)! }));
 }
 
 /** Every column the recipe's joins, cleaning, features and predictors refer to. */
 function usedColumns(recipe: Recipe): Set<string> {
   const used = new Set<string>(recipe.predictors);
   for (const j of recipe.join) j.on.forEach((c) => used.add(c));
-  for (const { kind, ...params } of recipe.clean) for (const r of recipeContract('clean', kind)?.reads(params) ?? []) used.add(r.column);
-  for (const f of recipe.features) {
-    if (f.kind === 'derive') Object.values(f.columns).forEach((e) => referencedColumns(e).forEach((x) => used.add(x)));
-    else if (f.kind === 'one_hot') used.add(f.column);
-    else f.columns.forEach((x) => used.add(x));
-  }
+  const steps = [...recipe.clean.map((s) => ['clean', s] as const), ...recipe.features.map((s) => ['features', s] as const)];
+  for (const [section, { kind, ...params }] of steps) for (const r of recipeContract(section, kind)?.reads(params) ?? []) used.add(r.column);
   return used;
 }
 

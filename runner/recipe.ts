@@ -233,45 +233,29 @@ function checkMeaning(recipe: Recipe, doc: PositionedDocument): string[] {
     }
   });
 
-  // each kind says through its contract what it reads, evaluates and requires
-  recipe.clean.forEach((step, i) => {
-    const label = `clean[${i}] (${step.kind})`;
-    const contract = recipeContract('clean', step.kind);
-    if (!contract) return;
+  // each kind says through its contract what it reads, evaluates, adds, encodes and requires
+  const encoded = new Set<string>();
+  const steps = [...recipe.clean.map((s, i) => ['clean', s, i] as const), ...recipe.features.map((s, i) => ['features', s, i] as const)];
+  for (const [section, step, i] of steps) {
+    const label = `${section}[${i}] (${step.kind})`;
+    const contract = recipeContract(section, step.kind);
+    if (!contract) continue;
     const { kind, ...params } = step;
-    const base = ['clean', i, kind];
+    const base = [section, i, kind];
     const expressions = contract.expressions?.(params) ?? [];
     for (const e of expressions) checkExpression([...base, ...e.at], e.expr, label);
     const inExpressions = new Set(expressions.flatMap((e) => referencedColumns(e.expr)));
     for (const r of contract.reads(params)) if (!inExpressions.has(r.column)) need([...base, ...r.at], r.column, label);
     for (const c of contract.check?.(params, cols, label) ?? []) add([...base, ...c.at], c.message);
-  });
-
-  const oneHot = new Set<string>();
-  recipe.features.forEach((step, i) => {
-    const label = `features[${i}] (${step.kind})`;
-    switch (step.kind) {
-      case 'derive':
-        for (const [name, expr] of Object.entries(step.columns)) {
-          if (ARQUERO_UNSAFE_NAMES.has(name)) add(['features', i, 'derive', name], messages.expressionReservedColumn(name, label));
-          checkExpression(['features', i, 'derive', name], expr, label);
-          if (cols.has(name)) add(['features', i, 'derive', name], messages.duplicateColumn(name, label));
-        }
-        for (const name of Object.keys(step.columns)) cols.set(name, 'number');
-        break;
-      case 'impute':
-      case 'standardize':
-        step.columns.forEach((c, k) => {
-          if (need(['features', i, step.kind, 'columns', k], c, label) && cols.get(c) !== 'number') {
-            add(['features', i, step.kind, 'columns', k], messages.schemaOther(label, `column "${c}" is ${cols.get(c)}, but ${step.kind} needs a number column`));
-          }
-        });
-        break;
-      case 'one_hot':
-        if (need(['features', i, 'one_hot', 'column'], step.column, label)) oneHot.add(step.column);
-        break;
+    const writes = contract.writes?.(params) ?? [];
+    for (const w of writes) {
+      if (ARQUERO_UNSAFE_NAMES.has(w.column)) add([...base, ...w.at], messages.expressionReservedColumn(w.column, label));
+      if (cols.has(w.column)) add([...base, ...w.at], messages.duplicateColumn(w.column, label));
     }
-  });
+    // added after the step's own checks: no expression of a step may read a sibling it adds
+    for (const w of writes) cols.set(w.column, w.type);
+    for (const c of contract.encodes?.(params) ?? []) if (cols.has(c)) encoded.add(c);
+  }
 
   if (need(['target'], recipe.target, 'target')) {
     const t = cols.get(recipe.target) as ColumnType;
@@ -281,7 +265,7 @@ function checkMeaning(recipe: Recipe, doc: PositionedDocument): string[] {
     if (!need(['predictors', i], p, 'predictors')) return;
     if (p === recipe.target) add(['predictors', i], messages.predictorIsTarget(p));
     const t = cols.get(p);
-    if ((t === 'string' || t === 'category') && !oneHot.has(p)) add(['predictors', i], messages.categoryPredictorNeedsEncoding(p));
+    if ((t === 'string' || t === 'category') && !encoded.has(p)) add(['predictors', i], messages.categoryPredictorNeedsEncoding(p));
   });
   if (recipe.groups) need(['groups'], recipe.groups, 'groups');
   if (recipe.time) need(['time'], recipe.time, 'time');

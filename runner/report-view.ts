@@ -1,5 +1,5 @@
 import type { MetricSet } from '../models/metrics.js';
-import { cellLabel, varyingParams } from '../steps/index.js';
+import { cellLabel, isLearned, recipeContract, varyingParams } from '../steps/index.js';
 import { formatCount, formatNumber, formatSetting } from './format.js';
 import type { Manifest } from './manifest.js';
 import type { Recipe } from '../core/recipe-types.js';
@@ -74,15 +74,11 @@ export function reportView(recipe: Recipe, results: Results, manifest: Manifest,
       removed: formatCount(c.rowsIn - c.rowsOut),
       detail: c.detail,
     })),
-    features: recipe.features.map((f) =>
-      f.kind === 'derive'
-        ? { kind: 'derive', where: 'all rows, row by row (nothing learned)', text: Object.entries(f.columns).map(([k, v]) => `${k} = ${v}`).join('; ') }
-        : {
-            kind: f.kind,
-            where: 'learned on the training rows of each fold, then on all training rows for the final fit',
-            text: f.kind === 'one_hot' ? `${f.column} (unseen categories: ${f.unseen})` : `${f.columns.join(', ')}${f.kind === 'impute' ? ` by ${f.with}` : ''}`,
-          },
-    ),
+    features: recipe.features.map(({ kind, ...params }) => ({
+      kind,
+      where: isLearned(kind) ? 'learned on the training rows of each fold, then on all training rows for the final fit' : 'all rows, row by row (nothing learned)',
+      text: recipeContract('features', kind)?.describe?.(params) ?? kind,
+    })),
     figures,
     resamples: BOOTSTRAP_RESAMPLES,
     headlineRepeats: best.explain?.repeats ?? 0,

@@ -3,10 +3,10 @@ import type { ChooseOutput } from '../steps/index.js';
 import type { CrossValidateOutput } from '../steps/index.js';
 import type { FitOutput } from '../steps/index.js';
 import type { FoldsOutput } from '../steps/index.js';
+import type { HeadlineOutput } from '../steps/index.js';
 import type { HoldoutOutput } from '../steps/index.js';
-import { cellLabel, modelKinds } from '../steps/index.js';
+import { cellLabel } from '../steps/index.js';
 import type { ColumnProfile } from '../steps/index.js';
-import { better } from '../steps/index.js';
 import type { ScoreOutput } from '../steps/index.js';
 import type { ExplainOutput } from '../steps/index.js';
 import type { Execution } from './execute.js';
@@ -15,11 +15,6 @@ import type { ModelKind, Recipe } from '../core/recipe-types.js';
 import type { FrameOutput, Warning } from '../core/step-types.js';
 import { WarningLog } from '../core/warnings.js';
 import { column } from '../core/frame.js';
-import { dict } from '../core/dict.js';
-import { DendrologError, messages } from '../core/messages.js';
-import { metricReasons, negligibleAgainst } from '../models/metrics.js';
-import { METRIC_WORDS } from '../steps/index.js';
-import { constantPredictors } from '../steps/index.js';
 
 export interface SourceResult {
   name: string;
@@ -86,7 +81,8 @@ export interface Results {
 }
 
 /**
- * Gathers results from the executed plan and adds the evaluation's own warnings.
+ * Gathers results from the executed plan: the headline step has chosen the model, scored each
+ * model's skill and listed the evaluation's warnings, which follow the steps' own.
  *
  * Example: `gatherResults(recipe, plan, execution).chosenModel === 'forest'`
  */
@@ -111,29 +107,13 @@ export function gatherResults(recipe: Recipe, plan: Plan, exec: Execution): Resu
   });
   const split = out(plan.holdout) as HoldoutOutput;
   const folds = out(plan.folds) as FoldsOutput;
-  const baselines = Object.entries(recipe.models).filter(([, m]) => modelKinds[m.kind].baseline !== null);
-  const scores = new Map(Object.entries(plan.models).map(([name, ids]) => [name, out(ids.score) as ScoreOutput]));
+  const headline = out(plan.headline) as HeadlineOutput;
+  const skills = new Map(headline.models.map((m) => [m.name, m]));
   const models: ModelResult[] = Object.entries(plan.models).map(([name, ids]) => {
     const chosen = out(ids.choose) as ChooseOutput;
     const fitted = out(ids.fit) as FitOutput;
-    const score = scores.get(name)!;
-    const skill = dict<number | null>();
-    const skillReasons = dict<string>();
-    // the skill ratio has the baseline's MSE as its denominator: like R²'s, it means nothing when
-    // that error is rounding noise against the size of the target
-    const size = score.observed.reduce((a, v) => Math.max(a, Math.abs(v)), 0);
-    for (const [b] of baselines) {
-      if (b === name) continue;
-      const base = scores.get(b)!.holdout;
-      const undefinedBecause =
-        base.rmse.value === null ? metricReasons.partUndefined('baseline', base.rmse.reason ?? '')
-        : score.holdout.rmse.value === null ? metricReasons.partUndefined('model', score.holdout.rmse.reason ?? '')
-        : negligibleAgainst(base.rmse.value, size) ? metricReasons.negligibleBaselineError()
-        : null;
-      // as a ratio of RMSEs, squared: the MSEs of a target near 1e300 would overflow
-      skill[b] = undefinedBecause !== null ? null : 1 - (score.holdout.rmse.value! / base.rmse.value!) ** 2;
-      if (undefinedBecause !== null) skillReasons[b] = undefinedBecause;
-    }
+    const score = out(ids.score) as ScoreOutput;
+    const { skill, skillReasons } = skills.get(name)!;
     return {
       name,
       kind: recipe.models[name].kind,
@@ -154,28 +134,11 @@ export function gatherResults(recipe: Recipe, plan: Plan, exec: Execution): Resu
       learned: { final: fitted.design, folds: (out(ids.cells[chosen.chosen]) as CrossValidateOutput).learned },
     };
   });
-  // a model whose cross-validated score is undefined is never the headline
-  const comparable = models.filter((m) => m.failed === null);
-  if (comparable.length === 0) {
-    throw new DendrologError(
-      messages.noModelScored(METRIC_WORDS[recipe.evaluation.choose_by], models.map((m) => ({ model: m.name, reason: m.cells[0].failed ?? '' }))),
-      1,
-    );
-  }
-  let best = comparable[0];
-  for (const m of comparable) if (better(m.crossValidated, best.crossValidated, recipe.evaluation.choose_by)) best = m;
+  // the steps' warnings first, then the evaluation's; a repeat of one merges into its first place
   const warnings = new WarningLog();
-  for (const w of exec.warnings) warnings.add(w.code, w.message, w.count);
-  const unreliable = holdoutUnreliable(split);
-  evaluationWarnings(recipe, models, best, scores.get(best.name)!, warnings);
-  if (unreliable) warnings.add('holdout-unreliable', messages.holdoutUnreliable(unreliable));
-  const modelFrame = (out(plan.modelTable) as FrameOutput).frame;
-  for (const p of constantPredictors(modelFrame, recipe.predictors, split.train)) warnings.add('constant-predictor', messages.predictorConstant(p));
-  for (const m of models) {
-    const collinear = [...new Set([m.used, ...m.cells[m.chosen].used].flatMap((u) => (Array.isArray(u.collinear) ? (u.collinear as string[]) : [])))];
-    if (collinear.length > 0) warnings.add('linear-collinear', messages.linearCollinear(m.name, collinear));
-  }
-  const bestScore = scores.get(best.name)!;
+  for (const w of [...exec.warnings, ...headline.warnings]) warnings.add(w.code, w.message, w.count);
+  const best = headline.chosen;
+  const bestScore = out(plan.models[best].score) as ScoreOutput;
   const targetValues = column((out(plan.modelTable) as FrameOutput).frame, recipe.target).values as Float64Array;
   return {
     sources,
@@ -188,74 +151,17 @@ export function gatherResults(recipe: Recipe, plan: Plan, exec: Execution): Resu
       test: split.test.length,
       trainGroups: split.trainGroups,
       testGroups: split.testGroups,
-      unreliable,
+      unreliable: headline.holdoutUnreliable,
     },
     folds: { k: folds.k, by: folds.by, gap: recipe.evaluation.folds.gap },
     models,
-    chosenModel: best.name,
+    chosenModel: best,
     warnings: warnings.list(),
     holdoutRows: { observed: bestScore.observed, predicted: bestScore.predictions, groups: bestScore.groups },
-    headlineFit: out(plan.models[best.name].fit) as FitOutput,
+    headlineFit: out(plan.models[best].fit) as FitOutput,
     predictions: [
       ...split.train.map((row, k) => ({ row, set: 'training' as const, observed: targetValues[row], predicted: bestScore.trainingPredictions[k] })),
       ...split.test.map((row, k) => ({ row, set: 'holdout' as const, observed: targetValues[row], predicted: bestScore.predictions[k] })),
     ].sort((a, b) => a.row - b.row),
   };
-}
-
-/** Fewer holdout units than this give bootstrap intervals too coarse to trust. */
-export const MIN_HOLDOUT_GROUPS = 5;
-export const MIN_HOLDOUT_ROWS = 20;
-
-/**
- * What makes the holdout intervals unreliable, or null: a bootstrap over fewer than 5 groups (or
- * 20 rows) can draw only a handful of distinct resamples, so its percentiles are mostly ties.
- */
-export function holdoutUnreliable(split: HoldoutOutput): string | null {
-  if (split.by === 'groups' && split.testGroups < MIN_HOLDOUT_GROUPS) {
-    return `${split.testGroups} holdout group${split.testGroups === 1 ? '' : 's'} (fewer than ${MIN_HOLDOUT_GROUPS})`;
-  }
-  if (split.test.length < MIN_HOLDOUT_ROWS) return `${split.test.length} holdout rows (fewer than ${MIN_HOLDOUT_ROWS})`;
-  return null;
-}
-
-function evaluationWarnings(recipe: Recipe, models: ModelResult[], best: ModelResult, score: ScoreOutput, log: WarningLog) {
-  const ev = recipe.evaluation;
-  for (const part of ['holdout', 'folds'] as const) {
-    if (ev[part].by !== 'random') continue;
-    const what = part === 'holdout' ? 'the holdout is drawn' : 'the folds are drawn';
-    if (recipe.groups) {
-      log.add('random-split-with-groups', messages.randomSplitWithGroups(recipe.groups, what));
-    } else if (recipe.time) {
-      log.add('random-split-with-time', messages.randomSplitWithTime(recipe.time, what));
-    }
-  }
-  for (const m of models) {
-    const spec = recipe.models[m.name];
-    const cell = m.cells[m.chosen].cell;
-    for (const [param, values] of Object.entries(spec.grid)) {
-      const numeric = values.filter((v): v is number => typeof v === 'number');
-      if (numeric.length < 2 || values.length !== numeric.length) continue;
-      const v = cell[param];
-      // no value lies beyond a hard limit: one row per leaf, one candidate predictor, the whole sample
-      const atLimit = (v === 1 && ['min_leaf', 'mtry', 'max_depth'].includes(param) && v === Math.min(...numeric)) ||
-        (param === 'sample_fraction' && v === 1);
-      if (!atLimit && (v === Math.min(...numeric) || v === Math.max(...numeric))) {
-        log.add('grid-edge', messages.gridEdge(m.name, param, v, numeric));
-      }
-    }
-  }
-  for (const [p, n] of Object.entries(score.outsideRange)) {
-    log.add('outside-training-range', messages.outsideTrainingRange(n, p));
-  }
-  const linear = models.find((m) => modelKinds[m.kind].baseline === 'linear');
-  if (linear && best !== linear && !better(best.crossValidated, linear.crossValidated, ev.choose_by)) {
-    log.add('no-better-than-linear', messages.noBetterThanLinear(best.name, linear.name));
-  }
-  if (linear && best !== linear) {
-    const s = best.skill[linear.name];
-    if (s !== null && s !== undefined && s <= 0) {
-      log.add('holdout-no-better-than-linear', messages.holdoutNoBetterThanLinear(best.name, linear.name, s));
-    }
-  }
 }

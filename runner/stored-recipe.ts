@@ -3,9 +3,8 @@ import { canonicalJson } from '../core/hash.js';
 import type { Manifest } from './manifest.js';
 import { DendrologError, messages, RecipeErrors } from '../core/messages.js';
 import { recipeFromText } from './recipe.js';
-import { MODEL_DEFAULTS } from './normalize.js';
-import { recipeContract } from '../steps/index.js';
-import type { CleanStep, FeatureStep, ModelSpec, Recipe } from '../core/recipe-types.js';
+import { modelKinds, recipeContract, type RecipeSection } from '../steps/index.js';
+import type { ModelSpec, Recipe, RecipeStep } from '../core/recipe-types.js';
 
 /**
  * The recipe a run record keeps, checked before verify or predict use it: written back in the
@@ -46,8 +45,8 @@ function recipeShape(stored: unknown): Raw {
   const r = stored as Recipe;
   const out: Raw = { ...r };
   out.sources = Object.fromEntries(Object.entries(r.sources ?? {}).map(([name, s]) => [name, withoutNulls(s as unknown as Raw)]));
-  out.clean = (r.clean ?? []).map(cleanShape);
-  out.features = (r.features ?? []).map(featureShape);
+  out.clean = (r.clean ?? []).map((s, i) => stepShape('clean', s, i));
+  out.features = (r.features ?? []).map((s, i) => stepShape('features', s, i));
   out.models = Object.fromEntries(Object.entries(r.models ?? {}).map(([name, m]) => [name, modelShape(m)]));
   out.evaluation = { ...r.evaluation, holdout: withoutNulls((r.evaluation?.holdout ?? {}) as unknown as Raw) };
   return withoutNulls(out);
@@ -67,24 +66,18 @@ function contains(whole: unknown, part: unknown): boolean {
  */
 function modelShape(m: ModelSpec): Raw {
   if (m === null || typeof m !== 'object') return m;
-  const defaults = Object.hasOwn(MODEL_DEFAULTS, m.kind) ? MODEL_DEFAULTS[m.kind] : {};
-  const grid = Object.entries(m.grid ?? {}).filter(([k, v]) => !(Object.hasOwn(defaults, k) && canonicalJson(defaults[k]) === canonicalJson(v)));
+  const params = Object.hasOwn(modelKinds, m.kind) ? modelKinds[m.kind].grid : {};
+  const grid = Object.entries(m.grid ?? {}).filter(([k, v]) => !(Object.hasOwn(params, k) && canonicalJson([params[k].default]) === canonicalJson(v)));
   return grid.length ? { ...m, grid: Object.fromEntries(grid) } : { kind: m.kind };
 }
 
-function cleanShape(step: CleanStep, i: number): Raw {
+function stepShape(section: RecipeSection, step: RecipeStep, i: number): Raw {
+  if (step === null || typeof step !== 'object') throw new TypeError(`${section}[${i}] is not a step`);
   const { kind, ...params } = step;
-  if (typeof kind !== 'string') throw new TypeError(`clean[${i}] has no kind`);
-  const contract = recipeContract('clean', kind);
+  if (typeof kind !== 'string') throw new TypeError(`${section}[${i}] has no kind`);
+  const contract = recipeContract(section, kind);
   // an unknown kind is written back as it is, for the schema to name
   return { [kind]: contract ? contract.shape(params) : params };
-}
-
-function featureShape(step: FeatureStep, i: number): Raw {
-  const { kind, ...params } = step;
-  if (typeof kind !== 'string') throw new TypeError(`features[${i}] has no kind`);
-  if (kind === 'derive') return { derive: step.columns };
-  return { [kind]: params };
 }
 
 /** A copy without the keys whose value is null: the recipe file's way of not giving them. */

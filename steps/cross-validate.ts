@@ -4,10 +4,8 @@ import { applyDesign, learnDesign, targetOf, type LearnedDesign } from './design
 import { foldRows, type FoldsOutput } from './folds.js';
 import { column, type Frame } from '../core/frame.js';
 import { DendrologError, messages } from '../core/messages.js';
-import { EngineInputError } from '../models/engine-errors.js';
-import { LinearModelError } from '../models/linear.js';
 import type { HoldoutOutput } from './holdout.js';
-import { cellLabel, modelKinds, type Cell } from './model-kinds.js';
+import { cellLabel, engineFor, type Cell } from './model-kinds.js';
 
 export interface CrossValidateParams {
   model: string;
@@ -59,6 +57,7 @@ export const crossValidate: StepDefinition<CrossValidateParams, CrossValidateOut
     if (params.predictors.length > 0 && constant.length === params.predictors.length) {
       throw new DendrologError(messages.predictorsAllConstant(constant), 1);
     }
+    const engine = engineFor(params.kind, params.model);
     for (let f = 0; f < folds.k; f++) {
       const { fit: fitAt, test: testAt } = foldRows(folds, f, (k) => (times ? times[split.train[k]] : NaN));
       const fitRows = fitAt.map((k) => split.train[k]);
@@ -66,10 +65,9 @@ export const crossValidate: StepDefinition<CrossValidateParams, CrossValidateOut
       const design = learnDesign(frame, fitRows, params.features, params.predictors);
       const x = applyDesign(design, frame, fitRows);
       const y = targetOf(frame, params.target, fitRows);
-      const adapter = modelKinds[params.kind];
       const where = `cross-validation fold ${f + 1} of ${folds.k}, ${cellLabel(params.cell)}`;
-      const fitted = await engineCall(params.model, where, () => adapter.fit(x, y, params.cell, { seed: ctx.seedFor('fit', f), workers: ctx.workers }));
-      const p = await engineCall(params.model, where, () => adapter.predict(fitted.bytes, applyDesign(design, frame, testRows)));
+      const fitted = await engine.fit(x, y, params.cell, { seed: ctx.seedFor('fit', f), workers: ctx.workers }, where);
+      const p = await engine.predict(fitted.bytes, applyDesign(design, frame, testRows), where);
       testAt.forEach((k, j) => (predictions[k] = p[j]));
       const bad = p.findIndex((v) => !Number.isFinite(v));
       if (bad >= 0 && nonFinite === null) nonFinite = messages.predictionNotFinite(p[bad], `cross-validation fold ${f + 1}`);
@@ -81,24 +79,6 @@ export const crossValidate: StepDefinition<CrossValidateParams, CrossValidateOut
   },
   summary: (o) => `${o.used.length} folds`,
 };
-
-/**
- * Runs an engine call, turning the engines' own input errors (which know nothing of recipes) into
- * a message that names the model and where it was being fitted; anything else is a real bug and
- * passes through.
- *
- * Example: `await engineCall('linear', 'final fit', () => adapter.fit(x, y, cell, opts))`
- */
-export async function engineCall<T>(model: string, where: string, call: () => Promise<T>): Promise<T> {
-  try {
-    return await call();
-  } catch (e) {
-    if (e instanceof EngineInputError || e instanceof LinearModelError) {
-      throw new DendrologError(messages.modelEngineFailed(model, where, e.message), 1);
-    }
-    throw e;
-  }
-}
 
 /**
  * The predictors that hold a single value over the given rows (missing values aside; a column with

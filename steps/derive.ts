@@ -1,8 +1,8 @@
 import { columnFromValues, toArquero, type Frame } from '../core/frame.js';
 import { messages } from '../core/messages.js';
 import type { FrameOutput, StepDefinition } from '../core/step-types.js';
-import { assertRowWise, checkTextSize, expressionSite, missingInputs, withinBudget, withMissingInputs } from './expressions.js';
-import { dict } from '../core/dict.js';
+import { assertRowWise, checkTextSize, expressionSite, missingInputs, referencedColumns, withinBudget, withMissingInputs } from './expressions.js';
+import { dict, dictOf } from '../core/dict.js';
 
 export interface DeriveParams {
   columns: Record<string, string>;
@@ -51,4 +51,26 @@ export const derive: StepDefinition<DeriveParams, FrameOutput> = {
     };
   },
   summary: (o) => `${o.frame.columns.length} columns`,
+  recipe: {
+    section: 'features',
+    // written as a map of new column names to expressions, directly under the kind
+    schema: {
+      type: 'object',
+      minProperties: 1,
+      propertyNames: { pattern: '^[A-Za-z_][A-Za-z0-9_]*$' },
+      additionalProperties: { type: 'string', minLength: 1 },
+    },
+    normalize: (v) => ({ columns: dictOf(v as Record<string, string>) }),
+    shape: (p) => p.columns,
+    describe: (p) => Object.entries(p.columns).map(([k, v]) => `${k} = ${v}`).join('; '),
+    reads: (p) => Object.entries(p.columns).flatMap(([name, expr]) => referencedColumns(expr).map((column) => ({ column, at: [name] }))),
+    writes: (p) => Object.entries(p.columns).map(([name, expr]) => ({ column: name, type: 'number' as const, at: [name], from: referencedColumns(expr) })),
+    expressions: (p) => Object.entries(p.columns).map(([name, expr]) => ({ expr, at: [name], column: name })),
+    // a derived column named like an absent one (the target of new data) is not computed; others are,
+    // with missing values where they read an absent column
+    without: (p, absent) => {
+      const columns = dict(Object.entries(p.columns).filter(([name]) => !absent.has(name)));
+      return Object.keys(columns).length === 0 ? null : { columns };
+    },
+  },
 };

@@ -1,14 +1,14 @@
 import { column, isMissing, type Frame } from '../core/frame.js';
 import { DendrologError, messages } from '../core/messages.js';
 import type { FeatureStep } from '../core/recipe-types.js';
+import type { RecipeContract } from '../core/step-types.js';
 import { dict, has } from '../core/dict.js';
+import { learnedFeatures } from './learned.js';
 
 import type { Matrix } from '../models/checks.js';
 
 /** Column-major numeric matrix handed to the model engines (the engines' own type). */
 export type { Matrix };
-
-type LearnedStep = Exclude<FeatureStep, { kind: 'derive' }>;
 
 /** What the learned feature steps took from training rows; applied unchanged to test rows. */
 export interface LearnedDesign {
@@ -20,6 +20,17 @@ export interface LearnedDesign {
   oneHot: Record<string, { categories: string[]; unseen: 'error' | 'other' }>;
 }
 
+/**
+ * A feature kind learned from training rows: how a recipe writes it (its contract) and what it
+ * takes from the rows it is fitted on into the design, which applyDesign then applies unchanged.
+ */
+export interface LearnedFeature<P> {
+  kind: string;
+  recipe: RecipeContract<P>;
+  /** Writes what the step learns from `rows` of `frame` into `design` (earlier steps' values are there). */
+  learn(params: P, frame: Frame, rows: ArrayLike<number>, design: LearnedDesign): void;
+}
+
 /** Name of a one-hot indicator column. */
 export const indicatorName = (column: string, category: string) => `${column}=${category}`;
 /** Name of the indicator that collects categories unseen in training, with `unseen: other`. */
@@ -27,36 +38,16 @@ export const OTHER = '(other)';
 
 /**
  * Learns the feature steps' values (medians, means, category lists) from the training rows only,
- * so nothing about the test rows leaks into the model.
+ * so nothing about the test rows leaks into the model. Steps that are not learned (derive) are
+ * passed over: they ran before the model table.
  *
  * Example: `learnDesign(frame, trainRows, steps, ['tp', 'land_use']).names` is
  * `['tp', 'land_use=farm', 'land_use=forest']` when land_use is one-hot encoded.
  */
 export function learnDesign(frame: Frame, rows: ArrayLike<number>, steps: FeatureStep[], predictors: string[]): LearnedDesign {
   const learned: LearnedDesign = { predictors, names: [], impute: dict(), standardize: dict(), oneHot: dict() };
-  for (const step of steps.filter((s): s is LearnedStep => s.kind !== 'derive')) {
-    if (step.kind === 'impute') {
-      for (const c of step.columns) {
-        const v = presentValues(frame, c, rows);
-        learned.impute[c] = v.length === 0 ? NaN : step.with === 'mean' ? mean(v) : median(v);
-      }
-    } else if (step.kind === 'standardize') {
-      for (const c of step.columns) {
-        const v = presentValues(frame, c, rows).map((x) => (has(learned.impute, c) && Number.isNaN(x) ? learned.impute[c] : x));
-        const m = mean(v);
-        const sd = Math.sqrt(v.reduce((s, x) => s + (x - m) ** 2, 0) / Math.max(1, v.length - 1));
-        learned.standardize[c] = { mean: m, sd: sd > 0 ? sd : 1 };
-      }
-    } else {
-      const values = column(frame, step.column).values;
-      const seen = new Set<string>();
-      for (let i = 0; i < rows.length; i++) {
-        const v = values[rows[i]];
-        if (v !== null && !(typeof v === 'number' && Number.isNaN(v))) seen.add(String(v));
-      }
-      if (seen.size > step.max_levels) throw new DendrologError(messages.tooManyLevels(step.column, seen.size, step.max_levels), 1);
-      learned.oneHot[step.column] = { categories: [...seen].sort(), unseen: step.unseen };
-    }
+  for (const { kind, ...params } of steps) {
+    if (has(learnedFeatures, kind)) learnedFeatures[kind].learn(params as never, frame, rows, learned);
   }
   for (const p of predictors) {
     const oh = learned.oneHot[p];
@@ -121,26 +112,9 @@ export function targetOf(frame: Frame, target: string, rows: ArrayLike<number>):
   return out;
 }
 
-function presentValues(frame: Frame, name: string, rows: ArrayLike<number>): number[] {
-  const src = column(frame, name).values as Float64Array;
-  const out: number[] = [];
-  for (let i = 0; i < rows.length; i++) if (!Number.isNaN(src[rows[i]])) out.push(src[rows[i]]);
-  return out;
-}
-
 /** Missing values of a column over the whole model table, so the count does not depend on the fold. */
 function countMissing(c: ReturnType<typeof column>): number {
   let n = 0;
   for (let i = 0; i < c.values.length; i++) if (isMissing(c, i)) n++;
   return n;
-}
-
-function mean(v: number[]): number {
-  return v.reduce((a, b) => a + b, 0) / v.length;
-}
-
-function median(v: number[]): number {
-  const s = [...v].sort((a, b) => a - b);
-  const m = s.length >> 1;
-  return s.length % 2 ? s[m] : (s[m - 1] + s[m]) / 2;
 }

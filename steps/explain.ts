@@ -4,7 +4,7 @@ import type { FrameOutput, StepDefinition } from '../core/step-types.js';
 import { applyDesign, targetOf } from './design.js';
 import type { FitOutput } from './fit.js';
 import type { HoldoutOutput } from './holdout.js';
-import { modelKinds } from './model-kinds.js';
+import { engineFor } from './model-kinds.js';
 
 export interface ExplainParams {
   target: string;
@@ -55,7 +55,7 @@ export const explain: StepDefinition<ExplainParams, ExplainOutput> = {
     const full = (inputs[0] as FrameOutput).frame;
     const split = inputs[1] as HoldoutOutput;
     const fitted = inputs[2] as FitOutput;
-    const adapter = modelKinds[fitted.kind];
+    const engine = engineFor(fitted.kind, fitted.model);
     const bytes = new Uint8Array(Buffer.from(fitted.bytes, 'base64'));
     const test = takeRows(full, split.test);
     const all = [...Array(test.rows).keys()];
@@ -65,7 +65,7 @@ export const explain: StepDefinition<ExplainParams, ExplainOutput> = {
       for (let i = 0; i < p.length; i++) s += (p[i] - y[i]) ** 2;
       return s / p.length;
     };
-    const baselineMse = mse(await adapter.predict(bytes, applyDesign(fitted.design, test, all)));
+    const baselineMse = mse(await engine.predict(bytes, applyDesign(fitted.design, test, all), 'prediction of the holdout rows'));
     const importance: Importance[] = [];
     for (const [j, predictor] of fitted.design.predictors.entries()) {
       const rand = ctx.rng('permutation', j);
@@ -73,7 +73,7 @@ export const explain: StepDefinition<ExplainParams, ExplainOutput> = {
       for (let r = 0; r < params.repeats; r++) {
         const order = shuffle([...all], rand);
         const permuted = withColumn(test, predictor, (c) => takeRows({ rows: test.rows, columns: [c] }, order).columns[0]);
-        rises.push(mse(await adapter.predict(bytes, applyDesign(fitted.design, permuted, all))) - baselineMse);
+        rises.push(mse(await engine.predict(bytes, applyDesign(fitted.design, permuted, all), `permutation importance of ${predictor}`)) - baselineMse);
       }
       const m = rises.reduce((a, b) => a + b, 0) / rises.length;
       const sd = rises.length > 1 ? Math.sqrt(rises.reduce((s, v) => s + (v - m) ** 2, 0) / (rises.length - 1)) : 0;
@@ -95,7 +95,7 @@ export const explain: StepDefinition<ExplainParams, ExplainOutput> = {
           ...col,
           values: numeric ? new Float64Array(sample.rows).fill(x as number) : new Array<string | null>(sample.rows).fill(x as string),
         }));
-        const p = await adapter.predict(bytes, applyDesign(fitted.design, fixed, rows));
+        const p = await engine.predict(bytes, applyDesign(fitted.design, fixed, rows), `partial dependence on ${predictor}`);
         points.push({ x, y: p.reduce((a, b) => a + b, 0) / p.length });
       }
       partialDependence.push({ predictor, kind: numeric ? 'number' : 'category', points });

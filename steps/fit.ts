@@ -3,9 +3,8 @@ import type { FrameOutput, StepDefinition } from '../core/step-types.js';
 import { column, type Frame } from '../core/frame.js';
 import type { ChooseOutput } from './choose.js';
 import { applyDesign, learnDesign, targetOf, type LearnedDesign } from './design.js';
-import { engineCall } from './cross-validate.js';
 import type { HoldoutOutput } from './holdout.js';
-import { modelKinds, type Cell } from './model-kinds.js';
+import { engineFor, type Cell } from './model-kinds.js';
 import { dict } from '../core/dict.js';
 
 export interface FitParams {
@@ -46,9 +45,7 @@ export const fit: StepDefinition<FitParams, FitOutput> = {
     const design = learnDesign(frame, split.train, params.features, params.predictors);
     const x = applyDesign(design, frame, split.train);
     const y = targetOf(frame, params.target, split.train);
-    const fitted = await engineCall(params.model, 'final fit on all training rows', () =>
-      modelKinds[params.kind].fit(x, y, cell, { seed: ctx.seedFor('fit'), workers: ctx.workers }),
-    );
+    const fitted = await engineFor(params.kind, params.model).fit(x, y, cell, { seed: ctx.seedFor('fit'), workers: ctx.workers }, 'final fit on all training rows');
     return {
       model: params.model,
       kind: params.kind,

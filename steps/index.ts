@@ -1,5 +1,6 @@
 import type { RecipeContract, StepDefinition } from '../core/step-types.js';
-import { dict } from '../core/dict.js';
+import { dict, has } from '../core/dict.js';
+import { learnedFeatures } from './learned.js';
 import { choose } from './choose.js';
 import { crossValidate } from './cross-validate.js';
 import { deduplicate } from './deduplicate.js';
@@ -8,10 +9,12 @@ import { dropMissing } from './drop-missing.js';
 import { explain } from './explain.js';
 import { fit } from './fit.js';
 import { folds } from './folds.js';
+import { headline } from './headline.js';
 import { holdout } from './holdout.js';
 import { join } from './join.js';
 import { keepRows } from './keep-rows.js';
 import { modelTable } from './model-table.js';
+import { newRows } from './new-rows.js';
 import { replace } from './replace.js';
 import { score } from './score.js';
 import { source } from './source.js';
@@ -19,44 +22,59 @@ import { within } from './within.js';
 
 /** Every step kind, by name. Adding a kind: one file in steps/ and one line here. */
 export const stepRegistry: Record<string, StepDefinition<never, unknown>> = dict(
-  [source, join, replace, dropMissing, keepRows, within, deduplicate, derive, modelTable, holdout, folds, crossValidate, choose, fit, score, explain].map(
+  [source, newRows, join, replace, dropMissing, keepRows, within, deduplicate, derive, modelTable, holdout, folds, crossValidate, choose, fit, score, explain, headline].map(
     (s) => [s.kind, s as StepDefinition<never, unknown>],
   ),
 );
+
+/** A recipe section's list of steps. */
+export type RecipeSection = RecipeContract<unknown>['section'];
+
+/** Every kind a recipe can name in a section, with its contract: the data steps, then the learned features. */
+function contracts(): [string, RecipeContract<unknown>][] {
+  return [...Object.values(stepRegistry), ...Object.values(learnedFeatures)]
+    .filter((d) => d.recipe !== undefined)
+    .map((d) => [d.kind, d.recipe as RecipeContract<unknown>]);
+}
 
 /**
  * The recipe contract of a kind written under `section`, or undefined when no such kind is there.
  *
  * Example: `recipeContract('clean', 'within')?.reads({column: 'x', min: 0, max: null})`
  */
-export function recipeContract(section: RecipeContract<unknown>['section'], kind: string): RecipeContract<unknown> | undefined {
-  const def = Object.hasOwn(stepRegistry, kind) ? stepRegistry[kind] : undefined;
-  const contract = def?.recipe as RecipeContract<unknown> | undefined;
-  return contract?.section === section ? contract : undefined;
+export function recipeContract(section: RecipeSection, kind: string): RecipeContract<unknown> | undefined {
+  return contracts().find(([k, c]) => k === kind && c.section === section)?.[1];
 }
 
 /** The kinds written under a section of the recipe, in registry order, with their contracts. */
-export function recipeKinds(section: RecipeContract<unknown>['section']): [string, RecipeContract<unknown>][] {
-  return Object.values(stepRegistry)
-    .filter((d) => (d.recipe as RecipeContract<unknown> | undefined)?.section === section)
-    .map((d) => [d.kind, d.recipe as RecipeContract<unknown>]);
+export function recipeKinds(section: RecipeSection): [string, RecipeContract<unknown>][] {
+  return contracts().filter(([, c]) => c.section === section);
+}
+
+/**
+ * Whether a feature kind is learned from training rows inside each fit (impute, one_hot,
+ * standardize) rather than run once as a step of the plan (derive).
+ */
+export function isLearned(kind: string): boolean {
+  return has(learnedFeatures, kind);
 }
 
 // What the runner uses of the steps besides the registry: their output types, the grid of a model,
 // the model adapters and design for predict, the expression rules and the text readers the recipe
 // check shares. The runner imports steps/ through this file only.
-export { METRIC_WORDS, better } from './choose.js';
 export type { ChooseOutput } from './choose.js';
-export { constantPredictors } from './cross-validate.js';
 export type { CrossValidateOutput } from './cross-validate.js';
 export { applyDesign } from './design.js';
 export type { ExplainOutput } from './explain.js';
 export { expressionLocator, expressionProblem, referencedColumns } from './expressions.js';
 export type { FitOutput } from './fit.js';
 export type { FoldsOutput } from './folds.js';
+export type { HeadlineOutput } from './headline.js';
 export type { HoldoutOutput } from './holdout.js';
-export { cellLabel, gridCells, modelKinds, varyingParams } from './model-kinds.js';
+export { cellLabel, engineFor, gridCells, gridWithDefaults, modelKinds, modelSchema, varyingParams } from './model-kinds.js';
+export type { GridValue } from './model-kinds.js';
 export type { ColumnProfile } from './profile.js';
+export { ROW_COLUMN } from './new-rows.js';
 export { readDefaults } from './source.js';
 export { readHeaderLine } from './readers/csv.js';
 export { COMMON_ENCODINGS, StrictTextStream, decodeStrict, encodingName } from './readers/text-decode.js';

@@ -1,6 +1,9 @@
-import { deserializeLinear, fitLinear, predictLinear, serializeLinear } from '../models/linear.js';
+import { deserializeLinear, fitLinear, LinearModelError, predictLinear, serializeLinear } from '../models/linear.js';
+import { EngineInputError } from '../models/engine-errors.js';
+import { DendrologError, messages } from '../core/messages.js';
 import { deserializeMean, fitMean, predictMean, serializeMean } from '../models/mean.js';
-import type { ModelKind } from '../core/recipe-types.js';
+import { DEFAULT_MIN_LEAF, DEFAULT_REPLACE, DEFAULT_SAMPLE_FRACTION, DEFAULT_TREES } from '../models/defaults.js';
+import { dictOf } from '../core/dict.js';
 import type { Matrix } from './design.js';
 
 /** One grid cell: a value for each hyperparameter of the model kind. */
@@ -14,8 +17,25 @@ export interface FittedModel {
   oobR2?: number | null;
 }
 
+/** A value a grid may hold for one hyperparameter. */
+export type GridValue = number | boolean | null;
+
+/** One hyperparameter of a kind: the value used when the recipe gives none, and the schema of what a recipe may give. */
+export interface GridParam {
+  default: GridValue;
+  /** JSON schema of the recipe's value: one value or a list; `#/definitions/...` refers to the recipe schema's. */
+  schema: Record<string, unknown>;
+  /**
+   * Values no grid can go beyond (one row per leaf, the whole sample): a choice there is not a sign
+   * that the grid should be widened, so the grid-edge warning leaves it alone.
+   */
+  limits?: { low?: number; high?: number };
+}
+
 /** How the runner fits and applies one model kind. Adding a kind is one entry here. */
 export interface ModelKindAdapter {
+  /** Its hyperparameters, in the order cells are labelled; none for kinds without any. */
+  grid: Record<string, GridParam>;
   /**
    * The yardstick the kind is, if any: skill is measured against every baseline in the recipe, and
    * a chosen model that does not beat the `linear` one is warned about. null for the kinds judged.
@@ -30,8 +50,22 @@ export interface ModelKindAdapter {
 // The forest engine loads on first use, so runs without tree models never start its worker pool.
 const forestEngine = () => import('../models/forest.js');
 
-export const modelKinds: Record<ModelKind, ModelKindAdapter> = {
+/** A boolean hyperparameter written as one value or a list. */
+const booleanGrid = { anyOf: [{ type: 'boolean' }, { type: 'array', minItems: 1, items: { type: 'boolean' } }] };
+const ref = (name: string) => ({ $ref: `#/definitions/${name}` });
+
+// Defaults are the engine's own (models/defaults.ts says why each). `mtry: null` means one third of
+// the predictors (after one-hot expansion), rounded down, at least 1; the value used is recorded per fit.
+export const modelKinds: Record<string, ModelKindAdapter> = dictOf<ModelKindAdapter>({
   random_forest: {
+    grid: {
+      trees: { default: DEFAULT_TREES, schema: ref('gridOfTrees') },
+      max_depth: { default: null, schema: ref('gridOfDepth'), limits: { low: 1 } },
+      min_leaf: { default: DEFAULT_MIN_LEAF, schema: ref('gridOfLeaf'), limits: { low: 1 } },
+      mtry: { default: null, schema: ref('gridOfMtry'), limits: { low: 1 } },
+      sample_fraction: { default: DEFAULT_SAMPLE_FRACTION, schema: ref('gridOfFraction'), limits: { high: 1 } },
+      replace: { default: DEFAULT_REPLACE, schema: booleanGrid },
+    },
     baseline: null,
     explained: true,
     async fit(x, y, cell, opts) {
@@ -55,6 +89,10 @@ export const modelKinds: Record<ModelKind, ModelKindAdapter> = {
     },
   },
   decision_tree: {
+    grid: {
+      max_depth: { default: null, schema: ref('gridOfDepth'), limits: { low: 1 } },
+      min_leaf: { default: DEFAULT_MIN_LEAF, schema: ref('gridOfLeaf'), limits: { low: 1 } },
+    },
     baseline: null,
     explained: true,
     async fit(x, y, cell, opts) {
@@ -72,6 +110,7 @@ export const modelKinds: Record<ModelKind, ModelKindAdapter> = {
     },
   },
   linear: {
+    grid: {},
     baseline: 'linear',
     explained: true,
     async fit(x, y) {
@@ -88,6 +127,7 @@ export const modelKinds: Record<ModelKind, ModelKindAdapter> = {
     },
   },
   mean: {
+    grid: {},
     baseline: 'constant',
     explained: false,
     async fit(_x, y) {
@@ -95,7 +135,71 @@ export const modelKinds: Record<ModelKind, ModelKindAdapter> = {
     },
     predict: async (bytes, x) => predictMean(deserializeMean(bytes), x.rows),
   },
-};
+});
+
+/** A model of the recipe, fitted and applied through its kind's adapter, with engine errors as messages. */
+export interface ModelEngine {
+  fit(x: Matrix, y: Float64Array, cell: Cell, opts: { seed: string; workers: number }, where: string): Promise<FittedModel>;
+  predict(bytes: Uint8Array, x: Matrix, where: string): Promise<Float64Array>;
+}
+
+/**
+ * The one boundary between steps and engines: the engines' own input errors (which know nothing of
+ * recipes) become a message naming the recipe's model and where it was being fitted or applied;
+ * anything else is a real bug and passes through.
+ *
+ * Example: `await engineFor('random_forest', 'forest').fit(x, y, cell, opts, 'final fit on all training rows')`
+ */
+export function engineFor(kind: string, model: string): ModelEngine {
+  const adapter = modelKinds[kind];
+  const guarded = async <T>(where: string, call: () => Promise<T>): Promise<T> => {
+    try {
+      return await call();
+    } catch (e) {
+      if (e instanceof EngineInputError || e instanceof LinearModelError) throw new DendrologError(messages.modelEngineFailed(model, where, e.message), 1);
+      throw e;
+    }
+  };
+  return {
+    fit: (x, y, cell, opts, where) => guarded(where, () => adapter.fit(x, y, cell, opts)),
+    predict: (bytes, x, where) => guarded(where, () => adapter.predict(bytes, x)),
+  };
+}
+
+/**
+ * A kind's grid with every hyperparameter the recipe leaves out at its default, as a one-value list.
+ *
+ * Example: `gridWithDefaults('decision_tree', {max_depth: [4, 8]})` is `{max_depth: [4, 8], min_leaf: [3]}`.
+ */
+export function gridWithDefaults(kind: string, given: Record<string, GridValue | GridValue[]>): Record<string, GridValue[]> {
+  const grid: Record<string, GridValue[]> = {};
+  for (const [param, spec] of Object.entries(modelKinds[kind].grid)) {
+    const v = Object.hasOwn(given, param) ? given[param] : undefined;
+    grid[param] = v === undefined ? [spec.default] : Array.isArray(v) ? [...v] : [v];
+  }
+  return grid;
+}
+
+/**
+ * The recipe schema's `model` definition: one branch per kind, allowing exactly its hyperparameters.
+ *
+ * Example: `modelSchema().properties.kind.enum` lists every kind of the registry.
+ */
+export function modelSchema(): Record<string, unknown> {
+  return {
+    type: 'object',
+    required: ['kind'],
+    properties: { kind: { enum: Object.keys(modelKinds) } },
+    allOf: Object.entries(modelKinds).map(([kind, adapter]) => {
+      const params = Object.entries(adapter.grid);
+      const grid = { type: 'object', additionalProperties: false, properties: Object.fromEntries(params.map(([name, p]) => [name, p.schema])) };
+      return {
+        if: { properties: { kind: { const: kind } } },
+        then: { additionalProperties: false, properties: params.length ? { kind: true, grid } : { kind: true } },
+      };
+    }),
+  };
+}
 
 /**
  * Every cell of a grid, the Cartesian product of its value lists, in a stable order.

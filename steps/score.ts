@@ -2,10 +2,9 @@ import { metrics, type MetricSet } from '../models/metrics.js';
 import { column } from '../core/frame.js';
 import type { FrameOutput, StepDefinition } from '../core/step-types.js';
 import { applyDesign, targetOf } from './design.js';
-import { engineCall } from './cross-validate.js';
 import type { FitOutput } from './fit.js';
 import type { HoldoutOutput } from './holdout.js';
-import { modelKinds } from './model-kinds.js';
+import { engineFor } from './model-kinds.js';
 import { dict } from '../core/dict.js';
 
 export interface ScoreParams {
@@ -52,11 +51,11 @@ export const score: StepDefinition<ScoreParams, ScoreOutput> = {
     const frame = (inputs[0] as FrameOutput).frame;
     const split = inputs[1] as HoldoutOutput;
     const fitted = inputs[2] as FitOutput;
-    const adapter = modelKinds[fitted.kind];
+    const engine = engineFor(fitted.kind, fitted.model);
     const bytes = new Uint8Array(Buffer.from(fitted.bytes, 'base64'));
     const y = targetOf(frame, params.target, split.test);
-    const pred = await engineCall(fitted.model, 'prediction of the holdout rows', () => adapter.predict(bytes, applyDesign(fitted.design, frame, split.test)));
-    const trainPred = await engineCall(fitted.model, 'prediction of the training rows', () => adapter.predict(bytes, applyDesign(fitted.design, frame, split.train)));
+    const pred = await engine.predict(bytes, applyDesign(fitted.design, frame, split.test), 'prediction of the holdout rows');
+    const trainPred = await engine.predict(bytes, applyDesign(fitted.design, frame, split.train), 'prediction of the training rows');
     const rand = ctx.rng('bootstrap');
     const units: number[][] = [];
     if (params.byGroups && params.groups) {

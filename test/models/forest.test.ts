@@ -12,7 +12,6 @@ import {
   impurityImportance,
   MIN_DRAWS_FOR_THREADS,
   oob,
-  permutationImportance,
   predictForest,
   serializeForest,
 } from '../../models/forest.js';
@@ -100,27 +99,6 @@ describe('out-of-bag estimates', () => {
 });
 
 describe('importance', () => {
-  it('permutation importance ranks x1, x2 and x4 above the noise predictors x6..x10', async () => {
-    // Source: Friedman (1991): y depends on x1..x5 only; x4 (linear, coefficient 10) and x1, x2 (in
-    // sin(π x1 x2)) carry the most signal, x6..x10 none.
-    const f = await fitForest(train.x, train.y, { ...base, trees: 100, seed: 'imp' });
-    const { mean, sd } = permutationImportance(f, heldOut.x, heldOut.y, { repeats: 3, seed: 'perm' });
-    const noise = Math.max(...Array.from(mean.slice(5)));
-    for (const j of [0, 1, 3]) expect(mean[j]).toBeGreaterThan(noise);
-    expect(noise).toBeLessThan(0.3);
-    for (const v of sd) expect(v).toBeGreaterThanOrEqual(0);
-    const again = permutationImportance(f, heldOut.x, heldOut.y, { repeats: 3, seed: 'perm' });
-    expect(sameBits(again.mean, mean)).toBe(true);
-  });
-
-  it('permutation importance leaves the caller arrays untouched and has no sd for one repeat', async () => {
-    const f = await fitForest(train.x, train.y, { ...base, trees: 10, seed: 'imp' });
-    const before = heldOut.x.columns.map((c) => c.slice());
-    const { sd } = permutationImportance(f, heldOut.x, heldOut.y, { repeats: 1, seed: 'p' });
-    heldOut.x.columns.forEach((c, j) => expect(sameBits(c, before[j])).toBe(true));
-    expect(Number.isNaN(sd[0])).toBe(true);
-  });
-
   it('impurity importance (training data) also puts the noise predictors last', async () => {
     const f = await fitForest(train.x, train.y, { ...base, trees: 50, seed: 'imp' });
     const imp = impurityImportance(f);

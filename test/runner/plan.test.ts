@@ -42,7 +42,8 @@ describe('step keys', () => {
   it('change only the model that was edited, not the other models', () => {
     const before = keys(WITH_CLEANING.replace('mean: {kind: mean}', 'tree: {kind: decision_tree, grid: {max_depth: 2}}'));
     const after = keys(WITH_CLEANING.replace('mean: {kind: mean}', 'tree: {kind: decision_tree, grid: {max_depth: 3}}'));
-    expect(changed(before, after).sort()).toEqual(['choose tree', 'cv tree one setting', 'explain tree', 'fit tree', 'score tree']);
+    // the headline step reads every model's outputs and grid, so it follows any model's edit
+    expect(changed(before, after).sort()).toEqual(['choose tree', 'cv tree one setting', 'explain tree', 'fit tree', 'headline', 'score tree']);
     expect(after.get('cv linear no hyperparameters')).toBe(before.get('cv linear no hyperparameters'));
   });
 
@@ -103,5 +104,21 @@ describe('model kinds in the plan', () => {
     const plan = planRecipe(recipe, origin);
     // permutation importance of a model that ignores its predictors is zero by construction
     expect(Object.fromEntries(Object.entries(plan.models).map(([name, ids]) => [name, ids.explain !== null]))).toEqual({ linear: true, mean: false, tree: true });
+  });
+});
+
+describe('the headline step', () => {
+  it('comes last and reads the model table, the holdout and each model’s choose, fit and score outputs in recipe order', () => {
+    const dir = makeFolder({ 'recipe.yaml': SMALL_RECIPE, 'data/obs.csv': smallData() });
+    const { recipe, origin } = loadRecipe(join(dir, 'recipe.yaml'));
+    const plan = planRecipe(recipe, origin);
+    const last = plan.steps[plan.steps.length - 1];
+    expect(last.id).toBe(plan.headline);
+    expect(last.kind).toBe('headline');
+    expect(last.inputs).toEqual(['model table', 'holdout', 'choose linear', 'fit linear', 'score linear', 'choose mean', 'fit mean', 'score mean']);
+    expect((last.params as { models: unknown }).models).toEqual([
+      { name: 'linear', kind: 'linear', grid: recipe.models.linear.grid },
+      { name: 'mean', kind: 'mean', grid: recipe.models.mean.grid },
+    ]);
   });
 });

@@ -1,7 +1,8 @@
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import { messages, RecipeErrors } from '../../core/messages.js';
-import { DEFAULT_MISSING, MODEL_DEFAULTS } from '../../runner/normalize.js';
+import { DEFAULT_MISSING } from '../../runner/normalize.js';
+import { DEFAULT_MIN_LEAF, DEFAULT_REPLACE, DEFAULT_SAMPLE_FRACTION } from '../../models/defaults.js';
 import { displayOf, loadRecipe } from '../../runner/recipe.js';
 import { makeFolder, SMALL_RECIPE, smallData } from '../helpers.js';
 
@@ -158,7 +159,7 @@ describe('reading and validating a recipe', () => {
     expect(recipe.evaluation.choose_by).toBe('rmse');
     expect(recipe.time).toBeNull();
     expect(recipe.report.folder).toBe('out');
-    expect(recipe.models.linear.grid).toEqual(MODEL_DEFAULTS.linear);
+    expect(recipe.models.linear.grid).toEqual({});
   });
 
   it('writes out forest defaults as lists', () => {
@@ -167,6 +168,14 @@ describe('reading and validating a recipe', () => {
       'data/obs.csv': smallData(),
     });
     const { recipe } = loadRecipe(join(dir, 'recipe.yaml'));
-    expect(recipe.models.forest.grid).toEqual({ ...MODEL_DEFAULTS.random_forest, trees: [50] });
+    // the engine's defaults (models/defaults.ts), each as a one-value list; mtry null is one third of the predictors
+    expect(recipe.models.forest.grid).toEqual({
+      trees: [50],
+      max_depth: [null],
+      min_leaf: [DEFAULT_MIN_LEAF],
+      mtry: [null],
+      sample_fraction: [DEFAULT_SAMPLE_FRACTION],
+      replace: [DEFAULT_REPLACE],
+    });
   });
 });

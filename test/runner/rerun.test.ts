@@ -48,6 +48,21 @@ describe('determinism', () => {
   });
 });
 
+describe('a warm rerun', () => {
+  it('takes the headline from the cache and shows the cold run’s warnings, the evaluation’s among them, in the same order', async () => {
+    const { dir, manifest: cold, results } = await run();
+    const warm = await runRecipe(join(dir, 'recipe.yaml'), { cache: join(dir, '.cache'), workers: 1, progress: silentProgress() });
+    expect(warm.manifest.timing.steps.find((s) => s.id === 'headline')!.status).toBe('cached');
+    expect(warm.manifest.timing.steps.every((s) => s.status === 'cached')).toBe(true);
+    // the forest's min_leaf grid has two values, so either choice is at an edge; 3 holdout sites are too few
+    expect(cold.warnings.map((w) => w.code)).toEqual(expect.arrayContaining(['grid-edge', 'holdout-unreliable']));
+    expect(warm.manifest.warnings).toEqual(cold.warnings);
+    expect(warm.results.warnings).toEqual(results.warnings);
+    expect(warm.results.chosenModel).toBe(results.chosenModel);
+    expect(warm.results.models.map((m) => m.skill)).toEqual(results.models.map((m) => m.skill));
+  });
+});
+
 describe('verify', () => {
   it('says reproduced for an untouched run', async () => {
     const { outDir } = await run();

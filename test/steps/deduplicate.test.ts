@@ -116,6 +116,6 @@ describe('deduplicate in a recipe', () => {
       .join('\n');
     writeFileSync(join(s.dir, 'new.csv'), noTarget);
     const r = await expectOutcome(s.dir, ['predict', join(s.dir, 'out/small'), join(s.dir, 'new.csv'), '--out', join(s.dir, 'p.csv')], { code: 0, changes: ['p.csv', 'new.csv'] });
-    expect(r.out).toContain('cleaning steps that need it were skipped: clean[0] deduplicate');
+    expect(r.out).toContain('steps that need it were skipped: clean[0] deduplicate');
   });
 });

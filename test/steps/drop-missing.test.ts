@@ -52,10 +52,10 @@ describe('drop_missing', () => {
 
   it('tells predict which listed column a removed row lacked', () => {
     const contract = dropMissing.recipe!;
-    expect(contract.rowReason({ columns: ['a', 'b'] }, frame, 2)).toBe('b is missing');
-    expect(contract.rowReason({ columns: ['a', 'b'] }, frame, 3)).toBe('a is missing');
+    expect(contract.rowReason!({ columns: ['a', 'b'] }, frame, 2)).toBe('b is missing');
+    expect(contract.rowReason!({ columns: ['a', 'b'] }, frame, 3)).toBe('a is missing');
     // without the columns a new file lacks; nothing left to apply → null
-    expect(contract.without({ columns: ['a', 'b'] }, new Set(['b']))).toEqual({ columns: ['a'] });
-    expect(contract.without({ columns: ['a'] }, new Set(['a']))).toBeNull();
+    expect(contract.without!({ columns: ['a', 'b'] }, new Set(['b']))).toEqual({ columns: ['a'] });
+    expect(contract.without!({ columns: ['a'] }, new Set(['a']))).toBeNull();
   });
 });

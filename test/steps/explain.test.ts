@@ -8,6 +8,7 @@ import { explain, type ExplainOutput, type ExplainParams } from '../../steps/exp
 import { fit, type FitOutput } from '../../steps/fit.js';
 import type { HoldoutOutput } from '../../steps/holdout.js';
 import { asOutput, errorOf, stepContext } from '../helpers.js';
+import { FRIEDMAN_NAMES, friedman1 } from '../bench/friedman.js';
 
 /**
  * y = 3·x1 exactly; x2 is unrelated noise. Rows 0–7 train (x1 = 1..8), rows 8–13 are held out.
@@ -90,6 +91,30 @@ describe('explain', () => {
     expect(out.baselineMse).toBeCloseTo(y.reduce((s, v) => s + (v - 13.5) ** 2, 0) / y.length, 12);
     // and a flat partial dependence curve at the training mean
     out.partialDependence[0].points.forEach((p) => expect(p.y).toBe(13.5));
+  });
+
+  it('ranks x1, x2 and x4 of Friedman #1 above the noise predictors x6..x10 under a random forest', async () => {
+    // Source: Friedman (1991), eq. 43: y depends on x1..x5 only; x4 (linear, coefficient 10) and
+    // x1, x2 (in sin(π x1 x2)) carry the most signal, x6..x10 none.
+    const train = friedman1(600, 'explain-train');
+    const test = friedman1(300, 'explain-test');
+    const f: Frame = {
+      rows: 900,
+      columns: [
+        ...FRIEDMAN_NAMES.map((name, j) => ({ name, type: 'number' as const, values: Float64Array.from([...train.x.columns[j], ...test.x.columns[j]]) })),
+        { name: 'y', type: 'number', values: Float64Array.from([...train.y, ...test.y]) },
+      ],
+    };
+    const s: HoldoutOutput = { train: [...Array(600).keys()], test: Array.from({ length: 300 }, (_, k) => 600 + k), by: 'random', trainGroups: 0, testGroups: 0, cutoff: null };
+    const cell = { trees: 100, max_depth: null, min_leaf: 3, mtry: null, sample_fraction: 1, replace: true };
+    const forest = (await fit.run([asOutput(f), s, { ...chosen, cells: [{ ...chosen.cells[0], cell }] }], { model: 'forest', kind: 'random_forest', target: 'y', predictors: FRIEDMAN_NAMES, features: [] }, stepContext())) as FitOutput;
+    const out = (await explain.run([asOutput(f), s, forest], { ...PARAMS, repeats: 3, top: 0 }, stepContext())) as ExplainOutput;
+    const rise = (p: string) => out.importance.find((i) => i.predictor === p)!.mean;
+    const noise = Math.max(...['x6', 'x7', 'x8', 'x9', 'x10'].map(rise));
+    for (const p of ['x1', 'x2', 'x4']) expect(rise(p)).toBeGreaterThan(noise);
+    for (const i of out.importance) expect(i.sd).toBeGreaterThanOrEqual(0);
+    // the held-out frame the step permuted is the caller's, unchanged
+    expect(f.columns[0].values.slice(600, 603)).toEqual(test.x.columns[0].slice(0, 3));
   });
 
   it('gives the same answer twice for the same seed', async () => {

@@ -42,7 +42,7 @@ describe('within', () => {
   });
 
   it('tells predict why a row was removed', () => {
-    expect(within.recipe!.rowReason({ column: 'x', min: 0, max: 10 }, frame, 5)).toBe('x = 15 is outside [0, 10]');
+    expect(within.recipe!.rowReason!({ column: 'x', min: 0, max: 10 }, frame, 5)).toBe('x = 15 is outside [0, 10]');
   });
 });
 

@@ -1,0 +1,60 @@
+/** predict as the apply mode of the plan: the run's data steps over new rows, through the executor. */
+import { readFileSync, writeFileSync } from 'node:fs';
+import { join } from 'node:path';
+import { describe, expect, it } from 'vitest';
+import type { Frame } from '../../core/frame.js';
+import { messages } from '../../core/messages.js';
+import type { FrameOutput } from '../../core/step-types.js';
+import { planApply } from '../../runner/plan.js';
+import { loadRecipe } from '../../runner/recipe.js';
+import { newRows, ROW_COLUMN } from '../../steps/new-rows.js';
+import { asOutput, SMALL_RECIPE, smallData } from '../helpers.js';
+import { expectOutcome, scenario } from '../hostile/harness.js';
+
+/** SMALL_RECIPE with a target computed from y, and a predictor computed from x1. */
+const RECIPE = SMALL_RECIPE.replace('target: y', "features:\n  - derive: {y10: 'd.y * 10'}\n  - derive: {lx: 'op.log(d.x1 + 1)'}\ntarget: y10").replace(
+  'predictors: [x1, x2]',
+  'predictors: [lx, x2]',
+);
+
+describe('the new_rows step', () => {
+  it('adds the absent declared columns as missing and numbers the rows', () => {
+    const frame: Frame = { rows: 3, columns: [{ name: 'x', type: 'number', values: Float64Array.from([5, 6, 7]) }] };
+    const out = newRows.run([asOutput(frame)], { absent: [['y', 'number'], ['site', 'string']] }, null as never) as FrameOutput;
+    expect(out.frame.columns.map((c) => c.name)).toEqual(['x', 'y', 'site', ROW_COLUMN]);
+    expect(Array.from(out.frame.columns[1].values as Float64Array)).toEqual([NaN, NaN, NaN]);
+    expect(out.frame.columns[2].values).toEqual([null, null, null]);
+    expect(Array.from(out.frame.columns[3].values as Float64Array)).toEqual([0, 1, 2]);
+  });
+});
+
+describe('the apply plan', () => {
+  it('runs the recipe’s own data steps over the new file, and leaves out a step that only makes the absent target', () => {
+    const s = scenario({ 'recipe.yaml': RECIPE, 'data/obs.csv': smallData(), 'new.csv': 'site,x1,x2\nA,1,2\n' });
+    const { recipe, origin } = loadRecipe(s.recipe);
+    const plan = planApply(recipe, { dir: origin.dir, where: () => 'recipe.yaml' }, { path: join(s.dir, 'new.csv'), absent: ['y'], without: new Set(['y10', 'y']) });
+    expect(plan.steps.map((st) => st.id)).toEqual(['source obs (new rows)', 'new rows', 'features[1] derive']);
+    expect(plan.skipped).toEqual(['features[0] derive']);
+    expect(plan.steps[1].params).toEqual({ absent: [['y', 'number']] });
+    // the source reads only the columns the file has
+    expect(Object.keys((plan.steps[0].params as { columns: object }).columns)).toEqual(['site', 'x1', 'x2']);
+  });
+
+  it('applies in predict: skipped steps and step warnings are printed, and each row gets its prediction or reason', async () => {
+    const s = scenario({ 'recipe.yaml': RECIPE, 'data/obs.csv': smallData() });
+    await expectOutcome(s.dir, ['run', s.recipe, '--cache', s.cache, '--workers', '1'], { code: 0, changes: ['out/small/'] });
+    // x1 = -1 makes log(0): a non-finite derived value, reported and left missing
+    writeFileSync(join(s.dir, 'new.csv'), 'site,x1,x2\nA,1,2\nB,-1,2\n');
+    const r = await expectOutcome(s.dir, ['predict', join(s.dir, 'out/small'), join(s.dir, 'new.csv'), '--out', join(s.dir, 'p.csv')], {
+      code: 0,
+      changes: ['p.csv', 'new.csv'],
+    });
+    expect(r.out).toContain('1 of 2 rows predicted, 1 not');
+    expect(r.out).toContain('steps that need it were skipped: features[0] derive');
+    expect(r.out).toContain(`warning: ${messages.deriveNonFinite('lx', 'op.log(d.x1 + 1)', 1)}`);
+    const lines = readFileSync(join(s.dir, 'p.csv'), 'utf8').trimEnd().split('\n');
+    expect(lines[0]).toBe('site,x1,x2,input_row,predicted_y10,outside_training_range,not_predicted_because');
+    expect(lines[1]).toMatch(/^A,1,2,1,-?\d/);
+    expect(lines[2]).toBe('B,-1,2,2,,,missing lx');
+  });
+});
