@@ -363,6 +363,19 @@ export const messages = {
     `cache entry ${key.slice(0, 12)} for step ${q(step)} is not in a cache format this dendrolog reads (it starts with ${q(start)}), so it was discarded and the step recomputed`,
   cacheEntryUndecodable: (step: string, key: string, detail: string) =>
     `cache entry ${key.slice(0, 12)} for step ${q(step)} passed its checksum but could not be decoded (${detail}), so it was discarded and the step recomputed`,
+  clusterNeedsCache: () =>
+    'the Slurm executor hands steps to cluster tasks through the cache, so it cannot run with --no-cache; drop --no-cache and give a --cache folder on a file system every node shares',
+  clusterCommandMissing: (command: string, detail: string) =>
+    `cannot start the Slurm command "${command}" (${detail}); run dendrolog with --executor slurm on a machine where the Slurm commands are on the PATH (a cluster's login node), or use --executor local`,
+  clusterSubmitFailed: (detail: string) =>
+    `sbatch refused the job array: ${detail.trim() || 'no message'}; check the --slurm-* options (partition, time limit, memory, account) against the cluster's rules`,
+  clusterTaskFailed: (step: string, job: string, state: string, exitCode: string, log: string, detail: string) =>
+    `step ${step} failed as Slurm task ${job} (${state}, exit code ${exitCode}): ${detail}; its log is ${log}; what finished is in the cache, so running again submits only the missing steps`,
+  clusterTaskNoOutput: (step: string, job: string, log: string) =>
+    `step ${step} ran as Slurm task ${job} but left no output in the cache; is the cache folder on a file system the compute nodes share? Its log is ${log}`,
+  clusterCacheUnwritable: (dir: string) =>
+    `the Slurm executor needs to store every step output in the cache, and cannot write to ${dir}; give a writable --cache folder on a file system every node shares`,
+  clusterInterrupted: (job: string) => `interrupted: cancelled Slurm job ${job}; what finished is in the cache, so running again submits only the missing steps`,
   cacheUnwritable: (dir: string, code: string) =>
     `cannot write to the cache folder ${dir} (${code}${FS_WHY.has(code) ? `: ${FS_WHY.get(code)}` : ''}); this run goes on without storing step outputs, so the next run recomputes them; free disk space or make the folder writable, or give another folder with --cache DIR (or --no-cache)`,
   outputFolderNotDendrologs: (folder: string) =>

@@ -10,13 +10,15 @@ import { verifyRun } from './verify.js';
 import { compareManifests, comparisonMarkdown } from './compare.js';
 import { predictRun } from './predict.js';
 import { readManifest } from './run-folder.js';
+import { SLURM_SETTINGS, slurmOptions, type SlurmOptions } from './slurm.js';
+import { runTask } from './task.js';
 
 const HELP = `dendrolog — run a tree and forest regression recipe and write an audit report
 
 Usage:
-  dendrolog run RECIPE [--out DIR] [--cache DIR] [--no-cache] [--workers N]
+  dendrolog run RECIPE [--out DIR] [--cache DIR] [--no-cache] [--workers N] [--executor local|slurm]
   dendrolog check RECIPE
-  dendrolog verify RUN_FOLDER [--workers N]
+  dendrolog verify RUN_FOLDER [--workers N] [--executor local|slurm]
   dendrolog compare OLD_RUN_FOLDER NEW_RUN_FOLDER [--format markdown|json]
   dendrolog predict RUN_FOLDER DATA_FILE --out PREDICTIONS.csv
   dendrolog --help | --version
@@ -39,13 +41,24 @@ Options for run:
   --workers N    threads for grid cells, final fits and trees (default: the number of
                  cores); results are identical for any N
 
+Options for run and verify on a Slurm cluster (see the README's cluster section):
+  --executor slurm        run grid cells, final fits and explanations as Slurm job arrays;
+                          the cache (and for verify the current folder) must be on a file
+                          system every node shares; outputs are identical to a local run
+  --slurm-partition P     each also settable once per site by an environment variable:
+  --slurm-time T          DENDROLOG_SLURM_PARTITION, _TIME (per task, e.g. 2:00:00),
+  --slurm-mem M           _MEM (per task, e.g. 8G), _ACCOUNT, _MAX_RUNNING (tasks of one
+  --slurm-account A       array at once) and _CPUS (cores per task, default 1)
+  --slurm-max-running N
+  --slurm-cpus N
+
 Exit codes:
   0  success (verify: reproduced)
   1  the analysis failed (bad data, a step error; verify: not reproduced)
   2  bad usage or a bad recipe
 `;
 
-const COMMANDS = ['run', 'check', 'verify', 'compare', 'predict'];
+const COMMANDS = ['run', 'check', 'verify', 'compare', 'predict', 'task'];
 
 /**
  * Entry point: parses arguments, runs the command, prints errors as one line each, returns the exit code.
@@ -70,6 +83,13 @@ export async function main(argv: string[]): Promise<number> {
       out.write(HELP);
       return 0;
     }
+    if (command === 'task') {
+      // what a Slurm array task runs (not listed in --help: dendrolog writes this command itself)
+      const { positionals } = parse(rest, {}, command);
+      const index = Number(positionals[1]);
+      if (positionals.length !== 2 || !Number.isInteger(index) || index < 0) throw new DendrologError(messages.usageMissingArgument('a batch file and a task index', command), 2);
+      return await runTask(positionals[0], index);
+    }
     if (command === 'check') {
       const { positionals } = parse(rest, {}, command);
       const recipe = onePositional(positionals, command);
@@ -78,9 +98,9 @@ export async function main(argv: string[]): Promise<number> {
       return 0;
     }
     if (command === 'verify') {
-      const { values, positionals } = parse(rest, { workers: { type: 'string' } }, command);
+      const { values, positionals } = parse(rest, { workers: { type: 'string' }, ...EXECUTOR_OPTIONS }, command);
       const folder = onePositional(positionals, command, 'a run folder');
-      const result = await verifyRun(folder, { workers: workersOf(values.workers), progress: streamProgress(err) });
+      const result = await verifyRun(folder, { workers: workersOf(values.workers), progress: streamProgress(err), slurm: executorOf(values) });
       out.write(result.lines.join('\n') + '\n');
       return result.reproduced ? 0 : 1;
     }
@@ -109,7 +129,7 @@ export async function main(argv: string[]): Promise<number> {
     }
     const { values, positionals } = parse(
       rest,
-      { out: { type: 'string' }, cache: { type: 'string' }, 'no-cache': { type: 'boolean' }, workers: { type: 'string' } },
+      { out: { type: 'string' }, cache: { type: 'string' }, 'no-cache': { type: 'boolean' }, workers: { type: 'string' }, ...EXECUTOR_OPTIONS },
       command,
     );
     const recipe = onePositional(positionals, command);
@@ -121,6 +141,7 @@ export async function main(argv: string[]): Promise<number> {
       noCache: Boolean(values['no-cache']),
       workers,
       progress: streamProgress(out),
+      slurm: executorOf(values),
     });
     const where = relative(process.cwd(), result.outDir) || '.';
     const w = result.manifest.warnings.length;
@@ -147,6 +168,24 @@ export async function main(argv: string[]): Promise<number> {
 }
 
 type OptionSpec = Record<string, { type: 'string' | 'boolean' }>;
+
+/** --executor and the Slurm options, for run and verify. */
+const EXECUTOR_OPTIONS: OptionSpec = {
+  executor: { type: 'string' },
+  ...Object.fromEntries(SLURM_SETTINGS.map((s) => [s.option, { type: 'string' as const }])),
+};
+
+/** The Slurm options when --executor slurm, else undefined; Slurm options without it are refused. */
+function executorOf(values: Record<string, string | boolean | undefined>): SlurmOptions | undefined {
+  const executor = (values.executor as string | undefined) ?? 'local';
+  if (executor !== 'local' && executor !== 'slurm') throw new DendrologError(messages.usageOptionValue('--executor', executor, '"local" or "slurm"'), 2);
+  if (executor === 'local') {
+    const stray = SLURM_SETTINGS.find((s) => values[s.option] !== undefined);
+    if (stray) throw new DendrologError(messages.usageOptionValue(`--${stray.option}`, String(values[stray.option]), 'to be given with --executor slurm'), 2);
+    return undefined;
+  }
+  return slurmOptions(values);
+}
 
 function parse(
   args: string[],

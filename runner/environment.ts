@@ -50,7 +50,7 @@ let fingerprint: string | undefined;
  * executor and thread worker that build a step's context, seed its generators and carry its output
  * through the codec. Their import closure is every file whose code can shape an output.
  */
-export const OUTPUT_ENTRIES = ['steps/index', 'runner/execute', 'runner/step-worker'];
+export const OUTPUT_ENTRIES = ['steps/index', 'runner/execute', 'runner/step-worker', 'runner/task'];
 
 /**
  * A hash of what computes the step outputs: dendrolog's version, the runtime dependency versions,

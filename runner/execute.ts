@@ -2,12 +2,13 @@ import { stepRegistry } from '../steps/index.js';
 import type { Cache } from './cache.js';
 import { packEntry, unpackEntry } from '../core/codec.js';
 import { sha256 } from '../core/hash.js';
-import { messages } from '../core/messages.js';
+import { DendrologError, messages } from '../core/messages.js';
 import type { Progress } from './progress.js';
 import { StepPool } from './step-pool.js';
 import { displayOf } from './paths.js';
 import { makeContext, type OutputCodec, type StepInstance, type Warning } from '../core/step-types.js';
 import { WarningLog } from '../core/warnings.js';
+import type { RemoteRunner, TaskStep } from './slurm.js';
 
 export interface StepRecord {
   id: string;
@@ -39,6 +40,11 @@ export interface LocalExecutorOptions {
   cache: Cache | null;
   workers: number;
   progress: Progress;
+  /**
+   * Where the parallel steps run instead of this machine's threads (the Slurm executor): it reads
+   * their inputs from the cache and writes their outputs there, so the cache must be shared.
+   */
+  remote?: RemoteRunner;
 }
 
 /**
@@ -98,6 +104,8 @@ export function localExecutor(opts: LocalExecutorOptions): Executor {
         if (opts.cache && cacheWritable) {
           const written = opts.cache.put(step.key, codec, payload);
           if (!written.stored) {
+            // cluster tasks read their inputs from the cache: without it they cannot run
+            if (opts.remote) throw new DendrologError(messages.clusterCacheUnwritable(displayOf(opts.cache.dir)), 1);
             // one line for the whole run: a full or read-only disk refuses every later write too
             cacheWritable = false;
             cacheWarning('cache-unwritable', messages.cacheUnwritable(displayOf(opts.cache.dir), written.code));
@@ -143,9 +151,39 @@ export function localExecutor(opts: LocalExecutorOptions): Executor {
         opts.progress.finish({ id: step.id, status, seconds, summary: def.summary ? def.summary(output as never) : '' });
       };
 
+      const byId = new Map(steps.map((s) => [s.id, s]));
+      /** Heavy steps as cluster tasks: those not cached are submitted, then read back from the cache. */
+      const runRemote = async (batch: StepInstance[], remote: RemoteRunner) => {
+        const t0 = performance.now();
+        const hits = batch.map(lookup);
+        const missing = batch.filter((_, k) => hits[k] === null);
+        opts.progress.start(`${missing.length} of ${batch.length} steps as cluster tasks`);
+        if (missing.length > 0) {
+          const inputOf = (id: string) => {
+            const s = byId.get(id)!;
+            return { key: s.key, codec: stepRegistry[s.kind].codec };
+          };
+          const tasks = missing.map(
+            (s): TaskStep => ({ id: s.id, kind: s.kind, params: s.params, seed: s.seed, key: s.key, seedKey: s.seedKey, locator: s.locator, codec: stepRegistry[s.kind].codec, inputs: s.inputs.map(inputOf) }),
+          );
+          await remote.run(tasks);
+        }
+        const seconds = (performance.now() - t0) / 1000;
+        batch.forEach((step, k) => {
+          const entry = hits[k] ?? lookup(step);
+          if (!entry) throw new DendrologError(messages.clusterTaskNoOutput(step.id, 'of the last array', 'in the batch folder'), 1);
+          settle(step, entry, hits[k] ? 'cached' : 'ran', hits[k] ? 0 : seconds);
+        });
+      };
+
       try {
         for (let i = 0; i < steps.length; ) {
           const batch = parallelBatch(steps, i);
+          if (opts.remote && batch.length > 0) {
+            await runRemote(batch, opts.remote);
+            i += batch.length;
+            continue;
+          }
           const t0 = performance.now();
           if (batch.length < 2 || opts.workers < 2) {
             const step = steps[i];

@@ -14,6 +14,8 @@ import { gatherResults, type Results } from './results.js';
 import { buildFigures } from './plots.js';
 import { writeModelFile } from './model-file.js';
 import { shortenTexts } from './shorten.js';
+import { SlurmRunner, type SlurmOptions } from './slurm.js';
+import { DendrologError, messages } from '../core/messages.js';
 
 export interface RunOptions {
   /** Output folder; default `<recipe folder>/<report.folder>/<recipe name>`. */
@@ -24,6 +26,8 @@ export interface RunOptions {
   /** Threads for grid cells, final fits and trees; default defaultWorkers(), one per core. */
   workers?: number;
   progress: Progress;
+  /** With Slurm options, the parallel steps run as Slurm job arrays over the (shared) cache. */
+  slurm?: SlurmOptions;
 }
 
 export interface RunResult {
@@ -66,8 +70,9 @@ export async function runRecipe(recipePath: string, opts: RunOptions): Promise<R
   // a folder that may not be replaced is refused before the work, not after it
   prepareRunFolder(outDir);
   // 4–6: plan, execute, gather
+  if (opts.slurm && opts.noCache) throw new DendrologError(messages.clusterNeedsCache(), 2);
   const cache = opts.noCache ? null : new Cache(resolve(opts.cache ?? DEFAULT_CACHE));
-  const { execution, results } = await executeRecipe(recipe, origin, { cache, workers: opts.workers ?? defaultWorkers(), progress: opts.progress });
+  const { execution, results } = await executeRecipe(recipe, origin, { cache, workers: opts.workers ?? defaultWorkers(), progress: opts.progress, slurm: opts.slurm });
   // 7: render and write
   const modelBin = writeModelFile(results.headlineFit, recipe, { holdoutPredictionsSha256: holdoutPredictionsSha256(results) });
   // texts from the data are shortened in the record; the recipe stays whole, since verify reruns it
@@ -95,14 +100,15 @@ export async function runRecipe(recipePath: string, opts: RunOptions): Promise<R
 export async function executeRecipe(
   recipe: Recipe,
   origin: RecipeOrigin,
-  opts: { cache: Cache | null; workers: number; progress: Progress },
+  opts: { cache: Cache | null; workers: number; progress: Progress; slurm?: SlurmOptions },
 ): Promise<{ plan: Plan; execution: Execution; results: Results }> {
   const plan = planRecipe(recipe, origin);
   const cells = Object.values(plan.models).reduce((n, m) => n + m.cells.length, 0);
   opts.progress.note(
     `${recipe.name}: ${plan.steps.length} steps; ${cells} grid cells × ${recipe.evaluation.folds.k} folds = ${cells * recipe.evaluation.folds.k} cross-validation fits, then ${Object.keys(plan.models).length} final fits`,
   );
-  const executor = localExecutor({ cache: opts.cache, workers: opts.workers, progress: opts.progress });
+  const remote = opts.slurm && opts.cache ? new SlurmRunner(opts.cache, opts.slurm, opts.progress) : undefined;
+  const executor = localExecutor({ cache: opts.cache, workers: opts.workers, progress: opts.progress, remote });
   const execution = await executor.run(plan.steps);
   return { plan, execution, results: gatherResults(recipe, plan, execution) };
 }

@@ -1,4 +1,4 @@
-import { existsSync, mkdtempSync, readFileSync, rmSync } from 'node:fs';
+import { existsSync, mkdirSync, mkdtempSync, readFileSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { dirname, join, relative, resolve } from 'node:path';
 import { Cache } from './cache.js';
@@ -12,7 +12,8 @@ import { type RecipeOrigin } from './recipe.js';
 import { displayOf } from './paths.js';
 import type { Recipe } from '../core/recipe-types.js';
 import { readManifest, runFolderChanges } from './run-folder.js';
-import { executeRecipe } from './run.js';
+import { DEFAULT_CACHE, executeRecipe } from './run.js';
+import type { SlurmOptions } from './slurm.js';
 import { dict } from '../core/dict.js';
 import { recipeFromManifest } from './stored-recipe.js';
 
@@ -29,7 +30,7 @@ export interface Verification {
  *
  * Example: `(await verifyRun('recipes/lake-chlorophyll/out/lake-chlorophyll', opts)).reproduced`
  */
-export async function verifyRun(folder: string, opts: { workers: number; progress: Progress }): Promise<Verification> {
+export async function verifyRun(folder: string, opts: { workers: number; progress: Progress; slurm?: SlurmOptions }): Promise<Verification> {
   const outDir = resolve(folder);
   const manifest = readManifest(outDir);
   const recipePath = resolve(outDir, manifest.recipe.file);
@@ -86,10 +87,14 @@ export async function verifyRun(folder: string, opts: { workers: number; progres
     text: '',
     doc: { displayPath: display, value: recipe, where: () => `${display} (as kept in the manifest)`, whereKey: () => display, whereInValue: () => display },
   };
-  const cacheDir = mkdtempSync(join(tmpdir(), 'dendrolog-verify-'));
+  // cluster tasks read and write the cache, so under Slurm the empty cache sits beside the default
+  // one, in the working folder, which the nodes share; a local rerun uses the machine's own temp folder
+  const tempBase = opts.slurm ? dirname(resolve(DEFAULT_CACHE)) : tmpdir();
+  mkdirSync(tempBase, { recursive: true });
+  const cacheDir = mkdtempSync(join(tempBase, 'verify-'));
   let rerun;
   try {
-    const { execution, results } = await executeRecipe(recipe, origin, { cache: new Cache(cacheDir), workers: opts.workers, progress: opts.progress });
+    const { execution, results } = await executeRecipe(recipe, origin, { cache: new Cache(cacheDir), workers: opts.workers, progress: opts.progress, slurm: opts.slurm });
     rerun = buildManifest(recipe, origin, execution, results, { started: new Date(), seconds: 0 }, outDir, writeModelFile(results.headlineFit, recipe, { holdoutPredictionsSha256: holdoutPredictionsSha256(results) }));
   } finally {
     rmSync(cacheDir, { recursive: true, force: true });

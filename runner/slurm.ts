@@ -1,0 +1,300 @@
+import { spawn, spawnSync } from 'node:child_process';
+import { randomBytes } from 'node:crypto';
+import { existsSync, mkdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
+import { join } from 'node:path';
+import type { Cache } from './cache.js';
+import { DendrologError, messages } from '../core/messages.js';
+import { parseJson } from '../core/dict.js';
+import type { OutputCodec } from '../core/step-types.js';
+import { packageRoot, displayOf } from './paths.js';
+import type { Progress } from './progress.js';
+
+/** What a site may set once for every run, by environment variable, and each run by option. */
+export interface SlurmOptions {
+  partition: string | null;
+  /** Time limit per task, in Slurm's words (`30`, `2:00:00`, `1-00:00:00`). */
+  time: string | null;
+  /** Memory per task, in Slurm's words (`4G`). */
+  mem: string | null;
+  account: string | null;
+  /** Most tasks of one array running at once (Slurm's `%N`); null for the scheduler to decide. */
+  maxRunning: number | null;
+  /** Cores per task: a forest fitted in a task grows its trees on this many threads. */
+  cpus: number;
+}
+
+/** Each option's command-line name and the environment variable a site may set instead. */
+export const SLURM_SETTINGS: { key: keyof SlurmOptions; option: string; env: string }[] = [
+  { key: 'partition', option: 'slurm-partition', env: 'DENDROLOG_SLURM_PARTITION' },
+  { key: 'time', option: 'slurm-time', env: 'DENDROLOG_SLURM_TIME' },
+  { key: 'mem', option: 'slurm-mem', env: 'DENDROLOG_SLURM_MEM' },
+  { key: 'account', option: 'slurm-account', env: 'DENDROLOG_SLURM_ACCOUNT' },
+  { key: 'maxRunning', option: 'slurm-max-running', env: 'DENDROLOG_SLURM_MAX_RUNNING' },
+  { key: 'cpus', option: 'slurm-cpus', env: 'DENDROLOG_SLURM_CPUS' },
+];
+
+/**
+ * The Slurm options from command-line values (by option name) over environment variables, checked;
+ * a bad value is refused naming the option or variable it came from.
+ *
+ * Example: `slurmOptions({'slurm-partition': 'short'}, {DENDROLOG_SLURM_CPUS: '4'})` is `{partition: 'short', cpus: 4, …}`.
+ */
+export function slurmOptions(given: Record<string, string | boolean | undefined>, env: NodeJS.ProcessEnv = process.env): SlurmOptions {
+  const out: SlurmOptions = { partition: null, time: null, mem: null, account: null, maxRunning: null, cpus: 1 };
+  for (const { key, option, env: name } of SLURM_SETTINGS) {
+    const fromOption = typeof given[option] === 'string' ? (given[option] as string) : undefined;
+    const raw = fromOption ?? env[name];
+    if (raw === undefined || raw === '') continue;
+    const source = fromOption !== undefined ? `--${option}` : name;
+    if (key === 'maxRunning' || key === 'cpus') {
+      const n = Number(raw);
+      if (!Number.isInteger(n) || n < 1 || n > 100000) throw new DendrologError(messages.usageOptionValue(source, raw, 'a whole number from 1 to 100000'), 2);
+      out[key] = n;
+    } else {
+      // passed to sbatch as one argument: no spaces or control characters that would read as more
+      // eslint-disable-next-line no-control-regex -- finding control characters is the point
+      if (!/^[^\s\u0000-\u001f]{1,200}$/.test(raw)) throw new DendrologError(messages.usageOptionValue(source, raw, 'a Slurm value without spaces'), 2);
+      out[key] = raw;
+    }
+  }
+  return out;
+}
+
+/**
+ * A list of array indices in Slurm's `--array` form.
+ *
+ * Example: `arraySpec([0, 1, 2, 5, 7, 8])` is `"0-2,5,7-8"`.
+ */
+export function arraySpec(indices: number[]): string {
+  const sorted = [...indices].sort((a, b) => a - b);
+  const parts: string[] = [];
+  for (let i = 0; i < sorted.length; ) {
+    let j = i;
+    while (j + 1 < sorted.length && sorted[j + 1] === sorted[j] + 1) j++;
+    parts.push(j === i ? String(sorted[i]) : `${sorted[i]}-${sorted[j]}`);
+    i = j + 1;
+  }
+  return parts.join(',');
+}
+
+/** The arguments of `sbatch` for one job array of a batch folder's tasks. */
+export function sbatchArgs(o: SlurmOptions, batch: { dir: string; name: string; indices: number[]; cwd: string }): string[] {
+  const args = [
+    '--parsable',
+    '--wait',
+    `--array=${arraySpec(batch.indices)}${o.maxRunning ? `%${o.maxRunning}` : ''}`,
+    `--job-name=${batch.name}`,
+    `--output=${join(batch.dir, 'task-%a.log')}`,
+    `--chdir=${batch.cwd}`,
+    `--cpus-per-task=${o.cpus}`,
+    '--ntasks=1',
+  ];
+  if (o.partition) args.push(`--partition=${o.partition}`);
+  if (o.time) args.push(`--time=${o.time}`);
+  if (o.mem) args.push(`--mem=${o.mem}`);
+  if (o.account) args.push(`--account=${o.account}`);
+  args.push(join(batch.dir, 'task.sh'));
+  return args;
+}
+
+/**
+ * The job id `sbatch --parsable` printed: its first line, before any `;cluster`.
+ *
+ * Example: `submittedJob('4242;north\n')` is `"4242"`.
+ */
+export function submittedJob(stdout: string): string | null {
+  const m = /^\s*(\d+)(?:;\S*)?\s*$/m.exec(stdout);
+  return m ? m[1] : null;
+}
+
+/** One array task as `scontrol show job -o` describes it. */
+export interface TaskRecord {
+  task: number;
+  state: string;
+  exitCode: string;
+  reason: string;
+}
+
+/**
+ * The array tasks of `scontrol show job -o JOB` output, one record per line; a line that stands for
+ * several pending tasks (`ArrayTaskId=3-5%2`) is one record per task.
+ *
+ * Example: a line `JobId=12 ArrayJobId=11 ArrayTaskId=1 JobState=FAILED Reason=NonZeroExitCode … ExitCode=1:0` gives `{task: 1, state: 'FAILED', exitCode: '1:0', reason: 'NonZeroExitCode'}`.
+ */
+export function taskRecords(text: string): TaskRecord[] {
+  const out: TaskRecord[] = [];
+  for (const line of text.split('\n')) {
+    const field = (name: string) => new RegExp(`(?:^|\\s)${name}=(\\S*)`).exec(line)?.[1];
+    const ids = field('ArrayTaskId');
+    const state = field('JobState');
+    if (ids === undefined || state === undefined) continue;
+    for (const task of expandTaskIds(ids)) out.push({ task, state, exitCode: field('ExitCode') ?? '?', reason: field('Reason') ?? '' });
+  }
+  return out;
+}
+
+function expandTaskIds(spec: string): number[] {
+  const out: number[] = [];
+  for (const part of spec.replace(/%\d+$/, '').split(',')) {
+    const m = /^(\d+)(?:-(\d+))?(?::(\d+))?$/.exec(part);
+    if (!m) continue;
+    const from = Number(m[1]);
+    const to = m[2] === undefined ? from : Number(m[2]);
+    const step = m[3] === undefined ? 1 : Number(m[3]);
+    for (let t = from; t <= to; t += step) out.push(t);
+  }
+  return out;
+}
+
+/** Task states where the node, not the step, failed: such a task is submitted once more. */
+export const RETRIED_STATES = new Set(['NODE_FAIL', 'PREEMPTED', 'BOOT_FAIL']);
+
+/** One step as a cluster task needs it: the instance, the codec of its output, and its inputs' cache keys. */
+export interface TaskStep {
+  id: string;
+  kind: string;
+  params: unknown;
+  seed: number;
+  key: string;
+  seedKey: string;
+  locator: Record<string, string>;
+  codec: OutputCodec;
+  inputs: { key: string; codec: OutputCodec }[];
+}
+
+/** The file a job array's tasks read: the cache they share and the steps, one per array index. */
+export interface TaskBatch {
+  cache: string;
+  steps: TaskStep[];
+}
+
+/** What a failed task leaves beside its log, so the main process can repeat the step's own words. */
+export interface TaskFailure {
+  message: string;
+  exitCode: 1 | 2 | null;
+}
+
+/** The Slurm commands, replaceable for tests. */
+export interface SlurmCommands {
+  sbatch: string;
+  scontrol: string;
+  scancel: string;
+}
+
+/** A runner that hands steps elsewhere: each writes its output into the cache. */
+export interface RemoteRunner {
+  run(steps: TaskStep[]): Promise<void>;
+}
+
+/**
+ * Runs batches of independent steps as Slurm job arrays over a shared cache. Each batch gets a
+ * folder in the cache (`tasks/<id>/`: the step descriptions, the job script, one log per task);
+ * `sbatch --wait` blocks until the array ends, so nothing polls here. Steps whose output is then
+ * missing are reported with their job and task id, state and log, except tasks lost with their node
+ * (or preempted), which are submitted once more. A batch folder is removed when every step of it
+ * succeeded, and kept, logs and all, when one failed. SIGINT or SIGTERM while waiting cancels the array.
+ */
+export class SlurmRunner implements RemoteRunner {
+  constructor(
+    private readonly cache: Cache,
+    private readonly options: SlurmOptions,
+    private readonly progress: Progress,
+    private readonly commands: SlurmCommands = { sbatch: 'sbatch', scontrol: 'scontrol', scancel: 'scancel' },
+  ) {}
+
+  async run(steps: TaskStep[]): Promise<void> {
+    const id = `${new Date().toISOString().replace(/[-:]/g, '').slice(0, 15)}-${randomBytes(4).toString('hex')}`;
+    const dir = join(this.cache.dir, 'tasks', id);
+    mkdirSync(dir, { recursive: true });
+    writeFileSync(join(dir, 'batch.json'), JSON.stringify({ cache: this.cache.dir, steps } satisfies TaskBatch));
+    const bin = join(packageRoot(), 'bin', 'dendrolog.js');
+    writeFileSync(join(dir, 'task.sh'), `#!/bin/sh\n# a dendrolog job array task: runs step number $SLURM_ARRAY_TASK_ID of batch.json\nexec ${shellWord(process.execPath)} ${shellWord(bin)} task ${shellWord(join(dir, 'batch.json'))} "$SLURM_ARRAY_TASK_ID"\n`, { mode: 0o755 });
+    let pending = steps.map((_, i) => i);
+    const retried = new Set<number>();
+    for (;;) {
+      const job = await this.submit(dir, pending, `dendrolog-${steps[0].kind}`);
+      const missing = pending.filter((i) => this.cache.get(steps[i].key, steps[i].codec).status !== 'hit');
+      if (missing.length === 0) break;
+      const records = new Map(this.records(job).map((r) => [r.task, r]));
+      const again = missing.filter((i) => RETRIED_STATES.has(records.get(i)?.state ?? '') && !retried.has(i));
+      if (again.length === missing.length) {
+        again.forEach((i) => retried.add(i));
+        this.progress.note(`${again.length} Slurm task${again.length === 1 ? '' : 's'} of job ${job} lost with a node (${again.map((i) => records.get(i)!.state).join(', ')}): submitting once more`);
+        pending = again;
+        continue;
+      }
+      const i = missing.find((k) => !again.includes(k)) ?? missing[0];
+      const r = records.get(i);
+      const log = displayOf(join(dir, `task-${i}.log`));
+      const failure = readFailure(join(dir, `task-${i}.error.json`));
+      if (!r && !failure) throw new DendrologError(messages.clusterTaskNoOutput(steps[i].id, `${job}_${i}`, log), 1);
+      throw new DendrologError(
+        messages.clusterTaskFailed(steps[i].id, `${job}_${i}`, r?.state ?? 'state unknown', r?.exitCode ?? '?', log, failure?.message ?? 'see its log'),
+        failure?.exitCode ?? 1,
+      );
+    }
+    rmSync(dir, { recursive: true, force: true });
+  }
+
+  /** Submits one array and waits for its end; returns the job id. */
+  private submit(dir: string, indices: number[], name: string): Promise<string> {
+    const args = sbatchArgs(this.options, { dir, name, indices, cwd: process.cwd() });
+    return new Promise((resolvePromise, reject) => {
+      let out = '';
+      let err = '';
+      let job: string | null = null;
+      let interrupted = false;
+      const child = spawn(this.commands.sbatch, args, { stdio: ['ignore', 'pipe', 'pipe'] });
+      const cancel = () => {
+        interrupted = true;
+        if (job) spawnSync(this.commands.scancel, [job], { stdio: 'ignore' });
+        child.kill('SIGTERM');
+      };
+      process.once('SIGINT', cancel);
+      process.once('SIGTERM', cancel);
+      const done = () => {
+        process.removeListener('SIGINT', cancel);
+        process.removeListener('SIGTERM', cancel);
+      };
+      child.stdout.on('data', (d: Buffer) => {
+        out += d.toString('utf8');
+        if (!job) {
+          job = submittedJob(out);
+          if (job) this.progress.note(`submitted ${indices.length} step${indices.length === 1 ? '' : 's'} as Slurm job array ${job} (logs in ${displayOf(dir)})`);
+        }
+      });
+      child.stderr.on('data', (d: Buffer) => (err += d.toString('utf8')));
+      child.on('error', (e: NodeJS.ErrnoException) => {
+        done();
+        reject(new DendrologError(messages.clusterCommandMissing(this.commands.sbatch, e.code ?? e.message), 2));
+      });
+      child.on('close', () => {
+        done();
+        if (interrupted) reject(new DendrologError(messages.clusterInterrupted(job ?? 'not yet submitted'), 1));
+        // sbatch --wait exits non-zero when a task failed: that is read from the cache and the records
+        else if (!job) reject(new DendrologError(messages.clusterSubmitFailed(err), 2));
+        else resolvePromise(job);
+      });
+    });
+  }
+
+  /** What Slurm still knows of a job's tasks; nothing when its records are gone. */
+  private records(job: string): TaskRecord[] {
+    const r = spawnSync(this.commands.scontrol, ['show', 'job', '-o', job], { encoding: 'utf8' });
+    return r.status === 0 ? taskRecords(r.stdout) : [];
+  }
+}
+
+function readFailure(path: string): TaskFailure | null {
+  if (!existsSync(path)) return null;
+  try {
+    return parseJson(readFileSync(path, 'utf8')) as TaskFailure;
+  } catch {
+    return null;
+  }
+}
+
+/** A word for /bin/sh, quoted so spaces and quotes in paths stay one word. */
+export function shellWord(s: string): string {
+  return `'${s.replace(/'/g, `'\\''`)}'`;
+}

@@ -1,0 +1,94 @@
+/**
+ * The Slurm executor against stand-ins for sbatch, scontrol and scancel (test/fixtures/fake-slurm)
+ * that run each array task's script on this machine: what it submits, what it retries, how it
+ * reports a failed task. The real scheduler is exercised in test/e2e/slurm.test.ts.
+ */
+import { mkdtempSync, readFileSync, readdirSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { afterEach, beforeEach, describe, expect, it } from 'vitest';
+import { messages } from '../../core/messages.js';
+import { packageRoot } from '../../runner/paths.js';
+import { SMALL_RECIPE } from '../helpers.js';
+import { cli, expectOutcome, scenario } from '../hostile/harness.js';
+
+const FAKES = join(packageRoot(), 'test', 'fixtures', 'fake-slurm');
+let state: string;
+const saved = { PATH: process.env.PATH, plan: process.env.FAKE_SLURM_PLAN, dir: process.env.FAKE_SLURM_DIR };
+
+beforeEach(() => {
+  state = mkdtempSync(join(tmpdir(), 'fake-slurm-'));
+  process.env.PATH = `${FAKES}:${saved.PATH}`;
+  process.env.FAKE_SLURM_DIR = state;
+  delete process.env.FAKE_SLURM_PLAN;
+});
+
+afterEach(() => {
+  process.env.PATH = saved.PATH;
+  if (saved.plan === undefined) delete process.env.FAKE_SLURM_PLAN;
+  if (saved.dir === undefined) delete process.env.FAKE_SLURM_DIR;
+});
+
+const calls = (): string[][] => readFileSync(join(state, 'calls'), 'utf8').trimEnd().split('\n').map((l) => JSON.parse(l) as string[]);
+const arrayOf = (args: string[]) => args.find((a) => a.startsWith('--array='));
+
+describe('the Slurm executor (stand-in commands)', () => {
+  it('submits each phase of independent steps as one array, gives the local outputs, and submits nothing when all is cached', async () => {
+    const s = scenario();
+    const local = await cli(['run', s.recipe, '--no-cache', '--workers', '1', '--out', join(s.dir, 'local')]);
+    expect(local.code).toBe(0);
+    await expectOutcome(s.dir, ['run', s.recipe, '--cache', s.cache, '--executor', 'slurm', '--slurm-partition', 'short', '--out', join(s.dir, 'cluster')], { code: 0, changes: ['cluster/'] });
+    // SMALL_RECIPE: cross-validation of 2 models, 2 final fits, 1 explanation (mean has none)
+    expect(calls().map(arrayOf)).toEqual(['--array=0-1', '--array=0-1', '--array=0']);
+    expect(calls()[0]).toContain('--partition=short');
+    const steps = (dir: string) => (JSON.parse(readFileSync(join(s.dir, dir, 'manifest.json'), 'utf8')) as { steps: { id: string; output: string }[] }).steps;
+    expect(steps('cluster')).toEqual(steps('local').map((x) => expect.objectContaining({ id: x.id, output: x.output })));
+    // batch folders of arrays that succeeded are removed
+    expect(readdirSync(join(s.cache, 'tasks'))).toEqual([]);
+    const again = await cli(['run', s.recipe, '--cache', s.cache, '--executor', 'slurm', '--out', join(s.dir, 'cluster')]);
+    expect(again.code).toBe(0);
+    expect(calls()).toHaveLength(3);
+  });
+
+  it('submits a task lost with its node once more, and only that task', async () => {
+    process.env.FAKE_SLURM_PLAN = JSON.stringify({ lose: { '1': 'NODE_FAIL' } });
+    const s = scenario();
+    const r = await expectOutcome(s.dir, ['run', s.recipe, '--cache', s.cache, '--executor', 'slurm'], { code: 0, changes: ['out/small/'] });
+    expect(calls().map(arrayOf).slice(0, 2)).toEqual(['--array=0-1', '--array=1']);
+    expect(r.out).toContain('1 Slurm task of job 101 lost with a node (NODE_FAIL): submitting once more');
+  });
+
+  it('reports a step that failed in its task with the step’s own message, the job and task id, the state and the log', async () => {
+    const text = SMALL_RECIPE.replace('mean: {kind: mean}', 'tree: {kind: decision_tree, grid: {min_leaf: 200}}');
+    const s = scenario({ 'recipe.yaml': text });
+    const r = await expectOutcome(s.dir, ['run', s.recipe, '--cache', s.cache, '--executor', 'slurm'], { code: 1 });
+    const batch = readdirSync(join(s.cache, 'tasks'))[0];
+    expect(r.err).toMatch(/^step cv tree one setting failed as Slurm task 101_1 \(FAILED, exit code 1:0\): model "tree" could not be fitted/);
+    expect(r.err).toContain(`its log is ${join(s.cache, 'tasks', batch, 'task-1.log')}`);
+    // the batch folder with the failed task's log is kept; the linear model's output is in the cache
+    expect(readFileSync(join(s.cache, 'tasks', batch, 'task-1.log'), 'utf8')).toContain('min_leaf');
+    const rerun = await cli(['run', s.recipe, '--cache', s.cache, '--executor', 'slurm']);
+    expect(rerun.code).toBe(1);
+    // the rerun submits only the step that has no output: a batch of one
+    expect(calls().map(arrayOf)).toEqual(['--array=0-1', '--array=0']);
+    expect(rerun.err).toMatch(/^step cv tree one setting failed as Slurm task 102_0 /);
+  });
+
+  it('says what sbatch refused, and that the slurm commands are missing when they are', async () => {
+    process.env.FAKE_SLURM_PLAN = JSON.stringify({ refuse: 'sbatch: error: invalid partition specified: nowhere' });
+    const s = scenario();
+    await expectOutcome(s.dir, ['run', s.recipe, '--cache', s.cache, '--executor', 'slurm', '--slurm-partition', 'nowhere'], {
+      code: 2,
+      err: messages.clusterSubmitFailed('sbatch: error: invalid partition specified: nowhere'),
+    });
+    process.env.PATH = '/nonexistent';
+    await expectOutcome(s.dir, ['run', s.recipe, '--cache', s.cache, '--executor', 'slurm'], { code: 2, err: messages.clusterCommandMissing('sbatch', 'ENOENT') });
+  });
+
+  it('refuses --no-cache and Slurm options without --executor slurm', async () => {
+    const s = scenario();
+    await expectOutcome(s.dir, ['run', s.recipe, '--no-cache', '--executor', 'slurm'], { code: 2, err: messages.clusterNeedsCache() });
+    await expectOutcome(s.dir, ['run', s.recipe, '--slurm-mem', '4G'], { code: 2, err: messages.usageOptionValue('--slurm-mem', '4G', 'to be given with --executor slurm') });
+    await expectOutcome(s.dir, ['run', s.recipe, '--executor', 'cloud'], { code: 2, err: messages.usageOptionValue('--executor', 'cloud', '"local" or "slurm"') });
+  });
+});

@@ -1,0 +1,80 @@
+/** The Slurm executor's pieces that need no cluster: options, the sbatch command line, and reading what Slurm prints. */
+import { describe, expect, it } from 'vitest';
+import { DendrologError, messages } from '../../core/messages.js';
+import { arraySpec, sbatchArgs, shellWord, slurmOptions, submittedJob, taskRecords } from '../../runner/slurm.js';
+
+const none = { partition: null, time: null, mem: null, account: null, maxRunning: null, cpus: 1 };
+
+function errorOf(f: () => unknown): DendrologError {
+  try {
+    f();
+  } catch (e) {
+    return e as DendrologError;
+  }
+  throw new Error('no error');
+}
+
+describe('Slurm options', () => {
+  it('take the command line over the environment, and default to one core and nothing else', () => {
+    expect(slurmOptions({}, {})).toEqual(none);
+    const o = slurmOptions({ 'slurm-partition': 'short', 'slurm-cpus': '4' }, { DENDROLOG_SLURM_PARTITION: 'long', DENDROLOG_SLURM_MEM: '8G', DENDROLOG_SLURM_MAX_RUNNING: '10' });
+    expect(o).toEqual({ ...none, partition: 'short', mem: '8G', maxRunning: 10, cpus: 4 });
+  });
+
+  it('refuse a bad value, naming the option or variable it came from', () => {
+    const a = errorOf(() => slurmOptions({ 'slurm-cpus': '0' }, {}));
+    expect([a.message, a.exitCode]).toEqual([messages.usageOptionValue('--slurm-cpus', '0', 'a whole number from 1 to 100000'), 2]);
+    const b = errorOf(() => slurmOptions({}, { DENDROLOG_SLURM_TIME: '2 hours' }));
+    expect(b.message).toBe(messages.usageOptionValue('DENDROLOG_SLURM_TIME', '2 hours', 'a Slurm value without spaces'));
+  });
+});
+
+describe('the sbatch command line', () => {
+  it('writes array indices as ranges', () => {
+    expect(arraySpec([7, 0, 1, 2, 5, 8])).toBe('0-2,5,7-8');
+    expect(arraySpec([3])).toBe('3');
+  });
+
+  it('asks for one array that sbatch waits on, one log per task, and passes the site options', () => {
+    const args = sbatchArgs({ ...none, partition: 'short', time: '1:00:00', mem: '4G', account: 'lakes', maxRunning: 5, cpus: 2 }, { dir: '/c/tasks/b', name: 'dendrolog-fit', indices: [0, 1, 2], cwd: '/w' });
+    expect(args).toEqual([
+      '--parsable',
+      '--wait',
+      '--array=0-2%5',
+      '--job-name=dendrolog-fit',
+      '--output=/c/tasks/b/task-%a.log',
+      '--chdir=/w',
+      '--cpus-per-task=2',
+      '--ntasks=1',
+      '--partition=short',
+      '--time=1:00:00',
+      '--mem=4G',
+      '--account=lakes',
+      '/c/tasks/b/task.sh',
+    ]);
+  });
+
+  it('quotes paths for the job script so spaces and quotes stay one word', () => {
+    expect(shellWord("/data/it's here")).toBe(`'/data/it'\\''s here'`);
+  });
+});
+
+describe('what Slurm prints', () => {
+  it('reads the job id sbatch --parsable prints, with or without a cluster name', () => {
+    expect(submittedJob('4242\n')).toBe('4242');
+    expect(submittedJob('4242;north\n')).toBe('4242');
+    expect(submittedJob('sbatch: error: invalid partition\n')).toBeNull();
+  });
+
+  it('reads array task records, one per task, expanding a pending range', () => {
+    const text = [
+      'JobId=12 ArrayJobId=11 ArrayTaskId=1 JobName=x JobState=FAILED Reason=NonZeroExitCode Dependency=(null) ExitCode=1:0',
+      'JobId=11 ArrayJobId=11 ArrayTaskId=3-4%2 JobName=x JobState=PENDING Reason=JobArrayTaskLimit ExitCode=0:0',
+    ].join('\n');
+    expect(taskRecords(text)).toEqual([
+      { task: 1, state: 'FAILED', exitCode: '1:0', reason: 'NonZeroExitCode' },
+      { task: 3, state: 'PENDING', exitCode: '0:0', reason: 'JobArrayTaskLimit' },
+      { task: 4, state: 'PENDING', exitCode: '0:0', reason: 'JobArrayTaskLimit' },
+    ]);
+  });
+});
