@@ -371,6 +371,8 @@ export const messages = {
     `sbatch refused the job array: ${detail.trim() || 'no message'}; check the --slurm-* options (partition, time limit, memory, account) against the cluster's rules`,
   clusterTaskFailed: (step: string, job: string, state: string, exitCode: string, log: string, detail: string) =>
     `step ${step} failed as Slurm task ${job} (${state}, exit code ${exitCode}): ${detail}; its log is ${log}; what finished is in the cache, so running again submits only the missing steps`,
+  clusterTaskNoRecord: (step: string, job: string, log: string) =>
+    `step ${step} was submitted as Slurm task ${job}, which ended without an output and without a record Slurm still keeps (it was cancelled before it started, or its record was purged); its log, if it started, is ${log}; what finished is in the cache, so running again submits only the missing steps`,
   clusterTaskNoOutput: (step: string, job: string, log: string) =>
     `step ${step} ran as Slurm task ${job} but left no output in the cache; is the cache folder on a file system the compute nodes share? Its log is ${log}`,
   clusterCacheUnwritable: (dir: string) =>

@@ -1,7 +1,10 @@
 /** The Slurm executor's pieces that need no cluster: options, the sbatch command line, and reading what Slurm prints. */
 import { describe, expect, it } from 'vitest';
 import { DendrologError, messages } from '../../core/messages.js';
-import { arraySpec, sbatchArgs, shellWord, slurmOptions, submittedJob, taskRecords } from '../../runner/slurm.js';
+import { readFileSync } from 'node:fs';
+import { join } from 'node:path';
+import { packageRoot } from '../../runner/paths.js';
+import { ACTIVE_STATES, arraySpec, RETRIED_STATES, sbatchArgs, shellWord, slurmOptions, submittedJob, taskRecords } from '../../runner/slurm.js';
 
 const none = { partition: null, time: null, mem: null, account: null, maxRunning: null, cpus: 1 };
 
@@ -39,7 +42,6 @@ describe('the sbatch command line', () => {
     const args = sbatchArgs({ ...none, partition: 'short', time: '1:00:00', mem: '4G', account: 'lakes', maxRunning: 5, cpus: 2 }, { dir: '/c/tasks/b', name: 'dendrolog-fit', indices: [0, 1, 2], cwd: '/w' });
     expect(args).toEqual([
       '--parsable',
-      '--wait',
       '--array=0-2%5',
       '--job-name=dendrolog-fit',
       '--output=/c/tasks/b/task-%a.log',
@@ -56,6 +58,41 @@ describe('the sbatch command line', () => {
 
   it('quotes paths for the job script so spaces and quotes stay one word', () => {
     expect(shellWord("/data/it's here")).toBe(`'/data/it'\\''s here'`);
+  });
+});
+
+/** A recorded output of test/fixtures/slurm (Slurm 22.05, single node; the command is in its first line), without the comments. */
+const recorded = (name: string) =>
+  readFileSync(join(packageRoot(), 'test', 'fixtures', 'slurm', name), 'utf8')
+    .split('\n')
+    .filter((l) => !l.startsWith('#'))
+    .join('\n');
+const brief = (text: string) => taskRecords(text).map((t) => `${t.task} ${t.state} ${t.exitCode}`);
+
+describe('what Slurm 22.05 printed (recorded)', () => {
+  it('sbatch --parsable: the job id', () => {
+    expect(submittedJob(recorded('sbatch-parsable.txt'))).toBe('45');
+  });
+
+  it('scontrol for an array with a failed task: one record per task, the array id carried by the last task', () => {
+    expect(brief(recorded('scontrol-array-completed-and-failed.txt')).sort()).toEqual(['0 COMPLETED 0:0', '1 COMPLETED 0:0', '2 FAILED 1:0', '3 COMPLETED 0:0']);
+  });
+
+  it('scontrol for running and pending tasks: the pending range is one line, read as two tasks still active', () => {
+    const tasks = taskRecords(recorded('scontrol-array-running-and-pending.txt'));
+    expect(tasks.map((t) => `${t.task} ${t.state}`).sort()).toEqual(['0 RUNNING', '1 RUNNING', '2 PENDING', '3 PENDING']);
+    expect(tasks.every((t) => ACTIVE_STATES.has(t.state))).toBe(true);
+  });
+
+  it('scontrol after scancel and after a time limit: ended states, not active, not retried', () => {
+    const cancelled = taskRecords(recorded('scontrol-array-cancelled.txt'));
+    expect(cancelled.map((t) => t.state)).toEqual(['CANCELLED', 'CANCELLED', 'CANCELLED', 'CANCELLED']);
+    const timeout = taskRecords(recorded('scontrol-array-timeout.txt'));
+    expect(brief(recorded('scontrol-array-timeout.txt')).sort()).toEqual(['0 COMPLETED 0:0', '1 TIMEOUT 0:15']);
+    for (const t of [...cancelled, ...timeout]) {
+      expect(ACTIVE_STATES.has(t.state)).toBe(false);
+      expect(RETRIED_STATES.has(t.state)).toBe(false);
+    }
   });
 });
 
