@@ -6,6 +6,10 @@ import type { OutputCodec } from '../core/step-types.js';
 /** First line of every entry; a change to the layout below changes the number. */
 const FORMAT = 'dendrolog-cache-entry 2';
 const HEADER_LIMIT = 512;
+/** How `put` names a file before renaming it into place: `<key>.tmp-<pid>-<12 hex>`. */
+const TEMPORARY = /^[0-9a-f]{64}\.tmp-\d+-[0-9a-f]{12}$/;
+/** Age after which an unfinished write's temporary file is taken as abandoned: no write takes an hour. */
+export const ABANDONED_WRITE_MS = 3_600_000;
 
 /** Why a stored entry was not used; the entry file is already gone when this is returned. */
 export type CacheDiscard =
@@ -96,6 +100,44 @@ export class Cache {
     }
     const { bytes } = entry as { bytes: Buffer };
     return { status: 'hit', bytes: new Uint8Array(bytes.buffer, bytes.byteOffset, bytes.byteLength) };
+  }
+
+  /**
+   * Removes the temporary files of writes that never finished (a process killed between writing and
+   * renaming, such as a cluster task lost with its node), once they are older than `olderThanMs`, so
+   * a write still going on elsewhere on a shared file system is left alone. Only files named as
+   * `put` names them are touched; returns how many went.
+   *
+   * Example: `new Cache(dir).sweepTemporaries(3_600_000)` after a node failure left `<key>.tmp-…` files.
+   */
+  sweepTemporaries(olderThanMs: number, now = Date.now()): number {
+    let removed = 0;
+    let shards: string[];
+    try {
+      shards = fs.readdirSync(this.dir).filter((d) => /^[0-9a-f]{2}$/.test(d));
+    } catch {
+      return 0;
+    }
+    for (const shard of shards) {
+      let names: string[];
+      try {
+        names = fs.readdirSync(join(this.dir, shard));
+      } catch {
+        continue;
+      }
+      for (const name of names) {
+        if (!TEMPORARY.test(name) || !name.startsWith(shard)) continue;
+        const path = join(this.dir, shard, name);
+        try {
+          if (now - fs.statSync(path).mtimeMs < olderThanMs) continue;
+          this.io.rmSync(path, { force: true });
+          removed++;
+        } catch {
+          // gone already (another process swept it), or not removable: leave it
+        }
+      }
+    }
+    return removed;
   }
 
   /** Stores bytes under key; a file-system refusal comes back as `{stored: false}` with its code. */

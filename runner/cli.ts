@@ -38,19 +38,20 @@ Options for run:
   --out DIR      output folder (default: <recipe folder>/<report.folder>/<recipe name>)
   --cache DIR    cache folder (default: ${DEFAULT_CACHE} under the current folder)
   --no-cache     neither read nor write the cache
-  --workers N    threads for grid cells, final fits and trees (default: the number of
+  --workers N    threads for cross-validation folds, final fits and trees (default: the number of
                  cores); results are identical for any N
 
 Options for run and verify on a Slurm cluster (see the README's cluster section):
-  --executor slurm        run grid cells, final fits and explanations as Slurm job arrays;
+  --executor slurm        run cross-validation folds, final fits and explanations as Slurm job arrays;
                           the cache (and for verify the current folder) must be on a file
                           system every node shares; outputs are identical to a local run
   --slurm-partition P     each also settable once per site by an environment variable:
   --slurm-time T          DENDROLOG_SLURM_PARTITION, _TIME (per task, e.g. 2:00:00),
   --slurm-mem M           _MEM (per task, e.g. 8G), _ACCOUNT, _MAX_RUNNING (tasks of one
   --slurm-account A       array at once) and _CPUS (cores per task, default 1)
-  --slurm-max-running N
+  --slurm-max-running N   and _STEPS_PER_TASK (steps each task runs in turn, default 1)
   --slurm-cpus N
+  --slurm-steps-per-task N
 
 Exit codes:
   0  success (verify: reproduced)

@@ -68,7 +68,8 @@ export function softwareFingerprint(): string {
 
 /**
  * SHA-256 of every source file reachable from the entries through relative imports (static,
- * dynamic, and module URLs such as a worker's `new URL('./x.js', import.meta.url)`), keyed by its
+ * dynamic, and module URLs such as a worker's `new URL('./x.js', import.meta.url)`; not type-only
+ * imports, which the compiler erases), keyed by its
  * path from root. Works on the TypeScript sources and on the compiled dist/ alike: an import of
  * `./x.js` is the file x.ts where that exists beside the importer.
  *
@@ -84,7 +85,9 @@ export function codeHashes(root: string, entries: string[]): Record<string, stri
     if (seen.has(key) || !existsSync(file)) continue;
     const text = readFileSync(file);
     seen.set(key, sha256(text));
-    for (const m of text.toString('utf8').matchAll(/['"](\.\.?\/[^'"\n]+?)\.js['"]/g)) {
+    // type-only imports are erased from the compiled code: they shape no output
+    const code = text.toString('utf8').replace(/(?:import|export) type\s[^;]*?from\s*['"][^'"]+['"]/g, '');
+    for (const m of code.matchAll(/['"](\.\.?\/[^'"\n]+?)\.js['"]/g)) {
       const base = resolve(dirname(file), m[1]);
       queue.push(existsSync(base + ext) ? base + ext : base + '.js');
     }

@@ -151,20 +151,23 @@ export function planRecipe(recipe: Recipe, origin: RecipeOrigin): Plan {
   // phase by phase across models, so the heavy independent steps (every model's grid cells, then the
   // final fits, then the explanations) sit next to each other and can run side by side
   const names = Object.keys(recipe.models);
-  const cells = dict(
+  // every model's cells × folds first (the heavy units, side by side), then each cell's folds gathered
+  const time = ev.folds.by === 'time' ? recipe.time : null;
+  const cellsOf = (name: string) => gridCells(recipe.models[name].grid).map((cell) => ({ cell, label: `cv ${name} ${cellLabel(cell, varyingParams(recipe.models[name].grid))}` }));
+  const foldIds = dict(
     names.map((name) => {
       const m = recipe.models[name];
-      const time = ev.folds.by === 'time' ? recipe.time : null;
-      const ids = gridCells(m.grid).map((cell) =>
-        add(`cv ${name} ${cellLabel(cell, varyingParams(m.grid))}`, 'cross_validate', { model: name, kind: m.kind, cell, time, ...common }, [
-          modelTable,
-          holdout,
-          folds,
-        ]),
-      );
-      return [name, ids];
+      return [
+        name,
+        cellsOf(name).map(({ cell, label }) =>
+          Array.from({ length: ev.folds.k }, (_, fold) =>
+            add(`${label} fold ${fold + 1}`, 'cv_fold', { model: name, kind: m.kind, cell, time, ...common, fold }, [modelTable, holdout, folds]),
+          ),
+        ),
+      ];
     }),
   );
+  const cells = dict(names.map((name) => [name, cellsOf(name).map(({ cell, label }, c) => add(label, 'cross_validate', { cell }, [holdout, folds, ...foldIds[name][c]]))]));
   const choose = dict(
     names.map((name) => [
       name,

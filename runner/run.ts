@@ -1,6 +1,6 @@
 import { availableParallelism } from 'node:os';
 import { resolve } from 'node:path';
-import { Cache } from './cache.js';
+import { ABANDONED_WRITE_MS, Cache } from './cache.js';
 import { localExecutor, type Execution } from './execute.js';
 import { buildManifest, holdoutPredictionsSha256, manifestProblems, type Manifest } from './manifest.js';
 import { prepareRunFolder, writeFolderAtomically } from './output.js';
@@ -72,6 +72,7 @@ export async function runRecipe(recipePath: string, opts: RunOptions): Promise<R
   // 4–6: plan, execute, gather
   if (opts.slurm && opts.noCache) throw new DendrologError(messages.clusterNeedsCache(), 2);
   const cache = opts.noCache ? null : new Cache(resolve(opts.cache ?? DEFAULT_CACHE));
+  cache?.sweepTemporaries(ABANDONED_WRITE_MS);
   const { execution, results } = await executeRecipe(recipe, origin, { cache, workers: opts.workers ?? defaultWorkers(), progress: opts.progress, slurm: opts.slurm });
   // 7: render and write
   const modelBin = writeModelFile(results.headlineFit, recipe, { holdoutPredictionsSha256: holdoutPredictionsSha256(results) });

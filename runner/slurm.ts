@@ -21,6 +21,8 @@ export interface SlurmOptions {
   maxRunning: number | null;
   /** Cores per task: a forest fitted in a task grows its trees on this many threads. */
   cpus: number;
+  /** Steps each array task runs in turn: more than 1 when steps are short beside Slurm's cost per task. */
+  stepsPerTask: number;
 }
 
 /** Each option's command-line name and the environment variable a site may set instead. */
@@ -31,6 +33,7 @@ export const SLURM_SETTINGS: { key: keyof SlurmOptions; option: string; env: str
   { key: 'account', option: 'slurm-account', env: 'DENDROLOG_SLURM_ACCOUNT' },
   { key: 'maxRunning', option: 'slurm-max-running', env: 'DENDROLOG_SLURM_MAX_RUNNING' },
   { key: 'cpus', option: 'slurm-cpus', env: 'DENDROLOG_SLURM_CPUS' },
+  { key: 'stepsPerTask', option: 'slurm-steps-per-task', env: 'DENDROLOG_SLURM_STEPS_PER_TASK' },
 ];
 
 /**
@@ -40,13 +43,13 @@ export const SLURM_SETTINGS: { key: keyof SlurmOptions; option: string; env: str
  * Example: `slurmOptions({'slurm-partition': 'short'}, {DENDROLOG_SLURM_CPUS: '4'})` is `{partition: 'short', cpus: 4, …}`.
  */
 export function slurmOptions(given: Record<string, string | boolean | undefined>, env: NodeJS.ProcessEnv = process.env): SlurmOptions {
-  const out: SlurmOptions = { partition: null, time: null, mem: null, account: null, maxRunning: null, cpus: 1 };
+  const out: SlurmOptions = { partition: null, time: null, mem: null, account: null, maxRunning: null, cpus: 1, stepsPerTask: 1 };
   for (const { key, option, env: name } of SLURM_SETTINGS) {
     const fromOption = typeof given[option] === 'string' ? (given[option] as string) : undefined;
     const raw = fromOption ?? env[name];
     if (raw === undefined || raw === '') continue;
     const source = fromOption !== undefined ? `--${option}` : name;
-    if (key === 'maxRunning' || key === 'cpus') {
+    if (key === 'maxRunning' || key === 'cpus' || key === 'stepsPerTask') {
       const n = Number(raw);
       if (!Number.isInteger(n) || n < 1 || n > 100000) throw new DendrologError(messages.usageOptionValue(source, raw, 'a whole number from 1 to 100000'), 2);
       out[key] = n;
@@ -178,14 +181,17 @@ export interface TaskStep {
   inputs: { key: string; codec: OutputCodec }[];
 }
 
-/** The file a job array's tasks read: the cache they share and the steps, one per array index. */
+/** The file a job array's tasks read: the cache they share, and the steps, `stepsPerTask` to each array index. */
 export interface TaskBatch {
   cache: string;
+  stepsPerTask: number;
   steps: TaskStep[];
 }
 
 /** What a failed task leaves beside its log, so the main process can repeat the step's own words. */
 export interface TaskFailure {
+  /** The step that failed (a task may run several). */
+  step: string;
   message: string;
   exitCode: 1 | 2 | null;
 }
@@ -222,31 +228,41 @@ export class SlurmRunner implements RemoteRunner {
     const id = `${new Date().toISOString().replace(/[-:]/g, '').slice(0, 15)}-${randomBytes(4).toString('hex')}`;
     const dir = join(this.cache.dir, 'tasks', id);
     mkdirSync(dir, { recursive: true });
-    writeFileSync(join(dir, 'batch.json'), JSON.stringify({ cache: this.cache.dir, steps } satisfies TaskBatch));
+    const per = this.options.stepsPerTask;
+    writeFileSync(join(dir, 'batch.json'), JSON.stringify({ cache: this.cache.dir, stepsPerTask: per, steps } satisfies TaskBatch));
     const bin = join(packageRoot(), 'bin', 'dendrolog.js');
-    writeFileSync(join(dir, 'task.sh'), `#!/bin/sh\n# a dendrolog job array task: runs step number $SLURM_ARRAY_TASK_ID of batch.json\nexec ${shellWord(process.execPath)} ${shellWord(bin)} task ${shellWord(join(dir, 'batch.json'))} "$SLURM_ARRAY_TASK_ID"\n`, { mode: 0o755 });
-    let pending = steps.map((_, i) => i);
+    writeFileSync(
+      join(dir, 'task.sh'),
+      `#!/bin/sh\n# a dendrolog job array task: runs task number $SLURM_ARRAY_TASK_ID of batch.json (its steps in turn)\nexec ${shellWord(process.execPath)} ${shellWord(bin)} task ${shellWord(join(dir, 'batch.json'))} "$SLURM_ARRAY_TASK_ID"\n`,
+      { mode: 0o755 },
+    );
+    const taskOf = (i: number) => Math.floor(i / per);
+    let pending = Array.from({ length: Math.ceil(steps.length / per) }, (_, t) => t);
     const retried = new Set<number>();
     for (;;) {
-      const job = await this.submit(dir, pending, `dendrolog-${steps[0].kind}`);
-      const missing = pending.filter((i) => this.cache.get(steps[i].key, steps[i].codec).status !== 'hit');
+      const job = await this.submit(dir, pending, `dendrolog-${steps[0].kind}`, steps.length);
+      const missing = steps.flatMap((s, i) => (pending.includes(taskOf(i)) && this.cache.get(s.key, s.codec).status !== 'hit' ? [i] : []));
       if (missing.length === 0) break;
       const records = new Map((this.records(job) ?? []).map((r) => [r.task, r]));
-      const again = missing.filter((i) => RETRIED_STATES.has(records.get(i)?.state ?? '') && !retried.has(i));
-      if (again.length === missing.length) {
-        again.forEach((i) => retried.add(i));
-        this.progress.note(`${again.length} Slurm task${again.length === 1 ? '' : 's'} of job ${job} lost with a node (${again.map((i) => records.get(i)!.state).join(', ')}): submitting once more`);
+      const failedTasks = [...new Set(missing.map(taskOf))];
+      const again = failedTasks.filter((t) => RETRIED_STATES.has(records.get(t)?.state ?? '') && !retried.has(t));
+      if (again.length === failedTasks.length) {
+        again.forEach((t) => retried.add(t));
+        this.progress.note(`${again.length} Slurm task${again.length === 1 ? '' : 's'} of job ${job} lost with a node (${again.map((t) => records.get(t)!.state).join(', ')}): submitting once more`);
         pending = again;
         continue;
       }
-      const i = missing.find((k) => !again.includes(k)) ?? missing[0];
-      const r = records.get(i);
-      const log = displayOf(join(dir, `task-${i}.log`));
-      const failure = readFailure(join(dir, `task-${i}.error.json`));
-      if (!r && !failure) throw new DendrologError(messages.clusterTaskNoRecord(steps[i].id, `${job}_${i}`, log), 1);
-      if (r?.state === 'COMPLETED' && !failure) throw new DendrologError(messages.clusterTaskNoOutput(steps[i].id, `${job}_${i}`, log), 1);
+      const i = missing.find((k) => !again.includes(taskOf(k))) ?? missing[0];
+      const t = taskOf(i);
+      const r = records.get(t);
+      const log = displayOf(join(dir, `task-${t}.log`));
+      const failure = readFailure(join(dir, `task-${t}.error.json`));
+      // with several steps to a task, the step that failed is the one its failure names
+      const step = failure?.step ?? steps[i].id;
+      if (!r && !failure) throw new DendrologError(messages.clusterTaskNoRecord(step, `${job}_${t}`, log), 1);
+      if (r?.state === 'COMPLETED' && !failure) throw new DendrologError(messages.clusterTaskNoOutput(step, `${job}_${t}`, log), 1);
       throw new DendrologError(
-        messages.clusterTaskFailed(steps[i].id, `${job}_${i}`, r?.state ?? 'state unknown', r?.exitCode ?? '?', log, failure?.message ?? 'see its log'),
+        messages.clusterTaskFailed(step, `${job}_${t}`, r?.state ?? 'state unknown', r?.exitCode ?? '?', log, failure?.message ?? 'see its log'),
         failure?.exitCode ?? 1,
       );
     }
@@ -258,23 +274,29 @@ export class SlurmRunner implements RemoteRunner {
    * intervals (0.5 s, doubling to 5 s), which notices the end far sooner than `sbatch --wait`, whose
    * own intervals grow to 32 s; SIGINT or SIGTERM meanwhile cancels the array.
    */
-  private async submit(dir: string, indices: number[], name: string): Promise<string> {
+  private async submit(dir: string, indices: number[], name: string, stepCount: number): Promise<string> {
     const args = sbatchArgs(this.options, { dir, name, indices, cwd: process.cwd() });
-    const r = spawnSync(this.commands.sbatch, args, { encoding: 'utf8' });
-    if (r.error) throw new DendrologError(messages.clusterCommandMissing(this.commands.sbatch, (r.error as NodeJS.ErrnoException).code ?? r.error.message), 2);
-    const job = r.status === 0 ? submittedJob(r.stdout) : null;
-    if (!job) throw new DendrologError(messages.clusterSubmitFailed(r.stderr || r.stdout), 2);
-    this.progress.note(`submitted ${indices.length} step${indices.length === 1 ? '' : 's'} as Slurm job array ${job} (logs in ${displayOf(dir)})`);
+    let job: string | null = null;
     let interrupted = false;
     let wake: (() => void) | null = null;
+    // listening before submitting: a signal that comes while sbatch runs must still cancel the job
     const cancel = () => {
       interrupted = true;
-      spawnSync(this.commands.scancel, [job], { stdio: 'ignore' });
+      if (job) spawnSync(this.commands.scancel, [job], { stdio: 'ignore' });
       wake?.();
     };
-    process.once('SIGINT', cancel);
-    process.once('SIGTERM', cancel);
+    process.on('SIGINT', cancel);
+    process.on('SIGTERM', cancel);
     try {
+      const r = spawnSync(this.commands.sbatch, args, { encoding: 'utf8' });
+      if (r.error) throw new DendrologError(messages.clusterCommandMissing(this.commands.sbatch, (r.error as NodeJS.ErrnoException).code ?? r.error.message), 2);
+      job = r.status === 0 ? submittedJob(r.stdout) : null;
+      if (!job) throw new DendrologError(messages.clusterSubmitFailed(r.stderr || r.stdout), 2);
+      if (interrupted) spawnSync(this.commands.scancel, [job], { stdio: 'ignore' });
+      else {
+        const what = indices.length === stepCount ? `${stepCount} step${stepCount === 1 ? '' : 's'}` : `${stepCount} steps in ${indices.length} task${indices.length === 1 ? '' : 's'}`;
+        this.progress.note(`submitted ${what} as Slurm job array ${job} (logs in ${displayOf(dir)})`);
+      }
       for (let delay = 500; !interrupted; delay = Math.min(delay * 2, 5000)) {
         await new Promise<void>((done) => {
           const t = setTimeout(done, delay);

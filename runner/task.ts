@@ -1,8 +1,8 @@
 /**
- * `dendrolog task BATCH INDEX`: what one Slurm array task runs. It reads step INDEX of a batch file
- * the Slurm executor wrote, takes the step's inputs from the shared cache by key, runs the step as
- * the local executor would, and stores the output in the cache (atomically, so tasks never see a
- * partial entry). A failure is written beside the task's log for the main process to repeat.
+ * `dendrolog task BATCH INDEX`: what one Slurm array task runs. It reads the steps of task INDEX in a
+ * batch file the Slurm executor wrote (one, or a few run in turn), and for each takes its inputs from
+ * the shared cache by key, runs it as the local executor would, and stores the output in the cache
+ * (atomically, so tasks never see a partial entry). A failure is written beside the task's log for the main process to repeat.
  */
 import { readFileSync, writeFileSync } from 'node:fs';
 import { dirname, join } from 'node:path';
@@ -22,26 +22,33 @@ import type { TaskBatch, TaskFailure } from './slurm.js';
  */
 export async function runTask(batchFile: string, index: number): Promise<number> {
   const failureFile = join(dirname(batchFile), `task-${index}.error.json`);
+  let current = `task ${index}`;
   try {
     const batch = parseJson(readFileSync(batchFile, 'utf8')) as TaskBatch;
-    const step = batch.steps[index];
-    if (!step) throw new DendrologError(`task ${index} is not in ${batchFile}, which holds ${batch.steps.length} steps`, 2);
+    const per = batch.stepsPerTask ?? 1;
+    const steps = batch.steps.slice(index * per, (index + 1) * per);
+    if (steps.length === 0) throw new DendrologError(`task ${index} is not in ${batchFile}, which holds ${batch.steps.length} steps, ${per} to a task`, 2);
     const cache = new Cache(batch.cache);
-    const inputs = step.inputs.map((input) => {
-      const got = cache.get(input.key, input.codec);
-      if (got.status !== 'hit') throw new DendrologError(`an input of step ${step.id} (key ${input.key}) is not in the cache ${batch.cache} as seen from this node; is the cache on a file system every node shares?`, 1);
-      return unpackEntry(input.codec, got.bytes).output;
-    });
-    const def = stepRegistry[step.kind];
-    const warnings = new WarningLog();
-    const workers = Number(process.env.SLURM_CPUS_PER_TASK) || 1;
-    const output = await def.run(inputs, step.params as never, makeContext(step, { warn: (code, message) => warnings.add(code, message), workers }));
-    const stored = cache.put(step.key, def.codec, packEntry(def.codec, output, warnings.list()));
-    if (!stored.stored) throw new DendrologError(`cannot write the output of step ${step.id} into the cache ${batch.cache} (${stored.code}: ${stored.detail})`, 1);
-    process.stdout.write(`step ${step.id}: output stored under ${step.key}\n`);
+    for (const step of steps) {
+      current = step.id;
+      // a task submitted again (its node was lost) skips what it already stored
+      if (cache.get(step.key, step.codec).status === 'hit') continue;
+      const inputs = step.inputs.map((input) => {
+        const got = cache.get(input.key, input.codec);
+        if (got.status !== 'hit') throw new DendrologError(`an input of step ${step.id} (key ${input.key}) is not in the cache ${batch.cache} as seen from this node; is the cache on a file system every node shares?`, 1);
+        return unpackEntry(input.codec, got.bytes).output;
+      });
+      const def = stepRegistry[step.kind];
+      const warnings = new WarningLog();
+      const workers = Number(process.env.SLURM_CPUS_PER_TASK) || 1;
+      const output = await def.run(inputs, step.params as never, makeContext(step, { warn: (code, message) => warnings.add(code, message), workers }));
+      const stored = cache.put(step.key, def.codec, packEntry(def.codec, output, warnings.list()));
+      if (!stored.stored) throw new DendrologError(`cannot write the output of step ${step.id} into the cache ${batch.cache} (${stored.code}: ${stored.detail})`, 1);
+      process.stdout.write(`step ${step.id}: output stored under ${step.key}\n`);
+    }
     return 0;
   } catch (e) {
-    const failure: TaskFailure = { message: (e as Error).message, exitCode: e instanceof DendrologError ? e.exitCode : null };
+    const failure: TaskFailure = { step: current, message: (e as Error).message, exitCode: e instanceof DendrologError ? e.exitCode : null };
     process.stderr.write(`${(e as Error).stack ?? e}\n`);
     try {
       writeFileSync(failureFile, JSON.stringify(failure));

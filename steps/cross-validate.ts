@@ -33,14 +33,29 @@ export interface CrossValidateOutput {
   nonFinite: string | null;
 }
 
+/** One fold of one grid cell: fitted on the other folds' training rows, predicting this fold's. */
+export interface CvFoldOutput {
+  fold: number;
+  /** Positions in the holdout's train rows that this fold tests, ascending. */
+  tested: number[];
+  /** The predictions for those rows, in the same order (a non-finite one is held as null: see nonFinite). */
+  predictions: (number | null)[];
+  used: Record<string, unknown>;
+  /** What the learned feature steps took from this fold's fitting rows. */
+  learned: LearnedDesign;
+  /** The first prediction that was not a finite number, described; null when all were. */
+  nonFinite: string | null;
+}
+
 /**
- * Fits one grid cell once per fold on the other folds' rows and predicts the left-out fold. Learned
- * feature steps are fitted inside each fold's training rows, so no test row informs its own prediction.
+ * Fits one grid cell on every fold but one and predicts the one left out: the unit of work of
+ * cross-validation, so that a grid's cells × folds can run side by side (on threads, or as tasks
+ * of a cluster job array). Learned feature steps are fitted inside the fold's fitting rows only,
+ * so no test row informs its own prediction.
  */
-export const crossValidate: StepDefinition<CrossValidateParams, CrossValidateOutput> = {
-  kind: 'cross_validate',
-  // 3: every predictor constant is refused; engine errors become messages; collinear linear predictors are left out
-  version: 3,
+export const cvFold: StepDefinition<CrossValidateParams & { fold: number }, CvFoldOutput> = {
+  kind: 'cv_fold',
+  version: 1,
   codec: 'json',
   usesSeed: true,
   parallel: true,
@@ -48,34 +63,56 @@ export const crossValidate: StepDefinition<CrossValidateParams, CrossValidateOut
     const frame = (inputs[0] as FrameOutput).frame;
     const split = inputs[1] as HoldoutOutput;
     const folds = inputs[2] as FoldsOutput;
-    const predictions = new Array<number | null>(split.train.length).fill(null);
-    const used: Record<string, unknown>[] = [];
-    const learned: LearnedDesign[] = [];
-    let nonFinite: string | null = null;
-    const times = params.time ? (column(frame, params.time).values as Float64Array) : null;
+    const f = params.fold;
     const constant = constantPredictors(frame, params.predictors, split.train);
     if (params.predictors.length > 0 && constant.length === params.predictors.length) {
       throw new DendrologError(messages.predictorsAllConstant(constant), 1);
     }
+    const times = params.time ? (column(frame, params.time).values as Float64Array) : null;
+    const { fit: fitAt, test: testAt } = foldRows(folds, f, (k) => (times ? times[split.train[k]] : NaN));
+    const fitRows = fitAt.map((k) => split.train[k]);
+    const testRows = testAt.map((k) => split.train[k]);
+    const design = learnDesign(frame, fitRows, params.features, params.predictors);
+    const x = applyDesign(design, frame, fitRows);
+    const y = targetOf(frame, params.target, fitRows);
     const engine = engineFor(params.kind, params.model);
-    for (let f = 0; f < folds.k; f++) {
-      const { fit: fitAt, test: testAt } = foldRows(folds, f, (k) => (times ? times[split.train[k]] : NaN));
-      const fitRows = fitAt.map((k) => split.train[k]);
-      const testRows = testAt.map((k) => split.train[k]);
-      const design = learnDesign(frame, fitRows, params.features, params.predictors);
-      const x = applyDesign(design, frame, fitRows);
-      const y = targetOf(frame, params.target, fitRows);
-      const where = `cross-validation fold ${f + 1} of ${folds.k}, ${cellLabel(params.cell)}`;
-      const fitted = await engine.fit(x, y, params.cell, { seed: ctx.seedFor('fit', f), workers: ctx.workers }, where);
-      const p = await engine.predict(fitted.bytes, applyDesign(design, frame, testRows), where);
-      testAt.forEach((k, j) => (predictions[k] = p[j]));
-      const bad = p.findIndex((v) => !Number.isFinite(v));
-      if (bad >= 0 && nonFinite === null) nonFinite = messages.predictionNotFinite(p[bad], `cross-validation fold ${f + 1}`);
-      used.push(fitted.used);
-      learned.push(design);
-      ctx.progress((f + 1) / folds.k);
+    const where = `cross-validation fold ${f + 1} of ${folds.k}, ${cellLabel(params.cell)}`;
+    const fitted = await engine.fit(x, y, params.cell, { seed: ctx.seedFor('fit', f), workers: ctx.workers }, where);
+    const p = await engine.predict(fitted.bytes, applyDesign(design, frame, testRows), where);
+    const bad = p.findIndex((v) => !Number.isFinite(v));
+    return {
+      fold: f,
+      tested: testAt,
+      predictions: Array.from(p, (v) => (Number.isFinite(v) ? v : null)),
+      used: fitted.used,
+      learned: design,
+      nonFinite: bad >= 0 ? messages.predictionNotFinite(p[bad], `cross-validation fold ${f + 1}`) : null,
+    };
+  },
+  summary: (o) => `${o.tested.length} rows predicted`,
+};
+
+/**
+ * Out-of-fold predictions of one grid cell, gathered from its folds (inputs: the holdout, the
+ * folds, then one cv_fold output per fold, in fold order): for each training row, the prediction of
+ * the fold that left it out.
+ */
+export const crossValidate: StepDefinition<{ cell: Cell }, CrossValidateOutput> = {
+  kind: 'cross_validate',
+  // 4: gathers its folds, each now a cv_fold step of its own (so a fold's random draws follow that step)
+  version: 4,
+  codec: 'json',
+  run(inputs, params) {
+    const split = inputs[0] as HoldoutOutput;
+    const folds = inputs[1] as FoldsOutput;
+    const parts = inputs.slice(2) as CvFoldOutput[];
+    const predictions = new Array<number | null>(split.train.length).fill(null);
+    let nonFinite: string | null = null;
+    for (const part of parts) {
+      part.tested.forEach((k, j) => (predictions[k] = part.predictions[j]));
+      nonFinite ??= part.nonFinite;
     }
-    return { cell: params.cell, predictions, fold: folds.fold, used, learned, nonFinite };
+    return { cell: params.cell, predictions, fold: folds.fold, used: parts.map((p) => p.used), learned: parts.map((p) => p.learned), nonFinite };
   },
   summary: (o) => `${o.used.length} folds`,
 };

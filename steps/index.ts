@@ -2,7 +2,7 @@ import type { RecipeContract, StepDefinition } from '../core/step-types.js';
 import { dict, has } from '../core/dict.js';
 import { learnedFeatures } from './learned.js';
 import { choose } from './choose.js';
-import { crossValidate } from './cross-validate.js';
+import { crossValidate, cvFold } from './cross-validate.js';
 import { deduplicate } from './deduplicate.js';
 import { derive } from './derive.js';
 import { dropMissing } from './drop-missing.js';
@@ -22,7 +22,7 @@ import { within } from './within.js';
 
 /** Every step kind, by name. Adding a kind: one file in steps/ and one line here. */
 export const stepRegistry: Record<string, StepDefinition<never, unknown>> = dict(
-  [source, newRows, join, replace, dropMissing, keepRows, within, deduplicate, derive, modelTable, holdout, folds, crossValidate, choose, fit, score, explain, headline].map(
+  [source, newRows, join, replace, dropMissing, keepRows, within, deduplicate, derive, modelTable, holdout, folds, cvFold, crossValidate, choose, fit, score, explain, headline].map(
     (s) => [s.kind, s as StepDefinition<never, unknown>],
   ),
 );

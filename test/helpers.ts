@@ -55,6 +55,9 @@ export function smallData(): string {
 import type { Frame } from '../core/frame.js';
 import { DendrologError } from '../core/messages.js';
 import { makeContext, type FrameOutput, type StepContext } from '../core/step-types.js';
+import { crossValidate, cvFold, type CrossValidateOutput, type CrossValidateParams, type CvFoldOutput } from '../steps/cross-validate.js';
+import type { FoldsOutput } from '../steps/folds.js';
+import type { HoldoutOutput } from '../steps/holdout.js';
 
 /** A step context for calling a step directly: seeded, one worker, warnings collected. */
 export function stepContext(warnings: string[] = [], seed = 1): StepContext {
@@ -75,4 +78,18 @@ export async function errorOf(f: () => unknown): Promise<DendrologError> {
     throw e;
   }
   throw new Error('expected an error');
+}
+
+/**
+ * One grid cell cross-validated as the plan does it: a cv_fold step per fold, then cross_validate
+ * gathering them (inputs: the model table, the holdout and the folds; `params` as cv_fold's without `fold`).
+ */
+export async function crossValidateCell(
+  inputs: [FrameOutput, HoldoutOutput, FoldsOutput],
+  params: CrossValidateParams,
+  ctx: StepContext = stepContext(),
+): Promise<CrossValidateOutput> {
+  const parts: CvFoldOutput[] = [];
+  for (let fold = 0; fold < inputs[2].k; fold++) parts.push((await cvFold.run(inputs, { ...params, fold }, ctx)) as CvFoldOutput);
+  return (await crossValidate.run([inputs[1], inputs[2], ...parts], { cell: params.cell }, ctx)) as CrossValidateOutput;
 }

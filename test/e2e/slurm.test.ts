@@ -43,7 +43,8 @@ function dendrolog(args: string[], cwd: string, onLine?: (line: string, child: R
   });
 }
 
-const submitted = (line: string) => /submitted (\d+) steps? as Slurm job array (\d+)/.exec(line);
+/** [whole, steps, tasks (when several steps to a task), job id] of a submission line. */
+const submitted = (line: string) => /submitted (\d+) steps?(?: in (\d+) tasks?)? as Slurm job array (\d+)/.exec(line);
 const outputs = (manifest: string) => (JSON.parse(readFileSync(manifest, 'utf8')) as { steps: { id: string; output: string }[] }).steps.map((s) => [s.id, s.output]);
 
 describe.runIf(enabled)('the Slurm executor on a real cluster', () => {
@@ -57,9 +58,10 @@ describe.runIf(enabled)('the Slurm executor on a real cluster', () => {
     cpSync(join(root, 'recipes', 'lake-chlorophyll'), join(work, 'lake'), { recursive: true, filter: (src) => !src.includes(join('lake-chlorophyll', 'out')) });
     const local = await dendrolog(['run', 'lake/recipe.yaml', '--no-cache', '--out', 'local'], work);
     expect(local.code, local.err).toBe(0);
-    const cluster = await dendrolog(['run', 'lake/recipe.yaml', '--cache', 'cache', '--executor', 'slurm', '--out', 'cluster'], work);
+    // 120 folds of 24 cells: eight to a task keeps the scheduler's seconds per task from dominating
+    const cluster = await dendrolog(['run', 'lake/recipe.yaml', '--cache', 'cache', '--executor', 'slurm', '--slurm-steps-per-task', '8', '--out', 'cluster'], work);
     expect(cluster.code, cluster.err).toBe(0);
-    // cross-validation, final fits and explanations: three arrays
+    // cross-validation folds, final fits and explanations: three arrays
     expect(cluster.out.split('\n').filter((l) => submitted(l))).toHaveLength(3);
     expect(outputs(join(work, 'cluster', 'manifest.json'))).toEqual(outputs(join(work, 'local', 'manifest.json')));
   });
@@ -71,23 +73,25 @@ describe.runIf(enabled)('the Slurm executor on a real cluster', () => {
     writeFileSync(join(dir, 'recipe.yaml'), recipe);
     writeFileSync(join(dir, 'data', 'obs.csv'), smallData());
     let job = '';
-    // one task at a time, so the last of the six cross-validation tasks is still pending when cancelled
-    const args = ['run', 'recipe.yaml', '--cache', 'cache', '--executor', 'slurm', '--slurm-max-running', '1'];
+    // 6 cells × 3 folds, a cell's folds to a task, one task at a time: the last task is still
+    // pending when cancelled
+    const args = ['run', 'recipe.yaml', '--cache', 'cache', '--executor', 'slurm', '--slurm-max-running', '1', '--slurm-steps-per-task', '3'];
     const first = await dendrolog(args, dir, (line) => {
       const m = submitted(line);
       if (m && !job) {
-        job = m[2];
-        expect(m[1]).toBe('6');
+        job = m[3];
+        expect([m[1], m[2]]).toEqual(['18', '6']);
         spawnSync('scancel', [`${job}_5`]);
       }
     });
     expect(first.code).toBe(1);
     // a task cancelled before it started leaves no record: Slurm drops it from the pending range
-    const [before] = messages.clusterTaskNoRecord('cv tree max_depth=2 min_leaf=4', `${job}_5`, '\u0000').split('\u0000');
-    expect(first.err.startsWith(before)).toBe(true);
+    const [before] = messages.clusterTaskNoRecord('cv tree max_depth=2 min_leaf=4 fold 1', `${job}_5`, '\u0000').split('\u0000');
+    expect(first.err.startsWith(before), first.err).toBe(true);
     const second = await dendrolog(args, dir);
     expect(second.code, second.err).toBe(0);
-    expect(second.out.split('\n').map((l) => submitted(l)?.[1]).filter(Boolean)).toEqual(['1', '3', '2']);
+    // the cancelled cell's 3 folds, then 3 final fits and 2 explanations
+    expect(second.out.split('\n').map((l) => submitted(l)?.[1]).filter(Boolean)).toEqual(['3', '3', '2']);
     const third = await dendrolog(args, dir);
     expect(third.code).toBe(0);
     expect(third.out).not.toMatch(/submitted/);
@@ -99,7 +103,7 @@ describe.runIf(enabled)('the Slurm executor on a real cluster', () => {
     const r = await dendrolog(['run', 'recipe.yaml', '--cache', 'cache-2', '--executor', 'slurm', '--slurm-max-running', '1'], dir, (line, child) => {
       const m = submitted(line);
       if (m && !job) {
-        job = m[2];
+        job = m[3];
         child.kill('SIGINT');
       }
     });

@@ -1,4 +1,4 @@
-import { copyFileSync, existsSync, mkdirSync, readFileSync, readdirSync, writeFileSync } from 'node:fs';
+import { copyFileSync, existsSync, mkdirSync, readFileSync, readdirSync, utimesSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import { Cache } from '../../runner/cache.js';
@@ -144,5 +144,29 @@ describe('cache on a full or read-only disk', () => {
     });
     expect(() => cache.put(key, 'json', bytes)).toThrow('a bug');
     expect(leftovers(dir)).toEqual([]);
+  });
+});
+
+describe('cache temporaries', () => {
+  it('sweeps only abandoned temporary files of its own naming, leaving fresh ones and anything else', () => {
+    const dir = makeFolder({});
+    const cache = new Cache(dir);
+    const key = sha256('a');
+    expect(cache.put(key, 'json', new Uint8Array([1])).stored).toBe(true);
+    const shard = join(dir, key.slice(0, 2));
+    const old = join(shard, `${key}.tmp-123-0123456789ab`);
+    const fresh = join(shard, `${key}.tmp-124-0123456789ab`);
+    const foreign = join(shard, 'notes.tmp-1-0123456789ab');
+    for (const f of [old, fresh, foreign]) writeFileSync(f, 'x');
+    const hour = 3_600_000;
+    const now = Date.now() + hour;
+    utimesSync(fresh, new Date(now - 1000), new Date(now - 1000));
+    expect(cache.sweepTemporaries(hour, now)).toBe(1);
+    expect(existsSync(old)).toBe(false);
+    expect(existsSync(fresh)).toBe(true);
+    expect(existsSync(foreign)).toBe(true);
+    expect(cache.get(key, 'json').status).toBe('hit');
+    // a cache folder that does not exist yet has nothing to sweep
+    expect(new Cache(join(dir, 'none')).sweepTemporaries(hour)).toBe(0);
   });
 });

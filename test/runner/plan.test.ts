@@ -43,7 +43,17 @@ describe('step keys', () => {
     const before = keys(WITH_CLEANING.replace('mean: {kind: mean}', 'tree: {kind: decision_tree, grid: {max_depth: 2}}'));
     const after = keys(WITH_CLEANING.replace('mean: {kind: mean}', 'tree: {kind: decision_tree, grid: {max_depth: 3}}'));
     // the headline step reads every model's outputs and grid, so it follows any model's edit
-    expect(changed(before, after).sort()).toEqual(['choose tree', 'cv tree one setting', 'explain tree', 'fit tree', 'headline', 'score tree']);
+    expect(changed(before, after).sort()).toEqual([
+      'choose tree',
+      'cv tree one setting',
+      'cv tree one setting fold 1',
+      'cv tree one setting fold 2',
+      'cv tree one setting fold 3',
+      'explain tree',
+      'fit tree',
+      'headline',
+      'score tree',
+    ]);
     expect(after.get('cv linear no hyperparameters')).toBe(before.get('cv linear no hyperparameters'));
   });
 

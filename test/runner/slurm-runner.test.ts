@@ -38,8 +38,8 @@ describe('the Slurm executor (stand-in commands)', () => {
     const local = await cli(['run', s.recipe, '--no-cache', '--workers', '1', '--out', join(s.dir, 'local')]);
     expect(local.code).toBe(0);
     await expectOutcome(s.dir, ['run', s.recipe, '--cache', s.cache, '--executor', 'slurm', '--slurm-partition', 'short', '--out', join(s.dir, 'cluster')], { code: 0, changes: ['cluster/'] });
-    // SMALL_RECIPE: cross-validation of 2 models, 2 final fits, 1 explanation (mean has none)
-    expect(calls().map(arrayOf)).toEqual(['--array=0-1', '--array=0-1', '--array=0']);
+    // SMALL_RECIPE: 2 models × 3 folds, 2 final fits, 1 explanation (mean has none)
+    expect(calls().map(arrayOf)).toEqual(['--array=0-5', '--array=0-1', '--array=0']);
     expect(calls()[0]).toContain('--partition=short');
     const steps = (dir: string) => (JSON.parse(readFileSync(join(s.dir, dir, 'manifest.json'), 'utf8')) as { steps: { id: string; output: string }[] }).steps;
     expect(steps('cluster')).toEqual(steps('local').map((x) => expect.objectContaining({ id: x.id, output: x.output })));
@@ -50,11 +50,22 @@ describe('the Slurm executor (stand-in commands)', () => {
     expect(calls()).toHaveLength(3);
   });
 
+  it('runs several steps to a task when asked, with the same outputs', async () => {
+    const s = scenario();
+    const r = await expectOutcome(s.dir, ['run', s.recipe, '--cache', s.cache, '--executor', 'slurm', '--slurm-steps-per-task', '4', '--out', join(s.dir, 'a')], { code: 0, changes: ['a/'] });
+    expect(calls().map(arrayOf)).toEqual(['--array=0-1', '--array=0', '--array=0']);
+    expect(r.out).toContain('submitted 6 steps in 2 tasks as Slurm job array 101');
+    const local = await cli(['run', s.recipe, '--no-cache', '--workers', '1', '--out', join(s.dir, 'b')]);
+    expect(local.code).toBe(0);
+    const steps = (dir: string) => readFileSync(join(s.dir, dir, 'manifest.json'), 'utf8').match(/"output": "[0-9a-f]{64}"/g);
+    expect(steps('a')).toEqual(steps('b'));
+  });
+
   it('submits a task lost with its node once more, and only that task', async () => {
     process.env.FAKE_SLURM_PLAN = JSON.stringify({ lose: { '1': 'NODE_FAIL' } });
     const s = scenario();
     const r = await expectOutcome(s.dir, ['run', s.recipe, '--cache', s.cache, '--executor', 'slurm'], { code: 0, changes: ['out/small/'] });
-    expect(calls().map(arrayOf).slice(0, 2)).toEqual(['--array=0-1', '--array=1']);
+    expect(calls().map(arrayOf).slice(0, 2)).toEqual(['--array=0-5', '--array=1']);
     expect(r.out).toContain('1 Slurm task of job 101 lost with a node (NODE_FAIL): submitting once more');
   });
 
@@ -63,15 +74,16 @@ describe('the Slurm executor (stand-in commands)', () => {
     const s = scenario({ 'recipe.yaml': text });
     const r = await expectOutcome(s.dir, ['run', s.recipe, '--cache', s.cache, '--executor', 'slurm'], { code: 1 });
     const batch = readdirSync(join(s.cache, 'tasks'))[0];
-    expect(r.err).toMatch(/^step cv tree one setting failed as Slurm task 101_1 \(FAILED, exit code 1:0\): model "tree" could not be fitted/);
-    expect(r.err).toContain(`its log is ${join(s.cache, 'tasks', batch, 'task-1.log')}`);
-    // the batch folder with the failed task's log is kept; the linear model's output is in the cache
-    expect(readFileSync(join(s.cache, 'tasks', batch, 'task-1.log'), 'utf8')).toContain('min_leaf');
+    // linear's 3 folds are tasks 0 to 2, the tree's 3 to 5
+    expect(r.err).toMatch(/^step cv tree one setting fold 1 failed as Slurm task 101_3 \(FAILED, exit code 1:0\): model "tree" could not be fitted/);
+    expect(r.err).toContain(`its log is ${join(s.cache, 'tasks', batch, 'task-3.log')}`);
+    // the batch folder with the failed task's log is kept; the linear model's outputs are in the cache
+    expect(readFileSync(join(s.cache, 'tasks', batch, 'task-3.log'), 'utf8')).toContain('min_leaf');
     const rerun = await cli(['run', s.recipe, '--cache', s.cache, '--executor', 'slurm']);
     expect(rerun.code).toBe(1);
-    // the rerun submits only the step that has no output: a batch of one
-    expect(calls().map(arrayOf)).toEqual(['--array=0-1', '--array=0']);
-    expect(rerun.err).toMatch(/^step cv tree one setting failed as Slurm task 102_0 /);
+    // the rerun submits only the steps that have no output: the tree's three folds
+    expect(calls().map(arrayOf)).toEqual(['--array=0-5', '--array=0-2']);
+    expect(rerun.err).toMatch(/^step cv tree one setting fold 1 failed as Slurm task 102_0 /);
   });
 
   it('says what sbatch refused, and that the slurm commands are missing when they are', async () => {

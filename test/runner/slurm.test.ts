@@ -6,7 +6,7 @@ import { join } from 'node:path';
 import { packageRoot } from '../../runner/paths.js';
 import { ACTIVE_STATES, arraySpec, RETRIED_STATES, sbatchArgs, shellWord, slurmOptions, submittedJob, taskRecords } from '../../runner/slurm.js';
 
-const none = { partition: null, time: null, mem: null, account: null, maxRunning: null, cpus: 1 };
+const none = { partition: null, time: null, mem: null, account: null, maxRunning: null, cpus: 1, stepsPerTask: 1 };
 
 function errorOf(f: () => unknown): DendrologError {
   try {

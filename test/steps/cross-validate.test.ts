@@ -3,10 +3,10 @@ import { describe, expect, it } from 'vitest';
 import type { Frame } from '../../core/frame.js';
 import { messages } from '../../core/messages.js';
 import { engineMessages } from '../../models/engine-errors.js';
-import { crossValidate, type CrossValidateOutput, type CrossValidateParams } from '../../steps/cross-validate.js';
+import type { CrossValidateOutput, CrossValidateParams } from '../../steps/cross-validate.js';
 import { folds, type FoldsOutput } from '../../steps/folds.js';
 import { holdout, type HoldoutOutput } from '../../steps/holdout.js';
-import { asOutput, errorOf, stepContext } from '../helpers.js';
+import { asOutput, crossValidateCell, errorOf, stepContext } from '../helpers.js';
 
 /**
  * 12 rows, y = 2·x1 − x2 exactly. Rows 0–7 train, 8–11 are held out; two folds alternate over the
@@ -35,7 +35,7 @@ const twoFolds: FoldsOutput = { k: 2, by: 'random', fold: [0, 1, 0, 1, 0, 1, 0, 
 const PARAMS: CrossValidateParams = { model: 'm', kind: 'mean', cell: {}, target: 'y', predictors: ['x1', 'x2'], features: [], time: null };
 
 async function run(f: Frame, s: HoldoutOutput, fo: FoldsOutput, params: Partial<CrossValidateParams>): Promise<CrossValidateOutput> {
-  return (await crossValidate.run([asOutput(f), s, fo], { ...PARAMS, ...params }, stepContext())) as CrossValidateOutput;
+  return crossValidateCell([asOutput(f), s, fo], { ...PARAMS, ...params });
 }
 
 describe('cross_validate', () => {

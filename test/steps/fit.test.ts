@@ -7,12 +7,12 @@ import { deserializeLinear } from '../../models/linear.js';
 import { deserializeMean } from '../../models/mean.js';
 import type { MetricSet } from '../../models/metrics.js';
 import type { ChooseOutput } from '../../steps/choose.js';
-import { crossValidate, type CrossValidateOutput } from '../../steps/cross-validate.js';
+import type { CrossValidateOutput } from '../../steps/cross-validate.js';
 import { choose } from '../../steps/choose.js';
 import { fit, type FitOutput, type FitParams } from '../../steps/fit.js';
 import type { HoldoutOutput } from '../../steps/holdout.js';
 import type { Cell } from '../../steps/model-kinds.js';
-import { asOutput, errorOf, stepContext } from '../helpers.js';
+import { asOutput, crossValidateCell, errorOf, stepContext } from '../helpers.js';
 
 /**
  * 12 rows, y = 2·x1 − x2 exactly; rows 0–7 train, 8–11 are held out. Training x1 spans 1..8 and
@@ -90,7 +90,7 @@ describe('fit', () => {
       { max_depth: null, min_leaf: 1 },
     ];
     const cvs: CrossValidateOutput[] = [];
-    for (const cell of cells) cvs.push((await crossValidate.run([asOutput(frame), split, folds], { ...cvParams, cell }, stepContext())) as CrossValidateOutput);
+    for (const cell of cells) cvs.push(await crossValidateCell([asOutput(frame), split, folds], { ...cvParams, cell }));
     const picked = choose.run([asOutput(frame), split, ...cvs], { target: 'y', choose_by: 'rmse', k: 2 }, stepContext()) as ChooseOutput;
     const out = await run(picked, { model: 'tree', kind: 'decision_tree' });
     expect(out.cell).toEqual(cells[picked.chosen]);

@@ -2,12 +2,11 @@ import { describe, expect, it } from 'vitest';
 import { rmse } from '../../models/metrics.js';
 import type { Frame } from '../../core/frame.js';
 import type { FeatureStep } from '../../core/recipe-types.js';
-import { crossValidate, type CrossValidateOutput } from '../../steps/cross-validate.js';
 import { applyDesign, learnDesign, targetOf } from '../../steps/design.js';
 import { foldRows, type FoldsOutput } from '../../steps/folds.js';
 import type { HoldoutOutput } from '../../steps/holdout.js';
 import { modelKinds } from '../../steps/model-kinds.js';
-import { asOutput, stepContext } from '../helpers.js';
+import { asOutput, crossValidateCell } from '../helpers.js';
 
 /**
  * A fixture built to expose leakage: three folds whose x ranges do not overlap (1–10, 11–20,
@@ -60,11 +59,7 @@ async function leakyPredictions(frame: Frame, split: HoldoutOutput, folds: Folds
 describe('learned feature steps inside cross-validation', () => {
   it('are learned on each fold’s training rows only; learning them on all rows gives a different score', async () => {
     const { frame, split, folds } = fixture();
-    const honest = (await crossValidate.run(
-      [asOutput(frame), split, folds],
-      { model: 'linear', kind: 'linear', cell: {}, target: 'y', predictors: ['x'], features, time: null },
-      stepContext(),
-    )) as CrossValidateOutput;
+    const honest = await crossValidateCell([asOutput(frame), split, folds], { model: 'linear', kind: 'linear', cell: {}, target: 'y', predictors: ['x'], features, time: null });
     const y = targetOf(frame, 'y', split.train);
     const leaky = await leakyPredictions(frame, split, folds);
     const honestRmse = rmse(y, honest.predictions as number[]).value!;
