@@ -14,6 +14,8 @@ import { SMALL_RECIPE, smallData } from '../helpers.js';
 const root = resolve(import.meta.dirname, '..', '..');
 const bin = join(root, 'bin', 'dendrolog.js');
 const enabled = process.env.DENDROLOG_TEST_SLURM === '1';
+/** A shared cluster may queue these tasks behind others: each test gets five minutes. */
+const SLOW = 300_000;
 
 interface Outcome {
   code: number | null;
@@ -64,7 +66,7 @@ describe.runIf(enabled)('the Slurm executor on a real cluster', () => {
     // cross-validation folds, final fits and explanations: three arrays
     expect(cluster.out.split('\n').filter((l) => submitted(l))).toHaveLength(3);
     expect(outputs(join(work, 'cluster', 'manifest.json'))).toEqual(outputs(join(work, 'local', 'manifest.json')));
-  });
+  }, SLOW);
 
   it('names the job and task of a task cancelled with scancel; a rerun submits only the gap, a third run nothing', async () => {
     const dir = join(work, 'small');
@@ -95,7 +97,7 @@ describe.runIf(enabled)('the Slurm executor on a real cluster', () => {
     const third = await dendrolog(args, dir);
     expect(third.code).toBe(0);
     expect(third.out).not.toMatch(/submitted/);
-  });
+  }, SLOW);
 
   it('cancels its job array when interrupted', async () => {
     const dir = join(work, 'small');
@@ -112,5 +114,5 @@ describe.runIf(enabled)('the Slurm executor on a real cluster', () => {
     const states = spawnSync('scontrol', ['show', 'job', '-o', job], { encoding: 'utf8' }).stdout;
     expect(states).not.toMatch(/JobState=(PENDING|RUNNING)/);
     expect(states).toMatch(/JobState=CANCELLED/);
-  });
+  }, SLOW);
 });

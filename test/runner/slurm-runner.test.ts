@@ -79,6 +79,12 @@ describe('the Slurm executor (stand-in commands)', () => {
     expect(r.err).toContain(`its log is ${join(s.cache, 'tasks', batch, 'task-3.log')}`);
     // the batch folder with the failed task's log is kept; the linear model's outputs are in the cache
     expect(readFileSync(join(s.cache, 'tasks', batch, 'task-3.log'), 'utf8')).toContain('min_leaf');
+    // the job script starts this dendrolog by absolute paths, for the task number Slurm gives it
+    const script = readFileSync(join(s.cache, 'tasks', batch, 'task.sh'), 'utf8').split('\n');
+    expect(script[0]).toBe('#!/bin/sh');
+    expect(script[2]).toBe(`exec '${process.execPath}' '${join(packageRoot(), 'bin', 'dendrolog.js')}' task '${join(s.cache, 'tasks', batch, 'batch.json')}' "$SLURM_ARRAY_TASK_ID"`);
+    const described = JSON.parse(readFileSync(join(s.cache, 'tasks', batch, 'batch.json'), 'utf8')) as { cache: string; stepsPerTask: number; steps: { id: string }[] };
+    expect([described.cache, described.stepsPerTask, described.steps[3].id]).toEqual([s.cache, 1, 'cv tree one setting fold 1']);
     const rerun = await cli(['run', s.recipe, '--cache', s.cache, '--executor', 'slurm']);
     expect(rerun.code).toBe(1);
     // the rerun submits only the steps that have no output: the tree's three folds
