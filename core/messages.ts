@@ -368,9 +368,21 @@ export const messages = {
   clusterCommandMissing: (command: string, detail: string) =>
     `cannot start the Slurm command "${command}" (${detail}); run dendrolog with --executor slurm on a machine where the Slurm commands are on the PATH (a cluster's login node), or use --executor local`,
   clusterSubmitFailed: (detail: string) =>
-    `sbatch refused the job array: ${detail.trim() || 'no message'}; check the --slurm-* options (partition, time limit, memory, account) against the cluster's rules`,
+    `sbatch refused the job array: ${detail.trim() || 'no message'}; check the --slurm-* options (partition, time limit, memory, account) against the cluster's limits (sinfo, scontrol show partition)`,
+  clusterUnreachable: (detail: string) =>
+    `the Slurm controller could not be reached (${detail.trim()}); try again when it answers (sinfo tells); what finished is in the cache, so running again submits only the missing steps`,
   clusterTaskFailed: (step: string, job: string, state: string, exitCode: string, log: string, detail: string) =>
     `step ${step} failed as Slurm task ${job} (${state}, exit code ${exitCode}): ${detail}; its log is ${log}; what finished is in the cache, so running again submits only the missing steps`,
+  clusterStateMeaning: (state: string) =>
+    state === 'CANCELLED'
+      ? 'the task was cancelled (by scancel or an administrator), not a failure of the step; run again to finish'
+      : state === 'TIMEOUT'
+        ? 'the task ran past its time limit; give a longer --slurm-time, or fewer --slurm-steps-per-task'
+        : state === 'OUT_OF_MEMORY'
+          ? 'the task ran out of memory; give a larger --slurm-mem'
+          : 'the task ended before the step could say why; its log may tell',
+  clusterNeverStarts: (job: string, reason: string) =>
+    `Slurm will never start job ${job} as submitted: its tasks wait with reason ${reason} (the partition, account or QOS cannot grant what a task asks, such as more cores, memory or time than a node or the partition allows); dendrolog cancelled it; ask for less with --slurm-cpus, --slurm-mem or --slurm-time, or choose another --slurm-partition or --slurm-account (sinfo and scontrol show partition tell the limits)`,
   clusterTaskNoRecord: (step: string, job: string, log: string) =>
     `step ${step} was submitted as Slurm task ${job}, which ended without an output and without a record Slurm still keeps (it was cancelled before it started, or its record was purged); its log, if it started, is ${log}; what finished is in the cache, so running again submits only the missing steps`,
   clusterTaskNoOutput: (step: string, job: string, log: string) =>
@@ -378,6 +390,9 @@ export const messages = {
   clusterCacheUnwritable: (dir: string) =>
     `the Slurm executor needs to store every step output in the cache, and cannot write to ${dir}; give a writable --cache folder on a file system every node shares`,
   clusterInterrupted: (job: string) => `interrupted: cancelled Slurm job ${job}; what finished is in the cache, so running again submits only the missing steps`,
+  usageEnvValue: (name: string, value: string, expected: string) => `environment variable ${name} is ${q(value)}; expected ${expected}; set it right or unset it`,
+  clusterVerifyKept: (message: string, dir: string) =>
+    `${message.replace(/; what finished is in the cache, so running again submits only the missing steps$/, '')} (verify starts from an empty cache each time; its temporary cache ${dir} is kept for the task logs: remove it when read)`,
   cacheUnwritable: (dir: string, code: string) =>
     `cannot write to the cache folder ${dir} (${code}${FS_WHY.has(code) ? `: ${FS_WHY.get(code)}` : ''}); this run goes on without storing step outputs, so the next run recomputes them; free disk space or make the folder writable, or give another folder with --cache DIR (or --no-cache)`,
   outputFolderNotDendrologs: (folder: string) =>

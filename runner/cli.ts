@@ -41,17 +41,19 @@ Options for run:
   --workers N    threads for cross-validation folds, final fits and trees (default: the number of
                  cores); results are identical for any N
 
-Options for run and verify on a Slurm cluster (see the README's cluster section):
-  --executor slurm        run cross-validation folds, final fits and explanations as Slurm job arrays;
-                          the cache (and for verify the current folder) must be on a file
-                          system every node shares; outputs are identical to a local run
-  --slurm-partition P     each also settable once per site by an environment variable:
-  --slurm-time T          DENDROLOG_SLURM_PARTITION, _TIME (per task, e.g. 2:00:00),
-  --slurm-mem M           _MEM (per task, e.g. 8G), _ACCOUNT, _MAX_RUNNING (tasks of one
-  --slurm-account A       array at once) and _CPUS (cores per task, default 1)
-  --slurm-max-running N   and _STEPS_PER_TASK (steps each task runs in turn, default 1)
-  --slurm-cpus N
-  --slurm-steps-per-task N
+Options for run and verify on a Slurm cluster (see the README's cluster section); each may
+instead be set by the environment variable in brackets, and the option wins:
+  --executor local|slurm    where folds, final fits and explanations run (default local);
+                            with slurm, as Slurm job arrays: the cache (and for verify the
+                            current folder) must be on a file system every node shares;
+                            outputs are identical to a local run
+  --slurm-partition P       partition                        [DENDROLOG_SLURM_PARTITION]
+  --slurm-time T            time per task, e.g. 2:00:00      [DENDROLOG_SLURM_TIME]
+  --slurm-mem M             memory per task, e.g. 8G         [DENDROLOG_SLURM_MEM]
+  --slurm-account A         account                          [DENDROLOG_SLURM_ACCOUNT]
+  --slurm-max-running N     tasks of one array at once       [DENDROLOG_SLURM_MAX_RUNNING]
+  --slurm-cpus N            cores per task (default 1)       [DENDROLOG_SLURM_CPUS]
+  --slurm-steps-per-task N  steps each task runs (default 1) [DENDROLOG_SLURM_STEPS_PER_TASK]
 
 Exit codes:
   0  success (verify: reproduced)

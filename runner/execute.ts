@@ -157,6 +157,7 @@ export function localExecutor(opts: LocalExecutorOptions): Executor {
         const t0 = performance.now();
         const hits = batch.map(lookup);
         const missing = batch.filter((_, k) => hits[k] === null);
+        let taskSeconds = new Map<string, number>();
         opts.progress.start(`${missing.length} of ${batch.length} steps as cluster tasks`);
         if (missing.length > 0) {
           const inputOf = (id: string) => {
@@ -166,13 +167,14 @@ export function localExecutor(opts: LocalExecutorOptions): Executor {
           const tasks = missing.map(
             (s): TaskStep => ({ id: s.id, kind: s.kind, params: s.params, seed: s.seed, key: s.key, seedKey: s.seedKey, locator: s.locator, codec: stepRegistry[s.kind].codec, inputs: s.inputs.map(inputOf) }),
           );
-          await remote.run(tasks);
+          taskSeconds = await remote.run(tasks);
         }
         const seconds = (performance.now() - t0) / 1000;
         batch.forEach((step, k) => {
           const entry = hits[k] ?? lookup(step);
           if (!entry) throw new DendrologError(messages.clusterTaskNoOutput(step.id, 'of the last array', 'in the batch folder'), 1);
-          settle(step, entry, hits[k] ? 'cached' : 'ran', hits[k] ? 0 : seconds);
+          // a step's own time where its task said it, else the array's
+          settle(step, entry, hits[k] ? 'cached' : 'ran', hits[k] ? 0 : (taskSeconds.get(step.key) ?? seconds));
         });
       };
 

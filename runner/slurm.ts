@@ -1,6 +1,6 @@
 import { spawnSync } from 'node:child_process';
 import { randomBytes } from 'node:crypto';
-import { existsSync, mkdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
+import { existsSync, mkdirSync, readdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import type { Cache } from './cache.js';
 import { DendrologError, messages } from '../core/messages.js';
@@ -51,16 +51,21 @@ export function slurmOptions(given: Record<string, string | boolean | undefined>
     const source = fromOption !== undefined ? `--${option}` : name;
     if (key === 'maxRunning' || key === 'cpus' || key === 'stepsPerTask') {
       const n = Number(raw);
-      if (!Number.isInteger(n) || n < 1 || n > 100000) throw new DendrologError(messages.usageOptionValue(source, raw, 'a whole number from 1 to 100000'), 2);
+      if (!Number.isInteger(n) || n < 1 || n > 100000) throw new DendrologError(refused(source, raw, 'a whole number from 1 to 100000'), 2);
       out[key] = n;
     } else {
       // passed to sbatch as one argument: no spaces or control characters that would read as more
       // eslint-disable-next-line no-control-regex -- finding control characters is the point
-      if (!/^[^\s\u0000-\u001f]{1,200}$/.test(raw)) throw new DendrologError(messages.usageOptionValue(source, raw, 'a Slurm value without spaces'), 2);
+      if (!/^[^\s\u0000-\u001f]{1,200}$/.test(raw)) throw new DendrologError(refused(source, raw, 'a Slurm value without spaces'), 2);
       out[key] = raw;
     }
   }
   return out;
+}
+
+/** A bad value, in the words of where it came from: an option or an environment variable. */
+function refused(source: string, value: string, expected: string): string {
+  return source.startsWith('--') ? messages.usageOptionValue(source, value, expected) : messages.usageEnvValue(source, value, expected);
 }
 
 /**
@@ -165,6 +170,27 @@ export const ACTIVE_STATES = new Set([
   'RESV_DEL_HOLD',
 ]);
 
+/**
+ * Reasons a pending task gives when Slurm will never start it as submitted: the partition, the
+ * account or the quality of service cannot grant what a task asks. Waiting on them would be forever.
+ */
+export const NEVER_STARTS = new Set([
+  'PartitionConfig',
+  'PartitionNodeLimit',
+  'PartitionTimeLimit',
+  'AccountNotAllowed',
+  'QOSNotAllowed',
+  'InvalidAccount',
+  'InvalidQOS',
+  'BadConstraints',
+  'DependencyNeverSatisfied',
+]);
+
+/** Whether a pending task's reason means it will never start (also the per-job limits of a QOS or an association). */
+export function neverStarts(t: TaskRecord): boolean {
+  return t.state === 'PENDING' && (NEVER_STARTS.has(t.reason) || /^(QOS|Assoc)Max\w*PerJob(Limit)?$/.test(t.reason));
+}
+
 /** Task states where the node, not the step, failed: such a task is submitted once more. */
 export const RETRIED_STATES = new Set(['NODE_FAIL', 'PREEMPTED', 'BOOT_FAIL']);
 
@@ -205,7 +231,8 @@ export interface SlurmCommands {
 
 /** A runner that hands steps elsewhere: each writes its output into the cache. */
 export interface RemoteRunner {
-  run(steps: TaskStep[]): Promise<void>;
+  /** Runs the steps; returns the seconds each took where its task said, by step key. */
+  run(steps: TaskStep[]): Promise<Map<string, number>>;
 }
 
 /**
@@ -224,7 +251,8 @@ export class SlurmRunner implements RemoteRunner {
     private readonly commands: SlurmCommands = { sbatch: 'sbatch', scontrol: 'scontrol', scancel: 'scancel' },
   ) {}
 
-  async run(steps: TaskStep[]): Promise<void> {
+  async run(steps: TaskStep[]): Promise<Map<string, number>> {
+    const started = performance.now();
     const id = `${new Date().toISOString().replace(/[-:]/g, '').slice(0, 15)}-${randomBytes(4).toString('hex')}`;
     const dir = join(this.cache.dir, 'tasks', id);
     mkdirSync(dir, { recursive: true });
@@ -262,11 +290,14 @@ export class SlurmRunner implements RemoteRunner {
       if (!r && !failure) throw new DendrologError(messages.clusterTaskNoRecord(step, `${job}_${t}`, log), 1);
       if (r?.state === 'COMPLETED' && !failure) throw new DendrologError(messages.clusterTaskNoOutput(step, `${job}_${t}`, log), 1);
       throw new DendrologError(
-        messages.clusterTaskFailed(step, `${job}_${t}`, r?.state ?? 'state unknown', r?.exitCode ?? '?', log, failure?.message ?? 'see its log'),
+        messages.clusterTaskFailed(step, `${job}_${t}`, r?.state ?? 'state unknown', r?.exitCode ?? '?', log, failure?.message ?? messages.clusterStateMeaning(r?.state ?? '')),
         failure?.exitCode ?? 1,
       );
     }
+    const seconds = readSeconds(dir);
     rmSync(dir, { recursive: true, force: true });
+    this.progress.note(`${steps.length} step${steps.length === 1 ? '' : 's'} done on Slurm in ${((performance.now() - started) / 1000).toFixed(1)} s`);
+    return seconds;
   }
 
   /**
@@ -279,6 +310,7 @@ export class SlurmRunner implements RemoteRunner {
     let job: string | null = null;
     let interrupted = false;
     let wake: (() => void) | null = null;
+    const told = new Set<number>();
     // listening before submitting: a signal that comes while sbatch runs must still cancel the job
     const cancel = () => {
       interrupted = true;
@@ -291,7 +323,12 @@ export class SlurmRunner implements RemoteRunner {
       const r = spawnSync(this.commands.sbatch, args, { encoding: 'utf8' });
       if (r.error) throw new DendrologError(messages.clusterCommandMissing(this.commands.sbatch, (r.error as NodeJS.ErrnoException).code ?? r.error.message), 2);
       job = r.status === 0 ? submittedJob(r.stdout) : null;
-      if (!job) throw new DendrologError(messages.clusterSubmitFailed(r.stderr || r.stdout), 2);
+      if (!job) {
+        const said = r.stderr || r.stdout;
+        // the scheduler away is no fault of the options: exit 1, not 2
+        if (/unable to contact|socket timed out|connection refused|slurm_persist_conn/i.test(said)) throw new DendrologError(messages.clusterUnreachable(said), 1);
+        throw new DendrologError(messages.clusterSubmitFailed(said), 2);
+      }
       if (interrupted) spawnSync(this.commands.scancel, [job], { stdio: 'ignore' });
       else {
         const what = indices.length === stepCount ? `${stepCount} step${stepCount === 1 ? '' : 's'}` : `${stepCount} steps in ${indices.length} task${indices.length === 1 ? '' : 's'}`;
@@ -304,8 +341,20 @@ export class SlurmRunner implements RemoteRunner {
         });
         if (interrupted) break;
         const records = this.records(job);
+        for (const t of records ?? []) {
+          if (!ACTIVE_STATES.has(t.state) && t.state !== 'COMPLETED' && !told.has(t.task)) {
+            told.add(t.task);
+            this.progress.note(`Slurm task ${job}_${t.task} ended ${t.state}; waiting for the other tasks, so their outputs are kept`);
+          }
+        }
         // a job Slurm no longer knows, or whose tasks all ended, is over
         if (records !== null && !records.some((t) => ACTIVE_STATES.has(t.state))) break;
+        // one that can never start is cancelled and said, rather than waited on forever
+        const stuck = records?.find(neverStarts);
+        if (stuck) {
+          spawnSync(this.commands.scancel, [job], { stdio: 'ignore' });
+          throw new DendrologError(messages.clusterNeverStarts(job, stuck.reason), 2);
+        }
       }
     } finally {
       process.removeListener('SIGINT', cancel);
@@ -324,6 +373,20 @@ export class SlurmRunner implements RemoteRunner {
     if (r.status === 0) return taskRecords(r.stdout);
     return /Invalid job id/i.test(r.stderr ?? '') ? [] : null;
   }
+}
+
+/** The seconds each step took, from the `task-<i>.seconds.json` files its tasks wrote. */
+function readSeconds(dir: string): Map<string, number> {
+  const out = new Map<string, number>();
+  for (const name of readdirSync(dir)) {
+    if (!/^task-\d+\.seconds\.json$/.test(name)) continue;
+    try {
+      for (const [key, s] of Object.entries(parseJson(readFileSync(join(dir, name), 'utf8')) as Record<string, number>)) if (typeof s === 'number') out.set(key, s);
+    } catch {
+      // a task killed while writing it: its steps keep the array's time
+    }
+  }
+  return out;
 }
 
 function readFailure(path: string): TaskFailure | null {

@@ -8,7 +8,7 @@ import { readFileSync, writeFileSync } from 'node:fs';
 import { dirname, join } from 'node:path';
 import { Cache } from './cache.js';
 import { packEntry, unpackEntry } from '../core/codec.js';
-import { parseJson } from '../core/dict.js';
+import { dict, parseJson } from '../core/dict.js';
 import { DendrologError } from '../core/messages.js';
 import { makeContext } from '../core/step-types.js';
 import { WarningLog } from '../core/warnings.js';
@@ -29,7 +29,9 @@ export async function runTask(batchFile: string, index: number): Promise<number>
     const steps = batch.steps.slice(index * per, (index + 1) * per);
     if (steps.length === 0) throw new DendrologError(`task ${index} is not in ${batchFile}, which holds ${batch.steps.length} steps, ${per} to a task`, 2);
     const cache = new Cache(batch.cache);
+    const seconds = dict<number>();
     for (const step of steps) {
+      const t0 = performance.now();
       current = step.id;
       // a task submitted again (its node was lost) skips what it already stored
       if (cache.get(step.key, step.codec).status === 'hit') continue;
@@ -44,8 +46,11 @@ export async function runTask(batchFile: string, index: number): Promise<number>
       const output = await def.run(inputs, step.params as never, makeContext(step, { warn: (code, message) => warnings.add(code, message), workers }));
       const stored = cache.put(step.key, def.codec, packEntry(def.codec, output, warnings.list()));
       if (!stored.stored) throw new DendrologError(`cannot write the output of step ${step.id} into the cache ${batch.cache} (${stored.code}: ${stored.detail})`, 1);
-      process.stdout.write(`step ${step.id}: output stored under ${step.key}\n`);
+      seconds[step.key] = (performance.now() - t0) / 1000;
+      process.stdout.write(`step ${step.id}: output stored under ${step.key} (${seconds[step.key].toFixed(2)} s)\n`);
     }
+    // for the run's record: each step's own time, not the whole array's
+    writeFileSync(join(dirname(batchFile), `task-${index}.seconds.json`), JSON.stringify(seconds));
     return 0;
   } catch (e) {
     const failure: TaskFailure = { step: current, message: (e as Error).message, exitCode: e instanceof DendrologError ? e.exitCode : null };

@@ -1,4 +1,4 @@
-import { existsSync, mkdirSync, mkdtempSync, readFileSync, rmSync } from 'node:fs';
+import { existsSync, mkdirSync, mkdtempSync, readFileSync, readdirSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { dirname, join, relative, resolve } from 'node:path';
 import { Cache } from './cache.js';
@@ -93,11 +93,19 @@ export async function verifyRun(folder: string, opts: { workers: number; progres
   mkdirSync(tempBase, { recursive: true });
   const cacheDir = mkdtempSync(join(tempBase, 'verify-'));
   let rerun;
+  let keep = false;
   try {
     const { execution, results } = await executeRecipe(recipe, origin, { cache: new Cache(cacheDir), workers: opts.workers, progress: opts.progress, slurm: opts.slurm });
     rerun = buildManifest(recipe, origin, execution, results, { started: new Date(), seconds: 0 }, outDir, writeModelFile(results.headlineFit, recipe, { holdoutPredictionsSha256: holdoutPredictionsSha256(results) }));
+  } catch (e) {
+    // a failed cluster task's log lives in this cache: keep it, and do not promise a resumable rerun
+    if (opts.slurm && e instanceof DendrologError && existsSync(join(cacheDir, 'tasks')) && readdirSync(join(cacheDir, 'tasks')).length > 0) {
+      keep = true;
+      throw new DendrologError(messages.clusterVerifyKept(e.message, displayOf(cacheDir)), e.exitCode);
+    }
+    throw e;
   } finally {
-    rmSync(cacheDir, { recursive: true, force: true });
+    if (!keep) rmSync(cacheDir, { recursive: true, force: true });
   }
 
   const lines: string[] = [];

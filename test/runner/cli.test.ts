@@ -1,4 +1,7 @@
+import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
+import { packageRoot } from '../../runner/paths.js';
+import { SLURM_SETTINGS } from '../../runner/slurm.js';
 import { afterEach, describe, expect, it, vi } from 'vitest';
 import { main } from '../../runner/cli.js';
 import { messages } from '../../core/messages.js';
@@ -20,6 +23,16 @@ describe('command line', () => {
     expect(await main(['--help'])).toBe(0);
     expect(io.out()).toContain('Exit codes:\n  0  success (verify: reproduced)\n  1  the analysis failed');
     expect(io.out()).toContain('\n  2  bad usage or a bad recipe\n');
+  });
+
+  it('lists every Slurm option in --help, each beside its environment variable, as the README table does', async () => {
+    const io = capture();
+    expect(await main(['--help'])).toBe(0);
+    const readme = readFileSync(join(packageRoot(), 'README.md'), 'utf8');
+    for (const { option, env } of SLURM_SETTINGS) {
+      expect(io.out()).toMatch(new RegExp(`\\n  --${option} \\S+ .*\\[${env}\\]\\n`));
+      expect(readme).toMatch(new RegExp(`\\| \`--${option} [^|]*\\| \`${env}\` \\|`));
+    }
   });
 
   it('exits 2 with a suggestion for an unknown command', async () => {

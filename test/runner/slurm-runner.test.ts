@@ -43,6 +43,9 @@ describe('the Slurm executor (stand-in commands)', () => {
     expect(calls()[0]).toContain('--partition=short');
     const steps = (dir: string) => (JSON.parse(readFileSync(join(s.dir, dir, 'manifest.json'), 'utf8')) as { steps: { id: string; output: string }[] }).steps;
     expect(steps('cluster')).toEqual(steps('local').map((x) => expect.objectContaining({ id: x.id, output: x.output })));
+    // each step records its own time from its task, not the whole array's
+    const timing = (JSON.parse(readFileSync(join(s.dir, 'cluster', 'manifest.json'), 'utf8')) as { timing: { steps: { id: string; seconds: number }[] } }).timing.steps;
+    expect(new Set(timing.filter((t) => t.id.includes(' fold ')).map((t) => t.seconds)).size).toBeGreaterThan(1);
     // batch folders of arrays that succeeded are removed
     expect(readdirSync(join(s.cache, 'tasks'))).toEqual([]);
     const again = await cli(['run', s.recipe, '--cache', s.cache, '--executor', 'slurm', '--out', join(s.dir, 'cluster')]);
@@ -92,6 +95,17 @@ describe('the Slurm executor (stand-in commands)', () => {
     expect(rerun.err).toMatch(/^step cv tree one setting fold 1 failed as Slurm task 102_0 /);
   });
 
+  it('says a task cancelled by someone was not a failure of the step, and to run again', async () => {
+    process.env.FAKE_SLURM_PLAN = JSON.stringify({ lose: { '4': 'CANCELLED' } });
+    const s = scenario();
+    const r = await expectOutcome(s.dir, ['run', s.recipe, '--cache', s.cache, '--executor', 'slurm'], { code: 1 });
+    const batch = readdirSync(join(s.cache, 'tasks'))[0];
+    expect(r.err.trim()).toBe(
+      messages.clusterTaskFailed('cv mean no hyperparameters fold 2', '101_4', 'CANCELLED', '0:0', join(s.cache, 'tasks', batch, 'task-4.log'), messages.clusterStateMeaning('CANCELLED')),
+    );
+    expect(r.out).toContain('Slurm task 101_4 ended CANCELLED; waiting for the other tasks, so their outputs are kept');
+  });
+
   it('says what sbatch refused, and that the slurm commands are missing when they are', async () => {
     process.env.FAKE_SLURM_PLAN = JSON.stringify({ refuse: 'sbatch: error: invalid partition specified: nowhere' });
     const s = scenario();
@@ -99,8 +113,20 @@ describe('the Slurm executor (stand-in commands)', () => {
       code: 2,
       err: messages.clusterSubmitFailed('sbatch: error: invalid partition specified: nowhere'),
     });
+    process.env.FAKE_SLURM_PLAN = JSON.stringify({ refuse: 'sbatch: error: Batch job submission failed: Unable to contact slurm controller (connect failure)' });
+    await expectOutcome(s.dir, ['run', s.recipe, '--cache', s.cache, '--executor', 'slurm'], {
+      code: 1,
+      err: messages.clusterUnreachable('sbatch: error: Batch job submission failed: Unable to contact slurm controller (connect failure)'),
+    });
     process.env.PATH = '/nonexistent';
     await expectOutcome(s.dir, ['run', s.recipe, '--cache', s.cache, '--executor', 'slurm'], { code: 2, err: messages.clusterCommandMissing('sbatch', 'ENOENT') });
+  });
+
+  it('cancels and says so when Slurm will never start the tasks as asked, instead of waiting forever', async () => {
+    process.env.FAKE_SLURM_PLAN = JSON.stringify({ pendForever: 'PartitionConfig' });
+    const s = scenario();
+    await expectOutcome(s.dir, ['run', s.recipe, '--cache', s.cache, '--executor', 'slurm', '--slurm-cpus', '64'], { code: 2, err: messages.clusterNeverStarts('101', 'PartitionConfig') });
+    expect(readFileSync(join(state, 'cancelled'), 'utf8')).toBe('101\n');
   });
 
   it('refuses --no-cache and Slurm options without --executor slurm', async () => {

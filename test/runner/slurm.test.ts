@@ -4,7 +4,7 @@ import { DendrologError, messages } from '../../core/messages.js';
 import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { packageRoot } from '../../runner/paths.js';
-import { ACTIVE_STATES, arraySpec, RETRIED_STATES, sbatchArgs, shellWord, slurmOptions, submittedJob, taskRecords } from '../../runner/slurm.js';
+import { ACTIVE_STATES, arraySpec, neverStarts, RETRIED_STATES, sbatchArgs, shellWord, slurmOptions, submittedJob, taskRecords } from '../../runner/slurm.js';
 
 const none = { partition: null, time: null, mem: null, account: null, maxRunning: null, cpus: 1, stepsPerTask: 1 };
 
@@ -28,7 +28,7 @@ describe('Slurm options', () => {
     const a = errorOf(() => slurmOptions({ 'slurm-cpus': '0' }, {}));
     expect([a.message, a.exitCode]).toEqual([messages.usageOptionValue('--slurm-cpus', '0', 'a whole number from 1 to 100000'), 2]);
     const b = errorOf(() => slurmOptions({}, { DENDROLOG_SLURM_TIME: '2 hours' }));
-    expect(b.message).toBe(messages.usageOptionValue('DENDROLOG_SLURM_TIME', '2 hours', 'a Slurm value without spaces'));
+    expect(b.message).toBe(messages.usageEnvValue('DENDROLOG_SLURM_TIME', '2 hours', 'a Slurm value without spaces'));
   });
 });
 
@@ -93,6 +93,22 @@ describe('what Slurm 22.05 printed (recorded)', () => {
       expect(ACTIVE_STATES.has(t.state)).toBe(false);
       expect(RETRIED_STATES.has(t.state)).toBe(false);
     }
+  });
+});
+
+describe('tasks that will never start', () => {
+  it('are told by their pending reason: partition, account and QOS limits, not a busy cluster', () => {
+    const t = (reason: string, state = 'PENDING') => ({ task: 0, state, exitCode: '0:0', reason });
+    for (const r of ['PartitionConfig', 'PartitionTimeLimit', 'QOSMaxWallDurationPerJobLimit', 'AssocMaxCpuPerJobLimit', 'InvalidAccount']) expect(neverStarts(t(r))).toBe(true);
+    // waiting for resources, priority or a throttle clears by itself
+    for (const r of ['Resources', 'Priority', 'JobArrayTaskLimit', 'None']) expect(neverStarts(t(r))).toBe(false);
+    expect(neverStarts(t('PartitionConfig', 'RUNNING'))).toBe(false);
+  });
+
+  it('recorded: an array asking more cores per task than the node has waits with PartitionConfig', () => {
+    const tasks = taskRecords(recorded('scontrol-array-partition-config.txt'));
+    expect(tasks).toHaveLength(4);
+    expect(tasks.every(neverStarts)).toBe(true);
   });
 });
 
