@@ -238,10 +238,12 @@ export interface RemoteRunner {
 /**
  * Runs batches of independent steps as Slurm job arrays over a shared cache. Each batch gets a
  * folder in the cache (`tasks/<id>/`: the step descriptions, the job script, one log per task).
- * Steps whose output is then
- * missing are reported with their job and task id, state and log, except tasks lost with their node
- * (or preempted), which are submitted once more. A batch folder is removed when every step of it
- * succeeded, and kept, logs and all, when one failed. SIGINT or SIGTERM while waiting cancels the array.
+ * Steps whose output is then missing are reported with their job and task id, state and log, except
+ * tasks lost with their node (or preempted), which are submitted once more. A batch folder is
+ * removed when every step of it succeeded, and kept, logs and all, when one failed. SIGINT or
+ * SIGTERM while waiting cancels the array; an array Slurm will never start is cancelled and said.
+ *
+ * Example: `await new SlurmRunner(cache, slurmOptions({}), progress).run(tasks)` returns each step's seconds by key.
  */
 export class SlurmRunner implements RemoteRunner {
   constructor(
