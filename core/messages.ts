@@ -383,6 +383,8 @@ export const messages = {
           : 'the task ended before the step could say why; its log may tell',
   clusterNeverStarts: (job: string, reason: string) =>
     `Slurm will never start job ${job} as submitted: its tasks wait with reason ${reason} (the partition, account or QOS cannot grant what a task asks, such as more cores, memory or time than a node or the partition allows); dendrolog cancelled it; ask for less with --slurm-cpus, --slurm-mem or --slurm-time, or choose another --slurm-partition or --slurm-account (sinfo and scontrol show partition tell the limits)`,
+  clusterOutputUnreadable: (step: string, key: string) =>
+    `the output of step ${step}, stored by its Slurm task under key ${key}, could not be read back from the cache (the warning above says why); run again to recompute it`,
   clusterTaskNoRecord: (step: string, job: string, log: string) =>
     `step ${step} was submitted as Slurm task ${job}, which ended without an output and without a record Slurm still keeps (it was cancelled before it started, or its record was purged); its log, if it started, is ${log}; what finished is in the cache, so running again submits only the missing steps`,
   clusterTaskNoOutput: (step: string, job: string, log: string) =>

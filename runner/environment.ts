@@ -86,7 +86,7 @@ export function codeHashes(root: string, entries: string[]): Record<string, stri
     const text = readFileSync(file);
     seen.set(key, sha256(text));
     // type-only imports are erased from the compiled code: they shape no output
-    const code = text.toString('utf8').replace(/(?:import|export) type\s[^;]*?from\s*['"][^'"]+['"]/g, '');
+    const code = text.toString('utf8').replace(/^\s*(?:import|export)\s+type\s+(?:\*(?:\s+as\s+\w+)?|\{[^}]*\}|\w+)\s*from\s*['"][^'"]+['"]/gm, '');
     for (const m of code.matchAll(/['"](\.\.?\/[^'"\n]+?)\.js['"]/g)) {
       const base = resolve(dirname(file), m[1]);
       queue.push(existsSync(base + ext) ? base + ext : base + '.js');

@@ -172,7 +172,7 @@ export function localExecutor(opts: LocalExecutorOptions): Executor {
         const seconds = (performance.now() - t0) / 1000;
         batch.forEach((step, k) => {
           const entry = hits[k] ?? lookup(step);
-          if (!entry) throw new DendrologError(messages.clusterTaskNoOutput(step.id, 'of the last array', 'in the batch folder'), 1);
+          if (!entry) throw new DendrologError(messages.clusterOutputUnreadable(step.id, step.key), 1);
           // a step's own time where its task said it, else the array's
           settle(step, entry, hits[k] ? 'cached' : 'ran', hits[k] ? 0 : (taskSeconds.get(step.key) ?? seconds));
         });

@@ -74,7 +74,11 @@ export async function predictRun(folder: string, dataFile: string, outFile: stri
   // the run's own data steps, planned in apply mode and run by the executor (nothing cached); the
   // run's recipe as kept in its manifest has no positions, so messages name the recipe file
   const recipeWhere = displayOf(resolve(outDir, manifest.recipe.file));
-  const plan = planApply(recipe, { dir: recipeDir, where: () => recipeWhere }, { path: dataPath, absent, without: absentTarget.length > 0 ? targetInputs : null });
+  // the steps do without the target and the raw columns it is computed from; a derived column the
+  // target reads (which may also be a predictor) is still computed, from what the file has
+  const derived = new Set(rowSteps.flatMap((s) => s.contract.writes?.(s.params) ?? []).map((w) => w.column));
+  const without = new Set([...targetInputs].filter((c) => c === recipe.target || !derived.has(c)));
+  const plan = planApply(recipe, { dir: recipeDir, where: () => recipeWhere }, { path: dataPath, absent, without: absentTarget.length > 0 ? without : null });
   const execution = await localExecutor({ cache: null, workers: 1, progress: silentProgress() }).run(plan.steps);
   const frameOf = (id: string) => (execution.outputs.get(id) as FrameOutput).frame;
   const input = frameOf(plan.read);

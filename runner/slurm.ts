@@ -372,6 +372,11 @@ export class SlurmRunner implements RemoteRunner {
    */
   private records(job: string): TaskRecord[] | null {
     const r = spawnSync(this.commands.scontrol, ['show', 'job', '-o', job], { encoding: 'utf8' });
+    // without scontrol the end of the job cannot be told: cancel it rather than wait forever
+    if (r.error) {
+      spawnSync(this.commands.scancel, [job], { stdio: 'ignore' });
+      throw new DendrologError(messages.clusterCommandMissing(this.commands.scontrol, (r.error as NodeJS.ErrnoException).code ?? r.error.message), 2);
+    }
     if (r.status === 0) return taskRecords(r.stdout);
     return /Invalid job id/i.test(r.stderr ?? '') ? [] : null;
   }

@@ -41,6 +41,25 @@ describe('software fingerprint', () => {
     });
   }
 
+  it('leaves out type-only imports (the compiler erases them), and nothing else', () => {
+    const dir = makeFolder({
+      'entry.ts': [
+        "import type { Shape } from './types-only.js';",
+        "export type { Other } from './types-too.js';",
+        '// an import type is erased by tsc',
+        "import { real } from './real.js';",
+        "export type Mode = 'a' | 'b'",
+        "import { second } from './second.js';",
+        'export const x = [real, second];',
+      ].join('\n'),
+      'types-only.ts': 'export type Shape = number;',
+      'types-too.ts': 'export type Other = string;',
+      'real.ts': 'export const real = 1;',
+      'second.ts': 'export const second = 2;',
+    });
+    expect(Object.keys(codeHashes(dir, ['entry']))).toEqual(['entry.ts', 'real.ts', 'second.ts']);
+  });
+
   it('stays the same when only the report rendering changes', () => {
     const copy = copyOfSources();
     const before = copy.code();

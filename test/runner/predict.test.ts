@@ -40,6 +40,24 @@ describe('the apply plan', () => {
     expect(Object.keys((plan.steps[0].params as { columns: object }).columns)).toEqual(['site', 'x1', 'x2']);
   });
 
+  it('still computes a derived predictor the derived target reads, when the file lacks the target’s other raw input', async () => {
+    // y10 is computed from c (a derived predictor) and from b, a raw column only the target needs
+    const text = SMALL_RECIPE.replace('x2: number, y: number}', 'x2: number, y: number, b: number}')
+      .replace('target: y', "features:\n  - derive: {c: 'd.x1 * 2'}\n  - derive: {y10: 'd.c - d.x2 + d.y + d.b'}\ntarget: y10")
+      .replace('predictors: [x1, x2]', 'predictors: [c, x2]');
+    const data = smallData()
+      .trimEnd()
+      .split('\n')
+      .map((l, i) => `${l},${i === 0 ? 'b' : '1'}`)
+      .join('\n');
+    const s = scenario({ 'recipe.yaml': text, 'data/obs.csv': data + '\n' });
+    await expectOutcome(s.dir, ['run', s.recipe, '--cache', s.cache, '--workers', '1'], { code: 0, changes: ['out/small/'] });
+    writeFileSync(join(s.dir, 'new.csv'), 'site,x1,x2\nA,1,2\nB,3,4\n');
+    const r = await expectOutcome(s.dir, ['predict', join(s.dir, 'out/small'), join(s.dir, 'new.csv'), '--out', join(s.dir, 'p.csv')], { code: 0, changes: ['p.csv', 'new.csv'] });
+    expect(r.out).toContain('2 of 2 rows predicted, 0 not');
+    expect(r.out).toContain('steps that need it were skipped: features[1] derive');
+  });
+
   it('applies in predict: skipped steps and step warnings are printed, and each row gets its prediction or reason', async () => {
     const s = scenario({ 'recipe.yaml': RECIPE, 'data/obs.csv': smallData() });
     await expectOutcome(s.dir, ['run', s.recipe, '--cache', s.cache, '--workers', '1'], { code: 0, changes: ['out/small/'] });

@@ -3,7 +3,7 @@
  * that run each array task's script on this machine: what it submits, what it retries, how it
  * reports a failed task. The real scheduler is exercised in test/e2e/slurm.test.ts.
  */
-import { mkdtempSync, readFileSync, readdirSync } from 'node:fs';
+import { mkdtempSync, readFileSync, readdirSync, symlinkSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
@@ -118,6 +118,15 @@ describe('the Slurm executor (stand-in commands)', () => {
       code: 1,
       err: messages.clusterUnreachable('sbatch: error: Batch job submission failed: Unable to contact slurm controller (connect failure)'),
     });
+    // sbatch there but no scontrol: the end of the job cannot be told, so it is cancelled, not waited on
+    delete process.env.FAKE_SLURM_PLAN;
+    const onlySbatch = mkdtempSync(join(tmpdir(), 'only-sbatch-'));
+    symlinkSync(join(FAKES, 'sbatch'), join(onlySbatch, 'sbatch'));
+    symlinkSync(join(FAKES, 'scancel'), join(onlySbatch, 'scancel'));
+    symlinkSync(process.execPath, join(onlySbatch, 'node'));
+    process.env.PATH = onlySbatch;
+    await expectOutcome(s.dir, ['run', s.recipe, '--cache', s.cache, '--executor', 'slurm'], { code: 2, err: messages.clusterCommandMissing('scontrol', 'ENOENT') });
+    expect(readFileSync(join(state, 'cancelled'), 'utf8')).toContain('101');
     process.env.PATH = '/nonexistent';
     await expectOutcome(s.dir, ['run', s.recipe, '--cache', s.cache, '--executor', 'slurm'], { code: 2, err: messages.clusterCommandMissing('sbatch', 'ENOENT') });
   });
