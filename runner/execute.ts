@@ -165,7 +165,7 @@ export function localExecutor(opts: LocalExecutorOptions): Executor {
             return { key: s.key, codec: stepRegistry[s.kind].codec };
           };
           const tasks = missing.map(
-            (s): TaskStep => ({ id: s.id, kind: s.kind, params: s.params, seed: s.seed, key: s.key, seedKey: s.seedKey, locator: s.locator, codec: stepRegistry[s.kind].codec, inputs: s.inputs.map(inputOf) }),
+            (s): TaskStep => ({ ...s, codec: stepRegistry[s.kind].codec, inputs: s.inputs.map(inputOf) }),
           );
           taskSeconds = await remote.run(tasks);
         }

@@ -5,7 +5,7 @@ import { join } from 'node:path';
 import type { Cache } from './cache.js';
 import { DendrologError, messages } from '../core/messages.js';
 import { parseJson } from '../core/dict.js';
-import type { OutputCodec } from '../core/step-types.js';
+import type { OutputCodec, StepInstance } from '../core/step-types.js';
 import { packageRoot, displayOf } from './paths.js';
 import type { Progress } from './progress.js';
 
@@ -194,18 +194,11 @@ export function neverStarts(t: TaskRecord): boolean {
 /** Task states where the node, not the step, failed: such a task is submitted once more. */
 export const RETRIED_STATES = new Set(['NODE_FAIL', 'PREEMPTED', 'BOOT_FAIL']);
 
-/** One step as a cluster task needs it: the instance, the codec of its output, and its inputs' cache keys. */
-export interface TaskStep {
-  id: string;
-  kind: string;
-  params: unknown;
-  seed: number;
-  key: string;
-  seedKey: string;
-  locator: Record<string, string>;
+/** One step as a cluster task needs it: the instance, the codec of its output, and its inputs named by cache key. */
+export type TaskStep = Omit<StepInstance, 'inputs'> & {
   codec: OutputCodec;
   inputs: { key: string; codec: OutputCodec }[];
-}
+};
 
 /** The file a job array's tasks read: the cache they share, and the steps, `stepsPerTask` to each array index. */
 export interface TaskBatch {

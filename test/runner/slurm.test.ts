@@ -1,21 +1,13 @@
 /** The Slurm executor's pieces that need no cluster: options, the sbatch command line, and reading what Slurm prints. */
 import { describe, expect, it } from 'vitest';
-import { DendrologError, messages } from '../../core/messages.js';
+import { messages } from '../../core/messages.js';
+import { errorOf } from '../helpers.js';
 import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { packageRoot } from '../../runner/paths.js';
 import { ACTIVE_STATES, arraySpec, neverStarts, RETRIED_STATES, sbatchArgs, shellWord, slurmOptions, submittedJob, taskRecords } from '../../runner/slurm.js';
 
 const none = { partition: null, time: null, mem: null, account: null, maxRunning: null, cpus: 1, stepsPerTask: 1 };
-
-function errorOf(f: () => unknown): DendrologError {
-  try {
-    f();
-  } catch (e) {
-    return e as DendrologError;
-  }
-  throw new Error('no error');
-}
 
 describe('Slurm options', () => {
   it('take the command line over the environment, and default to one core and nothing else', () => {
@@ -24,10 +16,10 @@ describe('Slurm options', () => {
     expect(o).toEqual({ ...none, partition: 'short', mem: '8G', maxRunning: 10, cpus: 4 });
   });
 
-  it('refuse a bad value, naming the option or variable it came from', () => {
-    const a = errorOf(() => slurmOptions({ 'slurm-cpus': '0' }, {}));
+  it('refuse a bad value, naming the option or variable it came from', async () => {
+    const a = await errorOf(() => slurmOptions({ 'slurm-cpus': '0' }, {}));
     expect([a.message, a.exitCode]).toEqual([messages.usageOptionValue('--slurm-cpus', '0', 'a whole number from 1 to 100000'), 2]);
-    const b = errorOf(() => slurmOptions({}, { DENDROLOG_SLURM_TIME: '2 hours' }));
+    const b = await errorOf(() => slurmOptions({}, { DENDROLOG_SLURM_TIME: '2 hours' }));
     expect(b.message).toBe(messages.usageEnvValue('DENDROLOG_SLURM_TIME', '2 hours', 'a Slurm value without spaces'));
   });
 });
