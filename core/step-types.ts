@@ -103,6 +103,15 @@ export interface ColumnWrite {
 }
 
 /**
+ * The reads of a step that lists its columns under `columns`, each at its place in the list.
+ *
+ * Example: `listedColumns(['tp', 'tn'])` is `[{column: 'tp', at: ['columns', 0]}, {column: 'tn', at: ['columns', 1]}]`.
+ */
+export function listedColumns(columns: string[]): ColumnRead[] {
+  return columns.map((column, k) => ({ column, at: ['columns', k] }));
+}
+
+/**
  * How a step kind appears in a recipe, so that the schema, normalization, meaning checks, planning
  * and predict all follow from its definition. Adding a kind is its file and a registry line.
  */

@@ -10,7 +10,7 @@ import { displayOf } from './paths.js';
 import type { Recipe, RecipeStep, SourceSpec } from '../core/recipe-types.js';
 import type { StepInstance } from '../core/step-types.js';
 import type { Frame } from '../core/frame.js';
-import { expressionLocator, isLearned, modelKinds, recipeContract, type RecipeSection } from '../steps/index.js';
+import { expressionLocator, isLearned, modelKinds, recipeContract, recipeSteps, type RecipeSection } from '../steps/index.js';
 import { dict } from '../core/dict.js';
 
 /** Bootstrap resamples behind each holdout interval. */
@@ -104,11 +104,8 @@ function addDataSteps(
     last = add(`join[${i}] ${j.with}`, 'join', j, [last, sources[j.with]]);
     steps.push({ id: last, removed: () => `no partner in source "${j.with}" (join[${i}] on ${j.on.join(', ')})` });
   });
-  const rowSteps = [...recipe.clean.map((c, i) => ['clean', c, i] as const), ...recipe.features.map((f, i) => ['features', f, i] as const)];
-  for (const [section, step, i] of rowSteps) {
-    if (section === 'features' && isLearned(step.kind)) continue;
-    const { kind, ...given } = step;
-    const contract = recipeContract(section, kind)!;
+  for (const { section, index: i, kind, params: given, contract, learned } of recipeSteps(recipe)) {
+    if (learned) continue;
     const params = without && contract.without ? contract.without(given, without) : given;
     const id = `${section}[${i}] ${kind}`;
     if (params === null) {

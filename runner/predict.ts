@@ -7,7 +7,7 @@ import { readRunModel } from './model-file.js';
 import { planApply } from './plan.js';
 import { localExecutor } from './execute.js';
 import { silentProgress } from './progress.js';
-import { ROW_COLUMN, StrictTextStream, applyDesign, engineFor, isLearned, readDefaults, readHeaderLine, recipeContract } from '../steps/index.js';
+import { ROW_COLUMN, StrictTextStream, applyDesign, engineFor, readDefaults, readHeaderLine, recipeSteps } from '../steps/index.js';
 import { displayOf } from './paths.js';
 import type { Recipe } from '../core/recipe-types.js';
 import { readManifest } from './run-folder.js';
@@ -57,7 +57,7 @@ export async function predictRun(folder: string, dataFile: string, outFile: stri
   const mainName = Object.keys(recipe.sources)[0];
   const main = recipe.sources[mainName];
   // the target, and the raw columns a step computes it from, may be absent from new data
-  const rowSteps = rowWiseSteps(recipe);
+  const rowSteps = recipeSteps(recipe).filter((s) => !s.learned);
   const targetInputs = new Set([recipe.target]);
   for (const s of rowSteps) for (const w of s.contract.writes?.(s.params) ?? []) if (w.column === recipe.target) w.from.forEach((c) => targetInputs.add(c));
   // only delimited text has a header to look at first; other formats must carry every declared column
@@ -137,19 +137,11 @@ export async function predictRun(folder: string, dataFile: string, outFile: stri
   };
 }
 
-/** The recipe's cleaning steps and the features computed row by row, in order, with their contracts. */
-function rowWiseSteps(recipe: Recipe) {
-  return [...recipe.clean.map((s, i) => ['clean', s, i] as const), ...recipe.features.map((s, i) => ['features', s, i] as const)]
-    .filter(([section, s]) => !(section === 'features' && isLearned(s.kind)))
-    .map(([section, { kind, ...params }, i]) => ({ section, i, kind, params, contract: recipeContract(section, kind)! }));
-}
-
 /** Every column the recipe's joins, cleaning, features and predictors refer to. */
 function usedColumns(recipe: Recipe): Set<string> {
   const used = new Set<string>(recipe.predictors);
   for (const j of recipe.join) j.on.forEach((c) => used.add(c));
-  const steps = [...recipe.clean.map((s) => ['clean', s] as const), ...recipe.features.map((s) => ['features', s] as const)];
-  for (const [section, { kind, ...params }] of steps) for (const r of recipeContract(section, kind)?.reads(params) ?? []) used.add(r.column);
+  for (const { contract, params } of recipeSteps(recipe)) for (const r of contract.reads(params)) used.add(r.column);
   return used;
 }
 

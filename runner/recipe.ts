@@ -7,7 +7,7 @@ import { normalizeRecipe } from './normalize.js';
 import type { ColumnType, Recipe, SourceSpec } from '../core/recipe-types.js';
 import { closest } from '../core/suggest.js';
 import { validateRecipe } from './validate.js';
-import { COMMON_ENCODINGS, decodeStrict, encodingName, expressionProblem, parseValue, recipeContract, referencedColumns } from '../steps/index.js';
+import { COMMON_ENCODINGS, decodeStrict, encodingName, expressionProblem, parseValue, recipeSteps, referencedColumns } from '../steps/index.js';
 import { readYaml, type PositionedDocument } from './yaml-read.js';
 import { has } from '../core/dict.js';
 import { ARQUERO_UNSAFE_NAMES } from '../core/frame.js';
@@ -235,12 +235,8 @@ function checkMeaning(recipe: Recipe, doc: PositionedDocument): string[] {
 
   // each kind says through its contract what it reads, evaluates, adds, encodes and requires
   const encoded = new Set<string>();
-  const steps = [...recipe.clean.map((s, i) => ['clean', s, i] as const), ...recipe.features.map((s, i) => ['features', s, i] as const)];
-  for (const [section, step, i] of steps) {
-    const label = `${section}[${i}] (${step.kind})`;
-    const contract = recipeContract(section, step.kind);
-    if (!contract) continue;
-    const { kind, ...params } = step;
+  for (const { section, index: i, kind, params, contract } of recipeSteps(recipe)) {
+    const label = `${section}[${i}] (${kind})`;
     const base = [section, i, kind];
     const expressions = contract.expressions?.(params) ?? [];
     for (const e of expressions) checkExpression([...base, ...e.at], e.expr, label);

@@ -1,5 +1,5 @@
 import { column, isMissing, takeRows, type Frame } from '../core/frame.js';
-import type { FrameOutput, StepDefinition } from '../core/step-types.js';
+import { listedColumns, type FrameOutput, type StepDefinition } from '../core/step-types.js';
 
 export interface DeduplicateParams {
   /** Key columns: rows equal on all of them are duplicates of each other. */
@@ -56,7 +56,7 @@ export const deduplicate: StepDefinition<DeduplicateParams, FrameOutput> = {
       return { columns: r.columns.map(String), keep: r.keep ?? 'first' };
     },
     shape: (p) => ({ columns: p.columns, keep: p.keep }),
-    reads: (p) => p.columns.map((c, k) => ({ column: c, at: ['columns', k] })),
+    reads: (p) => listedColumns(p.columns),
     // without a key column there is no telling duplicates apart: the step is left out
     without: (p, absent) => (p.columns.some((c) => absent.has(c)) ? null : p),
     rowReason: (p) =>

@@ -1,4 +1,5 @@
 import { messages } from '../core/messages.js';
+import { listedColumns } from '../core/step-types.js';
 import { mean, median, presentValues } from './column-stats.js';
 import type { LearnedFeature } from './design.js';
 
@@ -35,7 +36,7 @@ export const impute: LearnedFeature<ImputeParams> = {
     },
     shape: (p) => ({ columns: p.columns, with: p.with }),
     describe: (p) => `${p.columns.join(', ')} by ${p.with}`,
-    reads: (p) => p.columns.map((column, k) => ({ column, at: ['columns', k] })),
+    reads: (p) => listedColumns(p.columns),
     check: (p, types, label) => numberColumns(p.columns, types, label, 'impute'),
   },
 };

@@ -1,4 +1,5 @@
 import type { RecipeContract, StepDefinition } from '../core/step-types.js';
+import type { RecipeStep } from '../core/recipe-types.js';
 import { dict, has } from '../core/dict.js';
 import { learnedFeatures } from './learned.js';
 import { choose } from './choose.js';
@@ -49,6 +50,37 @@ export function recipeContract(section: RecipeSection, kind: string): RecipeCont
 /** The kinds written under a section of the recipe, in registry order, with their contracts. */
 export function recipeKinds(section: RecipeSection): [string, RecipeContract<unknown>][] {
   return contracts().filter(([, c]) => c.section === section);
+}
+
+/** One step of a recipe's `clean` or `features` list, with its contract. */
+export interface RecipeStepEntry {
+  section: RecipeSection;
+  /** Its position in its list. */
+  index: number;
+  kind: string;
+  params: Record<string, unknown>;
+  contract: RecipeContract<unknown>;
+  /** A feature learned from training rows inside each fit, not a step of the plan. */
+  learned: boolean;
+}
+
+/**
+ * The recipe's cleaning steps, then its feature steps, in recipe order, each with its contract (a
+ * kind the registry does not know, which the schema would have refused, is left out).
+ *
+ * Example: `recipeSteps(recipe).filter((s) => !s.learned)` are the steps that run row by row.
+ */
+export function recipeSteps(recipe: { clean: RecipeStep[]; features: RecipeStep[] }): RecipeStepEntry[] {
+  const lists: [RecipeSection, RecipeStep[]][] = [
+    ['clean', recipe.clean],
+    ['features', recipe.features],
+  ];
+  return lists.flatMap(([section, steps]) =>
+    steps.flatMap(({ kind, ...params }, index) => {
+      const contract = recipeContract(section, kind);
+      return contract ? [{ section, index, kind, params, contract, learned: section === 'features' && isLearned(kind) }] : [];
+    }),
+  );
 }
 
 /**

@@ -1,5 +1,5 @@
 import type { Frame } from '../core/frame.js';
-import type { FrameOutput, StepDefinition } from '../core/step-types.js';
+import { listedColumns, type FrameOutput, type StepDefinition } from '../core/step-types.js';
 import { dict } from '../core/dict.js';
 
 export interface ReplaceParams {
@@ -71,7 +71,7 @@ export const replace: StepDefinition<ReplaceParams, FrameOutput> = {
       return { columns: r.columns, values: r.values, with: r.with };
     },
     shape: (p) => ({ columns: p.columns, values: p.values, with: p.with }),
-    reads: (p) => p.columns.map((c, k) => ({ column: c, at: ['columns', k] })),
+    reads: (p) => listedColumns(p.columns),
     without: (p, absent) => {
       const columns = p.columns.filter((c) => !absent.has(c));
       return columns.length ? { ...p, columns } : null;
