@@ -47,4 +47,14 @@ export const engineMessages = {
     `the prediction matrix has columns [${got.join(', ')}] but the forest was fitted on [${expected.join(', ')}]; ` +
     `give the same columns in the same order`,
   notAForest: (why: string): string => `these bytes are not a dendrolog forest: ${why}`,
+  notBlocks: (why: string): string => `these bytes are not blocks of dendrolog forest trees: ${why}`,
+  blockRange: (first: number, end: number, blocks: number): string =>
+    `blocks ${first} to ${end - 1} are not a range of this forest's ${blocks} blocks of trees; ask for 0 <= first < end <= ${blocks}`,
+  blockOrder: (got: number, expected: number): string =>
+    `block ${got} of trees came where block ${expected} belongs; give every block once, in order`,
+  blockShape: (index: number, trees: number, expectedTrees: number, rows: number, expectedRows: number): string =>
+    `block ${index} holds ${trees} trees over ${rows} rows, but this forest's block ${index} has ${expectedTrees} trees over ${expectedRows} rows; ` +
+    `the blocks must be grown with the same data and settings`,
+  blocksMissing: (trees: number, expected: number): string =>
+    `the blocks given hold ${trees} of the forest's ${expected} trees; give every block`,
 };

@@ -13,7 +13,7 @@
  * Example:
  * ```ts
  * const pool = ForestPool.start(2);
- * try { await pool.grow(data, params, 100, (i, grown) => combiner.add(i, grown)); } finally { pool.close(); }
+ * try { await pool.grow(data, params, 0, 100, (i, grown) => combiner.add(i, grown)); } finally { pool.close(); }
  * ```
  */
 import type { Worker } from 'node:worker_threads';
@@ -29,6 +29,7 @@ function startWorker(): Worker {
 export interface WorkerJob {
   data: GrowData;
   params: GrowParams;
+  /** One past the last tree to grow. */
   trees: number;
   /** Shared Int32Array([next unclaimed tree]); claimed with Atomics.add so no tree is grown twice. */
   counter: Int32Array;
@@ -66,10 +67,12 @@ export class ForestPool {
     return new ForestPool(Math.max(0, threads - 1));
   }
 
-  /** Grows trees 0..trees-1 on the workers and this thread, calling `onTree` as each arrives. */
-  async grow(data: GrowData, params: GrowParams, trees: number, onTree: (index: number, grown: GrownTree) => void): Promise<void> {
+  /** Grows trees first..end-1 on the workers and this thread, calling `onTree` as each arrives. */
+  async grow(data: GrowData, params: GrowParams, first: number, end: number, onTree: (index: number, grown: GrownTree) => void): Promise<void> {
     const counter = new Int32Array(new SharedArrayBuffer(4));
-    let done = 0;
+    counter[0] = first;
+    const trees = end;
+    let done = first;
     const deliver = (index: number, grown: GrownTree): void => {
       try {
         onTree(index, grown);

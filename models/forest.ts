@@ -171,33 +171,116 @@ function resolveSettings(x: Matrix, y: Float64Array, opts: ForestOptions): Fores
   return { trees, maxDepth, minLeaf, minSplit, mtry, sampleFraction, replace, sampleSize, seed: opts.seed, maxBins };
 }
 
-async function fitResolved(
+/**
+ * Trees are combined in blocks of this many: a forest's out-of-bag sums and importances are summed
+ * tree by tree within a block, then block by block, so a forest grown in pieces along block edges
+ * (growForestBlocks, in separate processes or on separate machines) and put together with
+ * assembleForest is bit-identical to the same forest grown whole.
+ */
+export const TREE_BLOCK = 50;
+
+/**
+ * What one block of trees adds to a forest, in the units the engine grew on (the target times
+ * targetScale): its trees in order, and the block's out-of-bag and importance sums.
+ */
+export interface ForestBlock {
+  /** The block's number: it holds trees from index × TREE_BLOCK on. */
+  index: number;
+  trees: Tree[];
+  /** Per training row, the sum of the block's out-of-bag predictions of it. */
+  oobSum: Float64Array;
+  /** Per training row, how many of the block's trees left it out of bag (at most TREE_BLOCK). */
+  oobCount: Uint8Array;
+  /** Per feature, the sum of the block's trees' impurity decreases. */
+  impSum: Float64Array;
+}
+
+/**
+ * How many blocks of TREE_BLOCK trees a forest of `trees` trees has (the last may hold fewer).
+ *
+ * Example: `treeBlocks(120)` is 3.
+ */
+export function treeBlocks(trees: number): number {
+  return Math.ceil(trees / TREE_BLOCK);
+}
+
+/**
+ * Grows blocks `first` to `end - 1` of the forest `opts` describes (each TREE_BLOCK trees, the last
+ * block possibly fewer), seeding every tree exactly as fitForest does. Put all the blocks, in
+ * order, into assembleForest to get that forest, bit for bit.
+ *
+ * Example: `await growForestBlocks(x, y, { ...opts, trees: 200 }, 2, 4)` grows trees 100 to 199.
+ */
+export async function growForestBlocks(x: Matrix, y: Float64Array, opts: ForestOptions, first: number, end: number): Promise<ForestBlock[]> {
+  const settings = resolveSettings(x, y, opts);
+  const workers = checkInteger('workers', opts.workers ?? DEFAULT_WORKERS, 1);
+  const blocks = treeBlocks(settings.trees);
+  if (!Number.isInteger(first) || !Number.isInteger(end) || first < 0 || end > blocks || first >= end) {
+    throw new EngineInputError(msg.blockRange(first, end, blocks));
+  }
+  const out: ForestBlock[] = [];
+  await growBlocks(x, y, settings, workers, first, end, (b) => out.push(b));
+  return out;
+}
+
+/**
+ * The forest from all its blocks (as growForestBlocks grew them, on the same x, y and options), in
+ * block order: bit-identical to fitForest with the same arguments.
+ *
+ * Example: `assembleForest(x, y, opts, [...await growForestBlocks(x, y, opts, 0, 2), ...await growForestBlocks(x, y, opts, 2, 4)])`
+ */
+export function assembleForest(x: Matrix, y: Float64Array, opts: ForestOptions, blocks: ForestBlock[]): Forest {
+  const settings = resolveSettings(x, y, opts);
+  const totals = new BlockTotals(settings.trees, x.rows, x.columns.length);
+  for (const b of blocks) totals.add(b);
+  return totals.forest(x, y, settings, 'random_forest');
+}
+
+async function fitResolved(x: Matrix, y: Float64Array, s: ForestSettings, kind: Forest['kind'], workers: number): Promise<Forest> {
+  const totals = new BlockTotals(s.trees, x.rows, x.columns.length);
+  await growBlocks(x, y, s, workers, 0, treeBlocks(s.trees), (b) => totals.add(b));
+  return totals.forest(x, y, s, kind);
+}
+
+/** Grows the trees of blocks first..end-1 on up to `workers` threads, handing each block over, in order, as it completes. */
+async function growBlocks(
   x: Matrix,
-  y: Float64Array,
+  target: Float64Array,
   s: ForestSettings,
-  kind: Forest['kind'],
   workers: number,
-): Promise<Forest> {
-  const threaded = workers > 1 && s.trees > 1 && s.sampleSize * s.trees >= MIN_DRAWS_FOR_THREADS;
+  first: number,
+  end: number,
+  onBlock: (block: ForestBlock) => void,
+): Promise<void> {
+  const from = first * TREE_BLOCK;
+  const to = Math.min(end * TREE_BLOCK, s.trees);
+  const threaded = workers > 1 && to - from > 1 && s.sampleSize * (to - from) >= MIN_DRAWS_FOR_THREADS;
   // Worker threads start first, so their start-up overlaps the binning below.
-  const pool = threaded ? ForestPool.start(Math.min(workers, s.trees)) : null;
+  const pool = threaded ? ForestPool.start(Math.min(workers, to - from)) : null;
   try {
-    return await fitWith(x, y, s, kind, pool);
+    const { data, params } = growInputs(x, target, s, pool !== null);
+    const combiner = new TreeCombiner(from, to, x.rows, x.columns.length, onBlock);
+    if (pool !== null) {
+      await pool.grow(data, params, from, to, (i, g) => combiner.add(i, g));
+    } else {
+      const builder = new TreeBuilder(data, params);
+      for (let i = from; i < to; i++) combiner.add(i, builder.grow(i));
+    }
   } finally {
     pool?.close();
   }
 }
 
-async function fitWith(x: Matrix, target: Float64Array, s: ForestSettings, kind: Forest['kind'], pool: ForestPool | null): Promise<Forest> {
+/** The binned data and growth settings the tree builder needs (over shared memory when threaded). */
+function growInputs(x: Matrix, target: Float64Array, s: ForestSettings, threaded: boolean): { data: GrowData; params: GrowParams } {
   // Split gains are sums of squared target values: above about 1e154 they overflow and every split
   // looks worthless. Growing on the target times a power of two, then scaling leaf values, out-of-bag
-  // predictions and importances back, is exact in floating point, so ordinary targets (scale 1) and
-  // huge or tiny ones give the forest the unscaled values would.
+  // predictions and importances back (BlockTotals.forest), is exact in floating point, so ordinary
+  // targets (scale 1) and huge or tiny ones give the forest the unscaled values would.
   const scale = targetScale(target);
   const y = scale === 1 ? target : target.map((v) => v * scale);
   const n = x.rows;
   const p = x.columns.length;
-  const threaded = pool !== null;
   const codes = threaded ? new Uint8Array(new SharedArrayBuffer(n * p)) : new Uint8Array(n * p);
   const binned: BinnedData = binColumns(x.columns, s.maxBins, codes);
   let mean = 0;
@@ -236,29 +319,7 @@ async function fitWith(x: Matrix, target: Float64Array, s: ForestSettings, kind:
     replace: s.replace,
     seed: s.seed,
   };
-  const combiner = new TreeCombiner(s.trees, n, p);
-  if (pool !== null) {
-    await pool.grow(data, params, s.trees, (i, g) => combiner.add(i, g));
-  } else {
-    const builder = new TreeBuilder(data, params);
-    for (let i = 0; i < s.trees; i++) combiner.add(i, builder.grow(i));
-  }
-  const forest: Forest = {
-    kind,
-    featureNames: [...x.names],
-    trainingRows: n,
-    options: s,
-    trees: combiner.trees,
-    oob: combiner.oobResult(y),
-    impurityImportance: combiner.importance(),
-  };
-  if (scale !== 1) {
-    const back = 1 / scale;
-    for (const t of forest.trees) for (let i = 0; i < t.value.length; i++) t.value[i] *= back;
-    for (let i = 0; i < forest.oob.predictions.length; i++) forest.oob.predictions[i] *= back;
-    for (let f = 0; f < forest.impurityImportance.length; f++) forest.impurityImportance[f] *= back * back;
-  }
-  return forest;
+  return { data, params };
 }
 
 /**
@@ -279,13 +340,57 @@ export function targetScale(y: Float64Array): number {
 }
 
 /**
- * Folds trees into the forest strictly in tree order, whatever order they arrive in, so sums of
- * floating-point numbers (OOB predictions, importances) are the same for any number of workers.
+ * Folds trees into blocks strictly in tree order, whatever order they arrive in, so the sums of
+ * floating-point numbers (OOB predictions, importances) are the same for any number of workers;
+ * hands each block on when its last tree is in.
  */
 class TreeCombiner {
-  readonly trees: Tree[] = [];
   private readonly pending: (GrownTree | undefined)[];
-  private next = 0;
+  private next: number;
+  private block: ForestBlock | null = null;
+
+  constructor(
+    private readonly from: number,
+    private readonly to: number,
+    private readonly rows: number,
+    private readonly features: number,
+    private readonly onBlock: (block: ForestBlock) => void,
+  ) {
+    this.pending = new Array<GrownTree | undefined>(to - from);
+    this.next = from;
+  }
+
+  add(index: number, grown: GrownTree): void {
+    this.pending[index - this.from] = grown;
+    for (let g = this.pending[this.next - this.from]; g !== undefined; g = this.pending[this.next - this.from]) {
+      this.pending[this.next - this.from] = undefined;
+      const b = (this.block ??= {
+        index: Math.floor(this.next / TREE_BLOCK),
+        trees: [],
+        oobSum: new Float64Array(this.rows),
+        oobCount: new Uint8Array(this.rows),
+        impSum: new Float64Array(this.features),
+      });
+      this.next++;
+      b.trees.push(g.tree);
+      const rows = g.oobRows;
+      const values = g.oobValues;
+      for (let k = 0; k < rows.length; k++) {
+        b.oobSum[rows[k]] += values[k];
+        b.oobCount[rows[k]]++;
+      }
+      for (let f = 0; f < this.features; f++) b.impSum[f] += g.importance[f];
+      if (this.next % TREE_BLOCK === 0 || this.next === this.to) {
+        this.block = null;
+        this.onBlock(b);
+      }
+    }
+  }
+}
+
+/** Adds whole blocks, strictly in block order, into the forest's sums, then makes the forest. */
+class BlockTotals {
+  private readonly trees: Tree[] = [];
   private readonly oobSum: Float64Array;
   private readonly oobCount: Int32Array;
   private readonly impSum: Float64Array;
@@ -295,30 +400,50 @@ class TreeCombiner {
     rows: number,
     features: number,
   ) {
-    this.pending = new Array<GrownTree | undefined>(count);
     this.oobSum = new Float64Array(rows);
     this.oobCount = new Int32Array(rows);
     this.impSum = new Float64Array(features);
   }
 
-  add(index: number, grown: GrownTree): void {
-    this.pending[index] = grown;
-    for (let g = this.pending[this.next]; g !== undefined; g = this.pending[this.next]) {
-      this.pending[this.next] = undefined;
-      this.next++;
-      this.trees.push(g.tree);
-      const rows = g.oobRows;
-      const values = g.oobValues;
-      for (let k = 0; k < rows.length; k++) {
-        this.oobSum[rows[k]] += values[k];
-        this.oobCount[rows[k]]++;
-      }
-      for (let f = 0; f < this.impSum.length; f++) this.impSum[f] += g.importance[f];
+  add(b: ForestBlock): void {
+    const expected = Math.floor(this.trees.length / TREE_BLOCK);
+    const size = Math.min(TREE_BLOCK, this.count - expected * TREE_BLOCK);
+    if (this.trees.length % TREE_BLOCK !== 0 || b.index !== expected) throw new EngineInputError(msg.blockOrder(b.index, expected));
+    if (b.trees.length !== size || b.oobSum.length !== this.oobSum.length || b.oobCount.length !== this.oobSum.length || b.impSum.length !== this.impSum.length) {
+      throw new EngineInputError(msg.blockShape(b.index, b.trees.length, size, b.oobSum.length, this.oobSum.length));
     }
+    for (const t of b.trees) this.trees.push(t);
+    for (let r = 0; r < this.oobSum.length; r++) {
+      this.oobSum[r] += b.oobSum[r];
+      this.oobCount[r] += b.oobCount[r];
+    }
+    for (let f = 0; f < this.impSum.length; f++) this.impSum[f] += b.impSum[f];
   }
 
-  oobResult(y: Float64Array): OobResult {
-    if (this.next !== this.count) throw new Error(`internal: ${this.next} of ${this.count} trees combined`);
+  /** The forest, its leaf values, OOB predictions and importances scaled back to the target's units. */
+  forest(x: Matrix, target: Float64Array, s: ForestSettings, kind: Forest['kind']): Forest {
+    if (this.trees.length !== this.count) throw new EngineInputError(msg.blocksMissing(this.trees.length, this.count));
+    const scale = targetScale(target);
+    const y = scale === 1 ? target : target.map((v) => v * scale);
+    const forest: Forest = {
+      kind,
+      featureNames: [...x.names],
+      trainingRows: x.rows,
+      options: s,
+      trees: this.trees,
+      oob: this.oobResult(y),
+      impurityImportance: this.importance(),
+    };
+    if (scale !== 1) {
+      const back = 1 / scale;
+      for (const t of forest.trees) for (let i = 0; i < t.value.length; i++) t.value[i] *= back;
+      for (let i = 0; i < forest.oob.predictions.length; i++) forest.oob.predictions[i] *= back;
+      for (let f = 0; f < forest.impurityImportance.length; f++) forest.impurityImportance[f] *= back * back;
+    }
+    return forest;
+  }
+
+  private oobResult(y: Float64Array): OobResult {
     const n = this.oobSum.length;
     const predictions = new Float64Array(n);
     let used = 0;
@@ -344,7 +469,7 @@ class TreeCombiner {
     return out;
   }
 
-  importance(): Float64Array {
+  private importance(): Float64Array {
     const imp = new Float64Array(this.impSum.length);
     for (let f = 0; f < imp.length; f++) imp[f] = this.impSum[f] / this.count;
     return imp;
@@ -386,4 +511,4 @@ export function impurityImportance(f: Forest): Float64Array {
   return f.impurityImportance.slice();
 }
 
-export { serializeForest, deserializeForest } from './serialize.js';
+export { serializeForest, deserializeForest, serializeBlocks, deserializeBlocks } from './serialize.js';

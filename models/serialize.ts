@@ -18,7 +18,7 @@
  * Example: `deserializeForest(serializeForest(forest))` predicts exactly as `forest` does.
  */
 import { EngineInputError, engineMessages as msg } from './engine-errors.js';
-import type { Forest, ForestSettings, OobResult } from './forest.js';
+import type { Forest, ForestBlock, ForestSettings, OobResult } from './forest.js';
 import type { Tree } from './tree.js';
 
 const MAGIC = 'DNDRFRST';
@@ -60,7 +60,7 @@ export function serializeForest(f: Forest): Uint8Array {
   };
   const headerBytes = new TextEncoder().encode(JSON.stringify(header));
   let size = 8 + 4 + 4 + headerBytes.length + 8 * p + 8 + 8 * f.trainingRows + 4;
-  for (const t of f.trees) size += 4 + t.feature.length * (width + 8);
+  for (const t of f.trees) size += treeSize(t, width);
   const out = new Uint8Array(size);
   const view = new DataView(out.buffer);
   let at = 0;
@@ -76,18 +76,7 @@ export function serializeForest(f: Forest): Uint8Array {
   for (let r = 0; r < f.trainingRows; r++, at += 8) view.setFloat64(at, f.oob.predictions[r], true);
   view.setUint32(at, f.trees.length, true);
   at += 4;
-  for (const t of f.trees) {
-    const count = t.feature.length;
-    view.setUint32(at, count, true);
-    at += 4;
-    for (let i = 0; i < count; i++, at += width) {
-      if (width === 2) view.setInt16(at, t.feature[i], true);
-      else view.setInt32(at, t.feature[i], true);
-    }
-    for (let i = 0; i < count; i++, at += 8) {
-      view.setFloat64(at, t.feature[i] >= 0 ? t.threshold[i] : t.value[i], true);
-    }
-  }
+  for (const t of f.trees) at = writeTree(view, at, t, width);
   return out;
 }
 
@@ -136,48 +125,10 @@ export function deserializeForest(bytes: Uint8Array): Forest {
   const treeCount = view.getUint32(at, true);
   at += 4;
   const trees: Tree[] = [];
-  const stack: number[] = [];
   for (let k = 0; k < treeCount; k++) {
-    need(4);
-    const count = view.getUint32(at, true);
-    at += 4;
-    need(count * (width + 8));
-    const t: Tree = {
-      feature: new Int32Array(count),
-      threshold: new Float64Array(count),
-      left: new Int32Array(count),
-      right: new Int32Array(count),
-      value: new Float64Array(count),
-    };
-    for (let i = 0; i < count; i++, at += width) {
-      const feat = width === 2 ? view.getInt16(at, true) : view.getInt32(at, true);
-      if (feat < -1 || feat >= p) throw bad(`tree ${k} node ${i} splits on feature ${feat} of ${p}`);
-      t.feature[i] = feat;
-    }
-    stack.length = 0;
-    for (let i = 0; i < count; i++, at += 8) {
-      const v = view.getFloat64(at, true);
-      if (i > 0) {
-        if (t.feature[i - 1] >= 0) t.left[i - 1] = i;
-        else {
-          const parent = stack.pop();
-          if (parent === undefined) throw bad(`tree ${k} has nodes after its last leaf`);
-          t.right[parent] = i;
-        }
-      }
-      if (t.feature[i] >= 0) {
-        t.threshold[i] = v;
-        t.value[i] = NaN;
-        stack.push(i);
-      } else {
-        t.threshold[i] = NaN;
-        t.value[i] = v;
-        t.left[i] = -1;
-        t.right[i] = -1;
-      }
-    }
-    if (count === 0 || stack.length > 0 || t.feature[count - 1] >= 0) throw bad(`tree ${k} is incomplete`);
-    trees.push(t);
+    const read = readTree(view, at, p, width, k, bad);
+    trees.push(read.tree);
+    at = read.at;
   }
   if (at !== bytes.length) throw bad(`${bytes.length - at} unexpected bytes after the last tree`);
   const oob: OobResult = { predictions, r2: Number.isNaN(r2) ? null : r2, rowsExcluded: header.oob.rowsExcluded };
@@ -191,4 +142,151 @@ export function deserializeForest(bytes: Uint8Array): Forest {
     oob,
     impurityImportance: importance,
   };
+}
+
+/** Bytes one tree takes: its node count, then per node a feature index of `width` bytes and an f64. */
+function treeSize(t: Tree, width: 2 | 4): number {
+  return 4 + t.feature.length * (width + 8);
+}
+
+/** Writes one tree at `at` (see the layout above); returns where the next thing goes. */
+function writeTree(view: DataView, at: number, t: Tree, width: 2 | 4): number {
+  const count = t.feature.length;
+  view.setUint32(at, count, true);
+  at += 4;
+  for (let i = 0; i < count; i++, at += width) {
+    if (width === 2) view.setInt16(at, t.feature[i], true);
+    else view.setInt32(at, t.feature[i], true);
+  }
+  for (let i = 0; i < count; i++, at += 8) view.setFloat64(at, t.feature[i] >= 0 ? t.threshold[i] : t.value[i], true);
+  return at;
+}
+
+/** Reads tree number `k` at `at`, rebuilding the child pointers; `bad` makes the error for bytes that are not one. */
+function readTree(view: DataView, at: number, p: number, width: 2 | 4, k: number, bad: (why: string) => Error): { tree: Tree; at: number } {
+  const need = (n: number): void => {
+    if (at + n > view.byteLength) throw bad('it ends early (truncated?)');
+  };
+  need(4);
+  const count = view.getUint32(at, true);
+  at += 4;
+  need(count * (width + 8));
+  const t: Tree = {
+    feature: new Int32Array(count),
+    threshold: new Float64Array(count),
+    left: new Int32Array(count),
+    right: new Int32Array(count),
+    value: new Float64Array(count),
+  };
+  for (let i = 0; i < count; i++, at += width) {
+    const feat = width === 2 ? view.getInt16(at, true) : view.getInt32(at, true);
+    if (feat < -1 || feat >= p) throw bad(`tree ${k} node ${i} splits on feature ${feat} of ${p}`);
+    t.feature[i] = feat;
+  }
+  const stack: number[] = [];
+  for (let i = 0; i < count; i++, at += 8) {
+    const v = view.getFloat64(at, true);
+    if (i > 0) {
+      if (t.feature[i - 1] >= 0) t.left[i - 1] = i;
+      else {
+        const parent = stack.pop();
+        if (parent === undefined) throw bad(`tree ${k} has nodes after its last leaf`);
+        t.right[parent] = i;
+      }
+    }
+    if (t.feature[i] >= 0) {
+      t.threshold[i] = v;
+      t.value[i] = NaN;
+      stack.push(i);
+    } else {
+      t.threshold[i] = NaN;
+      t.value[i] = v;
+      t.left[i] = -1;
+      t.right[i] = -1;
+    }
+  }
+  if (count === 0 || stack.length > 0 || t.feature[count - 1] >= 0) throw bad(`tree ${k} is incomplete`);
+  return { tree: t, at };
+}
+
+const BLOCKS_MAGIC = 'DNDRBLKS';
+export const BLOCKS_FORMAT_VERSION = 1;
+
+/**
+ * Blocks of forest trees (growForestBlocks) as bytes, round-tripping bit for bit. Layout
+ * (little-endian): 8 bytes magic "DNDRBLKS", u32 format version (1), u32 training rows n, u32
+ * features p, u32 block count; then per block: u32 block index, f64 × p importance sums, f64 × n
+ * out-of-bag sums, u8 × n out-of-bag counts, u32 tree count and the trees as in a forest (feature
+ * indices of 2 bytes, or 4 past 32,766 features).
+ *
+ * Example: `deserializeBlocks(serializeBlocks(blocks, n, p))` equals `blocks`.
+ */
+export function serializeBlocks(blocks: ForestBlock[], rows: number, features: number): Uint8Array {
+  const width: 2 | 4 = features < 32767 ? 2 : 4;
+  let size = 8 + 4 * 4;
+  for (const b of blocks) {
+    size += 4 + 8 * features + 9 * rows + 4;
+    for (const t of b.trees) size += treeSize(t, width);
+  }
+  const out = new Uint8Array(size);
+  const view = new DataView(out.buffer);
+  for (let i = 0; i < 8; i++) out[i] = BLOCKS_MAGIC.charCodeAt(i);
+  view.setUint32(8, BLOCKS_FORMAT_VERSION, true);
+  view.setUint32(12, rows, true);
+  view.setUint32(16, features, true);
+  view.setUint32(20, blocks.length, true);
+  let at = 24;
+  for (const b of blocks) {
+    view.setUint32(at, b.index, true);
+    at += 4;
+    for (let f = 0; f < features; f++, at += 8) view.setFloat64(at, b.impSum[f], true);
+    for (let r = 0; r < rows; r++, at += 8) view.setFloat64(at, b.oobSum[r], true);
+    out.set(b.oobCount, at);
+    at += rows;
+    view.setUint32(at, b.trees.length, true);
+    at += 4;
+    for (const t of b.trees) at = writeTree(view, at, t, width);
+  }
+  return out;
+}
+
+/** Reads bytes written by serializeBlocks; throws EngineInputError for anything else. */
+export function deserializeBlocks(bytes: Uint8Array): ForestBlock[] {
+  const bad = (why: string): EngineInputError => new EngineInputError(msg.notBlocks(why));
+  if (bytes.length < 24) throw bad('too short');
+  for (let i = 0; i < 8; i++) if (bytes[i] !== BLOCKS_MAGIC.charCodeAt(i)) throw bad('the magic header is missing');
+  const view = new DataView(bytes.buffer, bytes.byteOffset, bytes.byteLength);
+  const version = view.getUint32(8, true);
+  if (version !== BLOCKS_FORMAT_VERSION) throw bad(`format version ${version}, this build reads version ${BLOCKS_FORMAT_VERSION}`);
+  const rows = view.getUint32(12, true);
+  const features = view.getUint32(16, true);
+  const count = view.getUint32(20, true);
+  const width: 2 | 4 = features < 32767 ? 2 : 4;
+  let at = 24;
+  const need = (n: number): void => {
+    if (at + n > bytes.length) throw bad('it ends early (truncated?)');
+  };
+  const blocks: ForestBlock[] = [];
+  for (let k = 0; k < count; k++) {
+    need(4 + 8 * features + 9 * rows + 4);
+    const index = view.getUint32(at, true);
+    at += 4;
+    const impSum = new Float64Array(features);
+    for (let f = 0; f < features; f++, at += 8) impSum[f] = view.getFloat64(at, true);
+    const oobSum = new Float64Array(rows);
+    for (let r = 0; r < rows; r++, at += 8) oobSum[r] = view.getFloat64(at, true);
+    const oobCount = bytes.slice(at, at + rows);
+    at += rows;
+    const treeCount = view.getUint32(at, true);
+    at += 4;
+    const trees: Tree[] = [];
+    for (let t = 0; t < treeCount; t++) {
+      const read = readTree(view, at, features, width, t, bad);
+      trees.push(read.tree);
+      at = read.at;
+    }
+    blocks.push({ index, trees, oobSum, oobCount, impSum });
+  }
+  if (at !== bytes.length) throw bad(`${bytes.length - at} unexpected bytes after the last block`);
+  return blocks;
 }
