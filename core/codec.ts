@@ -4,7 +4,8 @@ import { parseJson } from './dict.js';
 
 /**
  * A step's output as cache bytes: 4-byte length, the step's warnings as JSON, then the output in
- * its codec (frame binary or JSON). The same bytes go to the cache and between threads.
+ * its codec (frame binary, JSON, or bytes as they are). The same bytes go to the cache and between
+ * threads.
  *
  * Example: `unpackEntry('json', packEntry('json', {a: 1}, [])).output` is `{a: 1}`.
  */
@@ -12,7 +13,9 @@ export function packEntry(codec: OutputCodec, output: unknown, warnings: Warning
   const body =
     codec === 'frame'
       ? encodeFrame((output as FrameOutput).frame, (output as FrameOutput).notes)
-      : new Uint8Array(Buffer.from(JSON.stringify(output), 'utf8'));
+      : codec === 'bytes'
+        ? (output as Uint8Array)
+        : new Uint8Array(Buffer.from(JSON.stringify(output), 'utf8'));
   const w = Buffer.from(JSON.stringify(warnings), 'utf8');
   const out = new Uint8Array(4 + w.length + body.length);
   new DataView(out.buffer).setUint32(0, w.length, true);
@@ -37,5 +40,6 @@ export function decodeOutput(codec: OutputCodec, body: Uint8Array): unknown {
     const { frame, notes } = decodeFrame(body);
     return { frame, notes };
   }
+  if (codec === 'bytes') return body;
   return parseJson(Buffer.from(body).toString('utf8'));
 }

@@ -2,8 +2,8 @@ import type { Frame } from './frame.js';
 import type { ColumnType } from './recipe-types.js';
 import { generator, seedString } from './rng.js';
 
-/** How a step's output becomes bytes for the cache and back. */
-export type OutputCodec = 'frame' | 'json';
+/** How a step's output becomes bytes for the cache and back ('bytes': a Uint8Array kept as it is). */
+export type OutputCodec = 'frame' | 'json' | 'bytes';
 
 /** A frame plus what the step has to say about it (rows in and out, reasons). */
 export interface FrameOutput {
@@ -65,6 +65,34 @@ export interface StepDefinition<P = unknown, O = unknown> {
   recipe?: RecipeContract<P>;
   /** A few words on the output for the progress line, such as "3,120 rows". */
   summary?(output: O): string;
+  /**
+   * For steps whose work divides into parts that can run apart (a forest's blocks of trees): the
+   * Slurm executor may run ranges of parts as separate tasks and merge them. Locally, `run` does it
+   * all; either way the output is the same, bit for bit.
+   */
+  parts?: StepParts<P, O>;
+}
+
+/** How a step's work divides into parts, given its inputs (see StepParts.divide). */
+export interface PartDivision {
+  /** Parts the instance's work has; 1 when it does not divide. */
+  count: number;
+  /** What a part is made of, in the plural (`trees`), and how many of them a part holds (the last may hold fewer). */
+  unit: string;
+  perPart: number;
+  /** How many of them in all. */
+  total: number;
+  /** The work of one part in the engine's own measure (for a forest: rows drawn × trees), to size tasks by. */
+  work: number;
+}
+
+/** A step whose work divides into parts run apart and merged: merge(all parts) equals run, bit for bit. */
+export interface StepParts<P, O> {
+  divide(inputs: unknown[], params: P): PartDivision;
+  /** Runs parts first..end-1 of the work; the bytes are for `merge`. */
+  run(inputs: unknown[], params: P, ctx: StepContext, first: number, end: number): Promise<Uint8Array>;
+  /** The step's output from the bytes of every range of parts, in order. */
+  merge(inputs: unknown[], params: P, ctx: StepContext, parts: Uint8Array[]): Promise<O>;
 }
 
 /** One planned run of a step: pure data, so another process could run it from this alone. */

@@ -43,3 +43,13 @@ export const DEFAULT_MAX_BINS = 256;
 
 /** Worker threads: 1, i.e. grow trees in the calling thread. Results do not depend on this number. */
 export const DEFAULT_WORKERS = 1;
+
+/**
+ * Trees are combined in blocks of this many: a forest's out-of-bag sums and importances are summed
+ * tree by tree within a block, then block by block, so a forest grown in pieces along block edges
+ * (growForestBlocks, in separate processes or on separate machines) and put together with
+ * assembleForest is bit-identical to the same forest grown whole. Fifty: fine enough to spread a
+ * 500-tree forest over ten tasks, coarse enough that a block's sums (a number and a count per
+ * training row) stay a small share of its bytes beside its trees.
+ */
+export const TREE_BLOCK = 50;

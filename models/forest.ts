@@ -19,6 +19,7 @@ import {
   DEFAULT_REPLACE,
   DEFAULT_SAMPLE_FRACTION,
   DEFAULT_WORKERS,
+  TREE_BLOCK,
 } from './defaults.js';
 import { EngineInputError, engineMessages as msg } from './engine-errors.js';
 import { ForestPool, sharedFloat64 } from './forest-pool.js';
@@ -170,14 +171,6 @@ function resolveSettings(x: Matrix, y: Float64Array, opts: ForestOptions): Fores
   const sampleSize = Math.max(1, Math.round(sampleFraction * x.rows));
   return { trees, maxDepth, minLeaf, minSplit, mtry, sampleFraction, replace, sampleSize, seed: opts.seed, maxBins };
 }
-
-/**
- * Trees are combined in blocks of this many: a forest's out-of-bag sums and importances are summed
- * tree by tree within a block, then block by block, so a forest grown in pieces along block edges
- * (growForestBlocks, in separate processes or on separate machines) and put together with
- * assembleForest is bit-identical to the same forest grown whole.
- */
-export const TREE_BLOCK = 50;
 
 /**
  * What one block of trees adds to a forest, in the units the engine grew on (the target times

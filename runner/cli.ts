@@ -54,6 +54,7 @@ instead be set by the environment variable in brackets, and the option wins:
   --slurm-max-running N     tasks of one array at once       [DENDROLOG_SLURM_MAX_RUNNING]
   --slurm-cpus N            cores per task (default 1)       [DENDROLOG_SLURM_CPUS]
   --slurm-steps-per-task N  steps each task runs (default 1) [DENDROLOG_SLURM_STEPS_PER_TASK]
+  --slurm-trees-per-task N  trees of a final forest per task [DENDROLOG_SLURM_TREES_PER_TASK]
 
 Exit codes:
   0  success (verify: reproduced)

@@ -9,6 +9,7 @@ import { displayOf } from './paths.js';
 import { makeContext, type OutputCodec, type StepInstance, type Warning } from '../core/step-types.js';
 import { WarningLog } from '../core/warnings.js';
 import type { RemoteRunner, TaskStep } from './slurm.js';
+import { mergeParts, partTasks } from './parts.js';
 
 export interface StepRecord {
   id: string;
@@ -152,26 +153,46 @@ export function localExecutor(opts: LocalExecutorOptions): Executor {
       };
 
       const byId = new Map(steps.map((s) => [s.id, s]));
-      /** Heavy steps as cluster tasks: those not cached are submitted, then read back from the cache. */
-      const runRemote = async (batch: StepInstance[], remote: RemoteRunner) => {
+      /**
+       * Heavy steps as cluster tasks: those not cached are submitted, then read back from the cache.
+       * A step that divides into parts (a big forest) goes as several tasks, merged here; parts
+       * already in the cache from an interrupted run are not submitted again.
+       */
+      const runRemote = async (batch: StepInstance[], remote: RemoteRunner, cache: Cache) => {
         const t0 = performance.now();
         const hits = batch.map(lookup);
         const missing = batch.filter((_, k) => hits[k] === null);
         let taskSeconds = new Map<string, number>();
+        const divided = new Map<string, TaskStep[]>();
+        const merged = new Map<string, Decoded>();
         opts.progress.start(`${missing.length} of ${batch.length} steps as cluster tasks`);
         if (missing.length > 0) {
           const inputOf = (id: string) => {
             const s = byId.get(id)!;
             return { key: s.key, codec: stepRegistry[s.kind].codec };
           };
-          const tasks = missing.map(
-            (s): TaskStep => ({ ...s, codec: stepRegistry[s.kind].codec, inputs: s.inputs.map(inputOf) }),
-          );
-          taskSeconds = await remote.run(tasks);
+          const tasks = missing.flatMap((s): TaskStep[] => {
+            const task: TaskStep = { ...s, codec: stepRegistry[s.kind].codec, inputs: s.inputs.map(inputOf) };
+            const parts = partTasks(task, s.inputs.map((id) => outputs.get(id)), (d) => remote.partsPerTask(d));
+            if (!parts) return [task];
+            divided.set(s.id, parts);
+            return parts.filter((p) => cache.get(p.key, p.codec).status !== 'hit');
+          });
+          if (tasks.length > 0) taskSeconds = await remote.run(tasks);
+        }
+        for (const [id, parts] of divided) {
+          const step = byId.get(id)!;
+          const t = performance.now();
+          const entry = store(step, await mergeParts(step, parts, step.inputs.map((i) => outputs.get(i)), cache, opts.workers));
+          // the parts are only a way to this output: once it is stored they go
+          for (const p of parts) cache.discard(p.key);
+          const seconds = parts.reduce((sum, p) => sum + (taskSeconds.get(p.key) ?? 0), (performance.now() - t) / 1000);
+          taskSeconds.set(step.key, seconds);
+          merged.set(step.id, entry);
         }
         const seconds = (performance.now() - t0) / 1000;
         batch.forEach((step, k) => {
-          const entry = hits[k] ?? lookup(step);
+          const entry = hits[k] ?? merged.get(step.id) ?? lookup(step);
           if (!entry) throw new DendrologError(messages.clusterOutputUnreadable(step.id, step.key), 1);
           // a step's own time where its task said it, else the array's
           settle(step, entry, hits[k] ? 'cached' : 'ran', hits[k] ? 0 : (taskSeconds.get(step.key) ?? seconds));
@@ -182,7 +203,9 @@ export function localExecutor(opts: LocalExecutorOptions): Executor {
         for (let i = 0; i < steps.length; ) {
           const batch = parallelBatch(steps, i);
           if (opts.remote && batch.length > 0) {
-            await runRemote(batch, opts.remote);
+            // cluster tasks read and write the shared cache: the command line refuses --no-cache with them
+            if (!opts.cache) throw new Error('internal: the Slurm executor needs a cache');
+            await runRemote(batch, opts.remote, opts.cache);
             i += batch.length;
             continue;
           }

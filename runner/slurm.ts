@@ -5,7 +5,7 @@ import { join } from 'node:path';
 import type { Cache } from './cache.js';
 import { DendrologError, messages } from '../core/messages.js';
 import { parseJson } from '../core/dict.js';
-import type { OutputCodec, StepInstance } from '../core/step-types.js';
+import type { OutputCodec, PartDivision, StepInstance } from '../core/step-types.js';
 import { packageRoot, displayOf } from './paths.js';
 import type { Progress } from './progress.js';
 
@@ -23,6 +23,11 @@ export interface SlurmOptions {
   cpus: number;
   /** Steps each array task runs in turn: more than 1 when steps are short beside Slurm's cost per task. */
   stepsPerTask: number;
+  /**
+   * Trees of a final forest grown per task (rounded up to whole blocks of the engine's); null to size
+   * tasks by their work (TASK_WORK).
+   */
+  treesPerTask: number | null;
 }
 
 /** Each option's command-line name and the environment variable a site may set instead. */
@@ -34,7 +39,26 @@ export const SLURM_SETTINGS: { key: keyof SlurmOptions; option: string; env: str
   { key: 'maxRunning', option: 'slurm-max-running', env: 'DENDROLOG_SLURM_MAX_RUNNING' },
   { key: 'cpus', option: 'slurm-cpus', env: 'DENDROLOG_SLURM_CPUS' },
   { key: 'stepsPerTask', option: 'slurm-steps-per-task', env: 'DENDROLOG_SLURM_STEPS_PER_TASK' },
+  { key: 'treesPerTask', option: 'slurm-trees-per-task', env: 'DENDROLOG_SLURM_TREES_PER_TASK' },
 ];
+
+/**
+ * The work of one task when a step divides into parts and no size is asked for: 60 million rows
+ * drawn into trees, about half a minute for one core (the engine grows a tree at roughly half a
+ * microsecond per row drawn), so that Slurm's few seconds of start-up per task stay a small share.
+ */
+export const TASK_WORK = 60_000_000;
+
+/**
+ * How many parts of a divided step go to one task: the asked number of trees per task in whole
+ * parts, or else enough parts for TASK_WORK.
+ *
+ * Example: `partsPerTask({count: 10, unit: 'trees', perPart: 50, total: 500, work: 15e6}, {treesPerTask: null, …})` is 4.
+ */
+export function partsPerTask(d: PartDivision, o: Pick<SlurmOptions, 'treesPerTask'>): number {
+  if (d.unit === 'trees' && o.treesPerTask !== null) return Math.ceil(o.treesPerTask / d.perPart);
+  return Math.max(1, Math.ceil(TASK_WORK / Math.max(1, d.work)));
+}
 
 /**
  * The Slurm options from command-line values (by option name) over environment variables, checked;
@@ -43,13 +67,13 @@ export const SLURM_SETTINGS: { key: keyof SlurmOptions; option: string; env: str
  * Example: `slurmOptions({'slurm-partition': 'short'}, {DENDROLOG_SLURM_CPUS: '4'})` is `{partition: 'short', cpus: 4, …}`.
  */
 export function slurmOptions(given: Record<string, string | boolean | undefined>, env: NodeJS.ProcessEnv = process.env): SlurmOptions {
-  const out: SlurmOptions = { partition: null, time: null, mem: null, account: null, maxRunning: null, cpus: 1, stepsPerTask: 1 };
+  const out: SlurmOptions = { partition: null, time: null, mem: null, account: null, maxRunning: null, cpus: 1, stepsPerTask: 1, treesPerTask: null };
   for (const { key, option, env: name } of SLURM_SETTINGS) {
     const fromOption = typeof given[option] === 'string' ? (given[option] as string) : undefined;
     const raw = fromOption ?? env[name];
     if (raw === undefined || raw === '') continue;
     const source = fromOption !== undefined ? `--${option}` : name;
-    if (key === 'maxRunning' || key === 'cpus' || key === 'stepsPerTask') {
+    if (key === 'maxRunning' || key === 'cpus' || key === 'stepsPerTask' || key === 'treesPerTask') {
       const n = Number(raw);
       if (!Number.isInteger(n) || n < 1 || n > 100000) throw new DendrologError(refused(source, raw, 'a whole number from 1 to 100000'), 2);
       out[key] = n;
@@ -194,17 +218,40 @@ export function neverStarts(t: TaskRecord): boolean {
 /** Task states where the node, not the step, failed: such a task is submitted once more. */
 export const RETRIED_STATES = new Set(['NODE_FAIL', 'PREEMPTED', 'BOOT_FAIL']);
 
-/** One step as a cluster task needs it: the instance, the codec of its output, and its inputs named by cache key. */
+/**
+ * One step as a cluster task needs it: the instance, the codec of its output, and its inputs named
+ * by cache key. With `part`, only that range of the step's parts (StepParts.run), stored under the
+ * part's own key in the `bytes` codec for the main process to merge.
+ */
 export type TaskStep = Omit<StepInstance, 'inputs'> & {
   codec: OutputCodec;
   inputs: { key: string; codec: OutputCodec }[];
+  part?: { first: number; end: number; of: string };
 };
 
-/** The file a job array's tasks read: the cache they share, and the steps, `stepsPerTask` to each array index. */
+/** The file a job array's tasks read: the cache they share, and the steps of each array index, run in turn. */
 export interface TaskBatch {
   cache: string;
-  stepsPerTask: number;
-  steps: TaskStep[];
+  tasks: TaskStep[][];
+}
+
+/**
+ * Steps into array tasks: `stepsPerTask` consecutive whole steps to a task, and each range of a
+ * divided step's parts a task of its own (it is already sized to a task's work).
+ *
+ * Example: `taskGroups([a, b, c], 2)` is `[[a, b], [c]]`.
+ */
+export function taskGroups(steps: TaskStep[], stepsPerTask: number): TaskStep[][] {
+  const groups: TaskStep[][] = [];
+  let open: TaskStep[] | null = null;
+  for (const s of steps) {
+    if (s.part) {
+      groups.push([s]);
+      open = null;
+    } else if (open && open.length < stepsPerTask) open.push(s);
+    else groups.push((open = [s]));
+  }
+  return groups;
 }
 
 /** What a failed task leaves beside its log, so the main process can repeat the step's own words. */
@@ -226,6 +273,8 @@ export interface SlurmCommands {
 export interface RemoteRunner {
   /** Runs the steps; returns the seconds each took where its task said, by step key. */
   run(steps: TaskStep[]): Promise<Map<string, number>>;
+  /** How many parts of a divided step one task takes (see partsPerTask). */
+  partsPerTask(d: PartDivision): number;
 }
 
 /**
@@ -246,28 +295,33 @@ export class SlurmRunner implements RemoteRunner {
     private readonly commands: SlurmCommands = { sbatch: 'sbatch', scontrol: 'scontrol', scancel: 'scancel' },
   ) {}
 
+  partsPerTask(d: PartDivision): number {
+    return partsPerTask(d, this.options);
+  }
+
   async run(steps: TaskStep[]): Promise<Map<string, number>> {
     const started = performance.now();
     const id = `${new Date().toISOString().replace(/[-:]/g, '').slice(0, 15)}-${randomBytes(4).toString('hex')}`;
     const dir = join(this.cache.dir, 'tasks', id);
     mkdirSync(dir, { recursive: true });
-    const per = this.options.stepsPerTask;
-    writeFileSync(join(dir, 'batch.json'), JSON.stringify({ cache: this.cache.dir, stepsPerTask: per, steps } satisfies TaskBatch));
+    const groups = taskGroups(steps, this.options.stepsPerTask);
+    writeFileSync(join(dir, 'batch.json'), JSON.stringify({ cache: this.cache.dir, tasks: groups } satisfies TaskBatch));
     const bin = join(packageRoot(), 'bin', 'dendrolog.js');
     writeFileSync(
       join(dir, 'task.sh'),
       `#!/bin/sh\n# a dendrolog job array task: runs task number $SLURM_ARRAY_TASK_ID of batch.json (its steps in turn)\nexec ${shellWord(process.execPath)} ${shellWord(bin)} task ${shellWord(join(dir, 'batch.json'))} "$SLURM_ARRAY_TASK_ID"\n`,
       { mode: 0o755 },
     );
-    const taskOf = (i: number) => Math.floor(i / per);
-    let pending = Array.from({ length: Math.ceil(steps.length / per) }, (_, t) => t);
+    let pending = groups.map((_, t) => t);
     const retried = new Set<number>();
     for (;;) {
-      const job = await this.submit(dir, pending, `dendrolog-${steps[0].kind}`, steps.length);
-      const missing = steps.flatMap((s, i) => (pending.includes(taskOf(i)) && this.cache.get(s.key, s.codec).status !== 'hit' ? [i] : []));
+      // the parts of a divided step count as one step
+      const stepCount = new Set(pending.flatMap((t) => groups[t].map((s) => s.part?.of ?? s.key))).size;
+      const job = await this.submit(dir, pending, `dendrolog-${steps[0].kind}`, stepCount);
+      const missing = pending.flatMap((t) => groups[t].filter((s) => this.cache.get(s.key, s.codec).status !== 'hit').map((s) => ({ t, s })));
       if (missing.length === 0) break;
       const records = new Map((this.records(job) ?? []).map((r) => [r.task, r]));
-      const failedTasks = [...new Set(missing.map(taskOf))];
+      const failedTasks = [...new Set(missing.map((m) => m.t))];
       const again = failedTasks.filter((t) => RETRIED_STATES.has(records.get(t)?.state ?? '') && !retried.has(t));
       if (again.length === failedTasks.length) {
         again.forEach((t) => retried.add(t));
@@ -275,13 +329,12 @@ export class SlurmRunner implements RemoteRunner {
         pending = again;
         continue;
       }
-      const i = missing.find((k) => !again.includes(taskOf(k))) ?? missing[0];
-      const t = taskOf(i);
+      const { t, s } = missing.find((m) => !again.includes(m.t)) ?? missing[0];
       const r = records.get(t);
       const log = displayOf(join(dir, `task-${t}.log`));
       const failure = readFailure(join(dir, `task-${t}.error.json`));
       // with several steps to a task, the step that failed is the one its failure names
-      const step = failure?.step ?? steps[i].id;
+      const step = failure?.step ?? s.id;
       if (!r && !failure) throw new DendrologError(messages.clusterTaskNoRecord(step, `${job}_${t}`, log), 1);
       if (r?.state === 'COMPLETED' && !failure) throw new DendrologError(messages.clusterTaskNoOutput(step, `${job}_${t}`, log), 1);
       throw new DendrologError(
@@ -291,7 +344,8 @@ export class SlurmRunner implements RemoteRunner {
     }
     const seconds = readSeconds(dir);
     rmSync(dir, { recursive: true, force: true });
-    this.progress.note(`${steps.length} step${steps.length === 1 ? '' : 's'} done on Slurm in ${((performance.now() - started) / 1000).toFixed(1)} s`);
+    const done = new Set(steps.map((s) => s.part?.of ?? s.key)).size;
+    this.progress.note(`${done} step${done === 1 ? '' : 's'} done on Slurm in ${((performance.now() - started) / 1000).toFixed(1)} s`);
     return seconds;
   }
 

@@ -1,8 +1,8 @@
 /**
  * `dendrolog task BATCH INDEX`: what one Slurm array task runs. It reads the steps of task INDEX in a
- * batch file the Slurm executor wrote (one, or a few run in turn), and for each takes its inputs from
- * the shared cache by key, runs it as the local executor would, and stores the output in the cache
- * (atomically, so tasks never see a partial entry). A failure is written beside the task's log for the main process to repeat.
+ * batch file the Slurm executor wrote (one, or a few run in turn, or a range of one step's parts),
+ * and for each takes its inputs from the shared cache by key, runs it as the local executor would,
+ * and stores the output in the cache (atomically, so tasks never see a partial entry). A failure is written beside the task's log for the main process to repeat.
  */
 import { readFileSync, writeFileSync } from 'node:fs';
 import { dirname, join } from 'node:path';
@@ -25,9 +25,8 @@ export async function runTask(batchFile: string, index: number): Promise<number>
   let current = `task ${index}`;
   try {
     const batch = parseJson(readFileSync(batchFile, 'utf8')) as TaskBatch;
-    const per = batch.stepsPerTask ?? 1;
-    const steps = batch.steps.slice(index * per, (index + 1) * per);
-    if (steps.length === 0) throw new DendrologError(`task ${index} is not in ${batchFile}, which holds ${batch.steps.length} steps, ${per} to a task`, 2);
+    const steps = batch.tasks[index];
+    if (steps === undefined) throw new DendrologError(`task ${index} is not in ${batchFile}, which holds ${batch.tasks.length} tasks`, 2);
     const cache = new Cache(batch.cache);
     const seconds = dict<number>();
     for (const step of steps) {
@@ -43,8 +42,11 @@ export async function runTask(batchFile: string, index: number): Promise<number>
       const def = stepRegistry[step.kind];
       const warnings = new WarningLog();
       const workers = Number(process.env.SLURM_CPUS_PER_TASK) || 1;
-      const output = await def.run(inputs, step.params as never, makeContext(step, { warn: (code, message) => warnings.add(code, message), workers }));
-      const stored = cache.put(step.key, def.codec, packEntry(def.codec, output, warnings.list()));
+      const ctx = makeContext(step, { warn: (code, message) => warnings.add(code, message), workers });
+      const part = step.part;
+      if (part && !def.parts) throw new DendrologError(`step ${step.id} is given as parts, but steps of kind ${step.kind} do not divide`, 2);
+      const output = part ? await def.parts!.run(inputs, step.params as never, ctx, part.first, part.end) : await def.run(inputs, step.params as never, ctx);
+      const stored = cache.put(step.key, step.codec, packEntry(step.codec, output, warnings.list()));
       if (!stored.stored) throw new DendrologError(`cannot write the output of step ${step.id} into the cache ${batch.cache} (${stored.code}: ${stored.detail})`, 1);
       seconds[step.key] = (performance.now() - t0) / 1000;
       process.stdout.write(`step ${step.id}: output stored under ${step.key} (${seconds[step.key].toFixed(2)} s)\n`);

@@ -4,7 +4,7 @@ import { column, type Frame } from '../core/frame.js';
 import type { ChooseOutput } from './choose.js';
 import { applyDesign, learnDesign, targetOf, type LearnedDesign } from './design.js';
 import type { HoldoutOutput } from './holdout.js';
-import { engineFor, type Cell } from './model-kinds.js';
+import { engineFor, type Cell, type FittedModel } from './model-kinds.js';
 import { dict } from '../core/dict.js';
 
 export interface FitParams {
@@ -29,7 +29,47 @@ export interface FitOutput {
   ranges: Record<string, { min: number; max: number }>;
 }
 
-/** Refits a model's chosen cell on all training rows (never the holdout), with features learned on the same rows. */
+const WHERE = 'final fit on all training rows';
+
+/** What the final fit works on: the chosen cell, the features learned on the training rows, and the training matrix and target. */
+function prepare(inputs: unknown[], params: FitParams) {
+  const frame = (inputs[0] as FrameOutput).frame;
+  const split = inputs[1] as HoldoutOutput;
+  const chosen = inputs[2] as ChooseOutput;
+  const cell = chosen.cells[chosen.chosen].cell;
+  const design = learnDesign(frame, split.train, params.features, params.predictors);
+  const x = applyDesign(design, frame, split.train);
+  const y = targetOf(frame, params.target, split.train);
+  return { frame, split, cell, design, x, y };
+}
+
+/** The step's output from the fitted model. */
+function output(p: ReturnType<typeof prepare>, params: FitParams, fitted: FittedModel): FitOutput {
+  return {
+    model: params.model,
+    kind: params.kind,
+    cell: p.cell,
+    used: fitted.used,
+    design: p.design,
+    bytes: Buffer.from(fitted.bytes).toString('base64'),
+    oobR2: fitted.oobR2 ?? null,
+    trainingRows: p.split.train.length,
+    ranges: trainingRanges(p.frame, params.predictors, p.split.train),
+  };
+}
+
+/** The engine's blocks for a kind that has them; the runner divides only steps whose divide said more than one part. */
+function blocksOf(params: FitParams) {
+  const blocks = engineFor(params.kind, params.model).blocks;
+  if (!blocks) throw new Error(`internal: model kind ${params.kind} does not fit in blocks`);
+  return blocks;
+}
+
+/**
+ * Refits a model's chosen cell on all training rows (never the holdout), with features learned on
+ * the same rows. A forest's fit divides into blocks of trees that the Slurm executor may grow as
+ * separate tasks; merged, they give the bytes of the whole fit.
+ */
 export const fit: StepDefinition<FitParams, FitOutput> = {
   kind: 'fit',
   // 3: collinear linear predictors are left out (listed in used); engine errors become messages
@@ -38,25 +78,25 @@ export const fit: StepDefinition<FitParams, FitOutput> = {
   usesSeed: true,
   parallel: true,
   async run(inputs, params, ctx) {
-    const frame = (inputs[0] as FrameOutput).frame;
-    const split = inputs[1] as HoldoutOutput;
-    const chosen = inputs[2] as ChooseOutput;
-    const cell = chosen.cells[chosen.chosen].cell;
-    const design = learnDesign(frame, split.train, params.features, params.predictors);
-    const x = applyDesign(design, frame, split.train);
-    const y = targetOf(frame, params.target, split.train);
-    const fitted = await engineFor(params.kind, params.model).fit(x, y, cell, { seed: ctx.seedFor('fit'), workers: ctx.workers }, 'final fit on all training rows');
-    return {
-      model: params.model,
-      kind: params.kind,
-      cell,
-      used: fitted.used,
-      design,
-      bytes: Buffer.from(fitted.bytes).toString('base64'),
-      oobR2: fitted.oobR2 ?? null,
-      trainingRows: split.train.length,
-      ranges: trainingRanges(frame, params.predictors, split.train),
-    };
+    const p = prepare(inputs, params);
+    const fitted = await engineFor(params.kind, params.model).fit(p.x, p.y, p.cell, { seed: ctx.seedFor('fit'), workers: ctx.workers }, WHERE);
+    return output(p, params, fitted);
+  },
+  parts: {
+    divide(inputs, params) {
+      const chosen = inputs[2] as ChooseOutput;
+      const rows = (inputs[1] as HoldoutOutput).train.length;
+      const d = engineFor(params.kind, params.model).blocks?.divide(chosen.cells[chosen.chosen].cell, rows);
+      return d ? { count: d.count, unit: d.unit, perPart: d.perBlock, total: d.total, work: d.work } : { count: 1, unit: 'fits', perPart: 1, total: 1, work: 0 };
+    },
+    async run(inputs, params, ctx, first, end) {
+      const p = prepare(inputs, params);
+      return blocksOf(params).grow(p.x, p.y, p.cell, { seed: ctx.seedFor('fit'), workers: ctx.workers }, first, end, WHERE);
+    },
+    async merge(inputs, params, ctx, parts) {
+      const p = prepare(inputs, params);
+      return output(p, params, await blocksOf(params).assemble(p.x, p.y, p.cell, { seed: ctx.seedFor('fit'), workers: ctx.workers }, parts, WHERE));
+    },
   },
   summary: (o) => `${o.trainingRows.toLocaleString('en')} training rows`,
 };

@@ -2,7 +2,8 @@ import { deserializeLinear, fitLinear, LinearModelError, predictLinear, serializ
 import { EngineInputError } from '../models/engine-errors.js';
 import { DendrologError, messages } from '../core/messages.js';
 import { deserializeMean, fitMean, predictMean, serializeMean } from '../models/mean.js';
-import { DEFAULT_MIN_LEAF, DEFAULT_REPLACE, DEFAULT_SAMPLE_FRACTION, DEFAULT_TREES } from '../models/defaults.js';
+import { DEFAULT_MIN_LEAF, DEFAULT_REPLACE, DEFAULT_SAMPLE_FRACTION, DEFAULT_TREES, TREE_BLOCK } from '../models/defaults.js';
+import type { Forest, ForestOptions } from '../models/forest.js';
 import { dictOf } from '../core/dict.js';
 import type { Matrix } from './design.js';
 
@@ -43,8 +44,29 @@ export interface ModelKindAdapter {
   baseline: 'constant' | 'linear' | null;
   /** Whether permutation importance and partial dependence can say anything about the kind (a constant cannot). */
   explained: boolean;
-  fit(x: Matrix, y: Float64Array, cell: Cell, opts: { seed: string; workers: number }): Promise<FittedModel>;
+  fit(x: Matrix, y: Float64Array, cell: Cell, opts: FitOptions): Promise<FittedModel>;
   predict(bytes: Uint8Array, x: Matrix): Promise<Float64Array>;
+  /** For kinds whose fit divides into blocks grown apart (a forest's trees); see ModelBlocks. */
+  blocks?: ModelBlocks;
+}
+
+/** Where the engine's randomness starts, and the threads a fit may use. */
+export interface FitOptions {
+  seed: string;
+  workers: number;
+}
+
+/**
+ * A fit that divides into blocks grown apart (in separate cluster tasks) and assembled into exactly
+ * the model `fit` gives, bit for bit.
+ */
+export interface ModelBlocks {
+  /** The blocks a cell's fit on `rows` training rows has, what they hold, and the work of one. */
+  divide(cell: Cell, rows: number): { count: number; unit: string; perBlock: number; total: number; work: number };
+  /** Blocks first..end-1, as bytes for `assemble`. */
+  grow(x: Matrix, y: Float64Array, cell: Cell, opts: FitOptions, first: number, end: number): Promise<Uint8Array>;
+  /** The fitted model from the bytes of every range of blocks, in order. */
+  assemble(x: Matrix, y: Float64Array, cell: Cell, opts: FitOptions, parts: Uint8Array[]): Promise<FittedModel>;
 }
 
 // The forest engine loads on first use, so runs without tree models never start its worker pool.
@@ -69,23 +91,29 @@ export const modelKinds: Record<string, ModelKindAdapter> = dictOf<ModelKindAdap
     baseline: null,
     explained: true,
     async fit(x, y, cell, opts) {
-      const { fitForest, oob, serializeForest } = await forestEngine();
-      const forest = await fitForest(x, y, {
-        trees: cell.trees as number,
-        maxDepth: cell.max_depth as number | null,
-        minLeaf: cell.min_leaf as number,
-        // the engine alone resolves null and fractions, so the count recorded is the count used
-        mtry: cell.mtry as number | null,
-        sampleFraction: cell.sample_fraction as number,
-        replace: cell.replace as boolean,
-        seed: opts.seed,
-        workers: opts.workers,
-      });
-      return { bytes: serializeForest(forest), used: { ...cell, mtry: forest.options.mtry }, oobR2: oob(forest).r2 };
+      const { fitForest } = await forestEngine();
+      return forestFitted(await fitForest(x, y, forestOptions(cell, opts)), cell);
     },
     async predict(bytes, x) {
       const { deserializeForest, predictForest } = await forestEngine();
       return predictForest(deserializeForest(bytes), x);
+    },
+    blocks: {
+      divide(cell, rows) {
+        const trees = cell.trees as number;
+        const perBlock = TREE_BLOCK;
+        // rows drawn per tree, as the engine counts them
+        const drawn = Math.max(1, Math.round((cell.sample_fraction as number) * rows));
+        return { count: Math.ceil(trees / perBlock), unit: 'trees', perBlock, total: trees, work: drawn * perBlock };
+      },
+      async grow(x, y, cell, opts, first, end) {
+        const { growForestBlocks, serializeBlocks } = await forestEngine();
+        return serializeBlocks(await growForestBlocks(x, y, forestOptions(cell, opts), first, end), x.rows, x.columns.length);
+      },
+      async assemble(x, y, cell, opts, parts) {
+        const { assembleForest, deserializeBlocks } = await forestEngine();
+        return forestFitted(assembleForest(x, y, forestOptions(cell, opts), parts.flatMap(deserializeBlocks)), cell);
+      },
     },
   },
   decision_tree: {
@@ -137,10 +165,37 @@ export const modelKinds: Record<string, ModelKindAdapter> = dictOf<ModelKindAdap
   },
 });
 
+/** The forest engine's options for a random_forest grid cell. */
+function forestOptions(cell: Cell, opts: FitOptions): ForestOptions {
+  return {
+    trees: cell.trees as number,
+    maxDepth: cell.max_depth as number | null,
+    minLeaf: cell.min_leaf as number,
+    // the engine alone resolves null and fractions, so the count recorded is the count used
+    mtry: cell.mtry as number | null,
+    sampleFraction: cell.sample_fraction as number,
+    replace: cell.replace as boolean,
+    seed: opts.seed,
+    workers: opts.workers,
+  };
+}
+
+/** A fitted forest as the runner keeps it: its bytes, the hyperparameters used and its OOB R². */
+async function forestFitted(forest: Forest, cell: Cell): Promise<FittedModel> {
+  const { oob, serializeForest } = await forestEngine();
+  return { bytes: serializeForest(forest), used: { ...cell, mtry: forest.options.mtry }, oobR2: oob(forest).r2 };
+}
+
 /** A model of the recipe, fitted and applied through its kind's adapter, with engine errors as messages. */
 export interface ModelEngine {
-  fit(x: Matrix, y: Float64Array, cell: Cell, opts: { seed: string; workers: number }, where: string): Promise<FittedModel>;
+  fit(x: Matrix, y: Float64Array, cell: Cell, opts: FitOptions, where: string): Promise<FittedModel>;
   predict(bytes: Uint8Array, x: Matrix, where: string): Promise<Float64Array>;
+  /** Present for kinds whose fit divides into blocks (see ModelBlocks), with the same `where`. */
+  blocks?: {
+    divide: ModelBlocks['divide'];
+    grow(x: Matrix, y: Float64Array, cell: Cell, opts: FitOptions, first: number, end: number, where: string): Promise<Uint8Array>;
+    assemble(x: Matrix, y: Float64Array, cell: Cell, opts: FitOptions, parts: Uint8Array[], where: string): Promise<FittedModel>;
+  };
 }
 
 /**
@@ -160,9 +215,17 @@ export function engineFor(kind: string, model: string): ModelEngine {
       throw e;
     }
   };
+  const blocks = adapter.blocks;
   return {
     fit: (x, y, cell, opts, where) => guarded(where, () => adapter.fit(x, y, cell, opts)),
     predict: (bytes, x, where) => guarded(where, () => adapter.predict(bytes, x)),
+    ...(blocks && {
+      blocks: {
+        divide: (cell, rows) => blocks.divide(cell, rows),
+        grow: (x, y, cell, opts, first, end, where) => guarded(where, () => blocks.grow(x, y, cell, opts, first, end)),
+        assemble: (x, y, cell, opts, parts, where) => guarded(where, () => blocks.assemble(x, y, cell, opts, parts)),
+      },
+    }),
   };
 }
 

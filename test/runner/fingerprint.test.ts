@@ -21,7 +21,7 @@ function copyOfSources() {
 describe('software fingerprint', () => {
   it('covers the files that shape outputs outside steps/ and models/: frames, codecs, generators, hashing', () => {
     const files = Object.keys(codeHashes(packageRoot(), OUTPUT_ENTRIES));
-    for (const f of ['core/frame.ts', 'core/codec.ts', 'core/rng.ts', 'core/hash.ts', 'core/dict.ts', 'models/forest-worker.ts', 'steps/readers/csv-stream.ts', 'runner/task.ts', 'steps/impute.ts']) {
+    for (const f of ['core/frame.ts', 'core/codec.ts', 'core/rng.ts', 'core/hash.ts', 'core/dict.ts', 'models/forest-worker.ts', 'steps/readers/csv-stream.ts', 'runner/task.ts', 'runner/parts.ts', 'steps/impute.ts']) {
       expect(files).toContain(f);
     }
     // the report, the command line and the run record do not shape step outputs

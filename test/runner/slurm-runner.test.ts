@@ -9,6 +9,8 @@ import { join } from 'node:path';
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { messages } from '../../core/messages.js';
 import { packageRoot } from '../../runner/paths.js';
+import { Cache } from '../../runner/cache.js';
+import { partKey } from '../../runner/parts.js';
 import { SMALL_RECIPE } from '../helpers.js';
 import { cli, expectOutcome, scenario } from '../hostile/harness.js';
 
@@ -64,6 +66,35 @@ describe('the Slurm executor (stand-in commands)', () => {
     expect(steps('a')).toEqual(steps('b'));
   });
 
+  it('grows a final forest as tasks of its trees, merged into the bytes of a local run; a rerun submits only the trees not yet grown', async () => {
+    const recipe = SMALL_RECIPE.replace('mean: {kind: mean}', 'mean: {kind: mean}\n  forest: {kind: random_forest, grid: {trees: 120, min_leaf: 2}}');
+    const s = scenario({ 'recipe.yaml': recipe });
+    const local = await cli(['run', s.recipe, '--no-cache', '--workers', '1', '--out', join(s.dir, 'local')]);
+    expect(local.code).toBe(0);
+    // the fits' array: linear and mean in one task, then the forest's 120 trees as 50, 50 and 20 in
+    // a task each; the last is cancelled
+    process.env.FAKE_SLURM_PLAN = JSON.stringify({ lose: { '2:3': 'CANCELLED' } });
+    const args = ['run', s.recipe, '--cache', s.cache, '--executor', 'slurm', '--slurm-trees-per-task', '50', '--slurm-steps-per-task', '3', '--out', join(s.dir, 'cluster')];
+    const first = await cli(args);
+    expect(first.code).toBe(1);
+    expect(first.err).toMatch(/^step fit forest \(trees 101-120\) failed as Slurm task 102_3 \(CANCELLED, /);
+    expect(first.out).toContain('submitted 3 steps in 4 tasks as Slurm job array 102');
+    delete process.env.FAKE_SLURM_PLAN;
+    const second = await cli(args);
+    expect(second.code, second.err).toBe(0);
+    // the rerun grows only the cancelled trees, then explains
+    expect(calls().map(arrayOf)).toEqual(['--array=0-2', '--array=0-3', '--array=0', '--array=0']);
+    expect(second.out).toContain('submitted 1 step as Slurm job array 103');
+    const manifest = (dir: string) => JSON.parse(readFileSync(join(s.dir, dir, 'manifest.json'), 'utf8')) as { steps: { id: string; key: string; output: string }[] };
+    const outputs = (dir: string) => manifest(dir).steps.map((x) => [x.id, x.output]);
+    expect(outputs('cluster')).toEqual(outputs('local'));
+    // the parts are gone from the cache once merged; the forest's output is there
+    const fit = manifest('cluster').steps.find((x) => x.id === 'fit forest')!;
+    const cache = new Cache(s.cache);
+    expect([0, 1, 2].map((b) => cache.get(partKey(fit.key, b, b + 1), 'bytes').status)).toEqual(['miss', 'miss', 'miss']);
+    expect(cache.get(fit.key, 'json').status).toBe('hit');
+  });
+
   it('submits a task lost with its node once more, and only that task', async () => {
     process.env.FAKE_SLURM_PLAN = JSON.stringify({ lose: { '1': 'NODE_FAIL' } });
     const s = scenario();
@@ -86,8 +117,8 @@ describe('the Slurm executor (stand-in commands)', () => {
     const script = readFileSync(join(s.cache, 'tasks', batch, 'task.sh'), 'utf8').split('\n');
     expect(script[0]).toBe('#!/bin/sh');
     expect(script[2]).toBe(`exec '${process.execPath}' '${join(packageRoot(), 'bin', 'dendrolog.js')}' task '${join(s.cache, 'tasks', batch, 'batch.json')}' "$SLURM_ARRAY_TASK_ID"`);
-    const described = JSON.parse(readFileSync(join(s.cache, 'tasks', batch, 'batch.json'), 'utf8')) as { cache: string; stepsPerTask: number; steps: { id: string }[] };
-    expect([described.cache, described.stepsPerTask, described.steps[3].id]).toEqual([s.cache, 1, 'cv tree one setting fold 1']);
+    const described = JSON.parse(readFileSync(join(s.cache, 'tasks', batch, 'batch.json'), 'utf8')) as { cache: string; tasks: { id: string }[][] };
+    expect([described.cache, described.tasks.length, described.tasks[3].map((t) => t.id)]).toEqual([s.cache, 6, ['cv tree one setting fold 1']]);
     const rerun = await cli(['run', s.recipe, '--cache', s.cache, '--executor', 'slurm']);
     expect(rerun.code).toBe(1);
     // the rerun submits only the steps that have no output: the tree's three folds

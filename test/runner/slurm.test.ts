@@ -5,15 +5,15 @@ import { errorOf } from '../helpers.js';
 import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { packageRoot } from '../../runner/paths.js';
-import { ACTIVE_STATES, arraySpec, neverStarts, RETRIED_STATES, sbatchArgs, shellWord, slurmOptions, submittedJob, taskRecords } from '../../runner/slurm.js';
+import { ACTIVE_STATES, arraySpec, neverStarts, partsPerTask, RETRIED_STATES, sbatchArgs, shellWord, slurmOptions, submittedJob, TASK_WORK, taskGroups, taskRecords, type TaskStep } from '../../runner/slurm.js';
 
-const none = { partition: null, time: null, mem: null, account: null, maxRunning: null, cpus: 1, stepsPerTask: 1 };
+const none = { partition: null, time: null, mem: null, account: null, maxRunning: null, cpus: 1, stepsPerTask: 1, treesPerTask: null };
 
 describe('Slurm options', () => {
   it('take the command line over the environment, and default to one core and nothing else', () => {
     expect(slurmOptions({}, {})).toEqual(none);
-    const o = slurmOptions({ 'slurm-partition': 'short', 'slurm-cpus': '4' }, { DENDROLOG_SLURM_PARTITION: 'long', DENDROLOG_SLURM_MEM: '8G', DENDROLOG_SLURM_MAX_RUNNING: '10' });
-    expect(o).toEqual({ ...none, partition: 'short', mem: '8G', maxRunning: 10, cpus: 4 });
+    const o = slurmOptions({ 'slurm-partition': 'short', 'slurm-cpus': '4' }, { DENDROLOG_SLURM_PARTITION: 'long', DENDROLOG_SLURM_MEM: '8G', DENDROLOG_SLURM_MAX_RUNNING: '10', DENDROLOG_SLURM_TREES_PER_TASK: '100' });
+    expect(o).toEqual({ ...none, partition: 'short', mem: '8G', maxRunning: 10, cpus: 4, treesPerTask: 100 });
   });
 
   it('refuse a bad value, naming the option or variable it came from', async () => {
@@ -21,6 +21,27 @@ describe('Slurm options', () => {
     expect([a.message, a.exitCode]).toEqual([messages.usageOptionValue('--slurm-cpus', '0', 'a whole number from 1 to 100000'), 2]);
     const b = await errorOf(() => slurmOptions({}, { DENDROLOG_SLURM_TIME: '2 hours' }));
     expect(b.message).toBe(messages.usageEnvValue('DENDROLOG_SLURM_TIME', '2 hours', 'a Slurm value without spaces'));
+  });
+});
+
+describe('dividing a step into tasks', () => {
+  // a 500-tree forest in blocks of 50 on 300,000 rows: 15 million rows drawn per block
+  const forest = { count: 10, unit: 'trees', perPart: 50, total: 500, work: 15e6 };
+
+  it('gives a task enough blocks for TASK_WORK, or the trees asked for in whole blocks', () => {
+    expect(partsPerTask(forest, { treesPerTask: null })).toBe(Math.ceil(TASK_WORK / 15e6));
+    expect(partsPerTask(forest, { treesPerTask: 100 })).toBe(2);
+    expect(partsPerTask(forest, { treesPerTask: 120 })).toBe(3);
+    expect(partsPerTask(forest, { treesPerTask: 1 })).toBe(1);
+    // a small fit is one task: its work is far below a task's
+    expect(partsPerTask({ ...forest, work: 1000 }, { treesPerTask: null })).toBeGreaterThanOrEqual(forest.count);
+  });
+
+  it('groups whole steps stepsPerTask to a task, and gives each range of parts a task of its own', () => {
+    const step = (id: string, part?: boolean) => ({ id, ...(part ? { part: { first: 0, end: 1, of: 'k' } } : {}) }) as TaskStep;
+    const ids = (groups: TaskStep[][]) => groups.map((g) => g.map((s) => s.id));
+    expect(ids(taskGroups([step('a'), step('b'), step('c')], 2))).toEqual([['a', 'b'], ['c']]);
+    expect(ids(taskGroups([step('a'), step('p1', true), step('p2', true), step('b'), step('c')], 8))).toEqual([['a'], ['p1'], ['p2'], ['b', 'c']]);
   });
 });
 

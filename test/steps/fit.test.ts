@@ -117,3 +117,26 @@ describe('fit', () => {
     expect([e.message, e.exitCode]).toEqual([messages.missingInPredictor('x1', 1), 1]);
   });
 });
+
+describe('fit in parts (a forest grown as blocks of trees in separate tasks)', () => {
+  const forestCell: Cell = { trees: 120, max_depth: null, min_leaf: 1, mtry: null, sample_fraction: 1, replace: true };
+  const inputs = [asOutput(frame), split, chose([forestCell], 0)];
+  const params = { ...PARAMS, model: 'forest', kind: 'random_forest' };
+
+  it('divides a forest into blocks of 50 trees, and any other kind not at all', () => {
+    expect(fit.parts!.divide(inputs, params)).toEqual({ count: 3, unit: 'trees', perPart: 50, total: 120, work: 8 * 50 });
+    expect(fit.parts!.divide([asOutput(frame), split, chose([{}], 0)], PARAMS).count).toBe(1);
+  });
+
+  it('merges its parts into exactly the output of the whole fit', async () => {
+    const whole = await fit.run(inputs, params, stepContext());
+    const parts = [await fit.parts!.run(inputs, params, stepContext(), 0, 2), await fit.parts!.run(inputs, params, stepContext(), 2, 3)];
+    expect(JSON.stringify(await fit.parts!.merge(inputs, params, stepContext(), parts))).toBe(JSON.stringify(whole));
+  });
+
+  it('turns a refusal of the blocks into a message naming the model and the final fit', async () => {
+    const parts = [await fit.parts!.run(inputs, params, stepContext(), 0, 2)];
+    const e = await errorOf(() => fit.parts!.merge(inputs, params, stepContext(), parts));
+    expect([e.message, e.exitCode]).toEqual([messages.modelEngineFailed('forest', 'final fit on all training rows', engineMessages.blocksMissing(100, 120)), 1]);
+  });
+});
