@@ -60,11 +60,18 @@ describe.runIf(enabled)('the Slurm executor on a real cluster', () => {
     cpSync(join(root, 'recipes', 'lake-chlorophyll'), join(work, 'lake'), { recursive: true, filter: (src) => !src.includes(join('lake-chlorophyll', 'out')) });
     const local = await dendrolog(['run', 'lake/recipe.yaml', '--no-cache', '--out', 'local'], work);
     expect(local.code, local.err).toBe(0);
-    // 120 folds of 24 cells: eight to a task keeps the scheduler's seconds per task from dominating
-    const cluster = await dendrolog(['run', 'lake/recipe.yaml', '--cache', 'cache', '--executor', 'slurm', '--slurm-steps-per-task', '8', '--out', 'cluster'], work);
+    // 120 folds of 24 cells: eight to a task keeps the scheduler's seconds per task from dominating;
+    // the final forest's 200 trees grow as two tasks of 100
+    const cluster = await dendrolog(['run', 'lake/recipe.yaml', '--cache', 'cache', '--executor', 'slurm', '--slurm-steps-per-task', '8', '--slurm-trees-per-task', '100', '--out', 'cluster'], work);
     expect(cluster.code, cluster.err).toBe(0);
     // cross-validation folds, final fits and explanations: three arrays
-    expect(cluster.out.split('\n').filter((l) => submitted(l))).toHaveLength(3);
+    const arrays = cluster.out.split('\n').flatMap((l) => submitted(l) ?? []);
+    expect(arrays.map((m) => [m[1], m[2]])).toEqual([
+      ['120', '15'],
+      // the forest's two tasks of trees, and the other three fits in one
+      ['4', '3'],
+      ['3', '1'],
+    ]);
     expect(outputs(join(work, 'cluster', 'manifest.json'))).toEqual(outputs(join(work, 'local', 'manifest.json')));
   }, SLOW);
 
