@@ -65,7 +65,7 @@ describe.runIf(enabled)('the Slurm executor on a real cluster', () => {
     const cluster = await dendrolog(['run', 'lake/recipe.yaml', '--cache', 'cache', '--executor', 'slurm', '--slurm-steps-per-task', '8', '--slurm-trees-per-task', '100', '--out', 'cluster'], work);
     expect(cluster.code, cluster.err).toBe(0);
     // cross-validation folds, final fits and explanations: three arrays
-    const arrays = cluster.out.split('\n').flatMap((l) => submitted(l) ?? []);
+    const arrays = cluster.out.split('\n').map(submitted).filter((m) => m !== null);
     expect(arrays.map((m) => [m[1], m[2]])).toEqual([
       ['120', '15'],
       // the forest's two tasks of trees, and the other three fits in one
