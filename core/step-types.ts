@@ -58,6 +58,12 @@ export interface StepDefinition<P = unknown, O = unknown> {
   codec: OutputCodec;
   /** Whether the step draws random numbers: then the master seed is part of its key. */
   usesSeed?: boolean;
+  /**
+   * The inputs (by position) whose random draws this step's draws follow; default all. A step
+   * whose other inputs only say what to compute (the final fit's chosen cell) names that in its own
+   * draw purpose instead, so adding an unchosen grid value leaves its draws, and its output, alone.
+   */
+  seedInputs?: number[];
   /** Whether neighbouring instances may run side by side on worker threads (heavy, independent steps). */
   parallel?: boolean;
   run(inputs: unknown[], params: P, ctx: StepContext): O | Promise<O>;

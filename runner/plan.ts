@@ -58,7 +58,8 @@ function planner(seed: number): { steps: StepInstance[]; add: AddStep } {
     const usedSeed = def.usesSeed ? seed : undefined;
     const key = hashValue({ kind, version: def.version, params, seed: usedSeed, software, inputs: inputs.map((i) => keyOf.get(i)) });
     // random draws follow the analysis, not the code: a refactor must not reshuffle the folds
-    const seedKey = hashValue({ kind, version: def.version, params, seed: usedSeed, inputs: inputs.map((i) => seedKeyOf.get(i)) });
+    const seeded = def.seedInputs ? def.seedInputs.map((k) => inputs[k]) : inputs;
+    const seedKey = hashValue({ kind, version: def.version, params, seed: usedSeed, inputs: seeded.map((i) => seedKeyOf.get(i)) });
     keyOf.set(id, key);
     seedKeyOf.set(id, seedKey);
     steps.push({ id, kind, params, inputs, locator, key, seedKey, seed });

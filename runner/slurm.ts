@@ -380,7 +380,8 @@ export class SlurmRunner implements RemoteRunner {
       }
       if (interrupted) spawnSync(this.commands.scancel, [job], { stdio: 'ignore' });
       else {
-        const what = indices.length === stepCount ? `${stepCount} step${stepCount === 1 ? '' : 's'}` : `${stepCount} steps in ${indices.length} task${indices.length === 1 ? '' : 's'}`;
+        const steps = `${stepCount} step${stepCount === 1 ? '' : 's'}`;
+        const what = indices.length === stepCount ? steps : `${steps} in ${indices.length} task${indices.length === 1 ? '' : 's'}`;
         this.progress.note(`submitted ${what} as Slurm job array ${job} (logs in ${displayOf(dir)})`);
       }
       for (let delay = 500; !interrupted; delay = Math.min(delay * 2, 5000)) {

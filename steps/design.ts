@@ -104,6 +104,24 @@ export function applyDesign(learned: LearnedDesign, frame: Frame, rows: ArrayLik
   return { columns, names: [...learned.names], rows: n };
 }
 
+/**
+ * The positions in the model matrix of each predictor's columns (one, or its one-hot indicators),
+ * in the order of `learned.predictors`. Every learned feature step works on one column's own
+ * values, row by row, so reordering a predictor's values among rows reorders exactly these columns.
+ *
+ * Example: with predictors `['tp', 'land_use']` and land_use one-hot over two categories, `[[0], [1, 2]]`.
+ */
+export function predictorColumns(learned: LearnedDesign): number[][] {
+  let at = 0;
+  return learned.predictors.map((p) => {
+    const oh = learned.oneHot[p];
+    const width = oh ? oh.categories.length + (oh.unseen === 'other' ? 1 : 0) : 1;
+    const cols = Array.from({ length: width }, (_, k) => at + k);
+    at += width;
+    return cols;
+  });
+}
+
 /** The target values of some rows. */
 export function targetOf(frame: Frame, target: string, rows: ArrayLike<number>): Float64Array {
   const src = column(frame, target).values as Float64Array;

@@ -1,7 +1,7 @@
 import { column, takeRows, type Column, type Frame } from '../core/frame.js';
 import { shuffle } from '../core/rng.js';
 import type { FrameOutput, StepDefinition } from '../core/step-types.js';
-import { applyDesign, targetOf } from './design.js';
+import { applyDesign, predictorColumns, targetOf } from './design.js';
 import type { FitOutput } from './fit.js';
 import type { HoldoutOutput } from './holdout.js';
 import { engineFor } from './model-kinds.js';
@@ -47,16 +47,20 @@ export interface ExplainOutput {
  */
 export const explain: StepDefinition<ExplainParams, ExplainOutput> = {
   kind: 'explain',
-  version: 1,
+  // 2: draws follow the table and the split only (seedInputs)
+  version: 2,
   codec: 'json',
   usesSeed: true,
+  // every model of the run shuffles the same way and averages over the same sample, so their
+  // explanations differ only by the models
+  seedInputs: [0, 1],
   parallel: true,
   async run(inputs, params, ctx) {
     const full = (inputs[0] as FrameOutput).frame;
     const split = inputs[1] as HoldoutOutput;
     const fitted = inputs[2] as FitOutput;
-    const engine = engineFor(fitted.kind, fitted.model);
-    const bytes = new Uint8Array(Buffer.from(fitted.bytes, 'base64'));
+    const design = fitted.design;
+    const model = await engineFor(fitted.kind, fitted.model).load(new Uint8Array(Buffer.from(fitted.bytes, 'base64')), 'reading the fitted model');
     const test = takeRows(full, split.test);
     const all = [...Array(test.rows).keys()];
     const y = targetOf(test, params.target, all);
@@ -65,15 +69,25 @@ export const explain: StepDefinition<ExplainParams, ExplainOutput> = {
       for (let i = 0; i < p.length; i++) s += (p[i] - y[i]) ** 2;
       return s / p.length;
     };
-    const baselineMse = mse(await engine.predict(bytes, applyDesign(fitted.design, test, all), 'prediction of the holdout rows'));
+    // The model matrix is built once; shuffling a predictor among the rows shuffles its own matrix
+    // columns (see predictorColumns), which gives the same numbers as rebuilding it from a shuffled table.
+    const x = applyDesign(design, test, all);
+    const baselineMse = mse(await model.predict(x, 'prediction of the holdout rows'));
+    const columnsOf = predictorColumns(design);
     const importance: Importance[] = [];
-    for (const [j, predictor] of fitted.design.predictors.entries()) {
+    for (const [j, predictor] of design.predictors.entries()) {
       const rand = ctx.rng('permutation', j);
       const rises: number[] = [];
       for (let r = 0; r < params.repeats; r++) {
         const order = shuffle([...all], rand);
-        const permuted = withColumn(test, predictor, (c) => takeRows({ rows: test.rows, columns: [c] }, order).columns[0]);
-        rises.push(mse(await engine.predict(bytes, applyDesign(fitted.design, permuted, all), `permutation importance of ${predictor}`)) - baselineMse);
+        const columns = x.columns.slice();
+        for (const c of columnsOf[j]) {
+          const src = x.columns[c];
+          const moved = new Float64Array(x.rows);
+          for (let i = 0; i < x.rows; i++) moved[i] = src[order[i]];
+          columns[c] = moved;
+        }
+        rises.push(mse(await model.predict({ ...x, columns }, `permutation importance of ${predictor}`)) - baselineMse);
       }
       const m = rises.reduce((a, b) => a + b, 0) / rises.length;
       const sd = rises.length > 1 ? Math.sqrt(rises.reduce((s, v) => s + (v - m) ** 2, 0) / (rises.length - 1)) : 0;
@@ -84,19 +98,22 @@ export const explain: StepDefinition<ExplainParams, ExplainOutput> = {
     const sampleAt = shuffle([...split.train], ctx.rng('pd-sample')).slice(0, params.sampleRows).sort((a, b) => a - b);
     const sample = takeRows(full, sampleAt);
     const rows = [...Array(sample.rows).keys()];
+    const sx = applyDesign(design, sample, rows);
     const partialDependence: PartialDependence[] = [];
     for (const { predictor } of importance.slice(0, params.top)) {
       const c = column(full, predictor);
       const numeric = c.values instanceof Float64Array;
       const xs = numeric ? quantilePoints(split.train.map((r) => (c.values as Float64Array)[r]), params.points) : categoriesOf(c, split.train);
+      const own = columnsOf[design.predictors.indexOf(predictor)];
       const points: PartialDependence['points'] = [];
-      for (const x of xs) {
-        const fixed = withColumn(sample, predictor, (col) => ({
-          ...col,
-          values: numeric ? new Float64Array(sample.rows).fill(x as number) : new Array<string | null>(sample.rows).fill(x as string),
-        }));
-        const p = await engine.predict(bytes, applyDesign(fitted.design, fixed, rows), `partial dependence on ${predictor}`);
-        points.push({ x, y: p.reduce((a, b) => a + b, 0) / p.length });
+      for (const v of xs) {
+        // the predictor's matrix columns for the value v, as the design makes them for any row
+        const one = withColumn(takeRows(sample, [0]), predictor, (col) => ({ ...col, values: numeric ? Float64Array.of(v as number) : [v as string] }));
+        const at = applyDesign(design, one, [0]);
+        const columns = sx.columns.slice();
+        for (const k of own) columns[k] = new Float64Array(sample.rows).fill(at.columns[k][0]);
+        const p = await model.predict({ ...sx, columns }, `partial dependence on ${predictor}`);
+        points.push({ x: v, y: p.reduce((a, b) => a + b, 0) / p.length });
       }
       partialDependence.push({ predictor, kind: numeric ? 'number' : 'category', points });
     }

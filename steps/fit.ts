@@ -1,5 +1,6 @@
 import type { FeatureStep, ModelKind } from '../core/recipe-types.js';
-import type { FrameOutput, StepDefinition } from '../core/step-types.js';
+import type { FrameOutput, StepContext, StepDefinition } from '../core/step-types.js';
+import { canonicalJson } from '../core/hash.js';
 import { column, type Frame } from '../core/frame.js';
 import type { ChooseOutput } from './choose.js';
 import { applyDesign, learnDesign, targetOf, type LearnedDesign } from './design.js';
@@ -30,6 +31,14 @@ export interface FitOutput {
 }
 
 const WHERE = 'final fit on all training rows';
+
+/**
+ * The engine's seed for the final fit: from the training table and split (the step's seedInputs)
+ * and the chosen cell itself, not from which cells the grid held besides it.
+ */
+function fitSeed(ctx: StepContext, cell: Cell): string {
+  return ctx.seedFor(`fit ${canonicalJson(cell)}`);
+}
 
 /** What the final fit works on: the chosen cell, the features learned on the training rows, and the training matrix and target. */
 function prepare(inputs: unknown[], params: FitParams) {
@@ -72,14 +81,17 @@ function blocksOf(params: FitParams) {
  */
 export const fit: StepDefinition<FitParams, FitOutput> = {
   kind: 'fit',
-  // 3: collinear linear predictors are left out (listed in used); engine errors become messages
-  version: 3,
+  // 4: seeded from the training table, the split and the chosen cell only (seedInputs), so an
+  // unchosen grid value changes nothing; 3: collinear linear predictors are left out (listed in
+  // used); engine errors become messages
+  version: 4,
   codec: 'json',
   usesSeed: true,
+  seedInputs: [0, 1],
   parallel: true,
   async run(inputs, params, ctx) {
     const p = prepare(inputs, params);
-    const fitted = await engineFor(params.kind, params.model).fit(p.x, p.y, p.cell, { seed: ctx.seedFor('fit'), workers: ctx.workers }, WHERE);
+    const fitted = await engineFor(params.kind, params.model).fit(p.x, p.y, p.cell, { seed: fitSeed(ctx, p.cell), workers: ctx.workers }, WHERE);
     return output(p, params, fitted);
   },
   parts: {
@@ -91,11 +103,11 @@ export const fit: StepDefinition<FitParams, FitOutput> = {
     },
     async run(inputs, params, ctx, first, end) {
       const p = prepare(inputs, params);
-      return blocksOf(params).grow(p.x, p.y, p.cell, { seed: ctx.seedFor('fit'), workers: ctx.workers }, first, end, WHERE);
+      return blocksOf(params).grow(p.x, p.y, p.cell, { seed: fitSeed(ctx, p.cell), workers: ctx.workers }, first, end, WHERE);
     },
     async merge(inputs, params, ctx, parts) {
       const p = prepare(inputs, params);
-      return output(p, params, await blocksOf(params).assemble(p.x, p.y, p.cell, { seed: ctx.seedFor('fit'), workers: ctx.workers }, parts, WHERE));
+      return output(p, params, await blocksOf(params).assemble(p.x, p.y, p.cell, { seed: fitSeed(ctx, p.cell), workers: ctx.workers }, parts, WHERE));
     },
   },
   summary: (o) => `${o.trainingRows.toLocaleString('en')} training rows`,

@@ -45,9 +45,15 @@ export interface ModelKindAdapter {
   /** Whether permutation importance and partial dependence can say anything about the kind (a constant cannot). */
   explained: boolean;
   fit(x: Matrix, y: Float64Array, cell: Cell, opts: FitOptions): Promise<FittedModel>;
-  predict(bytes: Uint8Array, x: Matrix): Promise<Float64Array>;
+  /** The model from its bytes, read once, to predict as often as needed (permutation importance predicts many times). */
+  load(bytes: Uint8Array): Promise<LoadedModel>;
   /** For kinds whose fit divides into blocks grown apart (a forest's trees); see ModelBlocks. */
   blocks?: ModelBlocks;
+}
+
+/** A fitted model read from its bytes. */
+export interface LoadedModel {
+  predict(x: Matrix): Float64Array;
 }
 
 /** Where the engine's randomness starts, and the threads a fit may use. */
@@ -94,10 +100,7 @@ export const modelKinds: Record<string, ModelKindAdapter> = dictOf<ModelKindAdap
       const { fitForest } = await forestEngine();
       return forestFitted(await fitForest(x, y, forestOptions(cell, opts)), cell);
     },
-    async predict(bytes, x) {
-      const { deserializeForest, predictForest } = await forestEngine();
-      return predictForest(deserializeForest(bytes), x);
-    },
+    load: loadForest,
     blocks: {
       divide(cell, rows) {
         const trees = cell.trees as number;
@@ -132,10 +135,7 @@ export const modelKinds: Record<string, ModelKindAdapter> = dictOf<ModelKindAdap
       });
       return { bytes: serializeForest(tree), used: { ...cell } };
     },
-    async predict(bytes, x) {
-      const { deserializeForest, predictForest } = await forestEngine();
-      return predictForest(deserializeForest(bytes), x);
-    },
+    load: loadForest,
   },
   linear: {
     grid: {},
@@ -149,9 +149,9 @@ export const modelKinds: Record<string, ModelKindAdapter> = dictOf<ModelKindAdap
       const collinear = (model.collinear ?? []).map((c) => (c.with.length ? `${c.name} (a linear combination of ${c.with.join(', ')})` : `${c.name} (nearly constant)`));
       return { bytes: serializeLinear(model), used: { ...(dropped.length ? { dropped } : {}), ...(collinear.length ? { collinear } : {}) } };
     },
-    async predict(bytes, x) {
+    async load(bytes) {
       const model = deserializeLinear(bytes);
-      return predictLinear(model, selectColumns(x, model.names));
+      return { predict: (x) => predictLinear(model, selectColumns(x, model.names)) };
     },
   },
   mean: {
@@ -161,9 +161,19 @@ export const modelKinds: Record<string, ModelKindAdapter> = dictOf<ModelKindAdap
     async fit(_x, y) {
       return { bytes: serializeMean(fitMean(y)), used: {} };
     },
-    predict: async (bytes, x) => predictMean(deserializeMean(bytes), x.rows),
+    async load(bytes) {
+      const model = deserializeMean(bytes);
+      return { predict: (x) => predictMean(model, x.rows) };
+    },
   },
 });
+
+/** A forest or tree read from its bytes. */
+async function loadForest(bytes: Uint8Array): Promise<LoadedModel> {
+  const { deserializeForest, predictForest } = await forestEngine();
+  const forest = deserializeForest(bytes);
+  return { predict: (x) => predictForest(forest, x) };
+}
 
 /** The forest engine's options for a random_forest grid cell. */
 function forestOptions(cell: Cell, opts: FitOptions): ForestOptions {
@@ -190,6 +200,8 @@ async function forestFitted(forest: Forest, cell: Cell): Promise<FittedModel> {
 export interface ModelEngine {
   fit(x: Matrix, y: Float64Array, cell: Cell, opts: FitOptions, where: string): Promise<FittedModel>;
   predict(bytes: Uint8Array, x: Matrix, where: string): Promise<Float64Array>;
+  /** The model read once; its predictions go through the same boundary, with `where`. */
+  load(bytes: Uint8Array, where: string): Promise<{ predict(x: Matrix, where: string): Promise<Float64Array> }>;
   /** Present for kinds whose fit divides into blocks (see ModelBlocks), with the same `where`. */
   blocks?: {
     divide: ModelBlocks['divide'];
@@ -218,7 +230,11 @@ export function engineFor(kind: string, model: string): ModelEngine {
   const blocks = adapter.blocks;
   return {
     fit: (x, y, cell, opts, where) => guarded(where, () => adapter.fit(x, y, cell, opts)),
-    predict: (bytes, x, where) => guarded(where, () => adapter.predict(bytes, x)),
+    predict: (bytes, x, where) => guarded(where, async () => (await adapter.load(bytes)).predict(x)),
+    async load(bytes, where) {
+      const model = await guarded(where, () => adapter.load(bytes));
+      return { predict: (x, at) => guarded(at, async () => model.predict(x)) };
+    },
     ...(blocks && {
       blocks: {
         divide: (cell, rows) => blocks.divide(cell, rows),

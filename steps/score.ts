@@ -43,19 +43,21 @@ export interface ScoreOutput {
 /** Scores a fitted model once on the holdout rows, with seeded bootstrap intervals. */
 export const score: StepDefinition<ScoreParams, ScoreOutput> = {
   kind: 'score',
-  // 4: stable metric sums; R² undefined for a negligible spread; no interval around an undefined value
-  version: 4,
+  // 5: draws follow the table and the split only (seedInputs); 4: stable metric sums; R² undefined
+  // for a negligible spread; no interval around an undefined value
+  version: 5,
   codec: 'json',
   usesSeed: true,
+  // every model of the run draws the same bootstrap resamples, so their intervals differ only by the models
+  seedInputs: [0, 1],
   async run(inputs, params, ctx) {
     const frame = (inputs[0] as FrameOutput).frame;
     const split = inputs[1] as HoldoutOutput;
     const fitted = inputs[2] as FitOutput;
-    const engine = engineFor(fitted.kind, fitted.model);
-    const bytes = new Uint8Array(Buffer.from(fitted.bytes, 'base64'));
+    const model = await engineFor(fitted.kind, fitted.model).load(new Uint8Array(Buffer.from(fitted.bytes, 'base64')), 'reading the fitted model');
     const y = targetOf(frame, params.target, split.test);
-    const pred = await engine.predict(bytes, applyDesign(fitted.design, frame, split.test), 'prediction of the holdout rows');
-    const trainPred = await engine.predict(bytes, applyDesign(fitted.design, frame, split.train), 'prediction of the training rows');
+    const pred = await model.predict(applyDesign(fitted.design, frame, split.test), 'prediction of the holdout rows');
+    const trainPred = await model.predict(applyDesign(fitted.design, frame, split.train), 'prediction of the training rows');
     const rand = ctx.rng('bootstrap');
     const units: number[][] = [];
     if (params.byGroups && params.groups) {

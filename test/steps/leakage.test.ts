@@ -50,7 +50,7 @@ async function leakyPredictions(frame: Frame, split: HoldoutOutput, folds: Folds
   for (let f = 0; f < folds.k; f++) {
     const { fit, test } = foldRows(folds, f, () => NaN);
     const model = await modelKinds.linear.fit(applyDesign(everywhere, frame, fit), targetOf(frame, 'y', fit), {}, { seed: 's', workers: 1 });
-    const p = await modelKinds.linear.predict(model.bytes, applyDesign(everywhere, frame, test));
+    const p = (await modelKinds.linear.load(model.bytes)).predict(applyDesign(everywhere, frame, test));
     test.forEach((k, j) => (out[k] = p[j]));
   }
   return out;
