@@ -1,6 +1,7 @@
 import type { Frame } from './frame.js';
 import type { ColumnType } from './recipe-types.js';
-import { generator, seedString } from './rng.js';
+import { generator, seedString, unitDraw } from './rng.js';
+import { sha256 } from './hash.js';
 
 /** How a step's output becomes bytes for the cache and back ('bytes': a Uint8Array kept as it is). */
 export type OutputCodec = 'frame' | 'json' | 'bytes';
@@ -38,6 +39,12 @@ export interface StepContext {
   rng(purpose: string, index?: number): () => number;
   /** A seed string for engines that derive their own generators. */
   seedFor(purpose: string, index?: number): string;
+  /**
+   * A uniform [0, 1) draw for one unit (a group, a row) from the master seed, the purpose and the
+   * unit's identity alone, not the step's inputs: splits use it so that a unit stays on its side
+   * when other values, other units or the file's layout change.
+   */
+  unitDraw(purpose: string, unit: string): number;
   warn(code: string, message: string): void;
   /** Threads a step may use (the forest engine grows trees on them). */
   workers: number;
@@ -113,10 +120,26 @@ export interface StepInstance {
   locator: Record<string, string>;
   /** SHA-256 of kind, version, params, seed, software fingerprint and the inputs' keys: the cache address. */
   key: string;
-  /** The same without the software fingerprint: what random generators are seeded from. */
+  /**
+   * What random generators are seeded from: in the plan, a hash of kind, version, params and seed;
+   * the executor then adds the output hashes of the inputs the draws follow (see seededBy), so draws
+   * follow the parsed data, not file bytes, and not the software.
+   */
   seedKey: string;
   /** The recipe's master seed, which the generators start from together with seedKey. */
   seed: number;
+}
+
+/**
+ * The instance as it runs: its seedKey joined with the output hashes (SHA-256 of the encoded
+ * outputs) of the inputs its draws follow (the step's seedInputs, else all), so that equal data
+ * give equal draws however the files holding them were written.
+ *
+ * Example: `seededBy(step, seedInputs, (id) => records.get(id).output)`
+ */
+export function seededBy<T extends Pick<StepInstance, 'seedKey' | 'inputs'>>(step: T, seedInputs: number[] | undefined, outputHash: (id: string) => string): T {
+  const inputs = seedInputs ? seedInputs.map((k) => step.inputs[k]) : step.inputs;
+  return { ...step, seedKey: sha256(`${step.seedKey}|${inputs.map(outputHash).join('|')}`) };
 }
 
 /** A place in a step's value in the recipe, relative to it (e.g. `['columns', 0]`); `[]` is the value. */
@@ -194,6 +217,7 @@ export function makeContext(
     key: instance.key,
     rng: (purpose, index) => generator(instance.seed, instance.seedKey, purpose, index),
     seedFor: (purpose, index) => seedString(instance.seed, instance.seedKey, purpose, index),
+    unitDraw: (purpose, unit) => unitDraw(instance.seed, purpose, unit),
     warn: hooks.warn,
     workers: hooks.workers,
     locator: instance.locator,

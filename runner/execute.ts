@@ -6,7 +6,7 @@ import { DendrologError, messages } from '../core/messages.js';
 import type { Progress } from './progress.js';
 import { StepPool } from './step-pool.js';
 import { displayOf } from './paths.js';
-import { makeContext, type OutputCodec, type StepInstance, type Warning } from '../core/step-types.js';
+import { makeContext, seededBy, type OutputCodec, type StepInstance, type Warning } from '../core/step-types.js';
 import { WarningLog } from '../core/warnings.js';
 import type { RemoteRunner, TaskStep } from './slurm.js';
 import { mergeParts, partTasks } from './parts.js';
@@ -114,7 +114,11 @@ export function localExecutor(opts: LocalExecutorOptions): Executor {
         }
         return unpackEntry(codec, payload);
       };
-      const runHere = async (step: StepInstance): Promise<Uint8Array> => {
+      const outputHash = new Map<string, string>();
+      /** The instance with the contents of its inputs in its seedKey, as it runs (see seededBy). */
+      const asRun = <T extends StepInstance>(step: T): T => seededBy(step, stepRegistry[step.kind].seedInputs, (id) => outputHash.get(id)!);
+      const runHere = async (planned: StepInstance): Promise<Uint8Array> => {
+        const step = asRun(planned);
         const def = stepRegistry[step.kind];
         const stepWarnings = new WarningLog();
         const ctx = makeContext(step, {
@@ -129,7 +133,8 @@ export function localExecutor(opts: LocalExecutorOptions): Executor {
         );
         return packEntry(def.codec, output, stepWarnings.list());
       };
-      const runOnPool = (step: StepInstance): Promise<{ payload: Uint8Array; seconds: number }> => {
+      const runOnPool = (planned: StepInstance): Promise<{ payload: Uint8Array; seconds: number }> => {
+        const step = asRun(planned);
         pool ??= new StepPool(opts.workers);
         onThreads++;
         return pool.run({
@@ -148,7 +153,9 @@ export function localExecutor(opts: LocalExecutorOptions): Executor {
         for (const w of stepWarnings) warnings.add(w.code, w.message, w.count);
         outputs.set(step.id, output);
         bodies.set(step.id, { codec: def.codec, body });
-        records.push({ id: step.id, kind: step.kind, key: step.key, output: sha256(body), status, seconds });
+        const hash = sha256(body);
+        outputHash.set(step.id, hash);
+        records.push({ id: step.id, kind: step.kind, key: step.key, output: hash, status, seconds });
         opts.progress.finish({ id: step.id, status, seconds, summary: def.summary ? def.summary(output as never) : '' });
       };
 
@@ -171,7 +178,7 @@ export function localExecutor(opts: LocalExecutorOptions): Executor {
             const s = byId.get(id)!;
             return { key: s.key, codec: stepRegistry[s.kind].codec };
           };
-          const tasks = missing.flatMap((s): TaskStep[] => {
+          const tasks = missing.map(asRun).flatMap((s): TaskStep[] => {
             const task: TaskStep = { ...s, codec: stepRegistry[s.kind].codec, inputs: s.inputs.map(inputOf) };
             const parts = partTasks(task, s.inputs.map((id) => outputs.get(id)), (d) => remote.partsPerTask(d));
             if (!parts) return [task];
@@ -181,7 +188,7 @@ export function localExecutor(opts: LocalExecutorOptions): Executor {
           if (tasks.length > 0) taskSeconds = await remote.run(tasks);
         }
         for (const [id, parts] of divided) {
-          const step = byId.get(id)!;
+          const step = asRun(byId.get(id)!);
           const t = performance.now();
           const entry = store(step, await mergeParts(step, parts, step.inputs.map((i) => outputs.get(i)), cache, opts.workers));
           // the parts are only a way to this output: once it is stored they go

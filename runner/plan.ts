@@ -51,17 +51,15 @@ type AddStep = (id: string, kind: string, params: unknown, inputs: string[], loc
 function planner(seed: number): { steps: StepInstance[]; add: AddStep } {
   const steps: StepInstance[] = [];
   const keyOf = new Map<string, string>();
-  const seedKeyOf = new Map<string, string>();
   const software = softwareFingerprint();
   const add: AddStep = (id, kind, params, inputs, locator = {}) => {
     const def = stepRegistry[kind];
     const usedSeed = def.usesSeed ? seed : undefined;
     const key = hashValue({ kind, version: def.version, params, seed: usedSeed, software, inputs: inputs.map((i) => keyOf.get(i)) });
-    // random draws follow the analysis, not the code: a refactor must not reshuffle the folds
-    const seeded = def.seedInputs ? def.seedInputs.map((k) => inputs[k]) : inputs;
-    const seedKey = hashValue({ kind, version: def.version, params, seed: usedSeed, inputs: seeded.map((i) => seedKeyOf.get(i)) });
+    // random draws follow the analysis, not the code: a refactor must not reshuffle the folds; the
+    // executor adds the contents of the step's inputs (seededBy), so they follow parsed data, not file bytes
+    const seedKey = hashValue({ kind, version: def.version, params, seed: usedSeed });
     keyOf.set(id, key);
-    seedKeyOf.set(id, seedKey);
     steps.push({ id, kind, params, inputs, locator, key, seedKey, seed });
     return id;
   };

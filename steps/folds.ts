@@ -1,10 +1,9 @@
 import { column } from '../core/frame.js';
 import { DendrologError, messages } from '../core/messages.js';
-import { shuffle } from '../core/rng.js';
 import type { SplitBy } from '../core/recipe-types.js';
 import type { FrameOutput, StepDefinition } from '../core/step-types.js';
 import type { HoldoutOutput } from './holdout.js';
-import { DAY_MS, rowsByGroup, timesOf } from './split-util.js';
+import { DAY_MS, drawOrder, rowIdentities, rowsByGroup, timesOf } from './split-util.js';
 
 export interface FoldsParams {
   k: number;
@@ -30,20 +29,21 @@ export interface FoldsOutput {
 }
 
 /**
- * Assigns training rows to k folds for the inner cross-validation that chooses grid cells. By
- * groups, each group lands in exactly one fold (largest groups first, each to the currently
- * smallest fold). By time, the rows are cut into k + 1 consecutive blocks and fold f tests block
+ * Assigns training rows to k folds for the inner cross-validation that chooses grid cells. A unit's
+ * fold follows from the master seed and the units alone (see foldsAlong), as the holdout's side
+ * does. By groups, each group lands in exactly one fold, folds holding about equal rows; at random,
+ * rows are the units, known by their values. By time, the rows are cut into k + 1 consecutive blocks and fold f tests block
  * f + 1 with everything before it (less the gap) as training rows.
  */
 export const folds: StepDefinition<FoldsParams, FoldsOutput> = {
   kind: 'folds',
-  version: 2,
+  // 3: each unit's fold follows from the seed and the units alone
+  version: 3,
   codec: 'json',
   usesSeed: true,
   run(inputs, params, ctx) {
     const frame = (inputs[0] as FrameOutput).frame;
     const split = inputs[1] as HoldoutOutput;
-    const rand = ctx.rng('folds');
     const position = new Map(split.train.map((r, k) => [r, k] as const));
     const fold = new Array<number>(split.train.length).fill(0);
     if (split.train.length < params.k * 2) {
@@ -75,28 +75,46 @@ export const folds: StepDefinition<FoldsParams, FoldsOutput> = {
       });
       return { k: params.k, by: params.by, fold, trainBefore };
     }
+    const draw = (id: string) => ctx.unitDraw('folds', id);
     if (params.by === 'groups' && params.groups) {
-      const groups = shuffle([...rowsByGroup(frame, params.groups, split.train).values()], rand);
+      const groups = [...rowsByGroup(frame, params.groups, split.train).entries()];
       if (groups.length < params.k) {
         throw new DendrologError(messages.foldsTooFew(groups.length, 'groups', split.testGroups, split.testGroups + groups.length, params.k, params.k), 1);
       }
-      // stable sort keeps the shuffled order among equal sizes
-      groups.sort((a, b) => b.length - a.length);
-      const sizes = new Array<number>(params.k).fill(0);
-      for (const rows of groups) {
-        let f = 0;
-        for (let j = 1; j < params.k; j++) if (sizes[j] < sizes[f]) f = j;
-        sizes[f] += rows.length;
-        for (const r of rows) fold[position.get(r)!] = f;
-      }
+      const order = drawOrder(groups.map(([name]) => name), draw);
+      const of = foldsAlong(order.map((g) => groups[g][1].length), params.k);
+      order.forEach((g, rank) => {
+        for (const r of groups[g][1]) fold[position.get(r)!] = of[rank];
+      });
     } else {
-      const order = shuffle(Array.from({ length: split.train.length }, (_, i) => i), rand);
-      order.forEach((pos, n) => (fold[pos] = n % params.k));
+      const order = drawOrder(rowIdentities(frame, split.train), draw);
+      const of = foldsAlong(order.map(() => 1), params.k);
+      order.forEach((pos, rank) => (fold[pos] = of[rank]));
     }
     return { k: params.k, by: params.by, fold };
   },
   summary: (o) => `${o.k} folds by ${o.by}`,
 };
+
+/**
+ * The fold of each unit, units given in the order of their draws with their sizes in rows: laid end
+ * to end, a unit goes to the k-th part of the line its middle falls in, so folds hold about equal
+ * rows and adding a unit moves at most a few others, near the boundaries. When very unequal sizes
+ * would leave a fold empty, units are dealt by rank instead (k equal counts of units).
+ *
+ * Example: `foldsAlong([1, 1, 1, 1, 1, 1], 3)` is `[0, 0, 1, 1, 2, 2]`.
+ */
+export function foldsAlong(sizes: number[], k: number): number[] {
+  const total = sizes.reduce((a, b) => a + b, 0);
+  let before = 0;
+  const out = sizes.map((size) => {
+    const middle = before + size / 2;
+    before += size;
+    return Math.min(k - 1, Math.floor((middle * k) / total));
+  });
+  if (new Set(out).size === k) return out;
+  return sizes.map((_, rank) => Math.floor((rank * k) / sizes.length));
+}
 
 /**
  * Positions (into the holdout's train list) of the rows fold f trains on and tests on.

@@ -1,10 +1,9 @@
 import { column } from '../core/frame.js';
 import { DendrologError, messages } from '../core/messages.js';
-import { shuffle } from '../core/rng.js';
 import type { SplitBy } from '../core/recipe-types.js';
 import type { FrameOutput, StepDefinition } from '../core/step-types.js';
 import { parseValue } from './readers/values.js';
-import { rowsByGroup, timesOf } from './split-util.js';
+import { drawOrder, rowIdentities, rowsByGroup, timesOf } from './split-util.js';
 
 export interface HoldoutParams {
   by: SplitBy;
@@ -26,14 +25,18 @@ export interface HoldoutOutput {
 }
 
 /**
- * Sets aside the final test rows, scored once and never used for choosing. By groups, whole groups
- * go to one side (shuffled with a seeded generator, taken until the fraction of rows is reached).
+ * Sets aside the final test rows, scored once and never used for choosing. A unit's side is a
+ * function of the master seed and the unit alone (StepContext.unitDraw): editing a value elsewhere,
+ * reordering rows or columns, or a file's line endings move nothing, and adding a unit moves at most
+ * a few others. By groups, whole groups go to one side (in the order of their draws, taken until
+ * the fraction of rows is reached); at random, rows are the units, known by their values.
  * By time, the holdout is every row at or after the cutoff (given, or chosen so that the latest
  * fraction of rows is held out; rows sharing a time stay together).
  */
 export const holdout: StepDefinition<HoldoutParams, HoldoutOutput> = {
   kind: 'holdout',
-  version: 2,
+  // 3: each unit's side follows from the seed and the unit alone
+  version: 3,
   codec: 'json',
   usesSeed: true,
   run(inputs, params, ctx) {
@@ -52,16 +55,17 @@ export const holdout: StepDefinition<HoldoutParams, HoldoutOutput> = {
       }
       for (let i = 0; i < frame.rows; i++) if (t[i] >= cutoff) isTest[i] = 1;
     } else if (params.by === 'groups' && params.groups) {
-      const groups = [...rowsByGroup(frame, params.groups).values()];
-      shuffle(groups, ctx.rng('holdout'));
+      // whole groups, in the order of their own draws, until the fraction of rows is reached
+      const groups = [...rowsByGroup(frame, params.groups).entries()];
       let taken = 0;
-      for (const rows of groups) {
+      for (const k of drawOrder(groups.map(([name]) => name), (id) => ctx.unitDraw('holdout', id))) {
         if (taken >= wanted) break;
-        for (const r of rows) isTest[r] = 1;
-        taken += rows.length;
+        for (const r of groups[k][1]) isTest[r] = 1;
+        taken += groups[k][1].length;
       }
     } else {
-      const order = shuffle(Array.from({ length: frame.rows }, (_, i) => i), ctx.rng('holdout'));
+      const all = Array.from({ length: frame.rows }, (_, i) => i);
+      const order = drawOrder(rowIdentities(frame, all), (id) => ctx.unitDraw('holdout', id));
       for (let k = 0; k < wanted; k++) isTest[order[k]] = 1;
     }
     const train: number[] = [];

@@ -14,7 +14,7 @@ import { fileURLToPath } from 'node:url';
 import { parquetWriteFile } from 'hyparquet-writer';
 import type { Frame } from '../../core/frame.js';
 import type { ColumnType } from '../../core/recipe-types.js';
-import type { FrameOutput } from '../../core/step-types.js';
+import { makeContext, type FrameOutput } from '../../core/step-types.js';
 import { source, type SourceParams } from '../../steps/source.js';
 
 const COLUMNS: Record<string, ColumnType> = {
@@ -102,15 +102,7 @@ function typedBytes(frame: Frame): number {
 async function child(format: 'csv' | 'parquet', path: string): Promise<void> {
   const baseline = process.memoryUsage().rss;
   const params: SourceParams = { sha256: 'bench', format, columns: COLUMNS, missing: ['', 'NA'] };
-  const ctx = {
-    key: 'bench',
-    rng: () => Math.random,
-    seedFor: () => 'bench',
-    warn: () => {},
-    workers: 1,
-    locator: { path, display: path, file: path },
-    progress: () => {},
-  };
+  const ctx = makeContext({ key: 'bench', seed: 1, seedKey: 'bench', locator: { path, display: path, file: path } }, { warn: () => {}, workers: 1 });
   const t0 = performance.now();
   const out = (await source.run([], params, ctx)) as FrameOutput;
   const seconds = (performance.now() - t0) / 1000;

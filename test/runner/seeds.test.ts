@@ -2,7 +2,7 @@
 import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
-import { SMALL_RECIPE } from '../helpers.js';
+import { SMALL_RECIPE, smallData } from '../helpers.js';
 import { cli, scenario } from '../hostile/harness.js';
 
 const manifest = (dir: string) => JSON.parse(readFileSync(join(dir, 'manifest.json'), 'utf8')) as { steps: { id: string; output: string }[] };
@@ -20,5 +20,26 @@ describe('the final fit, its score and its explanation', () => {
     for (const id of ['fit forest', 'score forest', 'explain forest']) {
       expect(outputOf(join(s.dir, 'two'), id), id).toBe(outputOf(join(s.dir, 'one'), id));
     }
+  });
+});
+
+describe('every random draw of a run', () => {
+  it('follows the parsed data: line endings and column order of the file change no output from the model table on', async () => {
+    const lf = smallData();
+    const lines = lf.trimEnd().split('\n');
+    // columns in another order: site,x1,x2,y becomes y,x2,site,x1
+    const swapped = lines.map((l) => {
+      const [site, x1, x2, y] = l.split(',');
+      return [y, x2, site, x1].join(',');
+    });
+    const s = scenario({ 'crlf/data/obs.csv': lines.join('\r\n') + '\r\n', 'crlf/recipe.yaml': SMALL_RECIPE, 'swapped/data/obs.csv': swapped.join('\n') + '\n', 'swapped/recipe.yaml': SMALL_RECIPE });
+    const runs = ['.', 'crlf', 'swapped'].map((d) => join(s.dir, d));
+    for (const d of runs) expect((await cli(['run', join(d, 'recipe.yaml'), '--no-cache', '--out', join(d, 'out')])).code).toBe(0);
+    const fromModelTable = (d: string) => {
+      const steps = manifest(join(d, 'out')).steps;
+      return steps.slice(steps.findIndex((x) => x.id === 'model table')).map((x) => [x.id, x.output]);
+    };
+    expect(fromModelTable(runs[1])).toEqual(fromModelTable(runs[0]));
+    expect(fromModelTable(runs[2])).toEqual(fromModelTable(runs[0]));
   });
 });

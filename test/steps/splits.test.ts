@@ -3,6 +3,7 @@ import type { Frame } from '../../core/frame.js';
 import { DendrologError, messages } from '../../core/messages.js';
 import { foldRows, folds, type FoldsOutput } from '../../steps/folds.js';
 import { holdout, type HoldoutOutput } from '../../steps/holdout.js';
+import { rowIdentities } from '../../steps/split-util.js';
 import { asOutput, stepContext } from '../helpers.js';
 
 /** 30 sites of unequal size (3 to 9 rows) with a daily date column and a numeric year. */
@@ -108,5 +109,68 @@ describe('folds', () => {
     expect(() => folds.run([asOutput(few), s], { k: 4, by: 'groups', gap: 0, groups: 'site', time: null }, stepContext())).toThrow(
       new DendrologError(messages.foldsTooFew(3, 'groups', 0, 3, 4, 4), 1),
     );
+  });
+});
+
+/**
+ * Which units (sites for group splits, row identities for random ones) land on each side: the
+ * holdout as `test`/`train`, and each training unit's fold.
+ */
+function sides(f: Frame, by: 'random' | 'groups', seed = 1) {
+  const s = holdout.run([asOutput(f)], { by, fraction: 0.25, cutoff: null, groups: 'site', time: 'day' }, stepContext([], seed)) as HoldoutOutput;
+  const d = folds.run([asOutput(f), s], { k: 4, by, gap: 0, groups: 'site', time: 'day' }, stepContext([], seed)) as FoldsOutput;
+  const unit = (r: number) => (by === 'groups' ? (f.columns[0].values as string[])[r] : rowIdentities(f, [r])[0]);
+  const side = new Map<string, string>();
+  for (const r of s.test) side.set(unit(r), 'holdout');
+  s.train.forEach((r, k) => side.set(unit(r), `fold ${d.fold[k]}`));
+  return side;
+}
+
+/** The frame with its rows in another order. */
+const reordered = (f: Frame, order: number[]): Frame => ({ rows: f.rows, columns: f.columns.map((c) => ({ ...c, values: Array.isArray(c.values) ? order.map((r) => (c.values as string[])[r]) : Float64Array.from(order, (r) => (c.values as Float64Array)[r]) })) });
+
+/** Units whose side differs between two assignments, among those in both. */
+const moved = (a: Map<string, string>, b: Map<string, string>) => [...a].filter(([u, side]) => b.has(u) && b.get(u) !== side).map(([u]) => u);
+
+describe('a unit’s side (holdout or fold) follows from the seed and the unit alone', () => {
+  const reversed = reordered(frame, [...Array(frame.rows).keys()].reverse());
+  // one day edited in site 4's first row
+  const edited: Frame = { ...frame, columns: frame.columns.map((c) => (c.name === 'day' ? { ...c, values: (c.values as Float64Array).map((v, r) => (siteOf(r) === 'site4' && r === (frame.columns[0].values as string[]).indexOf('site4') ? v + 86_400_000 : v)) } : c)) };
+
+  it('by groups: reordering rows or editing a value moves no group', () => {
+    const base = sides(frame, 'groups');
+    expect(sides(reversed, 'groups')).toEqual(base);
+    expect(sides(edited, 'groups')).toEqual(base);
+    // and another seed does draw another split
+    expect(moved(base, sides(frame, 'groups', 2)).length).toBeGreaterThan(0);
+  });
+
+  it('at random: reordering rows moves no row; editing one row moves at most one other row per boundary', () => {
+    const base = sides(frame, 'random');
+    expect(sides(reversed, 'random')).toEqual(base);
+    const after = sides(edited, 'random');
+    // the edited row is a new unit (rows are known by their values): one unit left, one came, so
+    // each of the four boundaries (holdout, three between folds) shifts by at most one row
+    expect([...after.keys()].filter((u) => !base.has(u))).toHaveLength(1);
+    expect(moved(base, after).length).toBeLessThanOrEqual(4);
+  });
+
+  it('by groups: a new group moves at most the few groups its rows push across a boundary', () => {
+    const base = sides(frame, 'groups');
+    const sizes = [...Array(30).keys()].map((s) => 3 + (s % 7));
+    for (let n = 0; n < 12; n++) {
+      const size = 3 + (n % 7);
+      const grown: Frame = {
+        rows: frame.rows + size,
+        columns: [
+          { name: 'site', type: 'string', values: [...(frame.columns[0].values as string[]), ...Array<string>(size).fill(`new${n}`)] },
+          { name: 'day', type: 'date', values: Float64Array.from([...(frame.columns[1].values as Float64Array), ...Array<number>(size).fill(Date.UTC(2020, 5, 1))]) },
+        ],
+      };
+      // a boundary moves by the new group's rows: the groups covering that many rows, plus one
+      // partly across, can change side; the holdout has one boundary, the 4 folds three more
+      const perBoundary = Math.ceil(size / Math.min(...sizes)) + 1;
+      expect(moved(base, sides(grown, 'groups')).length, `new${n}`).toBeLessThanOrEqual(4 * perBoundary);
+    }
   });
 });
