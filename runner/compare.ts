@@ -13,8 +13,22 @@ export interface MetricChange {
   old: number | null;
   new: number | null;
   oldInterval: { low: number | null; high: number | null };
-  /** Whether the new value lies outside the old run's 90% holdout interval. */
+  /** Whether both runs scored the same holdout units: only then is the old interval a yardstick. */
+  comparable: boolean;
+  /** Whether the new value lies outside the old run's 90% holdout interval (false when not comparable). */
   outsideOldInterval: boolean;
+}
+
+/** Whether two runs held out the same units, and if not, which. */
+export interface HoldoutChange {
+  /** 'unknown' when a manifest predates the record of its holdout. */
+  status: 'same' | 'changed' | 'unknown';
+  unit: 'group' | 'row' | null;
+  old: { holdout: number; training: number } | null;
+  new: { holdout: number; training: number } | null;
+  /** Units held out now that were not before (moved from training, or new), and the reverse; null when a run did not list its units. */
+  nowHeldOut: string[] | null;
+  noLongerHeldOut: string[] | null;
 }
 
 /** What changed between two runs, for a pull-request comment or a machine. */
@@ -23,6 +37,7 @@ export interface Comparison {
   recipe: RecipeChange[];
   data: { source: string; change: string; old: { sha256: string; rows: number } | null; new: { sha256: string; rows: number } | null }[];
   headline: { old: string; new: string };
+  holdout: HoldoutChange;
   chosen: { model: string; old: string | null; new: string | null }[];
   metrics: MetricChange[];
   importance: { model: string; predictor: string; oldRank: number | null; newRank: number | null }[];
@@ -54,6 +69,8 @@ export function compareManifests(a: Manifest, b: Manifest): Comparison {
   const chosen: Comparison['chosen'] = [];
   const metrics: MetricChange[] = [];
   const importance: Comparison['importance'] = [];
+  const holdout = holdoutChange(a.split, b.split);
+  const comparable = holdout.status === 'same';
   for (const name of models) {
     const o = a.models.find((m) => m.name === name);
     const n = b.models.find((m) => m.name === name);
@@ -74,7 +91,8 @@ export function compareManifests(a: Manifest, b: Manifest): Comparison {
         old: oh[k].value,
         new: v,
         oldInterval: iv,
-        outsideOldInterval: v !== null && iv.low !== null && iv.high !== null && (v < iv.low || v > iv.high),
+        comparable,
+        outsideOldInterval: comparable && v !== null && iv.low !== null && iv.high !== null && (v < iv.low || v > iv.high),
       });
     }
     const ranks = (m: typeof o) => {
@@ -94,8 +112,47 @@ export function compareManifests(a: Manifest, b: Manifest): Comparison {
   const headline = { old: a.headline.model, new: b.headline.model };
   const same =
     recipe.length === 0 && data.length === 0 && chosen.length === 0 && metrics.length === 0 && importance.length === 0 &&
-    warnings.added.length === 0 && warnings.resolved.length === 0 && headline.old === headline.new;
-  return { same, recipe, data, headline, chosen, metrics, importance, warnings };
+    warnings.added.length === 0 && warnings.resolved.length === 0 && headline.old === headline.new && holdout.status !== 'changed';
+  return { same, recipe, data, headline, holdout, chosen, metrics, importance, warnings };
+}
+
+/** Whether two runs' holdouts hold the same units, from their manifests' split records. */
+export function holdoutChange(a: Manifest['split'], b: Manifest['split']): HoldoutChange {
+  const counts = (x: Manifest['split']) => (x ? { holdout: x.holdoutUnits, training: x.trainingUnits } : null);
+  if (!a || !b) return { status: 'unknown', unit: a?.unit ?? b?.unit ?? null, old: counts(a), new: counts(b), nowHeldOut: null, noLongerHeldOut: null };
+  const same = a.unit === b.unit && a.digest === b.digest;
+  const listed = a.holdout !== undefined && b.holdout !== undefined && a.unit === b.unit;
+  const before = new Set(a.holdout ?? []);
+  const after = new Set(b.holdout ?? []);
+  return {
+    status: same ? 'same' : 'changed',
+    unit: b.unit,
+    old: counts(a),
+    new: counts(b),
+    nowHeldOut: same ? [] : listed ? [...after].filter((u) => !before.has(u)) : null,
+    noLongerHeldOut: same ? [] : listed ? [...before].filter((u) => !after.has(u)) : null,
+  };
+}
+
+/** A few unit names for a sentence: the first five, then how many more. */
+function someOf(units: string[]): string {
+  const shown = units.slice(0, 5).map((u) => `\`${cell(u)}\``).join(', ');
+  return units.length > 5 ? `${shown} and ${units.length - 5} more` : shown;
+}
+
+/** The holdout paragraph: the first thing a reviewer needs to read the metric changes. */
+function holdoutLines(h: HoldoutChange): string[] {
+  const units = (n: number) => `${n} ${h.unit ?? 'unit'}${n === 1 ? '' : 's'}`;
+  if (h.status === 'unknown') return ['Not known: a run predates the record of its holdout, so metric changes are not judged against the old interval.'];
+  if (h.status === 'same') return [`Same holdout: the same ${units(h.new!.holdout)} held out in both runs, so metric changes are judged against the old interval.`];
+  const lines = [`**The holdout changed** (${units(h.old!.holdout)} → ${units(h.new!.holdout)} held out), so the runs were not scored on the same rows and metric changes are not comparable row for row.`];
+  if (h.nowHeldOut === null || h.noLongerHeldOut === null) lines.push('', 'A run held out too many units to list them, so which ones moved is not known.');
+  else {
+    // rows are known by a hash of their values: their names say nothing, their counts do
+    const names = (u: string[]) => (h.unit === 'group' && u.length ? `: ${someOf(u)}` : '');
+    lines.push('', `- held out now, not before: ${units(h.nowHeldOut.length)}${names(h.nowHeldOut)}`, `- held out before, not now: ${units(h.noLongerHeldOut.length)}${names(h.noLongerHeldOut)}`);
+  }
+  return lines;
 }
 
 function diff(a: unknown, b: unknown, path: string, out: RecipeChange[]): void {
@@ -119,11 +176,11 @@ const cell = (s: string) => s.replace(/\|/g, '\\|').replace(/</g, '&lt;').replac
 export function comparisonMarkdown(c: Comparison, oldName: string, newName: string): string {
   const lines = [`## dendrolog: ${cell(oldName)} → ${cell(newName)}`, ''];
   if (c.same) {
-    lines.push('No change: the recipe, the data, the chosen configurations, the holdout metrics, the importance ranks and the warnings are all the same.', '');
+    lines.push('No change: the recipe, the data, the holdout, the chosen configurations, the holdout metrics, the importance ranks and the warnings are all the same.', '');
     return lines.join('\n');
   }
   if (c.headline.old !== c.headline.new) lines.push(`**Headline model:** \`${c.headline.old}\` → \`${c.headline.new}\``, '');
-  lines.push('### Recipe', '');
+  lines.push('### Holdout', '', ...holdoutLines(c.holdout), '', '### Recipe', '');
   if (c.recipe.length === 0) lines.push('No change.');
   for (const r of c.recipe) lines.push(`- \`${cell(r.path)}\`: ${cell(show(r.old))} → ${cell(show(r.new))}`);
   lines.push('', '### Data', '');
@@ -141,8 +198,9 @@ export function comparisonMarkdown(c: Comparison, oldName: string, newName: stri
   else {
     lines.push('| Model | Metric | Old | New | Old 90% interval | New value outside it? |', '|---|---|---:|---:|---|---|');
     for (const m of c.metrics) {
+      const verdict = !m.comparable ? 'not comparable (other holdout)' : m.outsideOldInterval ? '**yes**' : 'no';
       lines.push(
-        `| ${cell(m.model)} | ${m.metric} | ${formatNumber(m.old)} | ${formatNumber(m.new)} | ${m.oldInterval.low === null ? '—' : `${formatNumber(m.oldInterval.low)} to ${formatNumber(m.oldInterval.high)}`} | ${m.outsideOldInterval ? '**yes**' : 'no'} |`,
+        `| ${cell(m.model)} | ${m.metric} | ${formatNumber(m.old)} | ${formatNumber(m.new)} | ${m.oldInterval.low === null ? '—' : `${formatNumber(m.oldInterval.low)} to ${formatNumber(m.oldInterval.high)}`} | ${verdict} |`,
       );
     }
   }

@@ -34,6 +34,12 @@ export interface Manifest {
   headline: { model: string; metric: string; value: number | null; label: 'holdout' };
   holdoutPredictionsSha256: string;
   /**
+   * The holdout as units, so compare can tell whether two runs scored the same rows: groups by name,
+   * or rows by a hash of their values; the list itself when it has at most MAX_LISTED_UNITS units.
+   * Absent in manifests of older runs.
+   */
+  split?: { by: string; unit: 'group' | 'row'; holdoutUnits: number; trainingUnits: number; digest: string; holdout?: string[] };
+  /**
    * The headline model as written to model.bin, so predict and verify can tell the run's own file
    * from a truncated, edited or foreign one. Absent in manifests of older runs.
    */
@@ -98,6 +104,7 @@ export function buildManifest(
       label: 'holdout',
     },
     holdoutPredictionsSha256: holdoutPredictionsSha256(results),
+    split: splitRecord(results),
     modelFile: { file: 'model.bin', sha256: sha256(modelBin), bytes: modelBin.length },
     environment: { ...environment(), fingerprint: softwareFingerprint() },
     git: gitState(origin.dir),
@@ -107,6 +114,21 @@ export function buildManifest(
       seconds: Number(timing.seconds.toFixed(3)),
       steps: exec.records.map((r) => ({ id: r.id, status: r.status, seconds: Number(r.seconds.toFixed(3)) })),
     },
+  };
+}
+
+/** Holdouts of more units than this are recorded by digest and counts only, to keep the manifest small. */
+export const MAX_LISTED_UNITS = 5000;
+
+function splitRecord(results: Results): NonNullable<Manifest['split']> {
+  const u = results.holdout.units;
+  return {
+    by: results.holdout.by,
+    unit: u.kind,
+    holdoutUnits: u.holdout.length,
+    trainingUnits: u.training,
+    digest: sha256(JSON.stringify(u.holdout)),
+    ...(u.holdout.length <= MAX_LISTED_UNITS ? { holdout: u.holdout } : {}),
   };
 }
 

@@ -4,7 +4,11 @@ import type { TopLevelSpec } from 'vega-lite';
 import { varyingParams } from '../steps/index.js';
 import { formatSetting } from './format.js';
 import type { Recipe } from '../core/recipe-types.js';
+import { shortenText } from './shorten.js';
 import type { Results } from './results.js';
+
+/** Longest group name an axis label shows whole. */
+const PLOT_LABEL_LIMIT = 60;
 
 /** A rendered figure: inline SVG plus the words a reader without the picture needs. */
 export interface Figure {
@@ -71,7 +75,8 @@ export async function buildFigures(recipe: Recipe, results: Results): Promise<Re
   const target = recipe.target;
   const head = results.models.find((m) => m.name === results.chosenModel)!;
   const { observed, predicted, groups } = results.holdoutRows;
-  const rows = observed.map((o, i) => ({ observed: o, predicted: predicted[i], residual: o - predicted[i], group: groups?.[i] ?? '' }));
+  // a group name from the data can be any length: axis labels show it shortened (figures are not shortened later)
+  const rows = observed.map((o, i) => ({ observed: o, predicted: predicted[i], residual: o - predicted[i], group: shortenText(groups?.[i] ?? '', PLOT_LABEL_LIMIT) }));
   const lo = Math.min(...observed, ...predicted);
   const hi = Math.max(...observed, ...predicted);
   const holdout: Figure[] = [];

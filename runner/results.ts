@@ -66,6 +66,8 @@ export interface Results {
     cutoff: number | null;
     /** Why the holdout intervals are unreliable (too few groups or rows), or null. */
     unreliable: string | null;
+    /** The holdout as whole units (groups, or rows by their values), to compare runs by. */
+    units: HoldoutOutput['units'];
   };
   folds: { k: number; by: string; gap: number };
   models: ModelResult[];
@@ -152,6 +154,7 @@ export function gatherResults(recipe: Recipe, plan: Plan, exec: Execution): Resu
       trainGroups: split.trainGroups,
       testGroups: split.testGroups,
       unreliable: headline.holdoutUnreliable,
+      units: split.units,
     },
     folds: { k: folds.k, by: folds.by, gap: recipe.evaluation.folds.gap },
     models,

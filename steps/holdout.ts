@@ -1,4 +1,5 @@
 import { column } from '../core/frame.js';
+import { sha256 } from '../core/hash.js';
 import { DendrologError, messages } from '../core/messages.js';
 import type { SplitBy } from '../core/recipe-types.js';
 import type { FrameOutput, StepDefinition } from '../core/step-types.js';
@@ -22,6 +23,11 @@ export interface HoldoutOutput {
   trainGroups: number;
   /** With by: time, the first time in the holdout (ms for dates). */
   cutoff: number | null;
+  /**
+   * What the split moved as whole units, so two runs can tell whether their holdouts are the same:
+   * groups by name, or rows by a 16-hex digit hash of their values; the holdout's, sorted.
+   */
+  units: { kind: 'group' | 'row'; holdout: string[]; training: number };
 }
 
 /**
@@ -81,7 +87,10 @@ export const holdout: StepDefinition<HoldoutParams, HoldoutOutput> = {
       throw new DendrologError(messages.holdoutEmpty(test.length === 0 ? 'holdout' : 'training', fix), 2);
     }
     const groupCount = (rows: number[]) => (params.groups ? rowsByGroup(frame, params.groups, rows).size : 0);
-    return { train, test, by: params.by, testGroups: groupCount(test), trainGroups: groupCount(train), cutoff };
+    const byGroups = params.by === 'groups' && params.groups !== null;
+    const unitsOf = (rows: number[]) => (byGroups ? [...rowsByGroup(frame, params.groups!, rows).keys()] : rowIdentities(frame, rows).map((id) => sha256(id).slice(0, 16)));
+    const units = { kind: byGroups ? ('group' as const) : ('row' as const), holdout: [...new Set(unitsOf(test))].sort(), training: new Set(unitsOf(train)).size };
+    return { train, test, by: params.by, testGroups: groupCount(test), trainGroups: groupCount(train), cutoff, units };
   },
   summary: (o) => `${o.train.length.toLocaleString('en')} training rows, ${o.test.length.toLocaleString('en')} holdout rows`,
 };

@@ -93,3 +93,6 @@ export async function crossValidateCell(
   for (let fold = 0; fold < inputs[2].k; fold++) parts.push((await cvFold.run(inputs, { ...params, fold }, ctx)) as CvFoldOutput);
   return (await crossValidate.run([inputs[1], inputs[2], ...parts], { cell: params.cell }, ctx)) as CrossValidateOutput;
 }
+
+/** A hand-made holdout's units, for tests that do not compare holdouts. */
+export const NO_UNITS = { kind: 'row' as const, holdout: [] as string[], training: 0 };

@@ -1,7 +1,7 @@
 import { readFileSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
-import { compareManifests, comparisonMarkdown } from '../../runner/compare.js';
+import { compareManifests, comparisonMarkdown, holdoutChange } from '../../runner/compare.js';
 import { DendrologError, messages } from '../../core/messages.js';
 import { predictRun } from '../../runner/predict.js';
 import { silentProgress } from '../../runner/progress.js';
@@ -111,6 +111,64 @@ describe('compare', () => {
     const c = compareManifests(m, m);
     expect(c.same).toBe(true);
     expect(comparisonMarkdown(c, 'a', 'b')).toContain('No change:');
+  });
+
+  it('says the holdout is the same when a value changed, and judges metrics against the old interval', async () => {
+    const a = await run();
+    // one target value of a training or holdout row changes; no group moves
+    const edited = data().replace(/\n(S0,[^\n]*),([^,\n]+)\n/, (_, head: string, y: string) => `\n${head},${Number(y) + 0.5}\n`);
+    expect(edited).not.toBe(data());
+    const dir = makeFolder({ 'recipe.yaml': FOREST, 'data/obs.csv': edited });
+    const b = await runRecipe(join(dir, 'recipe.yaml'), { cache: join(dir, '.cache'), workers: 1, progress: silentProgress() });
+    const c = compareManifests(readManifest(a.outDir), readManifest(b.outDir));
+    expect(c.holdout).toEqual({ status: 'same', unit: 'group', old: { holdout: 3, training: 9 }, new: { holdout: 3, training: 9 }, nowHeldOut: [], noLongerHeldOut: [] });
+    expect(c.metrics.length).toBeGreaterThan(0);
+    expect(c.metrics.every((m) => m.comparable)).toBe(true);
+    expect(comparisonMarkdown(c, 'a', 'b')).toContain('Same holdout: the same 3 groups held out in both runs');
+  });
+
+  it('says which groups moved when the holdout changed, and does not judge metrics against the old interval', async () => {
+    const a = await run();
+    const b = await run(FOREST.replace('seed: 3', 'seed: 4'));
+    const c = compareManifests(readManifest(a.outDir), readManifest(b.outDir));
+    expect(c.holdout.status).toBe('changed');
+    const before = readManifest(a.outDir).split!.holdout!;
+    const after = readManifest(b.outDir).split!.holdout!;
+    expect(c.holdout.nowHeldOut).toEqual(after.filter((g) => !before.includes(g)));
+    expect(c.holdout.noLongerHeldOut).toEqual(before.filter((g) => !after.includes(g)));
+    expect(c.holdout.nowHeldOut!.length).toBeGreaterThan(0);
+    expect(c.metrics.length).toBeGreaterThan(0);
+    expect(c.metrics.some((m) => m.comparable || m.outsideOldInterval)).toBe(false);
+    const md = comparisonMarkdown(c, 'a', 'b');
+    expect(md).toContain('**The holdout changed** (3 groups → 3 groups held out)');
+    expect(md).toContain(`- held out now, not before: ${c.holdout.nowHeldOut!.length} group`);
+    expect(md).toContain(`\`${c.holdout.nowHeldOut![0]}\``);
+    expect(md).toContain('not comparable (other holdout)');
+  });
+
+  it('counts moved rows without naming them, and says when a holdout was too large to list', async () => {
+    const FAKE = readManifest((await run()).outDir);
+    const rec = (holdout: string[] | undefined, digest: string) => ({ by: 'random', unit: 'row' as const, holdoutUnits: 2, trainingUnits: 8, digest, ...(holdout ? { holdout } : {}) });
+    const rows = holdoutChange(rec(['aa', 'bb'], '1'.repeat(64)), rec(['aa', 'cc'], '2'.repeat(64)));
+    expect([rows.nowHeldOut, rows.noLongerHeldOut]).toEqual([['cc'], ['bb']]);
+    const base = compareManifests({ ...FAKE, split: rec(['aa', 'bb'], '1'.repeat(64)) }, { ...FAKE, split: rec(['aa', 'cc'], '2'.repeat(64)) });
+    const md = comparisonMarkdown(base, 'a', 'b');
+    expect(md).toContain('- held out now, not before: 1 row\n');
+    expect(md).not.toContain('`cc`');
+    const big = holdoutChange(rec(undefined, '1'.repeat(64)), rec(undefined, '2'.repeat(64)));
+    expect([big.status, big.nowHeldOut]).toEqual(['changed', null]);
+    expect(comparisonMarkdown({ ...base, holdout: big }, 'a', 'b')).toContain('too many units to list them');
+  });
+
+  it('says the holdout is not known for a run that predates its record', async () => {
+    const a = await run();
+    const b = await run(FOREST.replace('seed: 3', 'seed: 4'));
+    const old = { ...readManifest(a.outDir), split: undefined };
+    const c = compareManifests(old, readManifest(b.outDir));
+    expect(c.holdout.status).toBe('unknown');
+    expect(c.metrics.length).toBeGreaterThan(0);
+    expect(c.metrics.every((x) => !x.comparable)).toBe(true);
+    expect(comparisonMarkdown(c, 'a', 'b')).toContain('Not known: a run predates the record of its holdout');
   });
 
   it('reports exactly the added grid value as the recipe change', async () => {

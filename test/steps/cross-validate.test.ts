@@ -6,7 +6,7 @@ import { engineMessages } from '../../models/engine-errors.js';
 import type { CrossValidateOutput, CrossValidateParams } from '../../steps/cross-validate.js';
 import { folds, type FoldsOutput } from '../../steps/folds.js';
 import { holdout, type HoldoutOutput } from '../../steps/holdout.js';
-import { asOutput, crossValidateCell, errorOf, stepContext } from '../helpers.js';
+import { asOutput, crossValidateCell, errorOf, stepContext, NO_UNITS } from '../helpers.js';
 
 /**
  * 12 rows, y = 2·x1 − x2 exactly. Rows 0–7 train, 8–11 are held out; two folds alternate over the
@@ -29,7 +29,7 @@ function frameOf(x1: number[], x2: number[]): Frame {
 }
 
 const frame = frameOf(X1, X2);
-const split: HoldoutOutput = { train: [0, 1, 2, 3, 4, 5, 6, 7], test: [8, 9, 10, 11], by: 'random', trainGroups: 0, testGroups: 0, cutoff: null };
+const split: HoldoutOutput = { train: [0, 1, 2, 3, 4, 5, 6, 7], test: [8, 9, 10, 11], by: 'random', trainGroups: 0, testGroups: 0, cutoff: null, units: NO_UNITS };
 const twoFolds: FoldsOutput = { k: 2, by: 'random', fold: [0, 1, 0, 1, 0, 1, 0, 1] };
 
 const PARAMS: CrossValidateParams = { model: 'm', kind: 'mean', cell: {}, target: 'y', predictors: ['x1', 'x2'], features: [], time: null };

@@ -5,7 +5,7 @@ import { DendrologError, messages } from '../../core/messages.js';
 import { applyDesign, learnDesign } from '../../steps/design.js';
 import { folds, type FoldsParams } from '../../steps/folds.js';
 import { holdout, type HoldoutOutput, type HoldoutParams } from '../../steps/holdout.js';
-import { asOutput, stepContext } from '../helpers.js';
+import { asOutput, stepContext, NO_UNITS } from '../helpers.js';
 
 const DAY = 86_400_000;
 
@@ -65,7 +65,7 @@ describe('splitting by time', () => {
   it('stops when forward folds meet training rows without a time', () => {
     const f = frame({ missingDay: [0, 1, 2] });
     // a random holdout of rows 50 to 59 leaves the three rows without a time in training
-    const s: HoldoutOutput = { train: Array.from({ length: 50 }, (_, i) => i), test: Array.from({ length: 10 }, (_, i) => 50 + i), by: 'random', testGroups: 0, trainGroups: 0, cutoff: null };
+    const s: HoldoutOutput = { train: Array.from({ length: 50 }, (_, i) => i), test: Array.from({ length: 10 }, (_, i) => 50 + i), by: 'random', testGroups: 0, trainGroups: 0, cutoff: null, units: NO_UNITS };
     const e = errorOf(() => makeFolds(f, s, { by: 'time' }));
     expect([e.message, e.exitCode]).toEqual([messages.timeMissing('day', 3), 1]);
   });

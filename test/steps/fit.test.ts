@@ -12,7 +12,7 @@ import { choose } from '../../steps/choose.js';
 import { fit, type FitOutput, type FitParams } from '../../steps/fit.js';
 import type { HoldoutOutput } from '../../steps/holdout.js';
 import type { Cell } from '../../steps/model-kinds.js';
-import { asOutput, crossValidateCell, errorOf, stepContext } from '../helpers.js';
+import { asOutput, crossValidateCell, errorOf, stepContext, NO_UNITS } from '../helpers.js';
 
 /**
  * 12 rows, y = 2·x1 − x2 exactly; rows 0–7 train, 8–11 are held out. Training x1 spans 1..8 and
@@ -28,7 +28,7 @@ const frame: Frame = {
     { name: 'y', type: 'number', values: Float64Array.from(X1.map((v, i) => 2 * v - X2[i])) },
   ],
 };
-const split: HoldoutOutput = { train: [0, 1, 2, 3, 4, 5, 6, 7], test: [8, 9, 10, 11], by: 'random', trainGroups: 0, testGroups: 0, cutoff: null };
+const split: HoldoutOutput = { train: [0, 1, 2, 3, 4, 5, 6, 7], test: [8, 9, 10, 11], by: 'random', trainGroups: 0, testGroups: 0, cutoff: null, units: NO_UNITS };
 
 const NONE: MetricSet = { r2: { value: null }, rmse: { value: null }, mae: { value: null }, bias: { value: null }, n: 0 };
 

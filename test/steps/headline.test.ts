@@ -10,7 +10,7 @@ import { headline, holdoutUnreliable, type HeadlineOutput, type HeadlineParams }
 import type { HoldoutOutput } from '../../steps/holdout.js';
 import type { Cell } from '../../steps/model-kinds.js';
 import type { ScoreOutput } from '../../steps/score.js';
-import { asOutput, errorOf, stepContext } from '../helpers.js';
+import { asOutput, errorOf, stepContext, NO_UNITS } from '../helpers.js';
 
 /**
  * 10 rows: 0–5 train, 6–9 held out. x1 varies; x2 is 4 on every training row (a constant predictor)
@@ -24,7 +24,7 @@ const frame: Frame = {
     { name: 'y', type: 'number', values: Float64Array.from([0, 1, 2, 3, 4, 5, 1, 2, 3, 6]) },
   ],
 };
-const SPLIT: HoldoutOutput = { train: [0, 1, 2, 3, 4, 5], test: [6, 7, 8, 9], by: 'random', trainGroups: 0, testGroups: 0, cutoff: null };
+const SPLIT: HoldoutOutput = { train: [0, 1, 2, 3, 4, 5], test: [6, 7, 8, 9], by: 'random', trainGroups: 0, testGroups: 0, cutoff: null, units: NO_UNITS };
 /** The held-out y. */
 const OBSERVED = [1, 2, 3, 6];
 

@@ -6,7 +6,7 @@ import { applyDesign, learnDesign, targetOf } from '../../steps/design.js';
 import { foldRows, type FoldsOutput } from '../../steps/folds.js';
 import type { HoldoutOutput } from '../../steps/holdout.js';
 import { modelKinds } from '../../steps/model-kinds.js';
-import { asOutput, crossValidateCell } from '../helpers.js';
+import { asOutput, crossValidateCell, NO_UNITS } from '../helpers.js';
 
 /**
  * A fixture built to expose leakage: three folds whose x ranges do not overlap (1–10, 11–20,
@@ -36,7 +36,7 @@ function fixture(): { frame: Frame; split: HoldoutOutput; folds: FoldsOutput } {
   const all = [...Array(x.length).keys()];
   return {
     frame,
-    split: { train: all, test: [], by: 'random', trainGroups: 0, testGroups: 0, cutoff: null },
+    split: { train: all, test: [], by: 'random', trainGroups: 0, testGroups: 0, cutoff: null, units: NO_UNITS },
     folds: { k: 3, by: 'random', fold },
   };
 }

@@ -8,7 +8,7 @@ import { fit, type FitOutput } from '../../steps/fit.js';
 import type { HoldoutOutput } from '../../steps/holdout.js';
 import type { ModelKind } from '../../core/recipe-types.js';
 import { score, type ScoreOutput, type ScoreParams } from '../../steps/score.js';
-import { asOutput, errorOf, stepContext } from '../helpers.js';
+import { asOutput, errorOf, stepContext, NO_UNITS } from '../helpers.js';
 
 /**
  * 12 rows in 6 sites of 2, y = 2·x1 − x2 exactly; rows 0–7 train, 8–11 are held out (sites S4, S5).
@@ -31,7 +31,7 @@ function frameOf(y: number[], x1 = X1): Frame {
 
 const Y = X1.map((v, i) => 2 * v - X2[i]);
 const frame = frameOf(Y);
-const split: HoldoutOutput = { train: [0, 1, 2, 3, 4, 5, 6, 7], test: [8, 9, 10, 11], by: 'random', trainGroups: 0, testGroups: 0, cutoff: null };
+const split: HoldoutOutput = { train: [0, 1, 2, 3, 4, 5, 6, 7], test: [8, 9, 10, 11], by: 'random', trainGroups: 0, testGroups: 0, cutoff: null, units: NO_UNITS };
 
 const chosen: ChooseOutput = {
   cells: [{ cell: {}, pooled: { r2: { value: null }, rmse: { value: null }, mae: { value: null }, bias: { value: null }, n: 0 }, perFold: { r2: { mean: null, sd: null }, rmse: { mean: null, sd: null }, mae: { mean: null, sd: null }, bias: { mean: null, sd: null } }, used: [], failed: null }],

@@ -4,7 +4,7 @@ import { DendrologError, messages } from '../../core/messages.js';
 import { foldRows, folds, type FoldsOutput } from '../../steps/folds.js';
 import { holdout, type HoldoutOutput } from '../../steps/holdout.js';
 import { rowIdentities } from '../../steps/split-util.js';
-import { asOutput, stepContext } from '../helpers.js';
+import { asOutput, stepContext, NO_UNITS } from '../helpers.js';
 
 /** 30 sites of unequal size (3 to 9 rows) with a daily date column and a numeric year. */
 function sitesFrame(): Frame {
@@ -105,7 +105,7 @@ describe('folds', () => {
       rows: 12,
       columns: [{ name: 'site', type: 'string', values: Array.from({ length: 12 }, (_, i) => `s${i % 3}`) }],
     };
-    const s: HoldoutOutput = { train: [...Array(12).keys()], test: [], by: 'random', testGroups: 0, trainGroups: 3, cutoff: null };
+    const s: HoldoutOutput = { train: [...Array(12).keys()], test: [], by: 'random', testGroups: 0, trainGroups: 3, cutoff: null, units: NO_UNITS };
     expect(() => folds.run([asOutput(few), s], { k: 4, by: 'groups', gap: 0, groups: 'site', time: null }, stepContext())).toThrow(
       new DendrologError(messages.foldsTooFew(3, 'groups', 0, 3, 4, 4), 1),
     );
