@@ -183,6 +183,8 @@ export const messages = {
     `${step} would create column ${q(column)}, which already exists; choose another name`,
   predictorIsTarget: (column: string) =>
     `the target ${q(column)} is also listed as a predictor; remove it from predictors`,
+  learnedNotPredictor: (column: string, step: string) =>
+    `${step} works on column ${q(column)}, which is not a predictor; learned feature steps change only what the models see, so add ${q(column)} to predictors or remove it from the step`,
   categoryPredictorNeedsEncoding: (column: string) =>
     `predictor ${q(column)} is text, which a model cannot use directly; add "- one_hot: {column: ${column}}" under features, or remove it from predictors`,
   targetNotNumber: (column: string, type: string) =>
@@ -297,6 +299,8 @@ export const messages = {
   timeGapTooLarge: (gap: number, unit: string, fold: number) =>
     `evaluation.folds.gap is ${gap} ${unit}, which leaves forward time fold ${fold} no earlier training rows; lower the gap below the span of the training times, or use fewer folds`,
   holdoutEmpty: (side: string, fix: string) => `the holdout split left the ${side} set empty; ${fix}`,
+  holdoutGroupsBothSides: (by: string, both: number, held: number, groups: string) =>
+    `the holdout is split ${by === 'time' ? 'in time' : 'at random'}, so ${both} of its ${held} groups (${groups}) also have training rows: its scores say how well the models predict new ${by === 'time' ? 'times' : 'rows'} of known groups, not new groups; to judge new groups, hold out by groups`,
   missingInPredictor: (column: string, rows: number) =>
     `predictor ${q(column)} has ${rows} missing values in the modelling rows; drop them with "drop_missing" or fill them with an "impute" feature step`,
   tooManyLevels: (column: string, levels: number, limit: number) =>

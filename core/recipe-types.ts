@@ -66,8 +66,12 @@ export interface ModelSpec {
 export type SplitBy = 'random' | 'groups' | 'time';
 
 export interface Evaluation {
-  /** With by: time, `cutoff` (a date or number) puts rows at or after it in the holdout; else the latest `fraction`. */
-  holdout: { by: SplitBy; fraction: number; cutoff: string | number | null };
+  /**
+   * With by: time, `cutoff` (a date or number) puts rows at or after it in the holdout; else the
+   * latest `fraction`. `gap` (days for a date column) leaves the rows just before the cutoff out of
+   * both sides, so training ends that long before the holdout starts.
+   */
+  holdout: { by: SplitBy; fraction: number; cutoff: string | number | null; gap: number };
   /** With by: time, `gap` leaves out training rows this close before each test block (days for dates). */
   folds: { k: number; by: SplitBy; gap: number };
   choose_by: 'rmse' | 'mae' | 'r2';

@@ -100,6 +100,7 @@ export function normalizeRecipe(raw: Raw): Recipe {
       by: (holdout.by as Evaluation['holdout']['by'] | undefined) ?? (groups ? 'groups' : 'random'),
       fraction: (holdout.fraction as number | undefined) ?? 0.2,
       cutoff: (holdout.cutoff as string | number | undefined) ?? null,
+      gap: (holdout.gap as number | undefined) ?? 0,
     },
     folds: {
       k: (folds.k as number | undefined) ?? 5,

@@ -132,7 +132,7 @@ export async function buildFigures(recipe: Recipe, results: Results): Promise<Re
               mark: { type: 'boxplot', extent: 1.5, size: 14, median: { color: 'white' } },
               encoding: {
                 x: { field: 'group', type: 'nominal', title: `Group (${recipe.groups})`, axis: { labelAngle: -45 } },
-                y: { field: 'residual', type: 'quantitative', title: `Residual ${target}` },
+                y: { field: 'residual', type: 'quantitative', title: `Residual (observed − predicted) ${target}` },
               },
             },
           ],

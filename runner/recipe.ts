@@ -235,13 +235,18 @@ function checkMeaning(recipe: Recipe, doc: PositionedDocument): string[] {
 
   // each kind says through its contract what it reads, evaluates, adds, encodes and requires
   const encoded = new Set<string>();
-  for (const { section, index: i, kind, params, contract } of recipeSteps(recipe)) {
+  const predictors = new Set(recipe.predictors);
+  for (const { section, index: i, kind, params, contract, learned } of recipeSteps(recipe)) {
     const label = `${section}[${i}] (${kind})`;
     const base = [section, i, kind];
     const expressions = contract.expressions?.(params) ?? [];
     for (const e of expressions) checkExpression([...base, ...e.at], e.expr, label);
     const inExpressions = new Set(expressions.flatMap((e) => referencedColumns(e.expr)));
-    for (const r of contract.reads(params)) if (!inExpressions.has(r.column)) need([...base, ...r.at], r.column, label);
+    for (const r of contract.reads(params)) {
+      if (inExpressions.has(r.column) || !need([...base, ...r.at], r.column, label)) continue;
+      // the model table holds only target, predictors, groups and time: a learned step sees predictors only
+      if (learned && !predictors.has(r.column)) add([...base, ...r.at], messages.learnedNotPredictor(r.column, label));
+    }
     for (const c of contract.check?.(params, cols, label) ?? []) add([...base, ...c.at], c.message);
     const writes = contract.writes?.(params) ?? [];
     for (const w of writes) {
@@ -274,6 +279,9 @@ function checkMeaning(recipe: Recipe, doc: PositionedDocument): string[] {
     else if (cols.has(recipe.time) && !['date', 'number'].includes(cols.get(recipe.time)!)) {
       add(['time'], messages.schemaOther('time', `column "${recipe.time}" is ${cols.get(recipe.time)}; a time column must be a date or a number`));
     }
+  }
+  if (ev.holdout.gap > 0 && ev.holdout.by !== 'time') {
+    add(['evaluation', 'holdout', 'gap'], messages.schemaOther('evaluation.holdout.gap', 'only applies with by: time; remove it or set by: time'));
   }
   if (ev.holdout.cutoff !== null) {
     if (ev.holdout.by !== 'time') {

@@ -8,7 +8,7 @@ import type { Figure } from './plots.js';
 import { BOOTSTRAP_RESAMPLES } from './plan.js';
 import { table } from '../core/dict.js';
 
-const METRIC_LABELS: Record<string, string> = table({ r2: 'R²', rmse: 'RMSE', mae: 'MAE', bias: 'Bias (mean error)' });
+const METRIC_LABELS: Record<string, string> = table({ r2: 'R²', rmse: 'RMSE', mae: 'MAE', bias: 'Bias (predicted − observed)' });
 
 /** Everything the templates show, already formatted: templates only lay it out and escape it. */
 export function reportView(recipe: Recipe, results: Results, manifest: Manifest, figures: Record<string, Figure[]> = {}) {
@@ -161,8 +161,9 @@ function splitWords(by: string, recipe: Recipe, part: 'holdout' | 'folds'): stri
   if (by === 'groups') return `by groups (${recipe.groups})`;
   if (by === 'random') return 'at random';
   if (part === 'holdout') {
-    const c = recipe.evaluation.holdout.cutoff;
-    return c === null ? `by time (${recipe.time}): the latest rows` : `by time (${recipe.time}): rows at or after ${c}`;
+    const { cutoff: c, gap } = recipe.evaluation.holdout;
+    const rows = c === null ? `by time (${recipe.time}): the latest rows` : `by time (${recipe.time}): rows at or after ${c}`;
+    return gap ? `${rows}, training rows ending a gap of ${gap} before them` : rows;
   }
   const gap = recipe.evaluation.folds.gap;
   return `forward in time (${recipe.time}): each fold trains only on earlier rows${gap ? `, leaving a gap of ${gap}` : ''}`;

@@ -8,6 +8,14 @@ export function presentValues(frame: Frame, name: string, rows: ArrayLike<number
   return out;
 }
 
+/** The values of a column over some rows, a missing one replaced by `fill`. */
+export function filledValues(frame: Frame, name: string, rows: ArrayLike<number>, fill: number): number[] {
+  const src = column(frame, name).values as Float64Array;
+  const out: number[] = [];
+  for (let i = 0; i < rows.length; i++) out.push(Number.isNaN(src[rows[i]]) ? fill : src[rows[i]]);
+  return out;
+}
+
 /** Arithmetic mean; NaN for no values. */
 export function mean(v: number[]): number {
   return v.reduce((a, b) => a + b, 0) / v.length;

@@ -55,7 +55,8 @@ export interface CvFoldOutput {
  */
 export const cvFold: StepDefinition<CrossValidateParams & { fold: number }, CvFoldOutput> = {
   kind: 'cv_fold',
-  version: 1,
+  // 2: standardize learns on the values an impute step fills
+  version: 2,
   codec: 'json',
   usesSeed: true,
   parallel: true,

@@ -27,7 +27,13 @@ export interface LearnedDesign {
 export interface LearnedFeature<P> {
   kind: string;
   recipe: RecipeContract<P>;
-  /** Writes what the step learns from `rows` of `frame` into `design` (earlier steps' values are there). */
+  /**
+   * Where applyDesign applies what the kind learned: fills (0) before scales (1). Kinds learn in
+   * stage order, then recipe order, so a kind sees the values the model matrix will hold before
+   * it: a scale is learned on the filled values, wherever the recipe lists the fill.
+   */
+  stage: number;
+  /** Writes what the step learns from `rows` of `frame` into `design` (earlier stages' values are there). */
   learn(params: P, frame: Frame, rows: ArrayLike<number>, design: LearnedDesign): void;
 }
 
@@ -46,8 +52,11 @@ export const OTHER = '(other)';
  */
 export function learnDesign(frame: Frame, rows: ArrayLike<number>, steps: FeatureStep[], predictors: string[]): LearnedDesign {
   const learned: LearnedDesign = { predictors, names: [], impute: dict(), standardize: dict(), oneHot: dict() };
-  for (const { kind, ...params } of steps) {
-    if (has(learnedFeatures, kind)) learnedFeatures[kind].learn(params as never, frame, rows, learned);
+  const ordered = steps.filter((s) => has(learnedFeatures, s.kind)).map((s, order) => ({ s, order, stage: learnedFeatures[s.kind].stage }));
+  ordered.sort((a, b) => a.stage - b.stage || a.order - b.order);
+  for (const { s } of ordered) {
+    const { kind, ...params } = s;
+    learnedFeatures[kind].learn(params as never, frame, rows, learned);
   }
   for (const p of predictors) {
     const oh = learned.oneHot[p];

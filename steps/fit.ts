@@ -82,7 +82,7 @@ function blocksOf(params: FitParams) {
 export const fit: StepDefinition<FitParams, FitOutput> = {
   kind: 'fit',
   // 4: seeded from the training table, the split and the chosen cell only (seedInputs), so an
-  // unchosen grid value changes nothing; 3: collinear linear predictors are left out (listed in
+  // unchosen grid value changes nothing; standardize learns on the values an impute step fills; 3: collinear linear predictors are left out (listed in
   // used); engine errors become messages
   version: 4,
   codec: 'json',

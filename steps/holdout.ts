@@ -4,12 +4,17 @@ import { DendrologError, messages } from '../core/messages.js';
 import type { SplitBy } from '../core/recipe-types.js';
 import type { FrameOutput, StepDefinition } from '../core/step-types.js';
 import { parseValue } from './readers/values.js';
-import { drawOrder, rowIdentities, rowsByGroup, timesOf } from './split-util.js';
+import { DAY_MS, drawOrder, rowIdentities, rowsByGroup, timesOf } from './split-util.js';
+
+/** A row within the gap before a time holdout: on neither side. */
+const GAP = 2;
 
 export interface HoldoutParams {
   by: SplitBy;
   fraction: number;
   cutoff: string | number | null;
+  /** With by: time, rows this close before the cutoff (days for dates) are on neither side. */
+  gap: number;
   groups: string | null;
   time: string | null;
 }
@@ -23,6 +28,8 @@ export interface HoldoutOutput {
   trainGroups: number;
   /** With by: time, the first time in the holdout (ms for dates). */
   cutoff: number | null;
+  /** With by: time and a gap, the rows left out of both sides because they lie within the gap before the cutoff. */
+  gapRows: number;
   /**
    * What the split moved as whole units, so two runs can tell whether their holdouts are the same:
    * groups by name, or rows by a 16-hex digit hash of their values; the holdout's, sorted.
@@ -59,7 +66,8 @@ export const holdout: StepDefinition<HoldoutParams, HoldoutOutput> = {
         const sorted = all.map((i) => t[i]).sort((a, b) => a - b);
         cutoff = sorted[Math.max(0, frame.rows - Math.max(1, wanted))];
       }
-      for (let i = 0; i < frame.rows; i++) if (t[i] >= cutoff) isTest[i] = 1;
+      const before = cutoff - params.gap * (column(frame, params.time).type === 'date' ? DAY_MS : 1);
+      for (let i = 0; i < frame.rows; i++) isTest[i] = t[i] >= cutoff ? 1 : t[i] >= before ? GAP : 0;
     } else if (params.by === 'groups' && params.groups) {
       // whole groups, in the order of their own draws, until the fraction of rows is reached
       const groups = [...rowsByGroup(frame, params.groups).entries()];
@@ -76,10 +84,16 @@ export const holdout: StepDefinition<HoldoutParams, HoldoutOutput> = {
     }
     const train: number[] = [];
     const test: number[] = [];
-    for (let i = 0; i < frame.rows; i++) (isTest[i] ? test : train).push(i);
+    let gapRows = 0;
+    for (let i = 0; i < frame.rows; i++) {
+      if (isTest[i] === GAP) gapRows++;
+      else (isTest[i] ? test : train).push(i);
+    }
     if (test.length === 0 || train.length === 0) {
       const fix =
-        params.by === 'time' && params.cutoff !== null
+        params.by === 'time' && train.length === 0 && gapRows > 0
+          ? `the gap of ${params.gap} before the holdout leaves no earlier rows; reduce evaluation.holdout.gap`
+          : params.by === 'time' && params.cutoff !== null
           ? `move evaluation.holdout.cutoff (${params.cutoff}) inside the range of the time column`
           : params.by === 'time'
             ? 'the time column has too few distinct times to split; split at random or by groups'
@@ -87,10 +101,16 @@ export const holdout: StepDefinition<HoldoutParams, HoldoutOutput> = {
       throw new DendrologError(messages.holdoutEmpty(test.length === 0 ? 'holdout' : 'training', fix), 2);
     }
     const groupCount = (rows: number[]) => (params.groups ? rowsByGroup(frame, params.groups, rows).size : 0);
+    if (params.by !== 'groups' && params.groups) {
+      // a split in time (or at random) keeps groups on both sides: the holdout then scores new rows of known groups
+      const trainGroups = new Set(rowsByGroup(frame, params.groups, train).keys());
+      const both = [...rowsByGroup(frame, params.groups, test).keys()].filter((g) => trainGroups.has(g)).length;
+      if (both > 0) ctx.warn('holdout-groups-both-sides', messages.holdoutGroupsBothSides(params.by, both, groupCount(test), params.groups));
+    }
     const byGroups = params.by === 'groups' && params.groups !== null;
     const unitsOf = (rows: number[]) => (byGroups ? [...rowsByGroup(frame, params.groups!, rows).keys()] : rowIdentities(frame, rows).map((id) => sha256(id).slice(0, 16)));
     const units = { kind: byGroups ? ('group' as const) : ('row' as const), holdout: [...new Set(unitsOf(test))].sort(), training: new Set(unitsOf(train)).size };
-    return { train, test, by: params.by, testGroups: groupCount(test), trainGroups: groupCount(train), cutoff, units };
+    return { train, test, by: params.by, testGroups: groupCount(test), trainGroups: groupCount(train), cutoff, gapRows, units };
   },
   summary: (o) => `${o.train.length.toLocaleString('en')} training rows, ${o.test.length.toLocaleString('en')} holdout rows`,
 };

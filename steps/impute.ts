@@ -16,6 +16,8 @@ export interface ImputeParams {
  */
 export const impute: LearnedFeature<ImputeParams> = {
   kind: 'impute',
+  // fills come first: a scale learns on the filled values
+  stage: 0,
   learn(params, frame, rows, design) {
     for (const c of params.columns) {
       const v = presentValues(frame, c, rows);

@@ -24,6 +24,8 @@ export const DEFAULT_MAX_LEVELS = 1000;
  */
 export const oneHot: LearnedFeature<OneHotParams> = {
   kind: 'one_hot',
+  // a category becomes indicators; nothing else applies to them
+  stage: 0,
   learn(params, frame, rows, design) {
     const values = column(frame, params.column).values;
     const seen = new Set<string>();

@@ -138,6 +138,21 @@ describe('reading and validating a recipe', () => {
     expect(problems).toEqual([`${file}:${lineOf(text, 'predictors')}:18: ${messages.categoryPredictorNeedsEncoding('site')}`]);
   });
 
+  it('refuses a learned feature step on a column that is not a predictor, at the column', () => {
+    const text = SMALL_RECIPE + 'features:\n  - standardize: {columns: [x1, y]}\n';
+    const { file, problems } = problemsOf(text);
+    const at = text.lastIndexOf('y]');
+    const line = text.slice(0, at).split('\n').length;
+    const col = at - text.lastIndexOf('\n', at - 1);
+    expect(problems).toEqual([`${file}:${line}:${col}: ${messages.learnedNotPredictor('y', 'features[0] (standardize)')}`]);
+  });
+
+  it('refuses a holdout gap without a time holdout, at the gap', () => {
+    const text = SMALL_RECIPE.replace('evaluation:\n', 'evaluation:\n  holdout: {gap: 7}\n');
+    const { file, problems } = problemsOf(text);
+    expect(problems).toEqual([`${file}:${lineOf(text, 'gap: 7')}:${colOf(text, '7}')}: ${messages.schemaOther('evaluation.holdout.gap', 'only applies with by: time; remove it or set by: time')}`]);
+  });
+
   it('refuses a grid larger than the limit', () => {
     const text =
       SMALL_RECIPE.replace('mean: {kind: mean}', 'forest: {kind: random_forest, grid: {min_leaf: [1, 2, 3], mtry: [1, 2]}}') +
@@ -154,7 +169,7 @@ describe('reading and validating a recipe', () => {
     expect(recipe.sources.obs.missing).toEqual(DEFAULT_MISSING);
     expect(recipe.sources.obs.format).toBe('csv');
     expect(recipe.sources.obs.sha256).toBeNull();
-    expect(recipe.evaluation.holdout).toEqual({ by: 'groups', fraction: 0.2, cutoff: null });
+    expect(recipe.evaluation.holdout).toEqual({ by: 'groups', fraction: 0.2, cutoff: null, gap: 0 });
     expect(recipe.evaluation.folds).toEqual({ k: 3, by: 'groups', gap: 0 });
     expect(recipe.evaluation.choose_by).toBe('rmse');
     expect(recipe.time).toBeNull();

@@ -12,7 +12,7 @@ import { asOutput, stepContext, NO_UNITS } from '../helpers.js';
 /** 8 training rows with y = −1, 3, 2, 7, 5, 3, 12, 10, then 2 held-out rows whose y must never matter. */
 const Y = [-1, 3, 2, 7, 5, 3, 12, 10, 1000, -1000];
 const frame: Frame = { rows: Y.length, columns: [{ name: 'y', type: 'number', values: Float64Array.from(Y) }] };
-const split: HoldoutOutput = { train: [0, 1, 2, 3, 4, 5, 6, 7], test: [8, 9], by: 'random', trainGroups: 0, testGroups: 0, cutoff: null, units: NO_UNITS };
+const split: HoldoutOutput = { train: [0, 1, 2, 3, 4, 5, 6, 7], test: [8, 9], by: 'random', trainGroups: 0, testGroups: 0, cutoff: null, gapRows: 0, units: NO_UNITS };
 const FOLD = [0, 1, 0, 1, 0, 1, 0, 1];
 
 /** A cell whose out-of-fold prediction of training row k is y[k] + error(k). */

@@ -29,7 +29,7 @@ function frameOf(x1: number[], x2: number[]): Frame {
 }
 
 const frame = frameOf(X1, X2);
-const split: HoldoutOutput = { train: [0, 1, 2, 3, 4, 5, 6, 7], test: [8, 9, 10, 11], by: 'random', trainGroups: 0, testGroups: 0, cutoff: null, units: NO_UNITS };
+const split: HoldoutOutput = { train: [0, 1, 2, 3, 4, 5, 6, 7], test: [8, 9, 10, 11], by: 'random', trainGroups: 0, testGroups: 0, cutoff: null, gapRows: 0, units: NO_UNITS };
 const twoFolds: FoldsOutput = { k: 2, by: 'random', fold: [0, 1, 0, 1, 0, 1, 0, 1] };
 
 const PARAMS: CrossValidateParams = { model: 'm', kind: 'mean', cell: {}, target: 'y', predictors: ['x1', 'x2'], features: [], time: null };
@@ -58,7 +58,7 @@ describe('cross_validate', () => {
   });
 
   it('tests every training row exactly once with holdout and folds drawn by the upstream steps', async () => {
-    const s = holdout.run([asOutput(frame)], { by: 'random', fraction: 0.25, cutoff: null, groups: null, time: null }, stepContext()) as HoldoutOutput;
+    const s = holdout.run([asOutput(frame)], { by: 'random', fraction: 0.25, cutoff: null, gap: 0, groups: null, time: null }, stepContext()) as HoldoutOutput;
     const fo = folds.run([asOutput(frame), s], { k: 3, by: 'random', gap: 0, groups: null, time: null }, stepContext()) as FoldsOutput;
     const out = await run(frame, s, fo, { kind: 'mean' });
     // the mean model predicts each row with the mean y of the training rows in the other folds

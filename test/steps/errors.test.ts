@@ -39,7 +39,7 @@ function frame(opts: { days?: number; missingDay?: number[]; missingX?: number[]
   };
 }
 
-const HOLDOUT: HoldoutParams = { by: 'random', fraction: 0.2, cutoff: null, groups: 'site', time: 'day' };
+const HOLDOUT: HoldoutParams = { by: 'random', fraction: 0.2, cutoff: null, gap: 0, groups: 'site', time: 'day' };
 const FOLDS: FoldsParams = { k: 4, by: 'random', gap: 0, groups: 'site', time: 'day' };
 
 /** The DendrologError a synchronous call throws. */
@@ -65,7 +65,7 @@ describe('splitting by time', () => {
   it('stops when forward folds meet training rows without a time', () => {
     const f = frame({ missingDay: [0, 1, 2] });
     // a random holdout of rows 50 to 59 leaves the three rows without a time in training
-    const s: HoldoutOutput = { train: Array.from({ length: 50 }, (_, i) => i), test: Array.from({ length: 10 }, (_, i) => 50 + i), by: 'random', testGroups: 0, trainGroups: 0, cutoff: null, units: NO_UNITS };
+    const s: HoldoutOutput = { train: Array.from({ length: 50 }, (_, i) => i), test: Array.from({ length: 10 }, (_, i) => 50 + i), by: 'random', testGroups: 0, trainGroups: 0, cutoff: null, gapRows: 0, units: NO_UNITS };
     const e = errorOf(() => makeFolds(f, s, { by: 'time' }));
     expect([e.message, e.exitCode]).toEqual([messages.timeMissing('day', 3), 1]);
   });

@@ -28,7 +28,7 @@ function frameOf(x1 = X1): Frame {
 }
 
 const frame = frameOf();
-const split: HoldoutOutput = { train: [0, 1, 2, 3, 4, 5, 6, 7], test: [8, 9, 10, 11, 12, 13], by: 'random', trainGroups: 0, testGroups: 0, cutoff: null, units: NO_UNITS };
+const split: HoldoutOutput = { train: [0, 1, 2, 3, 4, 5, 6, 7], test: [8, 9, 10, 11, 12, 13], by: 'random', trainGroups: 0, testGroups: 0, cutoff: null, gapRows: 0, units: NO_UNITS };
 const TEST_X1 = [2, 3, 5, 6, 8, 9];
 
 const chosen: ChooseOutput = {
@@ -105,7 +105,7 @@ describe('explain', () => {
         { name: 'y', type: 'number', values: Float64Array.from([...train.y, ...test.y]) },
       ],
     };
-    const s: HoldoutOutput = { train: [...Array(600).keys()], test: Array.from({ length: 300 }, (_, k) => 600 + k), by: 'random', trainGroups: 0, testGroups: 0, cutoff: null, units: NO_UNITS };
+    const s: HoldoutOutput = { train: [...Array(600).keys()], test: Array.from({ length: 300 }, (_, k) => 600 + k), by: 'random', trainGroups: 0, testGroups: 0, cutoff: null, gapRows: 0, units: NO_UNITS };
     const cell = { trees: 100, max_depth: null, min_leaf: 3, mtry: null, sample_fraction: 1, replace: true };
     const forest = (await fit.run([asOutput(f), s, { ...chosen, cells: [{ ...chosen.cells[0], cell }] }], { model: 'forest', kind: 'random_forest', target: 'y', predictors: FRIEDMAN_NAMES, features: [] }, stepContext())) as FitOutput;
     const out = (await explain.run([asOutput(f), s, forest], { ...PARAMS, repeats: 3, top: 0 }, stepContext())) as ExplainOutput;

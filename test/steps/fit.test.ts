@@ -28,7 +28,7 @@ const frame: Frame = {
     { name: 'y', type: 'number', values: Float64Array.from(X1.map((v, i) => 2 * v - X2[i])) },
   ],
 };
-const split: HoldoutOutput = { train: [0, 1, 2, 3, 4, 5, 6, 7], test: [8, 9, 10, 11], by: 'random', trainGroups: 0, testGroups: 0, cutoff: null, units: NO_UNITS };
+const split: HoldoutOutput = { train: [0, 1, 2, 3, 4, 5, 6, 7], test: [8, 9, 10, 11], by: 'random', trainGroups: 0, testGroups: 0, cutoff: null, gapRows: 0, units: NO_UNITS };
 
 const NONE: MetricSet = { r2: { value: null }, rmse: { value: null }, mae: { value: null }, bias: { value: null }, n: 0 };
 

@@ -24,7 +24,7 @@ const frame: Frame = {
     { name: 'y', type: 'number', values: Float64Array.from([0, 1, 2, 3, 4, 5, 1, 2, 3, 6]) },
   ],
 };
-const SPLIT: HoldoutOutput = { train: [0, 1, 2, 3, 4, 5], test: [6, 7, 8, 9], by: 'random', trainGroups: 0, testGroups: 0, cutoff: null, units: NO_UNITS };
+const SPLIT: HoldoutOutput = { train: [0, 1, 2, 3, 4, 5], test: [6, 7, 8, 9], by: 'random', trainGroups: 0, testGroups: 0, cutoff: null, gapRows: 0, units: NO_UNITS };
 /** The held-out y. */
 const OBSERVED = [1, 2, 3, 6];
 

@@ -36,7 +36,7 @@ function fixture(): { frame: Frame; split: HoldoutOutput; folds: FoldsOutput } {
   const all = [...Array(x.length).keys()];
   return {
     frame,
-    split: { train: all, test: [], by: 'random', trainGroups: 0, testGroups: 0, cutoff: null, units: NO_UNITS },
+    split: { train: all, test: [], by: 'random', trainGroups: 0, testGroups: 0, cutoff: null, gapRows: 0, units: NO_UNITS },
     folds: { k: 3, by: 'random', fold },
   };
 }

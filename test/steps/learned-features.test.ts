@@ -37,13 +37,21 @@ describe('impute', () => {
 });
 
 describe('standardize', () => {
-  it('learns mean and sample sd of the training values, after an earlier impute fills the gap', () => {
+  it('learns mean and sample sd of the present training values when nothing fills the gap', () => {
+    const d = empty();
+    standardize.learn({ columns: ['x'] }, frame, TRAIN, d);
+    // the missing row is skipped, so the values are 1, 2, 6: mean 3, sd √7 (n − 1 = 2)
+    expect(d.standardize.x.mean).toBe(3);
+    expect(d.standardize.x.sd).toBeCloseTo(Math.sqrt(7), 12);
+  });
+
+  it('learns on the values the model sees when an impute step fills the gap', () => {
     const d = empty();
     impute.learn({ columns: ['x'], with: 'median' }, frame, TRAIN, d);
     standardize.learn({ columns: ['x'] }, frame, TRAIN, d);
-    // presentValues skips the missing row, so the values are 1, 2, 6: mean 3, sd √7 (n − 1 = 2)
-    expect(d.standardize.x.mean).toBe(3);
-    expect(d.standardize.x.sd).toBeCloseTo(Math.sqrt(7), 12);
+    // the median 2 fills row 2: values 1, 2, 2, 6, mean 11/4, squared deviations 14.75 over n − 1 = 3
+    expect(d.standardize.x.mean).toBe(2.75);
+    expect(d.standardize.x.sd).toBeCloseTo(Math.sqrt(14.75 / 3), 12);
   });
 
   it('keeps a scale of 1 for a constant column', () => {
@@ -76,6 +84,15 @@ describe('one_hot', () => {
 });
 
 describe('learnDesign', () => {
+  it('learns fills before scales whatever the recipe order, as the matrix applies them', () => {
+    const impute = { kind: 'impute', columns: ['x'], with: 'median' };
+    const scale = { kind: 'standardize', columns: ['x'] };
+    const after = learnDesign(frame, TRAIN, [impute, scale], ['x']);
+    const before = learnDesign(frame, TRAIN, [scale, impute], ['x']);
+    expect(before.standardize.x).toEqual(after.standardize.x);
+    expect(after.standardize.x.mean).toBe(2.75);
+  });
+
   it('runs the learned kinds in recipe order and passes derive over', () => {
     const steps = [
       { kind: 'derive', columns: { y: 'd.x * 2' } },

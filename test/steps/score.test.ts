@@ -31,7 +31,7 @@ function frameOf(y: number[], x1 = X1): Frame {
 
 const Y = X1.map((v, i) => 2 * v - X2[i]);
 const frame = frameOf(Y);
-const split: HoldoutOutput = { train: [0, 1, 2, 3, 4, 5, 6, 7], test: [8, 9, 10, 11], by: 'random', trainGroups: 0, testGroups: 0, cutoff: null, units: NO_UNITS };
+const split: HoldoutOutput = { train: [0, 1, 2, 3, 4, 5, 6, 7], test: [8, 9, 10, 11], by: 'random', trainGroups: 0, testGroups: 0, cutoff: null, gapRows: 0, units: NO_UNITS };
 
 const chosen: ChooseOutput = {
   cells: [{ cell: {}, pooled: { r2: { value: null }, rmse: { value: null }, mae: { value: null }, bias: { value: null }, n: 0 }, perFold: { r2: { mean: null, sd: null }, rmse: { mean: null, sd: null }, mae: { mean: null, sd: null }, bias: { mean: null, sd: null } }, used: [], failed: null }],

@@ -29,8 +29,8 @@ const frame = sitesFrame();
 const siteOf = (r: number) => (frame.columns[0].values as string[])[r];
 const dayOf = (r: number) => (frame.columns[1].values as Float64Array)[r];
 
-function split(by: 'random' | 'groups' | 'time', cutoff: string | null = null): HoldoutOutput {
-  return holdout.run([asOutput(frame)], { by, fraction: 0.25, cutoff, groups: 'site', time: 'day' }, stepContext()) as HoldoutOutput;
+function split(by: 'random' | 'groups' | 'time', cutoff: string | null = null, gap = 0, warnings: string[] = []): HoldoutOutput {
+  return holdout.run([asOutput(frame)], { by, fraction: 0.25, cutoff, gap, groups: 'site', time: 'day' }, stepContext(warnings)) as HoldoutOutput;
 }
 
 function makeFolds(s: HoldoutOutput, by: 'random' | 'groups' | 'time', gap = 0): FoldsOutput {
@@ -56,6 +56,36 @@ describe('holdout', () => {
     const cut = Date.UTC(2020, 8, 1);
     expect(s.test.every((r) => dayOf(r) >= cut)).toBe(true);
     expect(s.train.every((r) => dayOf(r) < cut)).toBe(true);
+  });
+
+  it('by time with a gap leaves the rows within the gap before the cutoff on neither side', () => {
+    const s = split('time', '2020-09-01', 30);
+    const cut = Date.UTC(2020, 8, 1);
+    const start = cut - 30 * 86_400_000;
+    const within = [...Array(frame.rows).keys()].filter((r) => dayOf(r) >= start && dayOf(r) < cut);
+    expect(within.length).toBeGreaterThan(0);
+    expect(s.gapRows).toBe(within.length);
+    expect(s.train.every((r) => dayOf(r) < start)).toBe(true);
+    expect(s.test.every((r) => dayOf(r) >= cut)).toBe(true);
+    expect(s.train.length + s.test.length + s.gapRows).toBe(frame.rows);
+  });
+
+  it('by time with a gap before every training row refuses, saying to reduce the gap', () => {
+    expect(() => split('time', '2020-09-01', 400)).toThrow(new DendrologError(messages.holdoutEmpty('training', 'the gap of 400 before the holdout leaves no earlier rows; reduce evaluation.holdout.gap'), 2));
+  });
+
+  it('by time with groups declared warns that groups sit on both sides', () => {
+    const warnings: string[] = [];
+    const s = split('time', null, 0, warnings);
+    const trainSites = new Set(s.train.map(siteOf));
+    const testSites = new Set(s.test.map(siteOf));
+    const both = [...testSites].filter((g) => trainSites.has(g)).length;
+    expect(both).toBeGreaterThan(0);
+    expect(warnings).toEqual([`holdout-groups-both-sides: ${messages.holdoutGroupsBothSides('time', both, testSites.size, 'site')}`]);
+    // by groups, nothing to say
+    const quiet: string[] = [];
+    split('groups', null, 0, quiet);
+    expect(quiet).toEqual([]);
   });
 
   it('gives the same rows for the same seed', () => {
@@ -105,7 +135,7 @@ describe('folds', () => {
       rows: 12,
       columns: [{ name: 'site', type: 'string', values: Array.from({ length: 12 }, (_, i) => `s${i % 3}`) }],
     };
-    const s: HoldoutOutput = { train: [...Array(12).keys()], test: [], by: 'random', testGroups: 0, trainGroups: 3, cutoff: null, units: NO_UNITS };
+    const s: HoldoutOutput = { train: [...Array(12).keys()], test: [], by: 'random', testGroups: 0, trainGroups: 3, cutoff: null, gapRows: 0, units: NO_UNITS };
     expect(() => folds.run([asOutput(few), s], { k: 4, by: 'groups', gap: 0, groups: 'site', time: null }, stepContext())).toThrow(
       new DendrologError(messages.foldsTooFew(3, 'groups', 0, 3, 4, 4), 1),
     );
@@ -117,7 +147,7 @@ describe('folds', () => {
  * holdout as `test`/`train`, and each training unit's fold.
  */
 function sides(f: Frame, by: 'random' | 'groups', seed = 1) {
-  const s = holdout.run([asOutput(f)], { by, fraction: 0.25, cutoff: null, groups: 'site', time: 'day' }, stepContext([], seed)) as HoldoutOutput;
+  const s = holdout.run([asOutput(f)], { by, fraction: 0.25, cutoff: null, gap: 0, groups: 'site', time: 'day' }, stepContext([], seed)) as HoldoutOutput;
   const d = folds.run([asOutput(f), s], { k: 4, by, gap: 0, groups: 'site', time: 'day' }, stepContext([], seed)) as FoldsOutput;
   const unit = (r: number) => (by === 'groups' ? (f.columns[0].values as string[])[r] : rowIdentities(f, [r])[0]);
   const side = new Map<string, string>();
