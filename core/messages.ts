@@ -287,7 +287,7 @@ export const messages = {
   noModelScored: (metric: string, failures: { model: string; reason: string }[]) =>
     `no model has a defined cross-validated ${metric}, so none can be chosen (${listed(failures.map((f) => `${q(f.model)}: ${f.reason}`), '; ')}); fix the data, or choose by another metric (evaluation.choose_by)`,
   holdoutUnreliable: (what: string) =>
-    `the holdout intervals rest on ${what}, too few for a bootstrap to say how much the score varies; read them as unreliable, and use a larger holdout fraction if the data allow`,
+    `the holdout intervals rest on ${what}, too few for any interval to say how much the score varies; read them as unreliable, and use a larger holdout fraction if the data allow`,
   groupsMissing: (column: string, rows: number) =>
     `the groups column ${q(column)} has ${rows} missing values among the modelling rows, and a row without a group cannot be kept on one side of a split; drop them with "drop_missing: [${column}]", or fill them in the data`,
   foldsTooFew: (left: number, unit: 'rows' | 'groups', heldOut: number, all: number, k: number, needed: number) =>

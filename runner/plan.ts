@@ -13,8 +13,6 @@ import type { Frame } from '../core/frame.js';
 import { expressionLocator, isLearned, modelKinds, recipeContract, recipeSteps, type RecipeSection } from '../steps/index.js';
 import { dict } from '../core/dict.js';
 
-/** Bootstrap resamples behind each holdout interval. */
-export const BOOTSTRAP_RESAMPLES = 1000;
 /** Permutation repeats, partial dependence curves, their points and the training rows they average. */
 export const EXPLAIN = { repeats: 10, top: 3, points: 20, sampleRows: 500 };
 
@@ -176,7 +174,7 @@ export function planRecipe(recipe: Recipe, origin: RecipeOrigin): Plan {
       return [name, add(`fit ${name}`, 'fit', { model: name, kind: m.kind, ...common }, [modelTable, holdout, choose[name]])];
     }),
   );
-  const scoreParams = { target: recipe.target, groups: recipe.groups, resamples: BOOTSTRAP_RESAMPLES, byGroups: ev.holdout.by === 'groups' };
+  const scoreParams = { target: recipe.target, groups: recipe.groups, byGroups: ev.holdout.by === 'groups' };
   const score = dict(names.map((name) => [name, add(`score ${name}`, 'score', scoreParams, [modelTable, holdout, fit[name]])]));
   const explain = dict(
     names.map((name) => [

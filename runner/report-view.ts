@@ -5,7 +5,6 @@ import type { Manifest } from './manifest.js';
 import type { Recipe } from '../core/recipe-types.js';
 import type { Results } from './results.js';
 import type { Figure } from './plots.js';
-import { BOOTSTRAP_RESAMPLES } from './plan.js';
 import { table } from '../core/dict.js';
 
 const METRIC_LABELS: Record<string, string> = table({ r2: 'R²', rmse: 'RMSE', mae: 'MAE', bias: 'Bias (predicted − observed)' });
@@ -80,7 +79,6 @@ export function reportView(recipe: Recipe, results: Results, manifest: Manifest,
       text: recipeContract('features', kind)?.describe?.(params) ?? kind,
     })),
     figures,
-    resamples: BOOTSTRAP_RESAMPLES,
     headlineRepeats: best.explain?.repeats ?? 0,
     chosen: {
       name: best.name,

@@ -1,3 +1,4 @@
+import { holdoutIntervals, unitSums } from '../models/intervals.js';
 import { metrics, type MetricSet } from '../models/metrics.js';
 import { column } from '../core/frame.js';
 import type { FrameOutput, StepDefinition } from '../core/step-types.js';
@@ -10,9 +11,7 @@ import { dict } from '../core/dict.js';
 export interface ScoreParams {
   target: string;
   groups: string | null;
-  /** Bootstrap resamples for the holdout intervals. */
-  resamples: number;
-  /** Resample whole groups when the holdout was drawn by groups, so correlated rows move together. */
+  /** Treat whole groups as the units of the intervals when the holdout was drawn by groups, so correlated rows move together. */
   byGroups: boolean;
 }
 
@@ -25,7 +24,10 @@ export interface ScoreOutput {
   model: string;
   /** Metrics on the holdout rows: the headline skill. */
   holdout: MetricSet;
-  /** 90% bootstrap intervals of the holdout metrics (5th and 95th percentiles). */
+  /**
+   * 90% intervals of the holdout metrics for new units (groups, or rows) from the same population:
+   * delete-one-unit jackknife with t on units − 1 degrees of freedom (see models/intervals.ts).
+   */
   intervals: Record<'r2' | 'rmse' | 'mae' | 'bias', Interval>;
   /** In-sample metrics on the training rows: not skill, shown only for contrast. */
   training: MetricSet;
@@ -40,17 +42,14 @@ export interface ScoreOutput {
   groups: string[] | null;
 }
 
-/** Scores a fitted model once on the holdout rows, with seeded bootstrap intervals. */
+/** Scores a fitted model once on the holdout rows, with jackknife intervals over the holdout's groups (or rows). */
 export const score: StepDefinition<ScoreParams, ScoreOutput> = {
   kind: 'score',
-  // 5: draws follow the table and the split only (seedInputs); 4: stable metric sums; R² undefined
-  // for a negligible spread; no interval around an undefined value
-  version: 5,
+  // 6: jackknife-t intervals over holdout units on log scales, no random draws; 5: draws followed the
+  // table and the split only; 4: stable metric sums; R² undefined for a negligible spread
+  version: 6,
   codec: 'json',
-  usesSeed: true,
-  // every model of the run draws the same bootstrap resamples, so their intervals differ only by the models
-  seedInputs: [0, 1],
-  async run(inputs, params, ctx) {
+  async run(inputs, params) {
     const frame = (inputs[0] as FrameOutput).frame;
     const split = inputs[1] as HoldoutOutput;
     const fitted = inputs[2] as FitOutput;
@@ -58,7 +57,6 @@ export const score: StepDefinition<ScoreParams, ScoreOutput> = {
     const y = targetOf(frame, params.target, split.test);
     const pred = await model.predict(applyDesign(fitted.design, frame, split.test), 'prediction of the holdout rows');
     const trainPred = await model.predict(applyDesign(fitted.design, frame, split.train), 'prediction of the training rows');
-    const rand = ctx.rng('bootstrap');
     const units: number[][] = [];
     if (params.byGroups && params.groups) {
       const g = column(frame, params.groups).values;
@@ -71,26 +69,10 @@ export const score: StepDefinition<ScoreParams, ScoreOutput> = {
       });
       units.push(...byGroup.values());
     } else split.test.forEach((_, k) => units.push([k]));
-    const draws: Record<'r2' | 'rmse' | 'mae' | 'bias', number[]> = { r2: [], rmse: [], mae: [], bias: [] };
-    for (let b = 0; b < params.resamples; b++) {
-      const obs: number[] = [];
-      const pr: number[] = [];
-      for (let u = 0; u < units.length; u++) {
-        for (const k of units[Math.floor(rand() * units.length)]) {
-          obs.push(y[k]);
-          pr.push(pred[k]);
-        }
-      }
-      const m = metrics(obs, pr);
-      for (const name of ['r2', 'rmse', 'mae', 'bias'] as const) {
-        const v = m[name].value;
-        if (v !== null) draws[name].push(v);
-      }
-    }
     const holdout = metrics(y, pred);
-    // no interval around a value that is itself undefined, nor from resamples that mostly had none
-    const interval = (name: 'r2' | 'rmse' | 'mae' | 'bias', v: number[]): Interval =>
-      holdout[name].value === null || v.length < params.resamples / 2 ? { low: null, high: null } : { low: quantile(v, 0.05), high: quantile(v, 0.95) };
+    const bounds = holdoutIntervals(unitSums(units, y, pred), 0.9);
+    // no interval around a value that is itself undefined
+    const interval = (name: 'r2' | 'rmse' | 'mae' | 'bias'): Interval => (holdout[name].value === null ? { low: null, high: null } : bounds[name]);
     // the final fit recorded each numeric predictor's training range
     const outsideRange = dict<number>();
     for (const [p, range] of Object.entries(fitted.ranges)) {
@@ -102,7 +84,7 @@ export const score: StepDefinition<ScoreParams, ScoreOutput> = {
     return {
       model: fitted.model,
       holdout,
-      intervals: { r2: interval('r2', draws.r2), rmse: interval('rmse', draws.rmse), mae: interval('mae', draws.mae), bias: interval('bias', draws.bias) },
+      intervals: { r2: interval('r2'), rmse: interval('rmse'), mae: interval('mae'), bias: interval('bias') },
       training: metrics(targetOf(frame, params.target, split.train), trainPred),
       predictions: Array.from(pred),
       observed: Array.from(y),

@@ -45,7 +45,7 @@ async function fitted(kind: ModelKind, f: Frame = frame): Promise<FitOutput> {
   return (await fit.run([asOutput(f), split, chosen], { model: kind, kind, target: 'y', predictors: ['x1', 'x2'], features: [] }, stepContext())) as FitOutput;
 }
 
-const PARAMS: ScoreParams = { target: 'y', groups: 'site', resamples: 200, byGroups: false };
+const PARAMS: ScoreParams = { target: 'y', groups: 'site', byGroups: false };
 
 async function run(f: Frame, model: FitOutput, params: Partial<ScoreParams> = {}): Promise<ScoreOutput> {
   return (await score.run([asOutput(f), split, model], { ...PARAMS, ...params }, stepContext())) as ScoreOutput;
@@ -80,10 +80,9 @@ describe('score', () => {
     expect({ ...out.outsideRange }).toEqual({ x1: 1 });
   });
 
-  it('puts the point value inside each bootstrap interval', async () => {
+  it('puts the point value inside each interval', async () => {
     const out = await run(frame, await fitted('mean'));
-    // a bootstrap distribution sits around the sample's own value (for a mean such as bias or MAE it is
-    // centred on it exactly): its 5th and 95th percentiles of 200 seeded resamples bracket it
+    // each interval is symmetric around the point value on its own scale, so it brackets it
     for (const m of ['r2', 'rmse', 'mae', 'bias'] as const) {
       const { low, high } = out.intervals[m];
       const v = out.holdout[m].value;
@@ -95,7 +94,7 @@ describe('score', () => {
   });
 
   it('gives a zero-width interval when every held-out error has the same size', async () => {
-    // training y averages 0; held-out y = ±1, so every error is ±1 and every resample has RMSE = MAE = 1
+    // training y averages 0; held-out y = ±1, so every error is ±1 and leaving any row out keeps RMSE = MAE = 1
     const y = [-2, 2, -1, 1, -3, 3, -4, 4, 1, -1, 1, -1];
     const out = await run(frameOf(y), await fitted('mean', frameOf(y)));
     expect(out.holdout.rmse.value).toBe(1);
@@ -103,9 +102,9 @@ describe('score', () => {
     expect(out.intervals.mae).toEqual({ low: 1, high: 1 });
   });
 
-  it('resamples whole groups when asked: groups whose errors cancel give a bias interval of exactly 0', async () => {
-    // held-out sites S4 (y = 1, −1) and S5 (y = 1, −1): each group has errors +1 and −1, so any resample
-    // of whole groups has bias exactly 0
+  it('treats whole groups as units when asked: groups whose errors cancel give a bias interval of exactly 0', async () => {
+    // held-out sites S4 (y = 1, −1) and S5 (y = 1, −1): each group has errors +1 and −1, so leaving
+    // either group out leaves bias exactly 0
     const y = [-2, 2, -1, 1, -3, 3, -4, 4, 1, -1, 1, -1];
     const out = await run(frameOf(y), await fitted('mean', frameOf(y)), { byGroups: true });
     expect(out.intervals.bias).toEqual({ low: 0, high: 0 });
