@@ -36,7 +36,10 @@ export interface IntervalBounds {
 export function unitSums(units: number[][], observed: ArrayLike<number>, predicted: ArrayLike<number>): UnitSums[] {
   let centre = 0;
   let rows = 0;
-  for (const u of units) for (const k of u) (centre += observed[k]), rows++;
+  for (const u of units) {
+    for (const k of u) centre += observed[k];
+    rows += u.length;
+  }
   centre /= rows;
   return units.map((u) => {
     const s: UnitSums = { n: 0, so: 0, soo: 0, sse: 0, sae: 0, sbias: 0 };
