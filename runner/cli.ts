@@ -126,7 +126,7 @@ export async function main(argv: string[]): Promise<number> {
       out.write(
         `${s.predicted} of ${s.rows} rows predicted, ${s.notPredicted} not (reasons in the file), ${s.outsideRange} with a predictor outside the training range\n` +
           (s.skippedSteps.length ? `the file has no target, so these steps that need it were skipped: ${s.skippedSteps.join(', ')}\n` : '') +
-          s.warnings.map((w) => `warning: ${w.message}${w.count > 1 ? ` (×${w.count})` : ''}\n`).join('') +
+          warningLines(s.warnings) +
           `Predictions: ${s.out}\n`,
       );
       return 0;
@@ -148,9 +148,12 @@ export async function main(argv: string[]): Promise<number> {
       slurm: executorOf(values),
     });
     const where = relative(process.cwd(), result.outDir) || '.';
-    const w = result.manifest.warnings.length;
+    const warnings = result.manifest.warnings;
+    const w = warnings.length;
+    // each warning in full, not only its count: a reader of the console should not need the report for them
     out.write(
       `\nReport: ${where}/report.html\nSummary: ${where}/summary.md\nManifest: ${where}/manifest.json\n` +
+        warningLines(warnings) +
         `${w} warning${w === 1 ? '' : 's'}; finished in ${((performance.now() - t0) / 1000).toFixed(1)} s\n`,
     );
     return 0;
@@ -222,4 +225,9 @@ function workersOf(value: string | boolean | undefined): number {
     throw new DendrologError(messages.usageOptionValue('--workers', String(value), 'a whole number from 1 to 256'), 2);
   }
   return workers;
+}
+
+/** One line per warning, with how often it came when more than once. */
+function warningLines(warnings: { message: string; count: number }[]): string {
+  return warnings.map((w) => `warning: ${w.message}${w.count > 1 ? ` (×${w.count})` : ''}\n`).join('');
 }

@@ -49,6 +49,11 @@ describe('the demo recipe, end to end through the built command', () => {
     expect(first.out).toMatch(/^ran +\d+\.\d\d s {2}source samples/m);
     expect(first.out).toContain('Report: lake/out/lake-chlorophyll/report.html');
     for (const f of ['report.html', 'summary.md', 'manifest.json']) expect(existsSync(join(outDir(), f))).toBe(true);
+    // every warning in full at the end, then the count
+    const warnings = firstManifest.warnings as { message: string }[];
+    expect(warnings.length).toBeGreaterThan(0);
+    for (const w of warnings) expect(first.out).toContain(`\nwarning: ${w.message}\n`);
+    expect(first.out).toMatch(new RegExp(`\\n${warnings.length} warnings; finished in [\\d.]+ s\\n$`));
   });
 
   it('takes every step from the cache the second time', () => {
