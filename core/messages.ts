@@ -387,6 +387,8 @@ export const messages = {
           : 'the task ended before the step could say why; its log may tell',
   clusterNeverStarts: (job: string, reason: string) =>
     `Slurm will never start job ${job} as submitted: its tasks wait with reason ${reason} (the partition, account or QOS cannot grant what a task asks, such as more cores, memory or time than a node or the partition allows); dendrolog cancelled it; ask for less with --slurm-cpus, --slurm-mem or --slurm-time, or choose another --slurm-partition or --slurm-account (sinfo and scontrol show partition tell the limits)`,
+  clusterPartUnreadable: (part: string, key: string, status: string) =>
+    `${part}, grown by its Slurm task and stored under key ${key}, ${status === 'miss' ? 'is not in the cache' : 'could not be read back from the cache and was removed'}; run again to grow that part again`,
   clusterOutputUnreadable: (step: string, key: string) =>
     `the output of step ${step}, stored by its Slurm task under key ${key}, could not be read back from the cache (the warning above says why); run again to recompute it`,
   clusterTaskNoRecord: (step: string, job: string, log: string) =>

@@ -8,7 +8,7 @@
  * cluster-bootstrap interval covered the true RMSE in about 74–78% of replicates with 9 holdout
  * groups, this one in about 85%, and both near 90% from about 20 groups.
  *
- * Example: `holdoutIntervals(units, 0.9).rmse` is `{low, high}` around the holdout RMSE.
+ * Example: `holdoutIntervals(unitSums(groups, y, p), 0.9, points).rmse` is `{low, high}` around the holdout RMSE.
  */
 
 /** A holdout unit's sums, enough for every metric of it and of any set of units. */
@@ -28,24 +28,35 @@ export interface IntervalBounds {
   high: number | null;
 }
 
+/** Per-unit sums, of values multiplied by `scale` (a power of two, so exactly) to keep squares finite. */
+export interface HoldoutUnits {
+  units: UnitSums[];
+  scale: number;
+}
+
 /**
  * Per-unit sums of some rows' observations and predictions; `units` lists each unit's row positions.
+ * Values are first multiplied by a power of two that brings the largest near 1, which is exact, so
+ * targets near 1e300 or 1e-300 square without overflow or underflow.
  *
- * Example: `unitSums([[0, 1], [2]], observed, predicted)` has two entries.
+ * Example: `unitSums([[0, 1], [2]], observed, predicted).units` has two entries.
  */
-export function unitSums(units: number[][], observed: ArrayLike<number>, predicted: ArrayLike<number>): UnitSums[] {
+export function unitSums(units: number[][], observed: ArrayLike<number>, predicted: ArrayLike<number>): HoldoutUnits {
+  let max = 0;
+  for (const u of units) for (const k of u) max = Math.max(max, Math.abs(observed[k]), Math.abs(predicted[k]));
+  const scale = powerOfTwoNear(max);
   let centre = 0;
   let rows = 0;
   for (const u of units) {
-    for (const k of u) centre += observed[k];
+    for (const k of u) centre += observed[k] * scale;
     rows += u.length;
   }
   centre /= rows;
-  return units.map((u) => {
+  const sums = units.map((u) => {
     const s: UnitSums = { n: 0, so: 0, soo: 0, sse: 0, sae: 0, sbias: 0 };
     for (const k of u) {
-      const o = observed[k] - centre;
-      const e = observed[k] - predicted[k];
+      const o = observed[k] * scale - centre;
+      const e = observed[k] * scale - predicted[k] * scale;
       s.n++;
       s.so += o;
       s.soo += o * o;
@@ -55,17 +66,25 @@ export function unitSums(units: number[][], observed: ArrayLike<number>, predict
     }
     return s;
   });
+  return { units: sums, scale };
+}
+
+/** A power of two that brings `max` near 1 (1 for 0 or a non-finite max); two factors, as 2^±1074 is not one number. */
+function powerOfTwoNear(max: number): number {
+  if (!(max > 0) || !Number.isFinite(max)) return 1;
+  const e = Math.floor(Math.log2(max));
+  return 2 ** Math.trunc(-e / 2) * 2 ** (-e - Math.trunc(-e / 2));
 }
 
 type Metric = 'r2' | 'rmse' | 'mae' | 'bias';
 
-/** A metric on its interval scale from summed sums, and back; null where undefined (a log of 0). */
-const SCALES: Record<Metric, { to(t: UnitSums): number | null; back(v: number): number }> = {
-  // log(1 − R²) = log(SSE / SST)
+/** A metric on its interval scale from summed sums, and back to the data's units; null where undefined (a log of 0). */
+const SCALES: Record<Metric, { to(t: UnitSums): number | null; back(v: number, scale: number): number }> = {
+  // log(1 − R²) = log(SSE / SST), free of units
   r2: { to: (t) => logOf(t.sse / (t.soo - (t.so * t.so) / t.n)), back: (v) => 1 - Math.exp(v) },
-  rmse: { to: (t) => logOf(t.sse / t.n), back: (v) => Math.sqrt(Math.exp(v)) },
-  mae: { to: (t) => logOf(t.sae / t.n), back: (v) => Math.exp(v) },
-  bias: { to: (t) => t.sbias / t.n, back: (v) => v },
+  rmse: { to: (t) => logOf(t.sse / t.n), back: (v, scale) => Math.sqrt(Math.exp(v)) / scale },
+  mae: { to: (t) => logOf(t.sae / t.n), back: (v, scale) => Math.exp(v) / scale },
+  bias: { to: (t) => t.sbias / t.n, back: (v, scale) => v / scale },
 };
 
 function logOf(x: number): number | null {
@@ -74,9 +93,13 @@ function logOf(x: number): number | null {
 
 /**
  * Two-sided `level` intervals of R², RMSE, MAE and bias from the holdout's units; a bound is null
- * when fewer than 2 units, or when the metric has no spread to measure on its scale (a perfect fit).
+ * when fewer than 2 units, when the metric has no spread to measure on its scale (a perfect fit), or
+ * when its point value (as the metrics compute it) is null. An interval is widened to hold its point
+ * value, which rounding on the interval's own scale can leave a hair outside (no spread at all gives
+ * a zero-width interval at the point).
  */
-export function holdoutIntervals(units: UnitSums[], level: number): Record<Metric, IntervalBounds> {
+export function holdoutIntervals(holdout: HoldoutUnits, level: number, points: Record<Metric, number | null>): Record<Metric, IntervalBounds> {
+  const { units, scale: unit } = holdout;
   const out = {} as Record<Metric, IntervalBounds>;
   const g = units.length;
   const total = sumOf(units);
@@ -95,9 +118,10 @@ export function holdoutIntervals(units: UnitSums[], level: number): Record<Metri
     const mean = leaveOut.reduce((a, b) => a + b, 0) / g;
     const se = Math.sqrt(((g - 1) / g) * leaveOut.reduce((s, v) => s + (v - mean) ** 2, 0));
     const t = tQuantile(0.5 + level / 2, g - 1);
-    const a = scale.back(whole - t * se);
-    const b = scale.back(whole + t * se);
-    out[metric] = Number.isFinite(a) && Number.isFinite(b) ? { low: Math.min(a, b), high: Math.max(a, b) } : { low: null, high: null };
+    const a = scale.back(whole - t * se, unit);
+    const b = scale.back(whole + t * se, unit);
+    const v = points[metric];
+    out[metric] = v !== null && Number.isFinite(a) && Number.isFinite(b) ? { low: Math.min(a, b, v), high: Math.max(a, b, v) } : { low: null, high: null };
   }
   return out;
 }

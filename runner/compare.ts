@@ -23,9 +23,10 @@ export interface MetricChange {
 export interface HoldoutChange {
   /** 'unknown' when a manifest predates the record of its holdout. */
   status: 'same' | 'changed' | 'unknown';
+  /** The new run's unit; each side's counts carry their own. */
   unit: 'group' | 'row' | null;
-  old: { holdout: number; training: number } | null;
-  new: { holdout: number; training: number } | null;
+  old: { unit: 'group' | 'row'; holdout: number; training: number } | null;
+  new: { unit: 'group' | 'row'; holdout: number; training: number } | null;
   /** Units held out now that were not before (moved from training, or new), and the reverse; null when a run did not list its units. */
   nowHeldOut: string[] | null;
   noLongerHeldOut: string[] | null;
@@ -118,7 +119,7 @@ export function compareManifests(a: Manifest, b: Manifest): Comparison {
 
 /** Whether two runs' holdouts hold the same units, from their manifests' split records. */
 export function holdoutChange(a: Manifest['split'], b: Manifest['split']): HoldoutChange {
-  const counts = (x: Manifest['split']) => (x ? { holdout: x.holdoutUnits, training: x.trainingUnits } : null);
+  const counts = (x: Manifest['split']) => (x ? { unit: x.unit, holdout: x.holdoutUnits, training: x.trainingUnits } : null);
   if (!a || !b) return { status: 'unknown', unit: a?.unit ?? b?.unit ?? null, old: counts(a), new: counts(b), nowHeldOut: null, noLongerHeldOut: null };
   const same = a.unit === b.unit && a.digest === b.digest;
   const listed = a.holdout !== undefined && b.holdout !== undefined && a.unit === b.unit;
@@ -142,13 +143,15 @@ function someOf(units: string[]): string {
 
 /** The holdout paragraph: the first thing a reviewer needs to read the metric changes. */
 function holdoutLines(h: HoldoutChange): string[] {
-  const units = (n: number) => `${n} ${h.unit ?? 'unit'}${n === 1 ? '' : 's'}`;
+  const count = (n: number, unit: string | null) => `${n} ${unit ?? 'unit'}${n === 1 ? '' : 's'}`;
+  const units = (n: number) => count(n, h.unit);
   if (h.status === 'unknown') return ['Not known: a run predates the record of its holdout, so metric changes are not judged against the old interval.'];
   if (h.status === 'same') return [`Same holdout: the same ${units(h.new!.holdout)} held out in both runs, so metric changes are judged against the old interval.`];
-  const lines = [`**The holdout changed** (${units(h.old!.holdout)} → ${units(h.new!.holdout)} held out), so the runs were not scored on the same rows and metric changes are not comparable row for row.`];
-  if (h.nowHeldOut === null || h.noLongerHeldOut === null) lines.push('', 'A run held out too many units to list them, so which ones moved is not known.');
+  const lines = [`**The holdout changed** (${count(h.old!.holdout, h.old!.unit)} → ${count(h.new!.holdout, h.new!.unit)} held out), so the runs were not scored on the same rows and metric changes are not comparable row for row.`];
+  if (h.old!.unit !== h.new!.unit) lines.push('', `The runs split by different units (${h.old!.unit}s, then ${h.new!.unit}s), so no unit can be followed from one to the other.`);
+  else if (h.nowHeldOut === null || h.noLongerHeldOut === null) lines.push('', 'A run held out too many units to list them, so which ones moved is not known.');
   else {
-    // rows are known by a hash of their values: their names say nothing, their counts do
+    // rows are known by a hash of their target and time values: their names say nothing, their counts do
     const names = (u: string[]) => (h.unit === 'group' && u.length ? `: ${someOf(u)}` : '');
     lines.push('', `- held out now, not before: ${units(h.nowHeldOut.length)}${names(h.nowHeldOut)}`, `- held out before, not now: ${units(h.noLongerHeldOut.length)}${names(h.noLongerHeldOut)}`);
   }
@@ -198,7 +201,7 @@ export function comparisonMarkdown(c: Comparison, oldName: string, newName: stri
   else {
     lines.push('| Model | Metric | Old | New | Old 90% interval | New value outside it? |', '|---|---|---:|---:|---|---|');
     for (const m of c.metrics) {
-      const verdict = !m.comparable ? 'not comparable (other holdout)' : m.outsideOldInterval ? '**yes**' : 'no';
+      const verdict = c.holdout.status === 'unknown' ? 'not known (no holdout record)' : !m.comparable ? 'not comparable (other holdout)' : m.outsideOldInterval ? '**yes**' : 'no';
       lines.push(
         `| ${cell(m.model)} | ${m.metric} | ${formatNumber(m.old)} | ${formatNumber(m.new)} | ${m.oldInterval.low === null ? '—' : `${formatNumber(m.oldInterval.low)} to ${formatNumber(m.oldInterval.high)}`} | ${verdict} |`,
       );

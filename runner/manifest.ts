@@ -35,7 +35,7 @@ export interface Manifest {
   holdoutPredictionsSha256: string;
   /**
    * The holdout as units, so compare can tell whether two runs scored the same rows: groups by name,
-   * or rows by a hash of their values; the list itself when it has at most MAX_LISTED_UNITS units.
+   * or rows by a hash of their target and time values; the list itself when it has at most MAX_LISTED_UNITS units.
    * Absent in manifests of older runs.
    */
   split?: { by: string; unit: 'group' | 'row'; holdoutUnits: number; trainingUnits: number; digest: string; holdout?: string[] };

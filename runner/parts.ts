@@ -54,7 +54,7 @@ export async function mergeParts(step: StepInstance, parts: TaskStep[], inputs: 
   const def = stepRegistry[step.kind];
   const bytes = parts.map((p) => {
     const got = cache.get(p.key, p.codec);
-    if (got.status !== 'hit') throw new DendrologError(messages.clusterOutputUnreadable(p.id, p.key), 1);
+    if (got.status !== 'hit') throw new DendrologError(messages.clusterPartUnreadable(p.id, p.key, got.status), 1);
     return unpackEntry(p.codec, got.bytes).output as Uint8Array;
   });
   const warnings = new WarningLog();

@@ -138,8 +138,8 @@ export function planRecipe(recipe: Recipe, origin: RecipeOrigin): Plan {
   );
   dataSteps.push(modelTable);
   const ev = recipe.evaluation;
-  const holdout = add('holdout', 'holdout', { ...ev.holdout, groups: recipe.groups, time: recipe.time }, [modelTable]);
-  const folds = add('folds', 'folds', { ...ev.folds, groups: recipe.groups, time: recipe.time }, [modelTable, holdout]);
+  const holdout = add('holdout', 'holdout', { ...ev.holdout, target: recipe.target, groups: recipe.groups, time: recipe.time }, [modelTable]);
+  const folds = add('folds', 'folds', { ...ev.folds, target: recipe.target, groups: recipe.groups, time: recipe.time }, [modelTable, holdout]);
   const learned = recipe.features.filter((f) => isLearned(f.kind));
   const common = { target: recipe.target, predictors: recipe.predictors, features: learned };
   // phase by phase across models, so the heavy independent steps (every model's grid cells, then the

@@ -2,10 +2,12 @@ import { column } from '../core/frame.js';
 import { DendrologError, messages } from '../core/messages.js';
 import type { SplitBy } from '../core/recipe-types.js';
 import type { FrameOutput, StepDefinition } from '../core/step-types.js';
-import type { HoldoutOutput } from './holdout.js';
+import { rowKeys, type HoldoutOutput } from './holdout.js';
 import { DAY_MS, drawOrder, rowIdentities, rowsByGroup, timesOf } from './split-util.js';
 
 export interface FoldsParams {
+  /** The target: with the time column, what a row is known by in folds without groups. */
+  target: string;
   k: number;
   by: SplitBy;
   gap: number;
@@ -87,7 +89,7 @@ export const folds: StepDefinition<FoldsParams, FoldsOutput> = {
         for (const r of groups[g][1]) fold[position.get(r)!] = of[rank];
       });
     } else {
-      const order = drawOrder(rowIdentities(frame, split.train), draw);
+      const order = drawOrder(rowIdentities(frame, split.train, rowKeys(params)), draw);
       const of = foldsAlong(order.map(() => 1), params.k);
       order.forEach((pos, rank) => (fold[pos] = of[rank]));
     }

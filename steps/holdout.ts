@@ -6,10 +6,17 @@ import type { FrameOutput, StepDefinition } from '../core/step-types.js';
 import { parseValue } from './readers/values.js';
 import { DAY_MS, drawOrder, rowIdentities, rowsByGroup, timesOf } from './split-util.js';
 
+/** The columns a row is known by in a split without groups (see rowIdentities). */
+export function rowKeys(params: { target: string; time: string | null }): string[] {
+  return params.time ? [params.target, params.time] : [params.target];
+}
+
 /** A row within the gap before a time holdout: on neither side. */
 const GAP = 2;
 
 export interface HoldoutParams {
+  /** The target: with the time column, what a row is known by in a split without groups. */
+  target: string;
   by: SplitBy;
   fraction: number;
   cutoff: string | number | null;
@@ -79,7 +86,7 @@ export const holdout: StepDefinition<HoldoutParams, HoldoutOutput> = {
       }
     } else {
       const all = Array.from({ length: frame.rows }, (_, i) => i);
-      const order = drawOrder(rowIdentities(frame, all), (id) => ctx.unitDraw('holdout', id));
+      const order = drawOrder(rowIdentities(frame, all, rowKeys(params)), (id) => ctx.unitDraw('holdout', id));
       for (let k = 0; k < wanted; k++) isTest[order[k]] = 1;
     }
     const train: number[] = [];
@@ -101,15 +108,16 @@ export const holdout: StepDefinition<HoldoutParams, HoldoutOutput> = {
       throw new DendrologError(messages.holdoutEmpty(test.length === 0 ? 'holdout' : 'training', fix), 2);
     }
     const groupCount = (rows: number[]) => (params.groups ? rowsByGroup(frame, params.groups, rows).size : 0);
-    if (params.by !== 'groups' && params.groups) {
-      // a split in time (or at random) keeps groups on both sides: the holdout then scores new rows of known groups
+    if (params.by === 'time' && params.groups) {
+      // a split in time keeps groups on both sides: the holdout then scores new times of known groups
+      // (a random split with groups has its own warning, from the headline)
       const trainGroups = new Set(rowsByGroup(frame, params.groups, train).keys());
       const both = [...rowsByGroup(frame, params.groups, test).keys()].filter((g) => trainGroups.has(g)).length;
       if (both > 0) ctx.warn('holdout-groups-both-sides', messages.holdoutGroupsBothSides(params.by, both, groupCount(test), params.groups));
     }
     const byGroups = params.by === 'groups' && params.groups !== null;
-    const unitsOf = (rows: number[]) => (byGroups ? [...rowsByGroup(frame, params.groups!, rows).keys()] : rowIdentities(frame, rows).map((id) => sha256(id).slice(0, 16)));
-    const units = { kind: byGroups ? ('group' as const) : ('row' as const), holdout: [...new Set(unitsOf(test))].sort(), training: new Set(unitsOf(train)).size };
+    const unitsOf = (rows: number[]) => (byGroups ? [...rowsByGroup(frame, params.groups!, rows).keys()] : rowIdentities(frame, rows, rowKeys(params)).map((id) => sha256(id).slice(0, 16)));
+    const units = { kind: byGroups ? ('group' as const) : ('row' as const), holdout: unitsOf(test).sort(), training: unitsOf(train).length };
     return { train, test, by: params.by, testGroups: groupCount(test), trainGroups: groupCount(train), cutoff, gapRows, units };
   },
   summary: (o) => `${o.train.length.toLocaleString('en')} training rows, ${o.test.length.toLocaleString('en')} holdout rows`,

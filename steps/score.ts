@@ -70,9 +70,8 @@ export const score: StepDefinition<ScoreParams, ScoreOutput> = {
       units.push(...byGroup.values());
     } else split.test.forEach((_, k) => units.push([k]));
     const holdout = metrics(y, pred);
-    const bounds = holdoutIntervals(unitSums(units, y, pred), 0.9);
-    // no interval around a value that is itself undefined
-    const interval = (name: 'r2' | 'rmse' | 'mae' | 'bias'): Interval => (holdout[name].value === null ? { low: null, high: null } : bounds[name]);
+    const points = { r2: holdout.r2.value, rmse: holdout.rmse.value, mae: holdout.mae.value, bias: holdout.bias.value };
+    const bounds = holdoutIntervals(unitSums(units, y, pred), 0.9, points);
     // the final fit recorded each numeric predictor's training range
     const outsideRange = dict<number>();
     for (const [p, range] of Object.entries(fitted.ranges)) {
@@ -84,7 +83,7 @@ export const score: StepDefinition<ScoreParams, ScoreOutput> = {
     return {
       model: fitted.model,
       holdout,
-      intervals: { r2: interval('r2'), rmse: interval('rmse'), mae: interval('mae'), bias: interval('bias') },
+      intervals: bounds,
       training: metrics(targetOf(frame, params.target, split.train), trainPred),
       predictions: Array.from(pred),
       observed: Array.from(y),

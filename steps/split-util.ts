@@ -34,18 +34,34 @@ export function timesOf(frame: Frame, time: string, rows: ArrayLike<number>): Fl
 export const DAY_MS = 86_400_000;
 
 /**
- * What identifies each of some rows as a unit of a random split: its values in every column of the
- * model table, by column name (so column order does not matter), as canonical text. Two rows with
- * equal values are the same unit for the draw; which of them lands where cannot change a result.
+ * What identifies each of some rows as a unit of a split without groups: its values in the key
+ * columns (the target and the time column: not the predictors, so adding or dropping one moves
+ * nothing), by column name, as canonical text; rows with equal keys are told apart by their rank
+ * among themselves, ordered by all their values (equal rows are interchangeable anyway).
  *
- * Example: a row with tp 0.12 and lake "L1" is `[["lake","L1"],["tp",0.12]]`.
+ * Example: a row with y 0.12 and day 1 (ms) is `[["day",1],["y",0.12]]`; two rows with that key are `…#0` and `…#1`.
  */
-export function rowIdentities(frame: Frame, rows: ArrayLike<number>): string[] {
-  const columns = [...frame.columns].sort((a, b) => (a.name < b.name ? -1 : a.name > b.name ? 1 : 0));
+export function rowIdentities(frame: Frame, rows: ArrayLike<number>, keyColumns: string[]): string[] {
+  const byName = (a: { name: string }, b: { name: string }) => (a.name < b.name ? -1 : a.name > b.name ? 1 : 0);
+  const keys = frame.columns.filter((c) => keyColumns.includes(c.name)).sort(byName);
+  const all = [...frame.columns].sort(byName);
+  const text = (columns: typeof all, r: number) => JSON.stringify(columns.map((c) => [c.name, isMissing(c, r) ? null : c.values[r]]));
   const out = new Array<string>(rows.length);
+  const sameKey = new Map<string, number[]>();
   for (let k = 0; k < rows.length; k++) {
-    const r = rows[k];
-    out[k] = JSON.stringify(columns.map((c) => [c.name, isMissing(c, r) ? null : c.values[r]]));
+    const key = text(keys, rows[k]);
+    const list = sameKey.get(key);
+    if (list) list.push(k);
+    else sameKey.set(key, [k]);
+  }
+  for (const [key, members] of sameKey) {
+    if (members.length === 1) {
+      out[members[0]] = key;
+      continue;
+    }
+    const full = members.map((k) => text(all, rows[k]));
+    const order = members.map((_, j) => j).sort((a, b) => (full[a] < full[b] ? -1 : full[a] > full[b] ? 1 : a - b));
+    order.forEach((j, rank) => (out[members[j]] = `${key}#${rank}`));
   }
   return out;
 }

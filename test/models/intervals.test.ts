@@ -4,6 +4,13 @@
  */
 import { describe, expect, it } from 'vitest';
 import { holdoutIntervals, tCdf, tQuantile, unitSums } from '../../models/intervals.js';
+import { metrics } from '../../models/metrics.js';
+
+/** The metrics' own point values of some rows, for the intervals to hold. */
+const pointsOf = (o: number[], p: number[]) => {
+  const m = metrics(o, p);
+  return { r2: m.r2.value, rmse: m.rmse.value, mae: m.mae.value, bias: m.bias.value };
+};
 
 describe('Student t quantiles', () => {
   // R 4.2 (Debian r-base-core): for (df in c(1,2,3,4,8,20,100)) for (p in c(0.95, 0.975, 0.995)) cat(sprintf("[%g, %g, %.15g],\n", p, df, qt(p, df)))
@@ -44,7 +51,7 @@ describe('jackknife-t holdout intervals', () => {
   };
 
   it('match an independent R implementation to 1e-12', () => {
-    const iv = holdoutIntervals(unitSums(groups, obs, pred), 0.9);
+    const iv = holdoutIntervals(unitSums(groups, obs, pred), 0.9, pointsOf(obs, pred));
     for (const m of ['r2', 'rmse', 'mae', 'bias'] as const) {
       expect(Math.abs(iv[m].low! - R_REF[m][0]), `${m} low`).toBeLessThan(1e-12);
       expect(Math.abs(iv[m].high! - R_REF[m][1]), `${m} high`).toBeLessThan(1e-12);
@@ -52,9 +59,9 @@ describe('jackknife-t holdout intervals', () => {
   });
 
   it('give no interval from one unit, nor on a log scale around a perfect fit', () => {
-    const one = holdoutIntervals(unitSums([[0, 1, 2]], obs, pred), 0.9);
+    const one = holdoutIntervals(unitSums([[0, 1, 2]], obs, pred), 0.9, pointsOf(obs, pred));
     expect(one.rmse).toEqual({ low: null, high: null });
-    const perfect = holdoutIntervals(unitSums(groups, obs, obs), 0.9);
+    const perfect = holdoutIntervals(unitSums(groups, obs, obs), 0.9, pointsOf(obs, obs));
     expect([perfect.r2, perfect.rmse, perfect.mae]).toEqual([
       { low: null, high: null },
       { low: null, high: null },
@@ -64,9 +71,49 @@ describe('jackknife-t holdout intervals', () => {
   });
 
   it('stay exact for observations offset by 1e9 (sums centred on the holdout mean)', () => {
-    const a = holdoutIntervals(unitSums(groups, obs, pred), 0.9);
-    const b = holdoutIntervals(unitSums(groups, obs.map((v) => v + 1e9), pred.map((v) => v + 1e9)), 0.9);
+    const a = holdoutIntervals(unitSums(groups, obs, pred), 0.9, pointsOf(obs, pred));
+    const o9 = obs.map((v) => v + 1e9);
+    const p9 = pred.map((v) => v + 1e9);
+    const b = holdoutIntervals(unitSums(groups, o9, p9), 0.9, pointsOf(o9, p9));
     expect(Math.abs(b.r2.low! - a.r2.low!)).toBeLessThan(1e-6);
     expect(Math.abs(b.rmse.high! - a.rmse.high!)).toBeLessThan(1e-6);
+  });
+
+  it('scale with targets near 1e160 and 1e-170 instead of vanishing (squares are taken on values brought near 1)', () => {
+    const a = holdoutIntervals(unitSums(groups, obs, pred), 0.9, pointsOf(obs, pred));
+    for (const f of [1e160, 1e-170]) {
+      const o = obs.map((v) => v * f);
+      const p = pred.map((v) => v * f);
+      const b = holdoutIntervals(unitSums(groups, o, p), 0.9, pointsOf(o, p));
+      expect(Math.abs(b.r2.low! - a.r2.low!), `r2 at ${f}`).toBeLessThan(1e-12);
+      expect(Math.abs(b.rmse.high! / f - a.rmse.high!) / a.rmse.high!, `rmse at ${f}`).toBeLessThan(1e-12);
+      expect(Math.abs(b.bias.low! / f - a.bias.low!) / Math.abs(a.bias.low!), `bias at ${f}`).toBeLessThan(1e-12);
+    }
+  });
+
+  it('always hold the point value, also with no spread to measure (every group the same size of error)', () => {
+    // seeded cases where each group's errors are +e and −e around varied values: every leave-one-out
+    // MAE is e, so the interval has no width and must sit on the metric's own value
+    let seed = 7;
+    const next = () => ((seed = (seed * 16807) % 2147483647) / 2147483647);
+    for (let c = 0; c < 500; c++) {
+      const e = next();
+      const o: number[] = [];
+      const p: number[] = [];
+      const g: number[][] = [];
+      for (let k = 0; k < 4; k++) {
+        const v = next() * 10;
+        const w = v + next();
+        g.push([o.length, o.length + 1]);
+        o.push(v, w);
+        p.push(v + e, w - e);
+      }
+      const pts = pointsOf(o, p);
+      const iv = holdoutIntervals(unitSums(g, o, p), 0.9, pts);
+      for (const m of ['r2', 'rmse', 'mae', 'bias'] as const) {
+        if (iv[m].low === null || pts[m] === null) continue;
+        expect(iv[m].low! <= pts[m]! && pts[m]! <= iv[m].high!, `${m} case ${c}`).toBe(true);
+      }
+    }
   });
 });

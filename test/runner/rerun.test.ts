@@ -121,7 +121,7 @@ describe('compare', () => {
     const dir = makeFolder({ 'recipe.yaml': FOREST, 'data/obs.csv': edited });
     const b = await runRecipe(join(dir, 'recipe.yaml'), { cache: join(dir, '.cache'), workers: 1, progress: silentProgress() });
     const c = compareManifests(readManifest(a.outDir), readManifest(b.outDir));
-    expect(c.holdout).toEqual({ status: 'same', unit: 'group', old: { holdout: 3, training: 9 }, new: { holdout: 3, training: 9 }, nowHeldOut: [], noLongerHeldOut: [] });
+    expect(c.holdout).toEqual({ status: 'same', unit: 'group', old: { unit: 'group', holdout: 3, training: 9 }, new: { unit: 'group', holdout: 3, training: 9 }, nowHeldOut: [], noLongerHeldOut: [] });
     expect(c.metrics.length).toBeGreaterThan(0);
     expect(c.metrics.every((m) => m.comparable)).toBe(true);
     expect(comparisonMarkdown(c, 'a', 'b')).toContain('Same holdout: the same 3 groups held out in both runs');
@@ -158,6 +158,12 @@ describe('compare', () => {
     const big = holdoutChange(rec(undefined, '1'.repeat(64)), rec(undefined, '2'.repeat(64)));
     expect([big.status, big.nowHeldOut]).toEqual(['changed', null]);
     expect(comparisonMarkdown({ ...base, holdout: big }, 'a', 'b')).toContain('too many units to list them');
+    // from rows to groups: each side counted in its own unit, and said plainly
+    const grouped = { ...rec(['L1'], '3'.repeat(64)), unit: 'group' as const, holdoutUnits: 1 };
+    const across = compareManifests({ ...FAKE, split: rec(['aa', 'bb'], '1'.repeat(64)) }, { ...FAKE, split: grouped });
+    const text = comparisonMarkdown(across, 'a', 'b');
+    expect(text).toContain('(2 rows → 1 group held out)');
+    expect(text).toContain('The runs split by different units (rows, then groups)');
   });
 
   it('says the holdout is not known for a run that predates its record', async () => {
@@ -168,7 +174,10 @@ describe('compare', () => {
     expect(c.holdout.status).toBe('unknown');
     expect(c.metrics.length).toBeGreaterThan(0);
     expect(c.metrics.every((x) => !x.comparable)).toBe(true);
-    expect(comparisonMarkdown(c, 'a', 'b')).toContain('Not known: a run predates the record of its holdout');
+    const md = comparisonMarkdown(c, 'a', 'b');
+    expect(md).toContain('Not known: a run predates the record of its holdout');
+    expect(md).toContain('not known (no holdout record)');
+    expect(md).not.toContain('not comparable (other holdout)');
   });
 
   it('reports exactly the added grid value as the recipe change', async () => {

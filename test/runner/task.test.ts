@@ -5,7 +5,10 @@ import { join } from 'node:path';
 import { afterEach, describe, expect, it, vi } from 'vitest';
 import type { TaskBatch, TaskFailure } from '../../runner/slurm.js';
 import { runTask } from '../../runner/task.js';
-import { makeFolder } from '../helpers.js';
+import { errorOf, makeFolder } from '../helpers.js';
+import { Cache } from '../../runner/cache.js';
+import { mergeParts, partKey } from '../../runner/parts.js';
+import { messages } from '../../core/messages.js';
 
 afterEach(() => vi.restoreAllMocks());
 
@@ -31,5 +34,15 @@ describe('a cluster task', () => {
     const file = batchFile({ cache, tasks: [[step]] });
     expect(await runTask(file, 0)).toBe(1);
     expect(failureOf(file, 0)).toEqual({ step: 'holdout', message: 'step holdout is given as parts, but steps of kind holdout do not divide', exitCode: 2 });
+  });
+});
+
+describe('merging the parts of a divided step', () => {
+  it('names the part, its key and that it is not in the cache, and says to run again', async () => {
+    const cache = new Cache(makeFolder({}));
+    const step = { id: 'fit forest', kind: 'fit', params: {}, locator: {}, key: 'f'.repeat(64), seedKey: 's', seed: 1, inputs: [] };
+    const part = { ...step, id: 'fit forest (trees 1-50)', key: partKey(step.key, 0, 1), codec: 'bytes' as const, inputs: [], part: { first: 0, end: 1, of: step.key } };
+    const e = await errorOf(() => mergeParts(step, [part], [], cache, 1));
+    expect([e.message, e.exitCode]).toEqual([messages.clusterPartUnreadable('fit forest (trees 1-50)', part.key, 'miss'), 1]);
   });
 });

@@ -58,8 +58,8 @@ describe('cross_validate', () => {
   });
 
   it('tests every training row exactly once with holdout and folds drawn by the upstream steps', async () => {
-    const s = holdout.run([asOutput(frame)], { by: 'random', fraction: 0.25, cutoff: null, gap: 0, groups: null, time: null }, stepContext()) as HoldoutOutput;
-    const fo = folds.run([asOutput(frame), s], { k: 3, by: 'random', gap: 0, groups: null, time: null }, stepContext()) as FoldsOutput;
+    const s = holdout.run([asOutput(frame)], { target: 'y', by: 'random', fraction: 0.25, cutoff: null, gap: 0, groups: null, time: null }, stepContext()) as HoldoutOutput;
+    const fo = folds.run([asOutput(frame), s], { target: 'y', k: 3, by: 'random', gap: 0, groups: null, time: null }, stepContext()) as FoldsOutput;
     const out = await run(frame, s, fo, { kind: 'mean' });
     // the mean model predicts each row with the mean y of the training rows in the other folds
     s.train.forEach((r, k) => {

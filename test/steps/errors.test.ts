@@ -39,8 +39,8 @@ function frame(opts: { days?: number; missingDay?: number[]; missingX?: number[]
   };
 }
 
-const HOLDOUT: HoldoutParams = { by: 'random', fraction: 0.2, cutoff: null, gap: 0, groups: 'site', time: 'day' };
-const FOLDS: FoldsParams = { k: 4, by: 'random', gap: 0, groups: 'site', time: 'day' };
+const HOLDOUT: HoldoutParams = { target: 'y', by: 'random', fraction: 0.2, cutoff: null, gap: 0, groups: 'site', time: 'day' };
+const FOLDS: FoldsParams = { target: 'y', k: 4, by: 'random', gap: 0, groups: 'site', time: 'day' };
 
 /** The DendrologError a synchronous call throws. */
 function errorOf(f: () => unknown): DendrologError {
@@ -82,15 +82,15 @@ describe('splitting by time', () => {
 describe('an empty side of the holdout', () => {
   it('says the holdout is empty when the fraction rounds to no rows', () => {
     // 0.005 × 60 rows rounds to 0
-    const e = errorOf(() => split(frame(), { by: 'random', fraction: 0.005 }));
+    const e = errorOf(() => split(frame(), { target: 'y', by: 'random', fraction: 0.005 }));
     expect([e.message, e.exitCode]).toEqual([messages.holdoutEmpty('holdout', 'change evaluation.holdout.fraction'), 2]);
-    const g = errorOf(() => split(frame(), { by: 'groups', fraction: 0.005 }));
+    const g = errorOf(() => split(frame(), { target: 'y', by: 'groups', fraction: 0.005 }));
     expect([g.message, g.exitCode]).toEqual([messages.holdoutEmpty('holdout', 'change evaluation.holdout.fraction'), 2]);
   });
 
   it('says the training set is empty when whole groups fill the holdout, or the cutoff precedes every row', () => {
     // 0.99 × 60 = 59 rows: groups of 5 are taken until 59 are reached, which takes all twelve
-    const g = errorOf(() => split(frame(), { by: 'groups', fraction: 0.99 }));
+    const g = errorOf(() => split(frame(), { target: 'y', by: 'groups', fraction: 0.99 }));
     expect([g.message, g.exitCode]).toEqual([messages.holdoutEmpty('training', 'change evaluation.holdout.fraction'), 2]);
     const t = errorOf(() => split(frame(), { by: 'time', cutoff: '2020-01-01' }));
     expect([t.message, t.exitCode]).toEqual([

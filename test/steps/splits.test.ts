@@ -30,11 +30,11 @@ const siteOf = (r: number) => (frame.columns[0].values as string[])[r];
 const dayOf = (r: number) => (frame.columns[1].values as Float64Array)[r];
 
 function split(by: 'random' | 'groups' | 'time', cutoff: string | null = null, gap = 0, warnings: string[] = []): HoldoutOutput {
-  return holdout.run([asOutput(frame)], { by, fraction: 0.25, cutoff, gap, groups: 'site', time: 'day' }, stepContext(warnings)) as HoldoutOutput;
+  return holdout.run([asOutput(frame)], { target: 'y', by, fraction: 0.25, cutoff, gap, groups: 'site', time: 'day' }, stepContext(warnings)) as HoldoutOutput;
 }
 
 function makeFolds(s: HoldoutOutput, by: 'random' | 'groups' | 'time', gap = 0): FoldsOutput {
-  return folds.run([asOutput(frame), s], { k: 4, by, gap, groups: 'site', time: 'day' }, stepContext()) as FoldsOutput;
+  return folds.run([asOutput(frame), s], { target: 'y', k: 4, by, gap, groups: 'site', time: 'day' }, stepContext()) as FoldsOutput;
 }
 
 describe('holdout', () => {
@@ -136,7 +136,7 @@ describe('folds', () => {
       columns: [{ name: 'site', type: 'string', values: Array.from({ length: 12 }, (_, i) => `s${i % 3}`) }],
     };
     const s: HoldoutOutput = { train: [...Array(12).keys()], test: [], by: 'random', testGroups: 0, trainGroups: 3, cutoff: null, gapRows: 0, units: NO_UNITS };
-    expect(() => folds.run([asOutput(few), s], { k: 4, by: 'groups', gap: 0, groups: 'site', time: null }, stepContext())).toThrow(
+    expect(() => folds.run([asOutput(few), s], { target: 'y', k: 4, by: 'groups', gap: 0, groups: 'site', time: null }, stepContext())).toThrow(
       new DendrologError(messages.foldsTooFew(3, 'groups', 0, 3, 4, 4), 1),
     );
   });
@@ -147,9 +147,10 @@ describe('folds', () => {
  * holdout as `test`/`train`, and each training unit's fold.
  */
 function sides(f: Frame, by: 'random' | 'groups', seed = 1) {
-  const s = holdout.run([asOutput(f)], { by, fraction: 0.25, cutoff: null, gap: 0, groups: 'site', time: 'day' }, stepContext([], seed)) as HoldoutOutput;
-  const d = folds.run([asOutput(f), s], { k: 4, by, gap: 0, groups: 'site', time: 'day' }, stepContext([], seed)) as FoldsOutput;
-  const unit = (r: number) => (by === 'groups' ? (f.columns[0].values as string[])[r] : rowIdentities(f, [r])[0]);
+  const s = holdout.run([asOutput(f)], { target: 'y', by, fraction: 0.25, cutoff: null, gap: 0, groups: 'site', time: 'day' }, stepContext([], seed)) as HoldoutOutput;
+  const d = folds.run([asOutput(f), s], { target: 'y', k: 4, by, gap: 0, groups: 'site', time: 'day' }, stepContext([], seed)) as FoldsOutput;
+  const ids = rowIdentities(f, [...Array(f.rows).keys()], ['y', 'day']);
+  const unit = (r: number) => (by === 'groups' ? (f.columns[0].values as string[])[r] : ids[r]);
   const side = new Map<string, string>();
   for (const r of s.test) side.set(unit(r), 'holdout');
   s.train.forEach((r, k) => side.set(unit(r), `fold ${d.fold[k]}`));
@@ -183,6 +184,14 @@ describe('a unit’s side (holdout or fold) follows from the seed and the unit a
     // each of the four boundaries (holdout, three between folds) shifts by at most one row
     expect([...after.keys()].filter((u) => !base.has(u))).toHaveLength(1);
     expect(moved(base, after).length).toBeLessThanOrEqual(4);
+  });
+
+  it('at random: a value outside the target and time (a predictor) can change without moving any row', () => {
+    // rows are known by target and time; the site of a row whose day no other row shares is like a predictor here
+    const days = frame.columns[1].values as Float64Array;
+    const lone = [...Array(frame.rows).keys()].find((r) => days.filter((d) => d === days[r]).length === 1)!;
+    const renamed: Frame = { ...frame, columns: frame.columns.map((c) => (c.name === 'site' ? { ...c, values: (c.values as string[]).map((v, r) => (r === lone ? 'elsewhere' : v)) } : c)) };
+    expect(sides(renamed, 'random')).toEqual(sides(frame, 'random'));
   });
 
   it('by groups: a new group moves at most the few groups its rows push across a boundary', () => {
