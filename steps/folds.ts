@@ -34,7 +34,7 @@ export interface FoldsOutput {
  * Assigns training rows to k folds for the inner cross-validation that chooses grid cells. A unit's
  * fold follows from the master seed and the units alone (see foldsAlong), as the holdout's side
  * does. By groups, each group lands in exactly one fold, folds holding about equal rows; at random,
- * rows are the units, known by their values. By time, the rows are cut into k + 1 consecutive blocks and fold f tests block
+ * rows are the units, known by their target and time (rowIdentities). By time, the rows are cut into k + 1 consecutive blocks and fold f tests block
  * f + 1 with everything before it (less the gap) as training rows.
  */
 export const folds: StepDefinition<FoldsParams, FoldsOutput> = {

@@ -39,7 +39,7 @@ export interface HoldoutOutput {
   gapRows: number;
   /**
    * What the split moved as whole units, so two runs can tell whether their holdouts are the same:
-   * groups by name, or rows by a 16-hex digit hash of their values; the holdout's, sorted.
+   * groups by name, or rows by a 16-hex digit hash of their key (rowIdentities); the holdout's, sorted.
    */
   units: { kind: 'group' | 'row'; holdout: string[]; training: number };
 }
@@ -49,7 +49,7 @@ export interface HoldoutOutput {
  * function of the master seed and the unit alone (StepContext.unitDraw): editing a value elsewhere,
  * reordering rows or columns, or a file's line endings move nothing, and adding a unit moves at most
  * a few others. By groups, whole groups go to one side (in the order of their draws, taken until
- * the fraction of rows is reached); at random, rows are the units, known by their values.
+ * the fraction of rows is reached); at random, rows are the units, known by their target and time.
  * By time, the holdout is every row at or after the cutoff (given, or chosen so that the latest
  * fraction of rows is held out; rows sharing a time stay together).
  */
@@ -62,6 +62,7 @@ export const holdout: StepDefinition<HoldoutParams, HoldoutOutput> = {
   run(inputs, params, ctx) {
     const frame = (inputs[0] as FrameOutput).frame;
     const wanted = Math.round(params.fraction * frame.rows);
+    // per row: 0 training, 1 holdout, GAP neither
     const isTest = new Uint8Array(frame.rows);
     let cutoff: number | null = null;
     if (params.by === 'time' && params.time) {
