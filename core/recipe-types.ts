@@ -54,6 +54,9 @@ export type CleanStep = RecipeStep;
 /** A step of the recipe's `features` list: computed row by row (derive) or learned from training rows. */
 export type FeatureStep = RecipeStep;
 
+/** Transforms a target may be on, each with a known inverse (see steps/target-scale.ts). */
+export type TargetScale = 'log10' | 'ln' | 'log1p';
+
 /** A model kind: one of the adapters in steps/model-kinds.ts, which says its hyperparameters and their defaults. */
 export type ModelKind = string;
 
@@ -89,6 +92,8 @@ export interface Recipe {
   clean: CleanStep[];
   features: FeatureStep[];
   target: string;
+  /** The transform the target is on, so that predictions and errors are also shown on the original scale; null when none. */
+  target_scale: TargetScale | null;
   predictors: string[];
   groups: string | null;
   time: string | null;

@@ -22,7 +22,7 @@ export interface Manifest {
     chosen: Record<string, unknown>;
     used: Record<string, unknown>;
     cells: { cell: Record<string, unknown>; crossValidated: unknown; perFold: unknown }[];
-    metrics: { holdout: unknown; holdoutInterval90: unknown; crossValidated: unknown; training: unknown; outOfBag: { r2: number | null } };
+    metrics: { holdout: unknown; holdoutInterval90: unknown; crossValidated: unknown; training: unknown; outOfBag: { r2: number | null }; holdoutOriginalScale?: unknown };
     skill: Record<string, number | null>;
     /** Why the model could not be compared (its cross-validated score is undefined); absent when it could. */
     failed?: string;
@@ -90,6 +90,7 @@ export function buildManifest(
         crossValidated: m.crossValidated,
         training: m.training,
         outOfBag: { r2: m.oobR2 },
+        ...(m.original ? { holdoutOriginalScale: m.original } : {}),
       },
       skill: m.skill,
       ...(m.failed ? { failed: m.failed } : {}),

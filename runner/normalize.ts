@@ -125,6 +125,7 @@ export function normalizeRecipe(raw: Raw): Recipe {
     clean: ((raw.clean as Raw[] | undefined) ?? []).map((c) => normalizeStep('clean', c)),
     features: ((raw.features as Raw[] | undefined) ?? []).map((f) => normalizeStep('features', f)),
     target: String(raw.target),
+    target_scale: (raw.target_scale as Recipe['target_scale'] | undefined) ?? null,
     predictors: (raw.predictors as string[]).map(String),
     groups,
     time: (raw.time as string | undefined) ?? null,

@@ -174,7 +174,7 @@ export function planRecipe(recipe: Recipe, origin: RecipeOrigin): Plan {
       return [name, add(`fit ${name}`, 'fit', { model: name, kind: m.kind, ...common }, [modelTable, holdout, choose[name]])];
     }),
   );
-  const scoreParams = { target: recipe.target, groups: recipe.groups, byGroups: ev.holdout.by === 'groups' };
+  const scoreParams = { target: recipe.target, targetScale: recipe.target_scale, groups: recipe.groups, byGroups: ev.holdout.by === 'groups' };
   const score = dict(names.map((name) => [name, add(`score ${name}`, 'score', scoreParams, [modelTable, holdout, fit[name]])]));
   const explain = dict(
     names.map((name) => [

@@ -1,5 +1,5 @@
 import type { MetricSet } from '../models/metrics.js';
-import { cellLabel, isLearned, recipeContract, varyingParams } from '../steps/index.js';
+import { cellLabel, isLearned, recipeContract, targetScaleWords, varyingParams } from '../steps/index.js';
 import { formatCount, formatNumber, formatSetting } from './format.js';
 import type { Manifest } from './manifest.js';
 import type { Recipe } from '../core/recipe-types.js';
@@ -40,6 +40,14 @@ export function reportView(recipe: Recipe, results: Results, manifest: Manifest,
       r2Interval: intervalText(best.intervals.r2.low, best.intervals.r2.high),
       unreliable: unreliable ?? '',
       rmse: formatNumber(best.holdout.rmse.value),
+      original: best.original
+        ? {
+            words: targetScaleWords(best.original.scale, recipe.target),
+            rmse: formatNumber(best.original.rmse.value),
+            mae: formatNumber(best.original.mae.value),
+            bias: formatNumber(best.original.bias.value),
+          }
+        : null,
       holdoutRows: formatCount(results.holdout.test),
       skill: Object.entries(best.skill).map(([b, s]) => ({ baseline: b, value: s === null ? `undefined (${best.skillReasons[b] ?? 'no value'})` : formatNumber(s) })),
       warnings: results.warnings.length,

@@ -38,6 +38,8 @@ export interface ModelResult {
   oobR2: number | null;
   holdout: MetricSet;
   intervals: ScoreOutput['intervals'];
+  /** With a target scale, holdout RMSE, MAE and bias on the original quantity's scale. */
+  original: ScoreOutput['original'];
   training: MetricSet;
   /** Cross-validated metrics of the chosen cell (pooled out-of-fold). */
   crossValidated: MetricSet;
@@ -127,6 +129,7 @@ export function gatherResults(recipe: Recipe, plan: Plan, exec: Execution): Resu
       oobR2: fitted.oobR2,
       holdout: score.holdout,
       intervals: score.intervals,
+      original: score.original,
       training: score.training,
       crossValidated: chosen.cells[chosen.chosen].pooled,
       skill,

@@ -1,5 +1,7 @@
 import { holdoutIntervals, unitSums } from '../models/intervals.js';
-import { metrics, type MetricSet } from '../models/metrics.js';
+import { metrics, type MetricSet, type MetricValue } from '../models/metrics.js';
+import type { TargetScale } from '../core/recipe-types.js';
+import { TARGET_SCALES } from './target-scale.js';
 import { column } from '../core/frame.js';
 import type { FrameOutput, StepDefinition } from '../core/step-types.js';
 import { applyDesign, targetOf } from './design.js';
@@ -10,6 +12,8 @@ import { dict } from '../core/dict.js';
 
 export interface ScoreParams {
   target: string;
+  /** The transform the target is on, if any: RMSE, MAE and bias are then also measured on the original scale. */
+  targetScale: TargetScale | null;
   groups: string | null;
   /** Treat whole groups as the units of the intervals when the holdout was drawn by groups, so correlated rows move together. */
   byGroups: boolean;
@@ -29,6 +33,11 @@ export interface ScoreOutput {
    * delete-one-unit jackknife with t on units − 1 degrees of freedom (see models/intervals.ts).
    */
   intervals: Record<'r2' | 'rmse' | 'mae' | 'bias', Interval>;
+  /**
+   * With a target scale: RMSE, MAE and bias of the back-transformed predictions against the
+   * back-transformed observations, in the original quantity's units; null without one.
+   */
+  original: { scale: TargetScale; rmse: MetricValue; mae: MetricValue; bias: MetricValue } | null;
   /** In-sample metrics on the training rows: not skill, shown only for contrast. */
   training: MetricSet;
   /** Holdout predictions in holdout row order. */
@@ -84,6 +93,7 @@ export const score: StepDefinition<ScoreParams, ScoreOutput> = {
       model: fitted.model,
       holdout,
       intervals: bounds,
+      original: params.targetScale ? originalScale(params.targetScale, y, pred) : null,
       training: metrics(targetOf(frame, params.target, split.train), trainPred),
       predictions: Array.from(pred),
       observed: Array.from(y),
@@ -94,6 +104,13 @@ export const score: StepDefinition<ScoreParams, ScoreOutput> = {
   },
   summary: (o) => `holdout R² ${o.holdout.r2.value === null ? 'undefined' : o.holdout.r2.value.toFixed(3)}`,
 };
+
+/** RMSE, MAE and bias on the quantity's own scale, after undoing the target's transform on both sides. */
+function originalScale(scale: TargetScale, observed: Float64Array, predicted: Float64Array): NonNullable<ScoreOutput['original']> {
+  const back = TARGET_SCALES[scale].inverse;
+  const m = metrics(observed.map(back), predicted.map(back));
+  return { scale, rmse: m.rmse, mae: m.mae, bias: m.bias };
+}
 
 /** Linear-interpolated quantile (type 7, R's default) of unsorted values. */
 export function quantile(values: number[], q: number): number {

@@ -153,6 +153,12 @@ describe('reading and validating a recipe', () => {
     expect(problems).toEqual([`${file}:${lineOf(text, 'gap: 7')}:${colOf(text, '7}')}: ${messages.schemaOther('evaluation.holdout.gap', 'only applies with by: time; remove it or set by: time')}`]);
   });
 
+  it('refuses a target scale it cannot undo, at the value, with the ones it can', () => {
+    const text = SMALL_RECIPE.replace('target: y', 'target: y\ntarget_scale: log2');
+    const { file, problems } = problemsOf(text);
+    expect(problems).toEqual([`${file}:${lineOf(text, 'log2')}:${colOf(text, 'log2')}: target_scale is "log2", which is not one of "log10", "ln", "log1p"; did you mean "log10"?`]);
+  });
+
   it('refuses a grid larger than the limit', () => {
     const text =
       SMALL_RECIPE.replace('mean: {kind: mean}', 'forest: {kind: random_forest, grid: {min_leaf: [1, 2, 3], mtry: [1, 2]}}') +

@@ -45,7 +45,7 @@ async function fitted(kind: ModelKind, f: Frame = frame): Promise<FitOutput> {
   return (await fit.run([asOutput(f), split, chosen], { model: kind, kind, target: 'y', predictors: ['x1', 'x2'], features: [] }, stepContext())) as FitOutput;
 }
 
-const PARAMS: ScoreParams = { target: 'y', groups: 'site', byGroups: false };
+const PARAMS: ScoreParams = { target: 'y', targetScale: null, groups: 'site', byGroups: false };
 
 async function run(f: Frame, model: FitOutput, params: Partial<ScoreParams> = {}): Promise<ScoreOutput> {
   return (await score.run([asOutput(f), split, model], { ...PARAMS, ...params }, stepContext())) as ScoreOutput;
@@ -116,6 +116,20 @@ describe('score', () => {
     expect(out.holdout.r2).toEqual({ value: null, reason: metricReasons.constant() });
     expect(out.intervals.r2).toEqual({ low: null, high: null });
     expect(out.intervals.rmse.low).not.toBeNull();
+  });
+
+  it('measures RMSE, MAE and bias also on the original scale of a log10 target, and nothing without a scale', async () => {
+    const out = await run(frame, await fitted('mean'), { targetScale: 'log10' });
+    const o = out.observed.map((v) => 10 ** v);
+    const p = out.predictions.map((v) => 10 ** v);
+    const rmse = Math.sqrt(o.reduce((s, v, i) => s + (v - p[i]) ** 2, 0) / o.length);
+    const mae = o.reduce((s, v, i) => s + Math.abs(v - p[i]), 0) / o.length;
+    const bias = o.reduce((s, v, i) => s + (p[i] - v), 0) / o.length;
+    expect(out.original!.scale).toBe('log10');
+    expect(out.original!.rmse.value! / rmse).toBeCloseTo(1, 12);
+    expect(out.original!.mae.value! / mae).toBeCloseTo(1, 12);
+    expect(out.original!.bias.value! / bias).toBeCloseTo(1, 12);
+    expect((await run(frame, await fitted('mean'))).original).toBeNull();
   });
 
   it('stops on a missing held-out predictor value no feature step fills', async () => {
