@@ -7,7 +7,7 @@ import { readRunModel } from './model-file.js';
 import { planApply } from './plan.js';
 import { localExecutor } from './execute.js';
 import { silentProgress } from './progress.js';
-import { ROW_COLUMN, StrictTextStream, applyDesign, engineFor, readDefaults, readHeaderLine, recipeSteps } from '../steps/index.js';
+import { ROW_COLUMN, StrictTextStream, TARGET_SCALES, applyDesign, engineFor, readDefaults, readHeaderLine, recipeSteps } from '../steps/index.js';
 import { displayOf } from './paths.js';
 import type { Recipe } from '../core/recipe-types.js';
 import { readManifest } from './run-folder.js';
@@ -119,10 +119,16 @@ export async function predictRun(folder: string, dataFile: string, outFile: stri
   }
 
   const declared = input.columns;
-  const lines = [[...declared.map((c) => c.name), 'input_row', `predicted_${recipe.target}`, 'outside_training_range', 'not_predicted_because'].map(csvField).join(',')];
+  // with a target scale, the prediction also on the quantity's own scale (a median for a log target)
+  const scale = recipe.target_scale;
+  const original = scale ? [`predicted_${recipe.target}_original`] : [];
+  const lines = [[...declared.map((c) => c.name), 'input_row', `predicted_${recipe.target}`, ...original, 'outside_training_range', 'not_predicted_because'].map(csvField).join(',')];
   for (let r = 0; r < input.rows; r++) {
     const fields = declared.map((c) => formatValue(c, r));
-    fields.push(String(r + 1), predictions[r] === null ? '' : String(predictions[r]), outside[r], predictions[r] === null ? (reason[r] ?? 'not predicted') : '');
+    const p = predictions[r];
+    fields.push(String(r + 1), p === null ? '' : String(p));
+    if (scale) fields.push(p === null ? '' : String(TARGET_SCALES[scale].inverse(p)));
+    fields.push(outside[r], p === null ? (reason[r] ?? 'not predicted') : '');
     lines.push(fields.map(csvField).join(','));
   }
   replaceFile(outFile, lines.join('\n') + '\n');

@@ -112,4 +112,4 @@ export { readHeaderLine } from './readers/csv.js';
 export { COMMON_ENCODINGS, StrictTextStream, decodeStrict, encodingName } from './readers/text-decode.js';
 export { parseValue } from './readers/values.js';
 export type { ScoreOutput } from './score.js';
-export { targetScaleWords } from './target-scale.js';
+export { TARGET_SCALES, targetScaleWords } from './target-scale.js';

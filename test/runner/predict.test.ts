@@ -58,6 +58,17 @@ describe('the apply plan', () => {
     expect(r.out).toContain('steps that need it were skipped: features[1] derive');
   });
 
+  it('writes the prediction also on the original scale of a target with target_scale', async () => {
+    const s = scenario({ 'recipe.yaml': SMALL_RECIPE.replace('target: y', 'target: y\ntarget_scale: ln') });
+    await expectOutcome(s.dir, ['run', s.recipe, '--cache', s.cache, '--workers', '1'], { code: 0, changes: ['out/small/'] });
+    writeFileSync(join(s.dir, 'new.csv'), 'site,x1,x2\nA,1,2\nB,3,4\n');
+    await expectOutcome(s.dir, ['predict', join(s.dir, 'out/small'), join(s.dir, 'new.csv'), '--out', join(s.dir, 'p.csv')], { code: 0, changes: ['p.csv', 'new.csv'] });
+    const [head, ...rows] = readFileSync(join(s.dir, 'p.csv'), 'utf8').trimEnd().split('\n').map((l) => l.split(','));
+    const at = head.indexOf('predicted_y');
+    expect(head[at + 1]).toBe('predicted_y_original');
+    for (const r of rows) expect(Number(r[at + 1])).toBe(Math.exp(Number(r[at])));
+  });
+
   it('applies in predict: skipped steps and step warnings are printed, and each row gets its prediction or reason', async () => {
     const s = scenario({ 'recipe.yaml': RECIPE, 'data/obs.csv': smallData() });
     await expectOutcome(s.dir, ['run', s.recipe, '--cache', s.cache, '--workers', '1'], { code: 0, changes: ['out/small/'] });
