@@ -7,7 +7,8 @@ import { prepareRunFolder, writeFolderAtomically } from './output.js';
 import { planRecipe, type Plan } from './plan.js';
 import type { Progress } from './progress.js';
 import { loadRecipe, type RecipeOrigin } from './recipe.js';
-import type { Recipe } from '../core/recipe-types.js';
+import type { Recipe, TargetScale } from '../core/recipe-types.js';
+import { TARGET_SCALES } from '../steps/index.js';
 import { renderReport, renderSummary } from './render.js';
 import { reportView } from './report-view.js';
 import { gatherResults, type Results } from './results.js';
@@ -89,7 +90,7 @@ export async function runRecipe(recipePath: string, opts: RunOptions): Promise<R
     'summary.md': renderSummary(view),
     'manifest.json': JSON.stringify(manifest, null, 2) + '\n',
     'model.bin': modelBin,
-    'predictions.csv': predictionsCsv(results),
+    'predictions.csv': predictionsCsv(results, recipe.target_scale),
   });
   return { outDir, manifest, results, stepsOnThreads: execution.onThreads };
 }
@@ -116,10 +117,12 @@ export async function executeRecipe(
 
 /**
  * predictions.csv: the headline model's prediction for every modelling row, in input order
- * (model_row counts the rows that survived cleaning, from 0), with the set each row was in.
+ * (model_row counts the rows that survived cleaning, from 0), with the set each row was in; with a
+ * target scale, observed and predicted also back on the quantity's own scale.
  */
-export function predictionsCsv(results: Results): string {
-  const lines = ['model_row,set,observed,predicted'];
-  for (const p of results.predictions) lines.push(`${p.row},${p.set},${p.observed},${p.predicted}`);
+export function predictionsCsv(results: Results, scale: TargetScale | null): string {
+  const back = scale ? TARGET_SCALES[scale].inverse : null;
+  const lines = [`model_row,set,observed,predicted${back ? ',observed_original,predicted_original' : ''}`];
+  for (const p of results.predictions) lines.push(`${p.row},${p.set},${p.observed},${p.predicted}${back ? `,${back(p.observed)},${back(p.predicted)}` : ''}`);
   return lines.join('\n') + '\n';
 }

@@ -67,6 +67,10 @@ describe('the apply plan', () => {
     const at = head.indexOf('predicted_y');
     expect(head[at + 1]).toBe('predicted_y_original');
     for (const r of rows) expect(Number(r[at + 1])).toBe(Math.exp(Number(r[at])));
+    // the run folder's predictions, on both scales too
+    const [runHead, ...runRows] = readFileSync(join(s.dir, 'out/small/predictions.csv'), 'utf8').trimEnd().split('\n').map((l) => l.split(','));
+    expect(runHead).toEqual(['model_row', 'set', 'observed', 'predicted', 'observed_original', 'predicted_original']);
+    for (const r of runRows) expect([Number(r[4]), Number(r[5])]).toEqual([Math.exp(Number(r[2])), Math.exp(Number(r[3]))]);
   });
 
   it('applies in predict: skipped steps and step warnings are printed, and each row gets its prediction or reason', async () => {
