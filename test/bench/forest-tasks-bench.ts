@@ -8,7 +8,7 @@
  * Run: npm run bench:slurm   (or: npm run build && node dist/test/bench/forest-tasks-bench.js [rows])
  */
 import { spawnSync } from 'node:child_process';
-import { mkdirSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
+import { mkdirSync, mkdtempSync, readFileSync, rmSync, statSync, writeFileSync } from 'node:fs';
 import { availableParallelism, tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
@@ -76,7 +76,9 @@ function main() {
     const fitOf = (m: Manifest) => m.steps.find((s) => s.kind === 'fit')!;
     const fitSeconds = (m: Manifest) => m.timing.steps.find((t) => t.id === fitOf(m).id)!.seconds;
     const reference = fitOf(first.manifest).output;
-    console.log(`local, first run (cross-validation and all): ${first.wall.toFixed(1)} s wall, of which the fit ${fitSeconds(first.manifest).toFixed(1)} s`);
+    const fitKey = fitOf(first.manifest).key;
+    const entryBytes = statSync(join(work, 'cache', fitKey.slice(0, 2), fitKey)).size;
+    console.log(`local, first run (cross-validation and all): ${first.wall.toFixed(1)} s wall, of which the fit ${fitSeconds(first.manifest).toFixed(1)} s; the fit's cache entry is ${(entryBytes / 2 ** 20).toFixed(0)} MiB`);
     const ways: [string, string[]][] = [
       [`local, ${cores} threads`, ['--workers', String(cores)]],
       [`Slurm, whole fit in one task of ${cores} cores`, ['--executor', 'slurm', '--slurm-cpus', String(cores), '--slurm-trees-per-task', String(TREES)]],
