@@ -11,6 +11,8 @@
  * Example: `holdoutIntervals(unitSums(groups, y, p), 0.9, points).rmse` is `{low, high}` around the holdout RMSE.
  */
 
+import { powerOfTwoBelow } from './metrics.js';
+
 /** A holdout unit's sums, enough for every metric of it and of any set of units. */
 export interface UnitSums {
   n: number;
@@ -28,15 +30,15 @@ export interface IntervalBounds {
   high: number | null;
 }
 
-/** Per-unit sums, of values multiplied by `scale` (a power of two, so exactly) to keep squares finite. */
+/** Per-unit sums, of values divided by `unit` (a power of two, so exactly) to keep squares finite. */
 export interface HoldoutUnits {
   units: UnitSums[];
-  scale: number;
+  unit: number;
 }
 
 /**
  * Per-unit sums of some rows' observations and predictions; `units` lists each unit's row positions.
- * Values are first multiplied by a power of two that brings the largest near 1, which is exact, so
+ * Values are first divided by the power of two at or below the largest, which is exact, so
  * targets near 1e300 or 1e-300 square without overflow or underflow.
  *
  * Example: `unitSums([[0, 1], [2]], observed, predicted).units` has two entries.
@@ -44,19 +46,19 @@ export interface HoldoutUnits {
 export function unitSums(units: number[][], observed: ArrayLike<number>, predicted: ArrayLike<number>): HoldoutUnits {
   let max = 0;
   for (const u of units) for (const k of u) max = Math.max(max, Math.abs(observed[k]), Math.abs(predicted[k]));
-  const scale = powerOfTwoNear(max);
+  const unit = powerOfTwoBelow(max);
   let centre = 0;
   let rows = 0;
   for (const u of units) {
-    for (const k of u) centre += observed[k] * scale;
+    for (const k of u) centre += observed[k] / unit;
     rows += u.length;
   }
   centre /= rows;
   const sums = units.map((u) => {
     const s: UnitSums = { n: 0, so: 0, soo: 0, sse: 0, sae: 0, sbias: 0 };
     for (const k of u) {
-      const o = observed[k] * scale - centre;
-      const e = observed[k] * scale - predicted[k] * scale;
+      const o = observed[k] / unit - centre;
+      const e = observed[k] / unit - predicted[k] / unit;
       s.n++;
       s.so += o;
       s.soo += o * o;
@@ -66,25 +68,18 @@ export function unitSums(units: number[][], observed: ArrayLike<number>, predict
     }
     return s;
   });
-  return { units: sums, scale };
-}
-
-/** A power of two that brings `max` near 1 (1 for 0 or a non-finite max); two factors, as 2^±1074 is not one number. */
-function powerOfTwoNear(max: number): number {
-  if (!(max > 0) || !Number.isFinite(max)) return 1;
-  const e = Math.floor(Math.log2(max));
-  return 2 ** Math.trunc(-e / 2) * 2 ** (-e - Math.trunc(-e / 2));
+  return { units: sums, unit };
 }
 
 type Metric = 'r2' | 'rmse' | 'mae' | 'bias';
 
 /** A metric on its interval scale from summed sums, and back to the data's units; null where undefined (a log of 0). */
-const SCALES: Record<Metric, { to(t: UnitSums): number | null; back(v: number, scale: number): number }> = {
+const SCALES: Record<Metric, { to(t: UnitSums): number | null; back(v: number, unit: number): number }> = {
   // log(1 − R²) = log(SSE / SST), free of units
   r2: { to: (t) => logOf(t.sse / (t.soo - (t.so * t.so) / t.n)), back: (v) => 1 - Math.exp(v) },
-  rmse: { to: (t) => logOf(t.sse / t.n), back: (v, scale) => Math.sqrt(Math.exp(v)) / scale },
-  mae: { to: (t) => logOf(t.sae / t.n), back: (v, scale) => Math.exp(v) / scale },
-  bias: { to: (t) => t.sbias / t.n, back: (v, scale) => v / scale },
+  rmse: { to: (t) => logOf(t.sse / t.n), back: (v, unit) => Math.sqrt(Math.exp(v)) * unit },
+  mae: { to: (t) => logOf(t.sae / t.n), back: (v, unit) => Math.exp(v) * unit },
+  bias: { to: (t) => t.sbias / t.n, back: (v, unit) => v * unit },
 };
 
 function logOf(x: number): number | null {
@@ -99,7 +94,7 @@ function logOf(x: number): number | null {
  * a zero-width interval at the point).
  */
 export function holdoutIntervals(holdout: HoldoutUnits, level: number, points: Record<Metric, number | null>): Record<Metric, IntervalBounds> {
-  const { units, scale: unit } = holdout;
+  const { units, unit } = holdout;
   const out = {} as Record<Metric, IntervalBounds>;
   const g = units.length;
   const total = sumOf(units);

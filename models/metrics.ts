@@ -72,7 +72,7 @@ class CompensatedSum {
 }
 
 /** A power of two at or just below max (1 for 0): dividing by it is exact and leaves values up to max below about 2. */
-function powerOfTwoBelow(max: number): number {
+export function powerOfTwoBelow(max: number): number {
   // floor, not ceil: 2^ceil(log2(1.7e308)) would overflow
   return max === 0 ? 1 : 2 ** Math.floor(Math.log2(max));
 }
