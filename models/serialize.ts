@@ -83,11 +83,7 @@ export function serializeForest(f: Forest): Uint8Array {
 /** Reads bytes written by serializeForest; throws EngineInputError for anything else. */
 export function deserializeForest(bytes: Uint8Array): Forest {
   const bad = (why: string): EngineInputError => new EngineInputError(msg.notAForest(why));
-  if (bytes.length < 16) throw bad('too short');
-  for (let i = 0; i < 8; i++) if (bytes[i] !== MAGIC.charCodeAt(i)) throw bad('the magic header is missing');
-  const view = new DataView(bytes.buffer, bytes.byteOffset, bytes.byteLength);
-  const version = view.getUint32(8, true);
-  if (version !== FOREST_FORMAT_VERSION) throw bad(`format version ${version}, this build reads version ${FOREST_FORMAT_VERSION}`);
+  const view = openFormat(bytes, MAGIC, FOREST_FORMAT_VERSION, 16, bad);
   const headerLength = view.getUint32(12, true);
   let at = 16;
   const need = (k: number): void => {
@@ -142,6 +138,19 @@ export function deserializeForest(bytes: Uint8Array): Forest {
     oob,
     impurityImportance: importance,
   };
+}
+
+/**
+ * A view of bytes of one of this file's formats, after checking that they are at least `minLength`
+ * long and start with `magic` and this build's `version` (u32 after the magic); `bad` makes the error.
+ */
+function openFormat(bytes: Uint8Array, magic: string, version: number, minLength: number, bad: (why: string) => Error): DataView {
+  if (bytes.length < minLength) throw bad('too short');
+  for (let i = 0; i < 8; i++) if (bytes[i] !== magic.charCodeAt(i)) throw bad('the magic header is missing');
+  const view = new DataView(bytes.buffer, bytes.byteOffset, bytes.byteLength);
+  const found = view.getUint32(8, true);
+  if (found !== version) throw bad(`format version ${found}, this build reads version ${version}`);
+  return view;
 }
 
 /** Bytes one tree takes: its node count, then per node a feature index of `width` bytes and an f64. */
@@ -253,11 +262,7 @@ export function serializeBlocks(blocks: ForestBlock[], rows: number, features: n
 /** Reads bytes written by serializeBlocks; throws EngineInputError for anything else. */
 export function deserializeBlocks(bytes: Uint8Array): ForestBlock[] {
   const bad = (why: string): EngineInputError => new EngineInputError(msg.notBlocks(why));
-  if (bytes.length < 24) throw bad('too short');
-  for (let i = 0; i < 8; i++) if (bytes[i] !== BLOCKS_MAGIC.charCodeAt(i)) throw bad('the magic header is missing');
-  const view = new DataView(bytes.buffer, bytes.byteOffset, bytes.byteLength);
-  const version = view.getUint32(8, true);
-  if (version !== BLOCKS_FORMAT_VERSION) throw bad(`format version ${version}, this build reads version ${BLOCKS_FORMAT_VERSION}`);
+  const view = openFormat(bytes, BLOCKS_MAGIC, BLOCKS_FORMAT_VERSION, 24, bad);
   const rows = view.getUint32(12, true);
   const features = view.getUint32(16, true);
   const count = view.getUint32(20, true);

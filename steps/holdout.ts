@@ -64,6 +64,9 @@ export const holdout: StepDefinition<HoldoutParams, HoldoutOutput> = {
     const wanted = Math.round(params.fraction * frame.rows);
     // per row: 0 training, 1 holdout, GAP neither
     const isTest = new Uint8Array(frame.rows);
+    // what each row is known by without groups, worked out once when needed
+    let ids: string[] | null = null;
+    const rowIds = () => (ids ??= rowIdentities(frame, Array.from({ length: frame.rows }, (_, i) => i), rowKeys(params)));
     let cutoff: number | null = null;
     if (params.by === 'time' && params.time) {
       const all = Array.from({ length: frame.rows }, (_, i) => i);
@@ -86,8 +89,7 @@ export const holdout: StepDefinition<HoldoutParams, HoldoutOutput> = {
         taken += groups[k][1].length;
       }
     } else {
-      const all = Array.from({ length: frame.rows }, (_, i) => i);
-      const order = drawOrder(rowIdentities(frame, all, rowKeys(params)), (id) => ctx.unitDraw('holdout', id));
+      const order = drawOrder(rowIds(), (id) => ctx.unitDraw('holdout', id));
       for (let k = 0; k < wanted; k++) isTest[order[k]] = 1;
     }
     const train: number[] = [];
@@ -117,7 +119,7 @@ export const holdout: StepDefinition<HoldoutParams, HoldoutOutput> = {
       if (both > 0) ctx.warn('holdout-groups-both-sides', messages.holdoutGroupsBothSides(params.by, both, groupCount(test), params.groups));
     }
     const byGroups = params.by === 'groups' && params.groups !== null;
-    const unitsOf = (rows: number[]) => (byGroups ? [...rowsByGroup(frame, params.groups!, rows).keys()] : rowIdentities(frame, rows, rowKeys(params)).map((id) => sha256(id).slice(0, 16)));
+    const unitsOf = (rows: number[]) => (byGroups ? [...rowsByGroup(frame, params.groups!, rows).keys()] : rows.map((r) => sha256(rowIds()[r]).slice(0, 16)));
     const units = { kind: byGroups ? ('group' as const) : ('row' as const), holdout: unitsOf(test).sort(), training: unitsOf(train).length };
     return { train, test, by: params.by, testGroups: groupCount(test), trainGroups: groupCount(train), cutoff, gapRows, units };
   },

@@ -111,11 +111,3 @@ function originalScale(scale: TargetScale, observed: Float64Array, predicted: Fl
   const m = metrics(observed.map(back), predicted.map(back));
   return { scale, rmse: m.rmse, mae: m.mae, bias: m.bias };
 }
-
-/** Linear-interpolated quantile (type 7, R's default) of unsorted values. */
-export function quantile(values: number[], q: number): number {
-  const s = [...values].sort((a, b) => a - b);
-  const h = (s.length - 1) * q;
-  const lo = Math.floor(h);
-  return s[lo] + (h - lo) * ((s[Math.min(lo + 1, s.length - 1)] ?? s[lo]) - s[lo]);
-}
