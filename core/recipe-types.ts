@@ -80,6 +80,8 @@ export interface Evaluation {
   choose_by: 'rmse' | 'mae' | 'r2';
   metrics: ('r2' | 'rmse' | 'mae' | 'bias')[];
   max_cells: number;
+  /** CV+ prediction intervals for every model at this level (0.9 by default); false when the recipe turns them off. */
+  prediction_interval: { level: number } | false;
 }
 
 export interface Recipe {

@@ -125,6 +125,7 @@ export async function main(argv: string[]): Promise<number> {
       const s = await predictRun(positionals[0], positionals[1], values.out as string);
       out.write(
         `${s.predicted} of ${s.rows} rows predicted, ${s.notPredicted} not (reasons in the file), ${s.outsideRange} with a predictor outside the training range\n` +
+          (s.intervalLevel !== null ? `each prediction has its ${+(100 * s.intervalLevel).toFixed(2)}% prediction interval (low_ and high_ columns; see the run's report for its measured coverage)\n` : '') +
           (s.skippedSteps.length ? `the file has no target, so these steps that need it were skipped: ${s.skippedSteps.join(', ')}\n` : '') +
           warningLines(s.warnings) +
           `Predictions: ${s.out}\n`,

@@ -30,6 +30,8 @@ export interface Manifest {
     learned: { final: unknown; folds: unknown[] };
     importance: unknown;
     partialDependence: unknown;
+    /** CV+ prediction intervals and their coverage of the holdout rows; absent when the recipe turns them off. */
+    predictionInterval?: unknown;
   }[];
   headline: { model: string; metric: string; value: number | null; label: 'holdout' };
   holdoutPredictionsSha256: string;
@@ -97,6 +99,7 @@ export function buildManifest(
       learned: m.learned,
       importance: m.explain ? { measuredOn: 'holdout', repeats: m.explain.repeats, values: m.explain.importance } : null,
       partialDependence: m.explain ? { measuredOn: 'training', rows: m.explain.pdRows, curves: m.explain.partialDependence } : null,
+      ...(m.predictionInterval ? { predictionInterval: m.predictionInterval } : {}),
     })),
     headline: {
       model: results.chosenModel,

@@ -1,7 +1,8 @@
 import { existsSync, readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { gunzipSync, gzipSync } from 'node:zlib';
-import type { FitOutput } from '../steps/index.js';
+import type { FitOutput, IntervalFoldOutput, PredictionIntervalOutput } from '../steps/index.js';
+import type { ConformalTable } from '../models/conformal.js';
 import type { Recipe } from '../core/recipe-types.js';
 import { sha256 } from '../core/hash.js';
 import type { Manifest } from './manifest.js';
@@ -29,15 +30,34 @@ export interface ModelFile {
   run?: { holdoutPredictionsSha256: string };
   /** The engine's own serialized model. */
   bytes: Uint8Array;
+  /** The CV+ prediction intervals: the level, the fold residuals and each fold model; absent when the run had none. */
+  interval?: ModelInterval;
+}
+
+export interface ModelInterval {
+  level: number;
+  unitKind: PredictionIntervalOutput['unitKind'];
+  table: ConformalTable;
+  folds: { design: FitOutput['design']; bytes: Uint8Array }[];
 }
 
 /**
- * model.bin: gzip of "DLM1", a 4-byte header length, a JSON header and the engine's bytes. gzip
- * from Node writes no timestamp, so equal models give equal files.
+ * model.bin: gzip of "DLM1", a 4-byte header length, a JSON header and the engine's bytes; with
+ * prediction intervals, the header gives the headline model's byte length and each fold model's,
+ * and the fold models follow it in fold order. gzip from Node writes no timestamp, so equal models
+ * give equal files.
  *
- * Example: `readModelFile(writeModelFile(fit, recipe)).kind === fit.kind`
+ * Example: `readModelFile(writeModelFile(fit, null, recipe, run)).kind === fit.kind`
  */
-export function writeModelFile(fit: FitOutput, recipe: Recipe, run: { holdoutPredictionsSha256: string }): Uint8Array {
+export function writeModelFile(
+  fit: FitOutput,
+  interval: { output: PredictionIntervalOutput; folds: IntervalFoldOutput[] } | null,
+  recipe: Recipe,
+  run: { holdoutPredictionsSha256: string },
+): Uint8Array {
+  const bytes = Buffer.from(fit.bytes, 'base64');
+  const table = interval?.output.table ?? null;
+  const foldBytes = interval && table ? interval.folds.map((f) => Buffer.from(f.bytes, 'base64')) : [];
   const header = Buffer.from(
     JSON.stringify({
       format: 1,
@@ -50,14 +70,26 @@ export function writeModelFile(fit: FitOutput, recipe: Recipe, run: { holdoutPre
       target: recipe.target,
       trainingRows: fit.trainingRows,
       run,
+      ...(interval && table
+        ? {
+            bytesLength: bytes.length,
+            interval: {
+              level: interval.output.level,
+              unitKind: interval.output.unitKind,
+              table,
+              folds: interval.folds.map((f, k) => ({ design: f.design, bytesLength: foldBytes[k].length })),
+            },
+          }
+        : {}),
     }),
     'utf8',
   );
-  const bytes = Buffer.from(fit.bytes, 'base64');
   const len = Buffer.alloc(4);
   len.writeUInt32LE(header.length, 0);
-  return new Uint8Array(gzipSync(Buffer.concat([Buffer.from(MAGIC, 'latin1'), len, header, bytes]), { level: 9 }));
+  return new Uint8Array(gzipSync(Buffer.concat([Buffer.from(MAGIC, 'latin1'), len, header, bytes, ...foldBytes]), { level: 9 }));
 }
+
+type StoredInterval = Omit<ModelInterval, 'folds'> & { folds: { design: FitOutput['design']; bytesLength: number }[] };
 
 /** Reads model.bin back; throws a plain Error if the bytes are not a dendrolog model file. */
 export function readModelFile(data: Uint8Array): ModelFile {
@@ -65,8 +97,18 @@ export function readModelFile(data: Uint8Array): ModelFile {
   if (raw.subarray(0, 4).toString('latin1') !== MAGIC) throw new Error('not a dendrolog model file');
   const n = raw.readUInt32LE(4);
   if (8 + n > raw.length) throw new Error(`the model header claims ${n} bytes, more than the file holds`);
-  const header = parseJson(raw.subarray(8, 8 + n).toString('utf8')) as Omit<ModelFile, 'bytes'>;
-  return { ...header, bytes: new Uint8Array(raw.subarray(8 + n)) };
+  const { interval, bytesLength, ...header } = parseJson(raw.subarray(8, 8 + n).toString('utf8')) as Omit<ModelFile, 'bytes' | 'interval'> & {
+    interval?: StoredInterval;
+    bytesLength?: number;
+  };
+  const body = raw.subarray(8 + n);
+  if (!interval) return { ...header, bytes: new Uint8Array(body) };
+  const lengths = [bytesLength ?? 0, ...interval.folds.map((f) => f.bytesLength)];
+  const total = lengths.reduce((a, b) => a + b, 0);
+  if (total !== body.length) throw new Error(`the model header lists ${total} bytes of models, but ${body.length} follow it`);
+  let at = 0;
+  const [bytes, ...folds] = lengths.map((len) => new Uint8Array(body.subarray(at, (at += len))));
+  return { ...header, bytes, interval: { ...interval, folds: interval.folds.map((f, k) => ({ design: f.design, bytes: folds[k] })) } };
 }
 
 /** Why a run folder's model.bin cannot be used, as a message naming the file and an exit code. */

@@ -110,6 +110,7 @@ export function normalizeRecipe(raw: Raw): Recipe {
     choose_by: (ev.choose_by as Evaluation['choose_by'] | undefined) ?? 'rmse',
     metrics: (ev.metrics as Evaluation['metrics'] | undefined) ?? ['r2', 'rmse', 'mae', 'bias'],
     max_cells: (ev.max_cells as number | undefined) ?? DEFAULT_MAX_CELLS,
+    prediction_interval: ev.prediction_interval === false ? false : { level: ((ev.prediction_interval as Raw | undefined)?.level as number | undefined) ?? 0.9 },
   };
   return {
     dendrolog: 1,

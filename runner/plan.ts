@@ -25,7 +25,7 @@ export interface Plan {
   modelTable: string;
   holdout: string;
   folds: string;
-  models: Record<string, { cells: string[]; choose: string; fit: string; score: string; explain: string | null }>;
+  models: Record<string, { cells: string[]; choose: string; fit: string; score: string; explain: string | null; interval: { folds: string[]; gather: string } | null }>;
   /** The choice of the headline model across models, the skill scores and the evaluation's warnings. */
   headline: string;
 }
@@ -174,6 +174,20 @@ export function planRecipe(recipe: Recipe, origin: RecipeOrigin): Plan {
       return [name, add(`fit ${name}`, 'fit', { model: name, kind: m.kind, ...common }, [modelTable, holdout, choose[name]])];
     }),
   );
+  // the chosen cells' fold models, kept for prediction intervals, once every final fit is planned
+  const pi = ev.prediction_interval;
+  const interval = dict(
+    names.map((name) => {
+      if (!pi) return [name, null];
+      const m = recipe.models[name];
+      const ids = Array.from({ length: ev.folds.k }, (_, fold) =>
+        add(`interval ${name} fold ${fold + 1}`, 'interval_fold', { model: name, kind: m.kind, time, ...common, fold }, [modelTable, holdout, folds, choose[name]]),
+      );
+      return [name, ids];
+    }),
+  );
+  const intervalParams = { level: pi ? pi.level : 0, target: recipe.target, targetScale: recipe.target_scale, groups: recipe.groups, byGroups: ev.folds.by === 'groups' };
+  const gathered = dict(names.map((name) => [name, interval[name] ? add(`prediction interval ${name}`, 'prediction_interval', intervalParams, [modelTable, holdout, ...interval[name]!]) : null]));
   const scoreParams = { target: recipe.target, targetScale: recipe.target_scale, groups: recipe.groups, byGroups: ev.holdout.by === 'groups' };
   const score = dict(names.map((name) => [name, add(`score ${name}`, 'score', scoreParams, [modelTable, holdout, fit[name]])]));
   const explain = dict(
@@ -183,7 +197,7 @@ export function planRecipe(recipe: Recipe, origin: RecipeOrigin): Plan {
     ]),
   );
   const models: Plan['models'] = dict(
-    names.map((name) => [name, { cells: cells[name], choose: choose[name], fit: fit[name], score: score[name], explain: explain[name] }]),
+    names.map((name) => [name, { cells: cells[name], choose: choose[name], fit: fit[name], score: score[name], explain: explain[name], interval: interval[name] ? { folds: interval[name]!, gather: gathered[name]! } : null }]),
   );
   const headline = add(
     'headline',

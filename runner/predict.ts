@@ -4,6 +4,7 @@ import type { Column } from '../core/frame.js';
 import { column, isMissing } from '../core/frame.js';
 import { DendrologError, messages } from '../core/messages.js';
 import { readRunModel } from './model-file.js';
+import { cvPlus } from '../models/conformal.js';
 import { planApply } from './plan.js';
 import { localExecutor } from './execute.js';
 import { silentProgress } from './progress.js';
@@ -21,6 +22,8 @@ export interface PredictionSummary {
   predicted: number;
   notPredicted: number;
   outsideRange: number;
+  /** The level of the prediction intervals written beside each prediction, or null when the run has none. */
+  intervalLevel: number | null;
   skippedSteps: string[];
   /** What the data steps warned about (merged by message, counted). */
   warnings: Warning[];
@@ -102,6 +105,7 @@ export async function predictRun(folder: string, dataFile: string, outFile: stri
     else usable.push(k);
   }
   const predictions = new Array<number | null>(input.rows).fill(null);
+  const bounds = new Array<{ low: number; high: number } | null>(input.rows).fill(null);
   const outside = new Array<string>(input.rows).fill('');
   if (usable.length) {
     const p = await engineFor(model.kind, model.model).predict(model.bytes, applyDesign(model.design, frame, usable), 'prediction of the new rows');
@@ -116,18 +120,38 @@ export async function predictRun(folder: string, dataFile: string, outFile: stri
         .map(([name]) => name)
         .join(' ');
     });
+    if (model.interval) {
+      const interval = model.interval;
+      const engine = engineFor(model.kind, model.model);
+      const mus = await Promise.all(interval.folds.map((f, k) => engine.predict(f.bytes, applyDesign(f.design, frame, usable), `prediction of the new rows by fold model ${k + 1}`)));
+      const mu = new Float64Array(mus.length);
+      usable.forEach((k, j) => {
+        mus.forEach((m, f) => (mu[f] = m[j]));
+        bounds[rowsOf[k]] = cvPlus(interval.table, mu, interval.level);
+      });
+    }
   }
 
   const declared = input.columns;
   // with a target scale, the prediction also on the quantity's own scale (a median for a log target)
   const scale = recipe.target_scale;
-  const original = scale ? [`predicted_${recipe.target}_original`] : [];
-  const lines = [[...declared.map((c) => c.name), 'input_row', `predicted_${recipe.target}`, ...original, 'outside_training_range', 'not_predicted_because'].map(csvField).join(',')];
+  const t = recipe.target;
+  const withBounds = model.interval !== undefined;
+  const boundNames = (suffix: string) => (withBounds ? [`low_${t}${suffix}`, `high_${t}${suffix}`] : []);
+  const original = scale ? [`predicted_${t}_original`, ...boundNames('_original')] : [];
+  const lines = [[...declared.map((c) => c.name), 'input_row', `predicted_${t}`, ...boundNames(''), ...original, 'outside_training_range', 'not_predicted_because'].map(csvField).join(',')];
+  const text = (v: number | undefined, f: (v: number) => number = (x) => x) => (v === undefined ? '' : String(f(v)));
   for (let r = 0; r < input.rows; r++) {
     const fields = declared.map((c) => formatValue(c, r));
     const p = predictions[r];
+    const b = bounds[r] ?? undefined;
     fields.push(String(r + 1), p === null ? '' : String(p));
-    if (scale) fields.push(p === null ? '' : String(TARGET_SCALES[scale].inverse(p)));
+    if (withBounds) fields.push(text(b?.low), text(b?.high));
+    if (scale) {
+      const back = TARGET_SCALES[scale].inverse;
+      fields.push(p === null ? '' : String(back(p)));
+      if (withBounds) fields.push(text(b?.low, back), text(b?.high, back));
+    }
     fields.push(outside[r], p === null ? (reason[r] ?? 'not predicted') : '');
     lines.push(fields.map(csvField).join(','));
   }
@@ -137,6 +161,7 @@ export async function predictRun(folder: string, dataFile: string, outFile: stri
     predicted: predictions.filter((p) => p !== null).length,
     notPredicted: predictions.filter((p) => p === null).length,
     outsideRange: outside.filter((o) => o !== '').length,
+    intervalLevel: model.interval?.level ?? null,
     skippedSteps: plan.skipped,
     warnings: execution.warnings,
     out: outFile,

@@ -49,6 +49,7 @@ export function reportView(recipe: Recipe, results: Results, manifest: Manifest,
           }
         : null,
       holdoutRows: formatCount(results.holdout.test),
+      interval: intervalView(best.predictionInterval, recipe, results.folds.k),
       skill: Object.entries(best.skill).map(([b, s]) => ({ baseline: b, value: s === null ? `undefined (${best.skillReasons[b] ?? 'no value'})` : formatNumber(s) })),
       warnings: results.warnings.length,
     },
@@ -143,6 +144,7 @@ export function reportView(recipe: Recipe, results: Results, manifest: Manifest,
       oob: m.oobR2 === null ? null : formatNumber(m.oobR2),
       importance: (m.explain?.importance ?? []).map((i) => ({ predictor: i.predictor, mean: formatNumber(i.mean), sd: formatNumber(i.sd) })),
       repeats: m.explain?.repeats ?? 0,
+      interval: intervalView(m.predictionInterval, recipe, results.folds.k),
       };
     }),
     warnings: results.warnings.map((w) => ({ ...w, repeated: w.count > 1 })),
@@ -162,6 +164,43 @@ export function reportView(recipe: Recipe, results: Results, manifest: Manifest,
 }
 
 export type ReportView = ReturnType<typeof reportView>;
+
+/** The largest number of groups listed one by one under the prediction intervals' coverage. */
+const LISTED_GROUPS = 12;
+
+function percent(share: number): string {
+  return `${formatNumber(100 * share, 1)}%`;
+}
+
+/** A model's prediction intervals and their coverage, in words and a by-group table; null when the recipe turned them off. */
+function intervalView(pi: Results['models'][number]['predictionInterval'], recipe: Recipe, k: number) {
+  if (!pi) return null;
+  const level = `${formatNumber(100 * pi.level, 2).replace(/\.?0+$/, '')}%`;
+  const units = pi.unitKind === 'groups' ? `${formatCount(pi.units)} training groups (${recipe.groups}), each counting once` : `${formatCount(pi.units)} training rows`;
+  const c = pi.coverage;
+  // the groups that missed most first: where a reviewer should look
+  const groups = c ? [...c.byGroup].sort((a, b) => a.inside / a.rows - b.inside / b.rows || (a.group < b.group ? -1 : 1)) : [];
+  return {
+    level,
+    units,
+    k,
+    reason: pi.reason ?? '',
+    forNewGroups: pi.unitKind === 'groups',
+    coverage: c
+      ? {
+          share: percent(c.share),
+          inside: formatCount(c.inside),
+          rows: formatCount(c.rows),
+          width: formatNumber(c.meanWidth),
+          widthOriginal: c.meanWidthOriginal === null ? null : formatNumber(c.meanWidthOriginal),
+          below: c.share < pi.level,
+          groups: groups.slice(0, LISTED_GROUPS).map((g) => ({ group: g.group, rows: formatCount(g.rows), share: percent(g.inside / g.rows) })),
+          moreGroups: groups.length > LISTED_GROUPS ? formatCount(groups.length - LISTED_GROUPS) : null,
+          groupCount: formatCount(groups.length),
+        }
+      : null,
+  };
+}
 
 function splitWords(by: string, recipe: Recipe, part: 'holdout' | 'folds'): string {
   if (by === 'groups') return `by groups (${recipe.groups})`;

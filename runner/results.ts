@@ -8,6 +8,7 @@ import type { HoldoutOutput } from '../steps/index.js';
 import { cellLabel } from '../steps/index.js';
 import type { ColumnProfile } from '../steps/index.js';
 import type { ScoreOutput } from '../steps/index.js';
+import type { IntervalFoldOutput, PredictionIntervalOutput } from '../steps/index.js';
 import type { ExplainOutput } from '../steps/index.js';
 import type { Execution } from './execute.js';
 import type { Plan } from './plan.js';
@@ -51,6 +52,8 @@ export interface ModelResult {
   failed: string | null;
   /** Permutation importance (holdout rows) and partial dependence (training rows); none for mean. */
   explain: ExplainOutput | null;
+  /** CV+ prediction intervals and their coverage of the holdout rows; null when the recipe turns them off. */
+  predictionInterval: Omit<PredictionIntervalOutput, 'table' | 'holdout'> | null;
   learned: { final: FitOutput['design']; folds: FitOutput['design'][] };
 }
 
@@ -80,8 +83,10 @@ export interface Results {
   holdoutRows: { observed: number[]; predicted: number[]; groups: string[] | null };
   /** The headline model's final fit, for model.bin. */
   headlineFit: FitOutput;
-  /** The headline model's prediction for every modelling row, in model-table order. */
-  predictions: { row: number; set: 'training' | 'holdout'; observed: number; predicted: number }[];
+  /** The headline model's fold models and CV+ table, for model.bin; null without prediction intervals. */
+  headlineInterval: { output: PredictionIntervalOutput; folds: IntervalFoldOutput[] } | null;
+  /** The headline model's prediction for every modelling row, in model-table order; holdout rows with their prediction interval. */
+  predictions: { row: number; set: 'training' | 'holdout'; observed: number; predicted: number; low?: number; high?: number }[];
 }
 
 /**
@@ -136,6 +141,7 @@ export function gatherResults(recipe: Recipe, plan: Plan, exec: Execution): Resu
       skillReasons,
       failed: chosen.failed,
       explain: ids.explain ? (out(ids.explain) as ExplainOutput) : null,
+      predictionInterval: ids.interval ? withoutRows(out(ids.interval.gather) as PredictionIntervalOutput) : null,
       learned: { final: fitted.design, folds: (out(ids.cells[chosen.chosen]) as CrossValidateOutput).learned },
     };
   });
@@ -144,6 +150,9 @@ export function gatherResults(recipe: Recipe, plan: Plan, exec: Execution): Resu
   for (const w of [...exec.warnings, ...headline.warnings]) warnings.add(w.code, w.message, w.count);
   const best = headline.chosen;
   const bestScore = out(plan.models[best].score) as ScoreOutput;
+  const ids = plan.models[best].interval;
+  const headlineInterval = ids ? { output: out(ids.gather) as PredictionIntervalOutput, folds: ids.folds.map((id) => out(id) as IntervalFoldOutput) } : null;
+  const bounds = headlineInterval?.output.holdout ?? null;
   const targetValues = column((out(plan.modelTable) as FrameOutput).frame, recipe.target).values as Float64Array;
   return {
     sources,
@@ -165,9 +174,16 @@ export function gatherResults(recipe: Recipe, plan: Plan, exec: Execution): Resu
     warnings: warnings.list(),
     holdoutRows: { observed: bestScore.observed, predicted: bestScore.predictions, groups: bestScore.groups },
     headlineFit: out(plan.models[best].fit) as FitOutput,
+    headlineInterval,
     predictions: [
       ...split.train.map((row, k) => ({ row, set: 'training' as const, observed: targetValues[row], predicted: bestScore.trainingPredictions[k] })),
-      ...split.test.map((row, k) => ({ row, set: 'holdout' as const, observed: targetValues[row], predicted: bestScore.predictions[k] })),
+      ...split.test.map((row, k) => ({ row, set: 'holdout' as const, observed: targetValues[row], predicted: bestScore.predictions[k], ...(bounds ? { low: bounds.low[k], high: bounds.high[k] } : {}) })),
     ].sort((a, b) => a.row - b.row),
   };
+}
+
+/** A prediction-interval output without its per-row parts, as the report and manifest need it. */
+function withoutRows(o: PredictionIntervalOutput): Omit<PredictionIntervalOutput, 'table' | 'holdout'> {
+  const { table: _table, holdout: _holdout, ...rest } = o;
+  return rest;
 }

@@ -76,7 +76,7 @@ export async function runRecipe(recipePath: string, opts: RunOptions): Promise<R
   cache?.sweepTemporaries(ABANDONED_WRITE_MS);
   const { execution, results } = await executeRecipe(recipe, origin, { cache, workers: opts.workers ?? defaultWorkers(), progress: opts.progress, slurm: opts.slurm });
   // 7: render and write
-  const modelBin = writeModelFile(results.headlineFit, recipe, { holdoutPredictionsSha256: holdoutPredictionsSha256(results) });
+  const modelBin = writeModelFile(results.headlineFit, results.headlineInterval, recipe, { holdoutPredictionsSha256: holdoutPredictionsSha256(results) });
   // texts from the data are shortened in the record; the recipe stays whole, since verify reruns it
   const manifest = shortenTexts(
     buildManifest(recipe, origin, execution, results, { started, seconds: (performance.now() - t0) / 1000 }, outDir, modelBin),
@@ -118,11 +118,21 @@ export async function executeRecipe(
 /**
  * predictions.csv: the headline model's prediction for every modelling row, in input order
  * (model_row counts the rows that survived cleaning, from 0), with the set each row was in; with a
- * target scale, observed and predicted also back on the quantity's own scale.
+ * target scale, observed and predicted also back on the quantity's own scale. With prediction
+ * intervals, each holdout row's CV+ bounds (low, high); training rows leave them empty.
  */
 export function predictionsCsv(results: Results, scale: TargetScale | null): string {
   const back = scale ? TARGET_SCALES[scale].inverse : null;
-  const lines = [`model_row,set,observed,predicted${back ? ',observed_original,predicted_original' : ''}`];
-  for (const p of results.predictions) lines.push(`${p.row},${p.set},${p.observed},${p.predicted}${back ? `,${back(p.observed)},${back(p.predicted)}` : ''}`);
+  const bounds = results.headlineInterval !== null;
+  const head = ['model_row', 'set', 'observed', 'predicted', ...(bounds ? ['low', 'high'] : [])];
+  if (back) head.push('observed_original', 'predicted_original', ...(bounds ? ['low_original', 'high_original'] : []));
+  const lines = [head.join(',')];
+  // a training row has no interval: CV+ intervals are for rows the fold models did not see
+  const cell = (v: number | undefined, f: (v: number) => number = (x) => x) => (v === undefined ? '' : String(f(v)));
+  for (const p of results.predictions) {
+    const row = [p.row, p.set, p.observed, p.predicted, ...(bounds ? [cell(p.low), cell(p.high)] : [])];
+    if (back) row.push(back(p.observed), back(p.predicted), ...(bounds ? [cell(p.low, back), cell(p.high, back)] : []));
+    lines.push(row.join(','));
+  }
   return lines.join('\n') + '\n';
 }

@@ -65,6 +65,12 @@ export function validateRecipe(doc: PositionedDocument): string[] {
     const path = splitPointer(pointer);
     const name = describePath(path);
     const anyOf = list.some((e) => e.keyword === 'anyOf');
+    // a mapping where a mapping is one of the choices: its unknown or missing keys say what is wrong
+    const structural = list.filter((e) => e.keyword === 'additionalProperties' || e.keyword === 'required');
+    if (anyOf && structural.length > 0) {
+      for (const e of structural) out.push(describeError(e, path, name, doc));
+      continue;
+    }
     if (anyOf) {
       out.push({ pos: doc.where(path), msg: messages.wrongType(name, expectedOf(list), valueAt(doc.value, path)) });
       continue;

@@ -96,7 +96,7 @@ export async function verifyRun(folder: string, opts: { workers: number; progres
   let keep = false;
   try {
     const { execution, results } = await executeRecipe(recipe, origin, { cache: new Cache(cacheDir), workers: opts.workers, progress: opts.progress, slurm: opts.slurm });
-    rerun = buildManifest(recipe, origin, execution, results, { started: new Date(), seconds: 0 }, outDir, writeModelFile(results.headlineFit, recipe, { holdoutPredictionsSha256: holdoutPredictionsSha256(results) }));
+    rerun = buildManifest(recipe, origin, execution, results, { started: new Date(), seconds: 0 }, outDir, writeModelFile(results.headlineFit, results.headlineInterval, recipe, { holdoutPredictionsSha256: holdoutPredictionsSha256(results) }));
   } catch (e) {
     // a failed cluster task's log lives in this cache: keep it, and do not promise a resumable rerun
     if (opts.slurm && e instanceof DendrologError && existsSync(join(cacheDir, 'tasks')) && readdirSync(join(cacheDir, 'tasks')).length > 0) {

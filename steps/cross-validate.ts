@@ -61,37 +61,53 @@ export const cvFold: StepDefinition<CrossValidateParams & { fold: number }, CvFo
   usesSeed: true,
   parallel: true,
   async run(inputs, params, ctx) {
-    const frame = (inputs[0] as FrameOutput).frame;
-    const split = inputs[1] as HoldoutOutput;
     const folds = inputs[2] as FoldsOutput;
     const f = params.fold;
-    const constant = constantPredictors(frame, params.predictors, split.train);
-    if (params.predictors.length > 0 && constant.length === params.predictors.length) {
-      throw new DendrologError(messages.predictorsAllConstant(constant), 1);
-    }
-    const times = params.time ? (column(frame, params.time).values as Float64Array) : null;
-    const { fit: fitAt, test: testAt } = foldRows(folds, f, (k) => (times ? times[split.train[k]] : NaN));
-    const fitRows = fitAt.map((k) => split.train[k]);
-    const testRows = testAt.map((k) => split.train[k]);
-    const design = learnDesign(frame, fitRows, params.features, params.predictors);
-    const x = applyDesign(design, frame, fitRows);
-    const y = targetOf(frame, params.target, fitRows);
-    const engine = engineFor(params.kind, params.model);
     const where = `cross-validation fold ${f + 1} of ${folds.k}, ${cellLabel(params.cell)}`;
-    const fitted = await engine.fit(x, y, params.cell, { seed: ctx.seedFor('fit', f), workers: ctx.workers }, where);
-    const p = await engine.predict(fitted.bytes, applyDesign(design, frame, testRows), where);
+    const fold = await fitFold(inputs, params, params.cell, f, ctx.seedFor('fit', f), ctx.workers, where);
+    const testAt = fold.testAt;
+    const p = await fold.predict(fold.testRows, where);
     const bad = p.findIndex((v) => !Number.isFinite(v));
     return {
       fold: f,
       tested: testAt,
       predictions: Array.from(p, (v) => (Number.isFinite(v) ? v : null)),
-      used: fitted.used,
-      learned: design,
+      used: fold.fitted.used,
+      learned: fold.design,
       nonFinite: bad >= 0 ? messages.predictionNotFinite(p[bad], `cross-validation fold ${f + 1}`) : null,
     };
   },
   summary: (o) => `${o.tested.length} rows predicted`,
 };
+
+/**
+ * Fits one cell on every fold of the training rows but fold `f` (inputs: the model table, the
+ * holdout, the folds), with the learned feature steps fitted on those rows only; says which
+ * training positions the fold tests and predicts any rows with the fold's own design.
+ */
+export async function fitFold(inputs: unknown[], params: Omit<CrossValidateParams, 'cell'>, cell: Cell, f: number, seed: string, workers: number, where: string) {
+  const frame = (inputs[0] as FrameOutput).frame;
+  const split = inputs[1] as HoldoutOutput;
+  const folds = inputs[2] as FoldsOutput;
+  const constant = constantPredictors(frame, params.predictors, split.train);
+  if (params.predictors.length > 0 && constant.length === params.predictors.length) {
+    throw new DendrologError(messages.predictorsAllConstant(constant), 1);
+  }
+  const times = params.time ? (column(frame, params.time).values as Float64Array) : null;
+  const { fit: fitAt, test: testAt } = foldRows(folds, f, (k) => (times ? times[split.train[k]] : NaN));
+  const fitRows = fitAt.map((k) => split.train[k]);
+  const design = learnDesign(frame, fitRows, params.features, params.predictors);
+  const engine = engineFor(params.kind, params.model);
+  const fitted = await engine.fit(applyDesign(design, frame, fitRows), targetOf(frame, params.target, fitRows), cell, { seed, workers }, where);
+  return {
+    testAt,
+    testRows: testAt.map((k) => split.train[k]),
+    design,
+    fitted,
+    /** The fold model's predictions for some rows of the model table. */
+    predict: (rows: number[], at: string) => engine.predict(fitted.bytes, applyDesign(design, frame, rows), at),
+  };
+}
 
 /**
  * Out-of-fold predictions of one grid cell, gathered from its folds (inputs: the holdout, the

@@ -4,6 +4,8 @@ import { dict, has } from '../core/dict.js';
 import { learnedFeatures } from './learned.js';
 import { choose } from './choose.js';
 import { crossValidate, cvFold } from './cross-validate.js';
+import { intervalFold } from './interval-fold.js';
+import { predictionInterval } from './prediction-interval.js';
 import { deduplicate } from './deduplicate.js';
 import { derive } from './derive.js';
 import { dropMissing } from './drop-missing.js';
@@ -23,7 +25,7 @@ import { within } from './within.js';
 
 /** Every step kind, by name. Adding a kind: one file in steps/ and one line here. */
 export const stepRegistry: Record<string, StepDefinition<never, unknown>> = dict(
-  [source, newRows, join, replace, dropMissing, keepRows, within, deduplicate, derive, modelTable, holdout, folds, cvFold, crossValidate, choose, fit, score, explain, headline].map(
+  [source, newRows, join, replace, dropMissing, keepRows, within, deduplicate, derive, modelTable, holdout, folds, cvFold, crossValidate, choose, fit, intervalFold, predictionInterval, score, explain, headline].map(
     (s) => [s.kind, s as StepDefinition<never, unknown>],
   ),
 );
@@ -112,4 +114,6 @@ export { readHeaderLine } from './readers/csv.js';
 export { COMMON_ENCODINGS, StrictTextStream, decodeStrict, encodingName } from './readers/text-decode.js';
 export { parseValue } from './readers/values.js';
 export type { ScoreOutput } from './score.js';
+export type { IntervalFoldOutput } from './interval-fold.js';
+export type { PredictionIntervalOutput } from './prediction-interval.js';
 export { TARGET_SCALES, targetScaleWords } from './target-scale.js';

@@ -106,6 +106,18 @@ describe('recipe schema', () => {
       `${atOn(c.file, fraction, 'holdout:', '1}')}: ${messages.outOfRange('evaluation.holdout.fraction', 1, 'less than 1')}`,
     ]);
 
+    // prediction_interval is a mapping with a level, or false
+    const level = SMALL_RECIPE.replace('folds: {k: 3}', 'prediction_interval: {level: 1}');
+    const e = problemsOf(level);
+    expect(e.problems).toEqual([`${atOn(e.file, level, 'prediction_interval:', '1}')}: ${messages.outOfRange('evaluation.prediction_interval.level', 1, 'less than 1')}`]);
+    const word = SMALL_RECIPE.replace('folds: {k: 3}', 'prediction_interval: yes');
+    const f = problemsOf(word);
+    expect(f.problems).toEqual([`${atOn(f.file, word, 'prediction_interval:', 'yes')}: ${messages.wrongType('evaluation.prediction_interval', 'a mapping of keys to values or false', 'yes')}`]);
+    // a mapping with a misspelt key is told about the key, not that it should have been false
+    const key = SMALL_RECIPE.replace('folds: {k: 3}', 'prediction_interval: {lvl: 0.8}');
+    const g = problemsOf(key);
+    expect(g.problems).toEqual([`${atOn(g.file, key, 'prediction_interval:', 'lvl')}: ${messages.unknownKey('lvl', 'evaluation.prediction_interval', 'level', ['level'])}`]);
+
     const empty = SMALL_RECIPE.replace('predictors: [x1, x2]', 'predictors: []');
     const d = problemsOf(empty);
     expect(d.problems).toEqual([`${at(d.file, empty, '[]')}: ${messages.outOfRange('predictors', [], 'a list of at least 1 item(s)')}`]);

@@ -52,6 +52,10 @@ describe('step keys', () => {
       'explain tree',
       'fit tree',
       'headline',
+      'interval tree fold 1',
+      'interval tree fold 2',
+      'interval tree fold 3',
+      'prediction interval tree',
       'score tree',
     ]);
     expect(after.get('cv linear no hyperparameters')).toBe(before.get('cv linear no hyperparameters'));

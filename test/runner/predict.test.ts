@@ -65,12 +65,17 @@ describe('the apply plan', () => {
     await expectOutcome(s.dir, ['predict', join(s.dir, 'out/small'), join(s.dir, 'new.csv'), '--out', join(s.dir, 'p.csv')], { code: 0, changes: ['p.csv', 'new.csv'] });
     const [head, ...rows] = readFileSync(join(s.dir, 'p.csv'), 'utf8').trimEnd().split('\n').map((l) => l.split(','));
     const at = head.indexOf('predicted_y');
-    expect(head[at + 1]).toBe('predicted_y_original');
-    for (const r of rows) expect(Number(r[at + 1])).toBe(Math.exp(Number(r[at])));
+    expect(head.slice(at, at + 6)).toEqual(['predicted_y', 'low_y', 'high_y', 'predicted_y_original', 'low_y_original', 'high_y_original']);
+    for (const r of rows) for (let j = 0; j < 3; j++) expect(Number(r[at + 3 + j])).toBe(Math.exp(Number(r[at + j])));
     // the run folder's predictions, on both scales too
     const [runHead, ...runRows] = readFileSync(join(s.dir, 'out/small/predictions.csv'), 'utf8').trimEnd().split('\n').map((l) => l.split(','));
-    expect(runHead).toEqual(['model_row', 'set', 'observed', 'predicted', 'observed_original', 'predicted_original']);
-    for (const r of runRows) expect([Number(r[4]), Number(r[5])]).toEqual([Math.exp(Number(r[2])), Math.exp(Number(r[3]))]);
+    expect(runHead).toEqual(['model_row', 'set', 'observed', 'predicted', 'low', 'high', 'observed_original', 'predicted_original', 'low_original', 'high_original']);
+    for (const r of runRows) {
+      expect([Number(r[6]), Number(r[7])]).toEqual([Math.exp(Number(r[2])), Math.exp(Number(r[3]))]);
+      // training rows have no interval (none of the fold models' residuals is out of sample for them)
+      if (r[1] === 'training') expect(r.slice(4, 6).concat(r.slice(8))).toEqual(['', '', '', '']);
+      else expect([Number(r[8]), Number(r[9])]).toEqual([Math.exp(Number(r[4])), Math.exp(Number(r[5]))]);
+    }
   });
 
   it('applies in predict: skipped steps and step warnings are printed, and each row gets its prediction or reason', async () => {
@@ -86,8 +91,34 @@ describe('the apply plan', () => {
     expect(r.out).toContain('steps that need it were skipped: features[0] derive');
     expect(r.out).toContain(`warning: ${messages.deriveNonFinite('lx', 'op.log(d.x1 + 1)', 1)}`);
     const lines = readFileSync(join(s.dir, 'p.csv'), 'utf8').trimEnd().split('\n');
-    expect(lines[0]).toBe('site,x1,x2,input_row,predicted_y10,outside_training_range,not_predicted_because');
+    expect(lines[0]).toBe('site,x1,x2,input_row,predicted_y10,low_y10,high_y10,outside_training_range,not_predicted_because');
     expect(lines[1]).toMatch(/^A,1,2,1,-?\d/);
-    expect(lines[2]).toBe('B,-1,2,2,,,missing lx');
+    expect(lines[2]).toBe('B,-1,2,2,,,,,missing lx');
+  });
+
+  it("gives the run's own holdout rows the prediction intervals the run gave them, from the fold models in model.bin", async () => {
+    const s = scenario({ 'recipe.yaml': SMALL_RECIPE, 'data/obs.csv': smallData() });
+    await expectOutcome(s.dir, ['run', s.recipe, '--cache', s.cache, '--workers', '1'], { code: 0, changes: ['out/small/'] });
+    await expectOutcome(s.dir, ['predict', join(s.dir, 'out/small'), join(s.dir, 'data/obs.csv'), '--out', join(s.dir, 'p.csv')], { code: 0, changes: ['p.csv'] });
+    const table = (file: string) => readFileSync(join(s.dir, file), 'utf8').trimEnd().split('\n').map((l) => l.split(','));
+    const [head, ...rows] = table('p.csv');
+    const [, ...run] = table('out/small/predictions.csv');
+    const holdout = run.filter((row) => row[1] === 'holdout');
+    expect(holdout.length).toBeGreaterThan(0);
+    // no cleaning in SMALL_RECIPE: model_row is the input row, counted from 0
+    for (const [row, , , predicted, low, high] of holdout) {
+      const p = rows[Number(row)];
+      expect([p[head.indexOf('predicted_y')], p[head.indexOf('low_y')], p[head.indexOf('high_y')]]).toEqual([predicted, low, high]);
+      expect(Number(low)).toBeLessThanOrEqual(Number(high));
+    }
+  });
+
+  it('writes no interval columns when the recipe turns prediction intervals off', async () => {
+    const s = scenario({ 'recipe.yaml': SMALL_RECIPE.replace('evaluation:', 'evaluation:\n  prediction_interval: false') });
+    await expectOutcome(s.dir, ['run', s.recipe, '--cache', s.cache, '--workers', '1'], { code: 0, changes: ['out/small/'] });
+    const r = await expectOutcome(s.dir, ['predict', join(s.dir, 'out/small'), join(s.dir, 'data/obs.csv'), '--out', join(s.dir, 'p.csv')], { code: 0, changes: ['p.csv'] });
+    expect(r.out).not.toContain('prediction interval');
+    expect(readFileSync(join(s.dir, 'p.csv'), 'utf8').split('\n')[0]).not.toMatch(/low_|high_/);
+    expect(readFileSync(join(s.dir, 'out/small/predictions.csv'), 'utf8').split('\n')[0]).toBe('model_row,set,observed,predicted');
   });
 });

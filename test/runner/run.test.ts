@@ -134,8 +134,9 @@ describe('growing a grid', () => {
     const linearFits = vi.spyOn(modelKinds.linear, 'fit');
     const lines: string[] = [];
     await runRecipe(join(dir, 'recipe.yaml'), { cache, workers: 1, progress: silentProgress(lines) });
-    // 3 folds of the new cell + 1 final fit of the chosen cell; the linear model is untouched
-    expect(fits).toHaveBeenCalledTimes(3 + 1);
+    // 3 folds of the new cell + 1 final fit of the chosen cell + its 3 fold models for the
+    // prediction intervals (they follow the choice); the linear model is untouched
+    expect(fits).toHaveBeenCalledTimes(3 + 1 + 3);
     expect(linearFits).not.toHaveBeenCalled();
     // the new cell's 3 folds and their gathering; nothing of the cell already there
     const ran = lines.filter((l) => l.startsWith('ran') && l.includes(' cv '));

@@ -40,8 +40,8 @@ describe('the Slurm executor (stand-in commands)', () => {
     const local = await cli(['run', s.recipe, '--no-cache', '--workers', '1', '--out', join(s.dir, 'local')]);
     expect(local.code).toBe(0);
     await expectOutcome(s.dir, ['run', s.recipe, '--cache', s.cache, '--executor', 'slurm', '--slurm-partition', 'short', '--out', join(s.dir, 'cluster')], { code: 0, changes: ['cluster/'] });
-    // SMALL_RECIPE: 2 models × 3 folds, 2 final fits, 1 explanation (mean has none)
-    expect(calls().map(arrayOf)).toEqual(['--array=0-5', '--array=0-1', '--array=0']);
+    // SMALL_RECIPE: 2 models × 3 folds; 2 final fits beside 2 models × 3 interval folds; 1 explanation (mean has none)
+    expect(calls().map(arrayOf)).toEqual(['--array=0-5', '--array=0-7', '--array=0']);
     expect(calls()[0]).toContain('--partition=short');
     const steps = (dir: string) => (JSON.parse(readFileSync(join(s.dir, dir, 'manifest.json'), 'utf8')) as { steps: { id: string; output: string }[] }).steps;
     expect(steps('cluster')).toEqual(steps('local').map((x) => expect.objectContaining({ id: x.id, output: x.output })));
@@ -58,7 +58,7 @@ describe('the Slurm executor (stand-in commands)', () => {
   it('runs several steps to a task when asked, with the same outputs', async () => {
     const s = scenario();
     const r = await expectOutcome(s.dir, ['run', s.recipe, '--cache', s.cache, '--executor', 'slurm', '--slurm-steps-per-task', '4', '--out', join(s.dir, 'a')], { code: 0, changes: ['a/'] });
-    expect(calls().map(arrayOf)).toEqual(['--array=0-1', '--array=0', '--array=0']);
+    expect(calls().map(arrayOf)).toEqual(['--array=0-1', '--array=0-1', '--array=0']);
     expect(r.out).toContain('submitted 6 steps in 2 tasks as Slurm job array 101');
     const local = await cli(['run', s.recipe, '--no-cache', '--workers', '1', '--out', join(s.dir, 'b')]);
     expect(local.code).toBe(0);
@@ -67,7 +67,11 @@ describe('the Slurm executor (stand-in commands)', () => {
   });
 
   it('grows a final forest as tasks of its trees, merged into the bytes of a local run; a rerun submits only the trees not yet grown', async () => {
-    const recipe = SMALL_RECIPE.replace('mean: {kind: mean}', 'mean: {kind: mean}\n  forest: {kind: random_forest, grid: {trees: 120, min_leaf: 2}}');
+    // (without prediction intervals, so the fits' array holds the fits alone)
+    const recipe = SMALL_RECIPE.replace('mean: {kind: mean}', 'mean: {kind: mean}\n  forest: {kind: random_forest, grid: {trees: 120, min_leaf: 2}}').replace(
+      'evaluation:',
+      'evaluation:\n  prediction_interval: false',
+    );
     const s = scenario({ 'recipe.yaml': recipe });
     const local = await cli(['run', s.recipe, '--no-cache', '--workers', '1', '--out', join(s.dir, 'local')]);
     expect(local.code).toBe(0);
