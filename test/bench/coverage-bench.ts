@@ -5,6 +5,9 @@
  * noise (sd 1); the truth is the fitted forest's own score on new groups of the same process,
  * measured on 2,000 fresh groups (10,000 rows). Beside the score step's interval (jackknife-t over
  * groups, models/intervals.ts), a 1,000-resample percentile cluster bootstrap, the method it replaced.
+ * Then the CV+ prediction intervals (models/conformal.ts) from 5 folds by group of the training
+ * rows, each group counting once: whether one new row of a new group falls inside its interval (a
+ * hit per replicate, so binomial bounds hold), and the mean share of the 10,000 new rows inside.
  * Prints a table with 95% binomial bounds; asserts nothing.
  *
  * Run: npm run build && node dist/test/bench/coverage-bench.js [replicates]
@@ -17,6 +20,31 @@ import type { FitOutput } from '../../steps/fit.js';
 import type { HoldoutOutput } from '../../steps/holdout.js';
 import { score, type ScoreOutput } from '../../steps/score.js';
 import { friedmanMean } from './friedman.js';
+import { conformalTable, cvPlus } from '../../models/conformal.js';
+
+/**
+ * CV+ over 5 folds by group of the training rows (group g in fold g mod 5), each group counting
+ * once: the interval of every row of `fresh`.
+ */
+async function cvPlusOf(data: Rows, train: number[], fresh: Rows, seed: string): Promise<{ low: number; high: number }[]> {
+  const all = [...Array(fresh.y.length).keys()];
+  const folds = [];
+  const mus: Float64Array[] = [];
+  for (let f = 0; f < 5; f++) {
+    const fit = train.filter((i) => data.group[i] % 5 !== f);
+    const test = train.filter((i) => data.group[i] % 5 === f);
+    const forest = await fitForest(matrix(data, fit), Float64Array.from(fit, (i) => data.y[i]), { trees: 50, maxDepth: null, minLeaf: 3, mtry: null, seed: `${seed}-fold-${f}` });
+    const p = predictForest(forest, matrix(data, test));
+    folds.push({ residuals: test.map((i, j) => Math.abs(data.y[i] - p[j])), groups: test.map((i) => String(data.group[i])) });
+    mus.push(predictForest(forest, matrix(fresh, all)));
+  }
+  const table = conformalTable(folds);
+  const mu = new Float64Array(5);
+  return all.map((i) => {
+    mus.forEach((m, f) => (mu[f] = m[i]));
+    return cvPlus(table, mu, 0.9)!;
+  });
+}
 
 const ROWS = 5;
 const SD_GROUP = 1.5;
@@ -88,10 +116,11 @@ async function main() {
   const meanY = big.y.reduce((a, b) => a + b, 0) / big.y.length;
   const varY = big.y.reduce((s, v) => s + (v - meanY) ** 2, 0) / big.y.length;
   console.log(`forest of 50 trees (min_leaf 3); ${replicates} replicates per row; truth on 2,000 new groups; nominal 90%; Wilson 95% bounds`);
-  console.log('| holdout groups | R², jackknife-t | RMSE, jackknife-t | R², percentile bootstrap | RMSE, percentile bootstrap |');
-  console.log('|---:|---|---|---|---|');
+  console.log('| holdout groups | R², jackknife-t | RMSE, jackknife-t | R², percentile bootstrap | RMSE, percentile bootstrap | prediction interval, one new row | prediction interval, mean share of new rows |');
+  console.log('|---:|---|---|---|---|---|---|');
   for (const held of [5, 10, 20, 40]) {
-    const hits = { r2: 0, rmse: 0, r2b: 0, rmseb: 0 };
+    const hits = { r2: 0, rmse: 0, r2b: 0, rmseb: 0, pi: 0 };
+    let piShare = 0;
     for (let rep = 0; rep < replicates; rep++) {
       const data = grouped(held * 5, rand);
       const test = [...Array(held * ROWS).keys()];
@@ -131,8 +160,12 @@ async function main() {
       const b = percentile(out.observed, out.predictions, test.map((i) => data.group[i]), rand);
       if (b.r2[0] <= truth.r2 && truth.r2 <= b.r2[1]) hits.r2b++;
       if (b.rmse[0] <= truth.rmse && truth.rmse <= b.rmse[1]) hits.rmseb++;
+      const bounds = await cvPlusOf(data, train, fresh, `rep-${held}-${rep}`);
+      const within = bounds.map((iv, i) => iv.low <= fresh.y[i] && fresh.y[i] <= iv.high);
+      if (within[0]) hits.pi++;
+      piShare += within.filter(Boolean).length / within.length;
     }
-    console.log(`| ${held} | ${wilson(hits.r2, replicates)} | ${wilson(hits.rmse, replicates)} | ${wilson(hits.r2b, replicates)} | ${wilson(hits.rmseb, replicates)} |`);
+    console.log(`| ${held} | ${wilson(hits.r2, replicates)} | ${wilson(hits.rmse, replicates)} | ${wilson(hits.r2b, replicates)} | ${wilson(hits.rmseb, replicates)} | ${wilson(hits.pi, replicates)} | ${(piShare / replicates).toFixed(3)} |`);
   }
 }
 
