@@ -195,6 +195,12 @@ export const messages = {
     `${step} keeps values from min ${min} to max ${max}, but min is above max, so every row would be dropped; swap them`,
   groupsNeeded: (where: string) =>
     `${where} splits by groups, but the recipe has no "groups" column; add "groups: <column>" or split at random`,
+  blocksNeeded: (where: string) =>
+    `${where} splits by spatial blocks, but the recipe declares none; add "blocks: {x: <column>, y: <column>, size: <side>}" or split another way`,
+  blockCoordinateNotNumber: (column: string, type: string) =>
+    `the block coordinate ${q(column)} is declared as ${type}; coordinates must be number columns (projected, e.g. metres east and north)`,
+  blockCoordinateMissing: (column: string, rows: number) =>
+    `the block coordinate ${q(column)} has ${rows} missing or non-finite values among the modelling rows, and a row without a place has no block; drop them with "drop_missing: [${column}]", or fill them in the data`,
   timeNeeded: (where: string) =>
     `${where} splits by time, but the recipe has no "time" column; add "time: <column>" or split another way`,
 
@@ -290,7 +296,7 @@ export const messages = {
     `the holdout intervals rest on ${what}, too few for any interval to say how much the score varies; read them as unreliable, and use a larger holdout fraction if the data allow`,
   groupsMissing: (column: string, rows: number) =>
     `the groups column ${q(column)} has ${rows} missing values among the modelling rows, and a row without a group cannot be kept on one side of a split; drop them with "drop_missing: [${column}]", or fill them in the data`,
-  foldsTooFew: (left: number, unit: 'rows' | 'groups', heldOut: number, all: number, k: number, needed: number) =>
+  foldsTooFew: (left: number, unit: 'rows' | 'groups' | 'blocks', heldOut: number, all: number, k: number, needed: number) =>
     `only ${left} training ${unit} remain after the holdout took ${heldOut} of ${all}, but ${k} folds need at least ${needed}; lower evaluation.holdout.fraction, use fewer folds (evaluation.folds.k), or loosen the cleaning steps`,
   timeMissing: (column: string, rows: number) =>
     `the time column ${q(column)} has ${rows} missing values among the modelling rows; drop them with "drop_missing: [${column}]" or split another way`,

@@ -66,7 +66,14 @@ export interface ModelSpec {
   grid: Record<string, (number | boolean | null)[]>;
 }
 
-export type SplitBy = 'random' | 'groups' | 'time';
+export type SplitBy = 'random' | 'groups' | 'time' | 'blocks';
+
+/** Square spatial blocks: the coordinate columns and a block's side, in the coordinates' units. */
+export interface Blocks {
+  x: string;
+  y: string;
+  size: number;
+}
 
 export interface Evaluation {
   /**
@@ -99,6 +106,8 @@ export interface Recipe {
   predictors: string[];
   groups: string | null;
   time: string | null;
+  /** Spatial blocks for splits by blocks; null when the recipe declares none. */
+  blocks: Blocks | null;
   models: Record<string, ModelSpec>;
   evaluation: Evaluation;
   report: { folder: string };

@@ -24,9 +24,9 @@ export interface HoldoutChange {
   /** 'unknown' when a manifest predates the record of its holdout. */
   status: 'same' | 'changed' | 'unknown';
   /** The new run's unit; each side's counts carry their own. */
-  unit: 'group' | 'row' | null;
-  old: { unit: 'group' | 'row'; holdout: number; training: number } | null;
-  new: { unit: 'group' | 'row'; holdout: number; training: number } | null;
+  unit: 'group' | 'block' | 'row' | null;
+  old: { unit: 'group' | 'block' | 'row'; holdout: number; training: number } | null;
+  new: { unit: 'group' | 'block' | 'row'; holdout: number; training: number } | null;
   /** Units held out now that were not before (moved from training, or new), and the reverse; null when a run did not list its units. */
   nowHeldOut: string[] | null;
   noLongerHeldOut: string[] | null;
@@ -152,7 +152,7 @@ function holdoutLines(h: HoldoutChange): string[] {
   else if (h.nowHeldOut === null || h.noLongerHeldOut === null) lines.push('', 'A run held out too many units to list them, so which ones moved is not known.');
   else {
     // rows are known by a hash of their target and time values: their names say nothing, their counts do
-    const names = (u: string[]) => (h.unit === 'group' && u.length ? `: ${someOf(u)}` : '');
+    const names = (u: string[]) => (h.unit !== 'row' && u.length ? `: ${someOf(u)}` : '');
     lines.push('', `- held out now, not before: ${units(h.nowHeldOut.length)}${names(h.nowHeldOut)}`, `- held out before, not now: ${units(h.noLongerHeldOut.length)}${names(h.noLongerHeldOut)}`);
   }
   return lines;

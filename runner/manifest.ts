@@ -40,7 +40,7 @@ export interface Manifest {
    * or rows by a hash of their target and time values; the list itself when it has at most MAX_LISTED_UNITS units.
    * Absent in manifests of older runs.
    */
-  split?: { by: string; unit: 'group' | 'row'; holdoutUnits: number; trainingUnits: number; digest: string; holdout?: string[] };
+  split?: { by: string; unit: 'group' | 'block' | 'row'; holdoutUnits: number; trainingUnits: number; digest: string; holdout?: string[] };
   /**
    * The headline model as written to model.bin, so predict and verify can tell the run's own file
    * from a truncated, edited or foreign one. Absent in manifests of older runs.

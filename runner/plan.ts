@@ -1,6 +1,6 @@
 import { readFileSync } from 'node:fs';
 import { stepRegistry } from '../steps/index.js';
-import { cellLabel, gridCells, varyingParams } from '../steps/index.js';
+import { BLOCK_COLUMN, cellLabel, gridCells, unitColumn, varyingParams } from '../steps/index.js';
 import { hashValue, sha256 } from '../core/hash.js';
 import { softwareFingerprint } from './environment.js';
 import { DendrologError, messages } from '../core/messages.js';
@@ -133,7 +133,7 @@ export function planRecipe(recipe: Recipe, origin: RecipeOrigin): Plan {
   const modelTable = add(
     'model table',
     'model_table',
-    { target: recipe.target, predictors: recipe.predictors, groups: recipe.groups, time: recipe.time },
+    { target: recipe.target, predictors: recipe.predictors, groups: recipe.groups, time: recipe.time, ...(recipe.blocks ? { blocks: recipe.blocks } : {}) },
     [last],
   );
   dataSteps.push(modelTable);
@@ -186,9 +186,15 @@ export function planRecipe(recipe: Recipe, origin: RecipeOrigin): Plan {
       return [name, ids];
     }),
   );
-  const intervalParams = { level: pi ? pi.level : 0, target: recipe.target, targetScale: recipe.target_scale, groups: recipe.groups, byGroups: ev.folds.by === 'groups' };
+  const intervalParams = {
+    level: pi ? pi.level : 0,
+    target: recipe.target,
+    targetScale: recipe.target_scale,
+    groups: recipe.groups ?? (recipe.blocks ? BLOCK_COLUMN : null),
+    units: unitColumn(ev.folds.by, recipe.groups),
+  };
   const gathered = dict(names.map((name) => [name, interval[name] ? add(`prediction interval ${name}`, 'prediction_interval', intervalParams, [modelTable, holdout, ...interval[name]!]) : null]));
-  const scoreParams = { target: recipe.target, targetScale: recipe.target_scale, groups: recipe.groups, byGroups: ev.holdout.by === 'groups' };
+  const scoreParams = { target: recipe.target, targetScale: recipe.target_scale, groups: recipe.groups, units: unitColumn(ev.holdout.by, recipe.groups) };
   const score = dict(names.map((name) => [name, add(`score ${name}`, 'score', scoreParams, [modelTable, holdout, fit[name]])]));
   const explain = dict(
     names.map((name) => [

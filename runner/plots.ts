@@ -219,5 +219,43 @@ export async function buildFigures(recipe: Recipe, results: Results): Promise<Re
         }),
     );
   }
-  return { holdout, drivers, grid };
+  return { holdout, drivers, grid, protocol: await splitMapFigures(recipe, results) };
 }
+
+/** With spatial blocks, the rows on their coordinates, coloured by holdout and fold, over the block grid. */
+async function splitMapFigures(recipe: Recipe, results: Results): Promise<Figure[]> {
+  const map = results.splitMap;
+  const b = recipe.blocks;
+  if (!map || !b) return [];
+  const sets = [...new Set(map.points.map((p) => p.set))].sort((p, q) => (p === 'holdout' ? -1 : q === 'holdout' ? 1 : p.localeCompare(q, 'en', { numeric: true })));
+  // the axes' grid lines are the block boundaries, when there are not too many to read
+  const edges = (v: number[]) => {
+    const lo = Math.floor(Math.min(...v) / b.size);
+    // a point on an edge belongs to the block above it, which is drawn whole
+    const hi = Math.floor(Math.max(...v) / b.size) + 1;
+    return hi - lo > 40 ? undefined : Array.from({ length: hi - lo + 1 }, (_, i) => +((lo + i) * b.size).toPrecision(12));
+  };
+  const axis = (v: number[]) => {
+    const values = edges(v);
+    return values ? { scale: { zero: false, domain: [values[0], values[values.length - 1]] }, axis: { values } } : { scale: { zero: false, padding: 12 } };
+  };
+  const sample = map.step > 1 ? ` (every ${map.step}th of ${map.rows.toLocaleString('en')} rows)` : '';
+  return [
+    await figure('split-map', `Rows on ${b.x} and ${b.y}, by holdout and fold`,
+      `Map of ${map.points.length.toLocaleString('en')} modelling rows${sample} on their coordinates ${b.x} and ${b.y}, coloured by the holdout and by the fold each training row is tested in; grid lines mark the square blocks of ${formatSetting(b.size)} on a side where they are few enough to draw.`,
+      {
+        width: 420,
+        height: 360,
+        data: { values: map.points },
+        mark: { type: 'square', size: 30, opacity: 0.85 },
+        encoding: {
+          x: { field: 'x', type: 'quantitative', title: b.x, ...axis(map.points.map((p) => p.x)) },
+          y: { field: 'y', type: 'quantitative', title: b.y, ...axis(map.points.map((p) => p.y)) },
+          color: { field: 'set', type: 'nominal', title: 'Set', sort: sets, scale: { domain: sets, range: [INK, ...FOLD_COLOURS] } },
+        },
+      }),
+  ];
+}
+
+/** Fold colours: distinct, mid-light, so the holdout's dark ink stands out among them. */
+const FOLD_COLOURS = ['#7fb8a4', '#d9a55b', '#8fa3d6', '#d48a8a', '#b3b35c', '#a58cc4', '#6fb3c9', '#c9a07f', '#9cc47f', '#c98fb3'];

@@ -270,7 +270,16 @@ function checkMeaning(recipe: Recipe, doc: PositionedDocument): string[] {
   });
   if (recipe.groups) need(['groups'], recipe.groups, 'groups');
   if (recipe.time) need(['time'], recipe.time, 'time');
+  if (recipe.blocks) {
+    for (const axis of ['x', 'y'] as const) {
+      const c = recipe.blocks[axis];
+      if (need(['blocks', axis], c, `blocks.${axis}`) && cols.get(c) !== 'number') add(['blocks', axis], messages.blockCoordinateNotNumber(c, cols.get(c)!));
+    }
+  }
   const ev = recipe.evaluation;
+  for (const part of ['holdout', 'folds'] as const) {
+    if (ev[part].by === 'blocks' && !recipe.blocks) add(['evaluation', part, 'by'], messages.blocksNeeded(`evaluation.${part}`));
+  }
   if (ev.holdout.by === 'groups' && !recipe.groups) add(['evaluation', 'holdout', 'by'], messages.groupsNeeded('evaluation.holdout'));
   if (ev.folds.by === 'groups' && !recipe.groups) add(['evaluation', 'folds', 'by'], messages.groupsNeeded('evaluation.folds'));
   for (const part of ['holdout', 'folds'] as const) {

@@ -103,9 +103,13 @@ export function reportView(recipe: Recipe, results: Results, manifest: Manifest,
       fraction: formatNumber(results.holdout.fraction * 100, 0).replace(/\.0+$/, ''),
       train: formatCount(results.holdout.train),
       test: formatCount(results.holdout.test),
+      // plain numbers for the bar's CSS flex: a thousands separator would make the value invalid
+      trainWeight: String(results.holdout.train),
+      testWeight: String(results.holdout.test),
       trainGroups: results.holdout.trainGroups,
       testGroups: results.holdout.testGroups,
-      grouped: results.holdout.by === 'groups',
+      grouped: results.holdout.by === 'groups' || results.holdout.by === 'blocks',
+      unitWord: results.holdout.by === 'blocks' ? 'blocks' : results.holdout.by === 'groups' ? 'groups' : 'rows',
       k: results.folds.k,
       foldsBy: splitWords(results.folds.by, recipe, 'folds'),
       timeFolds: results.folds.by === 'time',
@@ -176,7 +180,10 @@ function percent(share: number): string {
 function intervalView(pi: Results['models'][number]['predictionInterval'], recipe: Recipe, k: number) {
   if (!pi) return null;
   const level = `${formatNumber(100 * pi.level, 2).replace(/\.?0+$/, '')}%`;
-  const units = pi.unitKind === 'groups' ? `${formatCount(pi.units)} training groups (${recipe.groups}), each counting once` : `${formatCount(pi.units)} training rows`;
+  const units =
+    pi.unitKind === 'groups' ? `${formatCount(pi.units)} training groups (${recipe.groups}), each counting once`
+    : pi.unitKind === 'blocks' ? `${formatCount(pi.units)} training blocks, each counting once`
+    : `${formatCount(pi.units)} training rows`;
   const c = pi.coverage;
   // the groups that missed most first: where a reviewer should look
   const groups = c ? [...c.byGroup].sort((a, b) => a.inside / a.rows - b.inside / b.rows || (a.group < b.group ? -1 : 1)) : [];
@@ -185,7 +192,9 @@ function intervalView(pi: Results['models'][number]['predictionInterval'], recip
     units,
     k,
     reason: pi.reason ?? '',
-    forNewGroups: pi.unitKind === 'groups',
+    forNewGroups: pi.unitKind !== 'rows',
+    unitWord: pi.unitKind === 'blocks' ? 'block' : 'group',
+    groupHead: recipe.groups ? `Holdout group (${recipe.groups})` : 'Holdout block',
     coverage: c
       ? {
           share: percent(c.share),
@@ -204,6 +213,10 @@ function intervalView(pi: Results['models'][number]['predictionInterval'], recip
 
 function splitWords(by: string, recipe: Recipe, part: 'holdout' | 'folds'): string {
   if (by === 'groups') return `by groups (${recipe.groups})`;
+  if (by === 'blocks') {
+    const b = recipe.blocks!;
+    return `by spatial blocks (squares of ${formatSetting(b.size)} on ${b.x} and ${b.y}, each whole on one side)`;
+  }
   if (by === 'random') return 'at random';
   if (part === 'holdout') {
     const { cutoff: c, gap } = recipe.evaluation.holdout;

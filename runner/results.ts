@@ -12,10 +12,10 @@ import type { IntervalFoldOutput, PredictionIntervalOutput } from '../steps/inde
 import type { ExplainOutput } from '../steps/index.js';
 import type { Execution } from './execute.js';
 import type { Plan } from './plan.js';
-import type { ModelKind, Recipe } from '../core/recipe-types.js';
+import type { Blocks, ModelKind, Recipe } from '../core/recipe-types.js';
 import type { FrameOutput, Warning } from '../core/step-types.js';
 import { WarningLog } from '../core/warnings.js';
-import { column } from '../core/frame.js';
+import { column, type Frame } from '../core/frame.js';
 
 export interface SourceResult {
   name: string;
@@ -83,6 +83,11 @@ export interface Results {
   holdoutRows: { observed: number[]; predicted: number[]; groups: string[] | null };
   /** The headline model's final fit, for model.bin. */
   headlineFit: FitOutput;
+  /**
+   * With spatial blocks, each modelling row's place and side ('holdout', or its fold), for the map;
+   * every step-th row in model-table order when there are many. Null without blocks.
+   */
+  splitMap: { points: { x: number; y: number; set: string }[]; step: number; rows: number } | null;
   /** The headline model's fold models and CV+ table, for model.bin; null without prediction intervals. */
   headlineInterval: { output: PredictionIntervalOutput; folds: IntervalFoldOutput[] } | null;
   /** The headline model's prediction for every modelling row, in model-table order; holdout rows with their prediction interval. */
@@ -175,6 +180,7 @@ export function gatherResults(recipe: Recipe, plan: Plan, exec: Execution): Resu
     holdoutRows: { observed: bestScore.observed, predicted: bestScore.predictions, groups: bestScore.groups },
     headlineFit: out(plan.models[best].fit) as FitOutput,
     headlineInterval,
+    splitMap: recipe.blocks ? splitMap((out(plan.modelTable) as FrameOutput).frame, recipe.blocks, split, folds) : null,
     predictions: [
       ...split.train.map((row, k) => ({ row, set: 'training' as const, observed: targetValues[row], predicted: bestScore.trainingPredictions[k] })),
       ...split.test.map((row, k) => ({ row, set: 'holdout' as const, observed: targetValues[row], predicted: bestScore.predictions[k], ...(bounds ? { low: bounds.low[k], high: bounds.high[k] } : {}) })),
@@ -186,4 +192,20 @@ export function gatherResults(recipe: Recipe, plan: Plan, exec: Execution): Resu
 function withoutRows(o: PredictionIntervalOutput): Omit<PredictionIntervalOutput, 'table' | 'holdout'> {
   const { table: _table, holdout: _holdout, ...rest } = o;
   return rest;
+}
+
+/** The most points the split map draws; beyond, every step-th row. */
+export const MAP_POINTS = 5000;
+
+function splitMap(frame: Frame, blocks: Blocks, split: HoldoutOutput, folds: FoldsOutput): NonNullable<Results['splitMap']> {
+  const set = new Array<string>(frame.rows).fill('');
+  for (const r of split.test) set[r] = 'holdout';
+  split.train.forEach((r, k) => (set[r] = folds.fold[k] < 0 ? 'no fold' : `fold ${folds.fold[k] + 1}`));
+  const x = column(frame, blocks.x).values as Float64Array;
+  const y = column(frame, blocks.y).values as Float64Array;
+  const step = Math.max(1, Math.ceil(frame.rows / MAP_POINTS));
+  const points: { x: number; y: number; set: string }[] = [];
+  // rows the holdout's gap left out are on neither side and not drawn
+  for (let r = 0; r < frame.rows; r += step) if (set[r]) points.push({ x: x[r], y: y[r], set: set[r] });
+  return { points, step, rows: frame.rows };
 }

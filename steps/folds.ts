@@ -3,7 +3,7 @@ import { DendrologError, messages } from '../core/messages.js';
 import type { SplitBy } from '../core/recipe-types.js';
 import type { FrameOutput, StepDefinition } from '../core/step-types.js';
 import { rowKeys, type HoldoutOutput } from './holdout.js';
-import { DAY_MS, drawOrder, rowIdentities, rowsByGroup, timesOf } from './split-util.js';
+import { DAY_MS, drawOrder, rowIdentities, rowsByGroup, timesOf, unitColumn } from './split-util.js';
 
 export interface FoldsParams {
   /** The target: with the time column, what a row is known by in folds without groups. */
@@ -33,7 +33,7 @@ export interface FoldsOutput {
 /**
  * Assigns training rows to k folds for the inner cross-validation that chooses grid cells. A unit's
  * fold follows from the master seed and the units alone (see foldsAlong), as the holdout's side
- * does. By groups, each group lands in exactly one fold, folds holding about equal rows; at random,
+ * does. By groups (or spatial blocks), each group lands in exactly one fold, folds holding about equal rows; at random,
  * rows are the units, known by their target and time (rowIdentities). By time, the rows are cut into k + 1 consecutive blocks and fold f tests block
  * f + 1 with everything before it (less the gap) as training rows.
  */
@@ -78,10 +78,12 @@ export const folds: StepDefinition<FoldsParams, FoldsOutput> = {
       return { k: params.k, by: params.by, fold, trainBefore };
     }
     const draw = (id: string) => ctx.unitDraw('folds', id);
-    if (params.by === 'groups' && params.groups) {
-      const groups = [...rowsByGroup(frame, params.groups, split.train).entries()];
+    const unitCol = unitColumn(params.by, params.groups);
+    if (unitCol) {
+      const groups = [...rowsByGroup(frame, unitCol, split.train).entries()];
       if (groups.length < params.k) {
-        throw new DendrologError(messages.foldsTooFew(groups.length, 'groups', split.testGroups, split.testGroups + groups.length, params.k, params.k), 1);
+        const held = params.by === 'blocks' ? rowsByGroup(frame, unitCol, split.test).size : split.testGroups;
+        throw new DendrologError(messages.foldsTooFew(groups.length, params.by === 'blocks' ? 'blocks' : 'groups', held, held + groups.length, params.k, params.k), 1);
       }
       const order = drawOrder(groups.map(([name]) => name), draw);
       const of = foldsAlong(order.map((g) => groups[g][1].length), params.k);

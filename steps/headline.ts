@@ -148,8 +148,9 @@ export const MIN_HOLDOUT_ROWS = 20;
  * Example: a holdout of 3 groups gives `'3 holdout groups (fewer than 5)'`.
  */
 export function holdoutUnreliable(split: HoldoutOutput): string | null {
-  if (split.by === 'groups' && split.testGroups < MIN_HOLDOUT_GROUPS) {
-    return `${split.testGroups} holdout group${split.testGroups === 1 ? '' : 's'} (fewer than ${MIN_HOLDOUT_GROUPS})`;
+  if ((split.by === 'groups' || split.by === 'blocks') && split.testGroups < MIN_HOLDOUT_GROUPS) {
+    const unit = split.by === 'groups' ? 'group' : 'block';
+    return `${split.testGroups} holdout ${unit}${split.testGroups === 1 ? '' : 's'} (fewer than ${MIN_HOLDOUT_GROUPS})`;
   }
   if (split.test.length < MIN_HOLDOUT_ROWS) return `${split.test.length} holdout rows (fewer than ${MIN_HOLDOUT_ROWS})`;
   return null;

@@ -4,7 +4,7 @@ import { DendrologError, messages } from '../core/messages.js';
 import type { SplitBy } from '../core/recipe-types.js';
 import type { FrameOutput, StepDefinition } from '../core/step-types.js';
 import { parseValue } from './readers/values.js';
-import { DAY_MS, drawOrder, rowIdentities, rowsByGroup, timesOf } from './split-util.js';
+import { DAY_MS, drawOrder, rowIdentities, rowsByGroup, timesOf, unitColumn } from './split-util.js';
 
 /** The columns a row is known by in a split without groups (see rowIdentities). */
 export function rowKeys(params: { target: string; time: string | null }): string[] {
@@ -31,6 +31,7 @@ export interface HoldoutOutput {
   train: number[];
   test: number[];
   by: SplitBy;
+  /** Groups on each side (blocks, when split by blocks); 0 without either. */
   testGroups: number;
   trainGroups: number;
   /** With by: time, the first time in the holdout (ms for dates). */
@@ -41,7 +42,7 @@ export interface HoldoutOutput {
    * What the split moved as whole units, so two runs can tell whether their holdouts are the same:
    * groups by name, or rows by a 16-hex digit hash of their key (rowIdentities); the holdout's, sorted.
    */
-  units: { kind: 'group' | 'row'; holdout: string[]; training: number };
+  units: { kind: 'group' | 'block' | 'row'; holdout: string[]; training: number };
 }
 
 /**
@@ -49,7 +50,7 @@ export interface HoldoutOutput {
  * function of the master seed and the unit alone (StepContext.unitDraw): editing a value elsewhere,
  * reordering rows or columns, or a file's line endings move nothing, and adding a unit moves at most
  * a few others. By groups, whole groups go to one side (in the order of their draws, taken until
- * the fraction of rows is reached); at random, rows are the units, known by their target and time.
+ * the fraction of rows is reached); by blocks, whole spatial blocks, the same way; at random, rows are the units, known by their target and time.
  * By time, the holdout is every row at or after the cutoff (given, or chosen so that the latest
  * fraction of rows is held out; rows sharing a time stay together).
  */
@@ -62,6 +63,8 @@ export const holdout: StepDefinition<HoldoutParams, HoldoutOutput> = {
   run(inputs, params, ctx) {
     const frame = (inputs[0] as FrameOutput).frame;
     const wanted = Math.round(params.fraction * frame.rows);
+    // the named units the split moves whole: groups, or spatial blocks; null for rows
+    const unitCol = unitColumn(params.by, params.groups);
     // per row: 0 training, 1 holdout, GAP neither
     const isTest = new Uint8Array(frame.rows);
     // what each row is known by without groups, worked out once when needed
@@ -79,9 +82,9 @@ export const holdout: StepDefinition<HoldoutParams, HoldoutOutput> = {
       }
       const before = cutoff - params.gap * (column(frame, params.time).type === 'date' ? DAY_MS : 1);
       for (let i = 0; i < frame.rows; i++) isTest[i] = t[i] >= cutoff ? 1 : t[i] >= before ? GAP : 0;
-    } else if (params.by === 'groups' && params.groups) {
-      // whole groups, in the order of their own draws, until the fraction of rows is reached
-      const groups = [...rowsByGroup(frame, params.groups).entries()];
+    } else if (unitCol) {
+      // whole groups (or blocks), in the order of their own draws, until the fraction of rows is reached
+      const groups = [...rowsByGroup(frame, unitCol).entries()];
       let taken = 0;
       for (const k of drawOrder(groups.map(([name]) => name), (id) => ctx.unitDraw('holdout', id))) {
         if (taken >= wanted) break;
@@ -110,7 +113,9 @@ export const holdout: StepDefinition<HoldoutParams, HoldoutOutput> = {
             : 'change evaluation.holdout.fraction';
       throw new DendrologError(messages.holdoutEmpty(test.length === 0 ? 'holdout' : 'training', fix), 2);
     }
-    const groupCount = (rows: number[]) => (params.groups ? rowsByGroup(frame, params.groups, rows).size : 0);
+    // by blocks, the blocks are what the holdout's groups count
+    const countCol = params.by === 'blocks' ? unitCol : params.groups;
+    const groupCount = (rows: number[]) => (countCol ? rowsByGroup(frame, countCol, rows).size : 0);
     if (params.by === 'time' && params.groups) {
       // a split in time keeps groups on both sides: the holdout then scores new times of known groups
       // (a random split with groups has its own warning, from the headline)
@@ -118,9 +123,9 @@ export const holdout: StepDefinition<HoldoutParams, HoldoutOutput> = {
       const both = [...rowsByGroup(frame, params.groups, test).keys()].filter((g) => trainGroups.has(g)).length;
       if (both > 0) ctx.warn('holdout-groups-both-sides', messages.holdoutGroupsBothSides(params.by, both, groupCount(test), params.groups));
     }
-    const byGroups = params.by === 'groups' && params.groups !== null;
-    const unitsOf = (rows: number[]) => (byGroups ? [...rowsByGroup(frame, params.groups!, rows).keys()] : rows.map((r) => sha256(rowIds()[r]).slice(0, 16)));
-    const units = { kind: byGroups ? ('group' as const) : ('row' as const), holdout: unitsOf(test).sort(), training: unitsOf(train).length };
+    const unitsOf = (rows: number[]) => (unitCol ? [...rowsByGroup(frame, unitCol, rows).keys()] : rows.map((r) => sha256(rowIds()[r]).slice(0, 16)));
+    const kind = params.by === 'blocks' ? ('block' as const) : unitCol ? ('group' as const) : ('row' as const);
+    const units = { kind, holdout: unitsOf(test).sort(), training: unitsOf(train).length };
     return { train, test, by: params.by, testGroups: groupCount(test), trainGroups: groupCount(train), cutoff, gapRows, units };
   },
   summary: (o) => `${o.train.length.toLocaleString('en')} training rows, ${o.test.length.toLocaleString('en')} holdout rows`,

@@ -109,6 +109,7 @@ export { cellLabel, engineFor, gridCells, gridWithDefaults, modelKinds, modelSch
 export type { GridValue } from './model-kinds.js';
 export type { ColumnProfile } from './profile.js';
 export { ROW_COLUMN } from './new-rows.js';
+export { BLOCK_COLUMN, blockName, unitColumn } from './split-util.js';
 export { readDefaults } from './source.js';
 export { readHeaderLine } from './readers/csv.js';
 export { COMMON_ENCODINGS, StrictTextStream, decodeStrict, encodingName } from './readers/text-decode.js';

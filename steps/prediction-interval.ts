@@ -6,15 +6,19 @@ import { targetOf } from './design.js';
 import type { HoldoutOutput } from './holdout.js';
 import type { IntervalFoldOutput } from './interval-fold.js';
 import { TARGET_SCALES } from './target-scale.js';
+import { BLOCK_COLUMN } from './split-util.js';
 
 export interface PredictionIntervalParams {
   level: number;
   target: string;
   targetScale: TargetScale | null;
-  /** The recipe's group column, for coverage by group and, when the folds are drawn by groups, for weighting. */
+  /** The column the holdout's coverage is counted by: the recipe's groups, else its spatial blocks; null for neither. */
   groups: string | null;
-  /** The folds hold out whole groups: every group then counts once, and the interval is for a row of a new group. */
-  byGroups: boolean;
+  /**
+   * The column of the units the folds hold out whole (groups, or spatial blocks): each then counts
+   * once, and the interval is for a row of a new unit; null for folds of rows.
+   */
+  units: string | null;
 }
 
 /** How often the holdout rows fell inside their intervals. */
@@ -33,8 +37,8 @@ export interface Coverage {
 export interface PredictionIntervalOutput {
   level: number;
   method: 'cv+';
-  /** What the residuals count as: whole groups (folds by groups) or rows. */
-  unitKind: 'groups' | 'rows';
+  /** What the residuals count as: whole groups or blocks (the units the folds hold out), or rows. */
+  unitKind: 'groups' | 'blocks' | 'rows';
   units: number;
   /** Why the model has no intervals, or null when it has. */
   reason: string | null;
@@ -58,16 +62,17 @@ export const predictionInterval: StepDefinition<PredictionIntervalParams, Predic
     const frame = (inputs[0] as FrameOutput).frame;
     const split = inputs[1] as HoldoutOutput;
     const folds = inputs.slice(2) as IntervalFoldOutput[];
-    const groupValues = params.groups ? column(frame, params.groups).values : null;
-    const groupOf = (r: number) => String(groupValues![r]);
-    const weighted = params.byGroups && groupValues !== null;
-    const table = conformalTable(folds.map((f) => ({ residuals: f.residuals, groups: weighted ? f.tested.map((k) => groupOf(split.train[k])) : null })));
-    const base = { level: params.level, method: 'cv+' as const, unitKind: weighted ? ('groups' as const) : ('rows' as const), units: table.units };
+    const valuesOf = (name: string | null) => (name ? column(frame, name).values : null);
+    const groupValues = valuesOf(params.groups);
+    const unitValues = valuesOf(params.units);
+    const table = conformalTable(folds.map((f) => ({ residuals: f.residuals, groups: unitValues ? f.tested.map((k) => String(unitValues[split.train[k]])) : null })));
+    const unitKind = params.units === BLOCK_COLUMN ? ('blocks' as const) : params.units ? ('groups' as const) : ('rows' as const);
+    const base = { level: params.level, method: 'cv+' as const, unitKind, units: table.units };
     const nonFinite = folds.find((f) => f.nonFinite !== null)?.nonFinite;
     const reason =
       nonFinite ? `a fold model ${nonFinite.replace(/^it /, '')}`
       : table.units < unitsNeeded(params.level) ?
-        `${table.units} ${weighted ? 'groups' : 'rows'} with out-of-fold residuals; a ${percent(params.level)} interval needs at least ${unitsNeeded(params.level)}`
+        `${table.units} ${unitKind} with out-of-fold residuals; a ${percent(params.level)} interval needs at least ${unitsNeeded(params.level)}`
       : null;
     if (reason) return { ...base, reason, table: null, holdout: null, coverage: null };
     const low: number[] = [];
@@ -80,7 +85,7 @@ export const predictionInterval: StepDefinition<PredictionIntervalParams, Predic
       high.push(b.high);
     });
     const y = targetOf(frame, params.target, split.test);
-    return { ...base, reason: null, table, holdout: { low, high }, coverage: coverage(y, low, high, params, params.groups ? split.test.map(groupOf) : null) };
+    return { ...base, reason: null, table, holdout: { low, high }, coverage: coverage(y, low, high, params, groupValues ? split.test.map((r) => String(groupValues[r])) : null) };
   },
   summary: (o) => (o.coverage ? `${(100 * o.coverage.share).toFixed(1)}% of holdout rows inside` : `no intervals: ${o.reason}`),
 };

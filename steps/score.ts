@@ -15,8 +15,11 @@ export interface ScoreParams {
   /** The transform the target is on, if any: RMSE, MAE and bias are then also measured on the original scale. */
   targetScale: TargetScale | null;
   groups: string | null;
-  /** Treat whole groups as the units of the intervals when the holdout was drawn by groups, so correlated rows move together. */
-  byGroups: boolean;
+  /**
+   * The column whose values are the units of the intervals (the groups, or the spatial blocks, the
+   * holdout was drawn by), so correlated rows move together; null for rows.
+   */
+  units: string | null;
 }
 
 export interface Interval {
@@ -67,8 +70,8 @@ export const score: StepDefinition<ScoreParams, ScoreOutput> = {
     const pred = await model.predict(applyDesign(fitted.design, frame, split.test), 'prediction of the holdout rows');
     const trainPred = await model.predict(applyDesign(fitted.design, frame, split.train), 'prediction of the training rows');
     const units: number[][] = [];
-    if (params.byGroups && params.groups) {
-      const g = column(frame, params.groups).values;
+    if (params.units) {
+      const g = column(frame, params.units).values;
       const byGroup = new Map<string, number[]>();
       split.test.forEach((r, k) => {
         const key = String(g[r]);

@@ -1,5 +1,28 @@
 import { column, isMissing, type Frame } from '../core/frame.js';
 import { DendrologError, messages } from '../core/messages.js';
+import type { SplitBy } from '../core/recipe-types.js';
+
+/** The model table's column holding each row's spatial block, when the recipe declares blocks. */
+export const BLOCK_COLUMN = '__dendrolog_block';
+
+/**
+ * The column whose values are a split's units: the groups for by: groups, the spatial block for
+ * by: blocks; null for splits of single rows or by time.
+ */
+export function unitColumn(by: SplitBy, groups: string | null): string | null {
+  return by === 'groups' ? groups : by === 'blocks' ? BLOCK_COLUMN : null;
+}
+
+/**
+ * The square block of side `size` a point lies in, named by its lower-left corner; blocks are laid
+ * from the coordinates' origin, so a block's name depends on nothing but the point and the size.
+ *
+ * Example: `blockName(1234, -56, 1000)` is `'x1000 y-1000'`.
+ */
+export function blockName(x: number, y: number, size: number): string {
+  const corner = (v: number) => String(+(Math.floor(v / size) * size).toPrecision(12));
+  return `x${corner(x)} y${corner(y)}`;
+}
 
 /** Row indices of each group, groups in order of first appearance. */
 export function rowsByGroup(frame: Frame, groups: string, rows?: ArrayLike<number>): Map<string, number[]> {

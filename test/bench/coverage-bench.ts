@@ -153,7 +153,7 @@ async function main() {
       };
       const split: HoldoutOutput = { train, test, by: 'groups', testGroups: held, trainGroups: held * 4, cutoff: null, gapRows: 0, units: { kind: 'group', holdout: [], training: 0 } };
       const ctx = makeContext({ key: 'bench', seed: 1, seedKey: `bench-${held}-${rep}`, locator: {} }, { warn: () => {}, workers: 1 });
-      const out = (await score.run([{ frame, notes: { rowsIn: 0, rowsOut: 0, detail: '' } }, split, fitted], { target: 'y', targetScale: null, groups: 'g', byGroups: true }, ctx)) as ScoreOutput;
+      const out = (await score.run([{ frame, notes: { rowsIn: 0, rowsOut: 0, detail: '' } }, split, fitted], { target: 'y', targetScale: null, groups: 'g', units: 'g' }, ctx)) as ScoreOutput;
       const inside = (iv: { low: number | null; high: number | null }, t: number) => iv.low !== null && iv.high !== null && iv.low <= t && t <= iv.high;
       if (inside(out.intervals.r2, truth.r2)) hits.r2++;
       if (inside(out.intervals.rmse, truth.rmse)) hits.rmse++;

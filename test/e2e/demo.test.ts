@@ -86,6 +86,21 @@ describe('the demo recipe, end to end through the built command', () => {
     expect((firstManifest.headline as { label: string }).label).toBe('holdout');
   });
 
+  /** Training and holdout rows, as the first model's metrics count them. */
+  const counts = () => {
+    const m = (firstManifest.models as { metrics: { holdout: { n: number }; training: { n: number } } }[])[0].metrics;
+    return { train: m.training.n, test: m.holdout.n };
+  };
+
+  it("gives the headline model's prediction intervals with their coverage of the holdout rows", () => {
+    const models = firstManifest.models as { name: string; predictionInterval: { level: number; unitKind: string; units: number; coverage: { rows: number; share: number } } }[];
+    const pi = models.find((m) => m.name === (firstManifest.headline as { model: string }).model)!.predictionInterval;
+    expect([pi.level, pi.unitKind]).toEqual([0.9, 'groups']);
+    expect(pi.coverage.rows).toBe(counts().test);
+    expect(pi.coverage.share).toBeGreaterThan(0.5);
+    expect(firstReport).toContain(`of ${counts().test.toLocaleString('en').replace(',', '\u2009')} observed values fell inside their interval (nominal 90%)`);
+  });
+
   describe('in a real browser', () => {
     let browser: Browser | undefined;
     const enabled = browserAvailable();
@@ -120,6 +135,10 @@ describe('the demo recipe, end to end through the built command', () => {
           expect(svgText).toMatch(/Y-axis titled '[^']+'/);
           expect(label.length).toBeGreaterThan(0);
         }
+        // the protocol bar's parts are as wide as their rows (2,000 and more rows read as plain numbers in CSS)
+        const widths = await page.evaluate(() => ['.bar .train', '.bar .hold'].map((q) => document.querySelector(q)!.getBoundingClientRect().width));
+        const { train, test } = counts();
+        expect(widths[0] / widths[1]).toBeCloseTo(train / test, 0);
         const overflow = await page.evaluate(() => document.documentElement.scrollWidth - window.innerWidth);
         expect(overflow).toBeLessThanOrEqual(0);
         await page.screenshot({ path: join(SHOTS, `demo-report-${width}.png`), fullPage: true });

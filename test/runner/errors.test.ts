@@ -247,6 +247,27 @@ describe('recipe meaning and files', () => {
     ]);
   });
 
+  it('asks for blocks when the holdout or the folds split by blocks without them', () => {
+    const text = SMALL_RECIPE.replace('folds: {k: 3}', 'holdout: {by: blocks}\n  folds: {k: 3, by: blocks}');
+    const { file, problems } = problemsOf(text);
+    expect(problems).toEqual([
+      `${atOn(file, text, 'holdout:', 'blocks}')}: ${messages.blocksNeeded('evaluation.holdout')}`,
+      `${atOn(file, text, 'folds:', 'blocks}')}: ${messages.blocksNeeded('evaluation.folds')}`,
+    ]);
+  });
+
+  it('refuses block coordinates that are not declared number columns', () => {
+    const text = SMALL_RECIPE.replace('groups: site', 'groups: site\nblocks: {x: site, y: x3, size: 5}');
+    const { file, problems } = problemsOf(text);
+    expect(problems).toEqual([
+      `${atOn(file, text, 'blocks:', 'site')}: ${messages.blockCoordinateNotNumber('site', 'string')}`,
+      `${atOn(file, text, 'blocks:', 'x3')}: ${messages.unknownColumn('x3', 'blocks.y', ['site', 'x1', 'x2', 'y'], 'x1')}`,
+    ]);
+    const size = SMALL_RECIPE.replace('groups: site', 'groups: site\nblocks: {x: x1, y: x2, size: 0}');
+    const z = problemsOf(size);
+    expect(z.problems).toEqual([`${atOn(z.file, size, 'blocks:', '0}')}: ${messages.outOfRange('blocks.size', 0, 'greater than 0')}`]);
+  });
+
   it('asks for a time column when the holdout or the folds split by time without one', () => {
     const text = SMALL_RECIPE.replace('folds: {k: 3}', 'holdout: {by: time}\n  folds: {k: 3, by: time}');
     const { file, problems } = problemsOf(text);

@@ -22,7 +22,7 @@ const folds = (nonFinite: string | null = null): IntervalFoldOutput[] =>
   [0, 1, 2, 3].map((f) => ({ fold: f, cell: {}, tested: [3 * f, 3 * f + 1, 3 * f + 2], residuals: [0.5, 1, 1.5], holdout: [6, 6], design: {} as never, bytes: '', nonFinite }));
 
 const run = (params: Partial<PredictionIntervalParams>, fs = folds()) =>
-  predictionInterval.run([asOutput(FRAME), SPLIT, ...fs], { level: 0.5, target: 'y', targetScale: null, groups: 'g', byGroups: false, ...params }, stepContext()) as PredictionIntervalOutput;
+  predictionInterval.run([asOutput(FRAME), SPLIT, ...fs], { level: 0.5, target: 'y', targetScale: null, groups: 'g', units: null, ...params }, stepContext()) as PredictionIntervalOutput;
 
 describe('the prediction_interval step', () => {
   it('bounds each holdout row and counts the rows inside, by group too', () => {
@@ -35,11 +35,11 @@ describe('the prediction_interval step', () => {
   });
 
   it('counts each group once when the folds hold out groups, and says when the groups are too few for the level', () => {
-    const o = run({ byGroups: true, level: 0.9 });
+    const o = run({ units: 'g', level: 0.9 });
     expect([o.unitKind, o.units, o.holdout, o.coverage]).toEqual(['groups', 4, null, null]);
     expect(o.reason).toBe('4 groups with out-of-fold residuals; a 90% interval needs at least 9');
     // at 0.75, 4 groups suffice: each weighs 1 (1/3 per row), and 0.75 × 5 = 3.75 is reached only at the largest residual
-    expect(run({ byGroups: true, level: 0.75 }).holdout).toEqual({ low: [4.5, 4.5], high: [7.5, 7.5] });
+    expect(run({ units: 'g', level: 0.75 }).holdout).toEqual({ low: [4.5, 4.5], high: [7.5, 7.5] });
   });
 
   it('gives the mean width on the original scale of a scaled target', () => {

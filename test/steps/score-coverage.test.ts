@@ -66,7 +66,7 @@ async function coverage(heldGroups: number, replicates: number): Promise<{ r2: n
       ranges: {},
     };
     const split: HoldoutOutput = { train, test, by: 'groups', testGroups: heldGroups, trainGroups: heldGroups * 4, cutoff: null, gapRows: 0, units: NO_UNITS };
-    const out = (await score.run([asOutput(frame), split, fitted], { target: 'y', targetScale: null, groups: 'site', byGroups: true }, stepContext())) as ScoreOutput;
+    const out = (await score.run([asOutput(frame), split, fitted], { target: 'y', targetScale: null, groups: 'site', units: 'site' }, stepContext())) as ScoreOutput;
     for (const m of ['r2', 'rmse'] as const) {
       const { low, high } = out.intervals[m];
       if (low !== null && high !== null && low <= truth[m] && truth[m] <= high) covered[m]++;

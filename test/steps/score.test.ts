@@ -45,7 +45,7 @@ async function fitted(kind: ModelKind, f: Frame = frame): Promise<FitOutput> {
   return (await fit.run([asOutput(f), split, chosen], { model: kind, kind, target: 'y', predictors: ['x1', 'x2'], features: [] }, stepContext())) as FitOutput;
 }
 
-const PARAMS: ScoreParams = { target: 'y', targetScale: null, groups: 'site', byGroups: false };
+const PARAMS: ScoreParams = { target: 'y', targetScale: null, groups: 'site', units: null };
 
 async function run(f: Frame, model: FitOutput, params: Partial<ScoreParams> = {}): Promise<ScoreOutput> {
   return (await score.run([asOutput(f), split, model], { ...PARAMS, ...params }, stepContext())) as ScoreOutput;
@@ -106,7 +106,7 @@ describe('score', () => {
     // held-out sites S4 (y = 1, −1) and S5 (y = 1, −1): each group has errors +1 and −1, so leaving
     // either group out leaves bias exactly 0
     const y = [-2, 2, -1, 1, -3, 3, -4, 4, 1, -1, 1, -1];
-    const out = await run(frameOf(y), await fitted('mean', frameOf(y)), { byGroups: true });
+    const out = await run(frameOf(y), await fitted('mean', frameOf(y)), { units: 'site' });
     expect(out.intervals.bias).toEqual({ low: 0, high: 0 });
   });
 

@@ -21,6 +21,11 @@ describe('the stream-temperature demo (NetCDF-4 grid joined to station samples),
     // 731 days × 7 latitudes × 9 longitudes in the grid; every sample lies on a grid cell and day
     expect(r.stdout).toMatch(/source air\s+\(46,053 rows\)/);
     expect(r.stdout).toContain(`join[0] air  (${samples.toLocaleString('en')} rows)`);
-    expect(existsSync(join(work, 'stream', 'out', 'stream-temperature', 'report.html'))).toBe(true);
+    const report = readFileSync(join(work, 'stream', 'out', 'stream-temperature', 'report.html'), 'utf8');
+    // its folds are half-degree blocks: the protocol says so and maps the rows by fold
+    expect(report).toContain('4 folds by spatial blocks (squares of 0.5 on lon and lat, each whole on one side)');
+    expect(report).toContain('<figure class="plot" id="fig-split-map">');
+    const manifest = JSON.parse(readFileSync(join(work, 'stream', 'out', 'stream-temperature', 'manifest.json'), 'utf8')) as { recipe: { normalized: { blocks: unknown } } };
+    expect(manifest.recipe.normalized.blocks).toEqual({ x: 'lon', y: 'lat', size: 0.5 });
   });
 });
