@@ -195,6 +195,8 @@ export const messages = {
     `${step} keeps values from min ${min} to max ${max}, but min is above max, so every row would be dropped; swap them`,
   groupsNeeded: (where: string) =>
     `${where} splits by groups, but the recipe has no "groups" column; add "groups: <column>" or split at random`,
+  rowKeyNotUnique: (columns: string[], rows: number) =>
+    `${rows} modelling rows share their row_key (${columns.join(', ')}) with another row; they are told apart by their other values, so an edit to one of them can swap it with its twin between training and holdout; add a column to row_key that tells them apart, or remove the duplicates (deduplicate)`,
   blocksNeeded: (where: string) =>
     `${where} splits by spatial blocks, but the recipe declares none; add "blocks: {x: <column>, y: <column>, size: <side>}" or split another way`,
   blockCoordinateNotNumber: (column: string, type: string) =>

@@ -106,6 +106,8 @@ export interface Recipe {
   predictors: string[];
   groups: string | null;
   time: string | null;
+  /** The columns that identify a row in splits of single rows; null: its target and time. */
+  row_key: string[] | null;
   /** Spatial blocks for splits by blocks; null when the recipe declares none. */
   blocks: Blocks | null;
   models: Record<string, ModelSpec>;

@@ -130,6 +130,7 @@ export function normalizeRecipe(raw: Raw): Recipe {
     predictors: (raw.predictors as string[]).map(String),
     groups,
     time: (raw.time as string | undefined) ?? null,
+    row_key: Array.isArray(raw.row_key) ? raw.row_key.map(String) : null,
     blocks: raw.blocks ? { x: String((raw.blocks as Raw).x), y: String((raw.blocks as Raw).y), size: Number((raw.blocks as Raw).size) } : null,
     models,
     evaluation,

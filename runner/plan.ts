@@ -130,16 +130,18 @@ export function planRecipe(recipe: Recipe, origin: RecipeOrigin): Plan {
   const data = addDataSteps(recipe, at, add, sources, main, null);
   const dataSteps = [main, ...data.steps.map((d) => d.id)];
   const last = data.last;
+  // declared only: a recipe without row_key keeps the keys it had
+  const rowKey = recipe.row_key ? { rowKey: recipe.row_key } : {};
   const modelTable = add(
     'model table',
     'model_table',
-    { target: recipe.target, predictors: recipe.predictors, groups: recipe.groups, time: recipe.time, ...(recipe.blocks ? { blocks: recipe.blocks } : {}) },
+    { target: recipe.target, predictors: recipe.predictors, groups: recipe.groups, time: recipe.time, ...rowKey, ...(recipe.blocks ? { blocks: recipe.blocks } : {}) },
     [last],
   );
   dataSteps.push(modelTable);
   const ev = recipe.evaluation;
-  const holdout = add('holdout', 'holdout', { ...ev.holdout, target: recipe.target, groups: recipe.groups, time: recipe.time }, [modelTable]);
-  const folds = add('folds', 'folds', { ...ev.folds, target: recipe.target, groups: recipe.groups, time: recipe.time }, [modelTable, holdout]);
+  const holdout = add('holdout', 'holdout', { ...ev.holdout, target: recipe.target, groups: recipe.groups, time: recipe.time, ...rowKey }, [modelTable]);
+  const folds = add('folds', 'folds', { ...ev.folds, target: recipe.target, groups: recipe.groups, time: recipe.time, ...rowKey }, [modelTable, holdout]);
   const learned = recipe.features.filter((f) => isLearned(f.kind));
   const common = { target: recipe.target, predictors: recipe.predictors, features: learned };
   // phase by phase across models, so the heavy independent steps (every model's grid cells, then the

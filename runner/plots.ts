@@ -1,7 +1,7 @@
 import * as vega from 'vega';
 import * as vl from 'vega-lite';
 import type { TopLevelSpec } from 'vega-lite';
-import { varyingParams } from '../steps/index.js';
+import { TARGET_SCALES, targetScaleWords, varyingParams } from '../steps/index.js';
 import { formatSetting } from './format.js';
 import type { Recipe } from '../core/recipe-types.js';
 import { shortenText } from './shorten.js';
@@ -80,20 +80,30 @@ export async function buildFigures(recipe: Recipe, results: Results): Promise<Re
   const lo = Math.min(...observed, ...predicted);
   const hi = Math.max(...observed, ...predicted);
   const holdout: Figure[] = [];
+  // with a target scale, observed against predicted in the quantity's own units, on a log axis
+  // (the same picture, read in those units); else on the model's scale
+  const scale = recipe.target_scale;
+  const back = scale ? TARGET_SCALES[scale].inverse : (v: number) => v;
+  const shown = scale ? targetScaleWords(scale, target) : target;
+  const points = rows.map((r) => ({ observed: back(r.observed), predicted: back(r.predicted) }));
+  const [plo, phi] = [back(lo), back(hi)];
+  const axisScale = scale === 'log1p' ? { type: 'symlog', domain: [plo, phi] } : scale ? { type: 'log', domain: [plo, phi] } : { domain: [lo, hi] };
+  // the 1:1 line takes the points' domain on log axes; on a linear one it leaves the axis its nice round ends
+  const lineScale = scale ? { scale: axisScale } : {};
   holdout.push(
-    await figure('observed-predicted', `Observed vs predicted, holdout rows (${head.name})`,
-      `Scatter of ${rows.length} holdout rows: predicted ${target} on the horizontal axis, observed on the vertical, with the 1:1 line where a perfect model would put every point.`,
+    await figure('observed-predicted', `Observed vs predicted, holdout rows (${head.name})${scale ? `, in ${shown}` : ''}`,
+      `Scatter of ${rows.length} holdout rows: predicted ${shown} on the horizontal axis, observed on the vertical${scale ? ' (back-transformed, on logarithmic axes)' : ''}, with the 1:1 line where a perfect model would put every point.`,
       {
         width: 340,
         height: 300,
         layer: [
-          { data: { values: [{ v: lo }, { v: hi }] }, mark: { type: 'line', color: SECOND, strokeDash: [5, 4] }, encoding: { x: { field: 'v', type: 'quantitative' }, y: { field: 'v', type: 'quantitative' } } },
+          { data: { values: [{ v: plo }, { v: phi }] }, mark: { type: 'line', color: SECOND, strokeDash: [5, 4] }, encoding: { x: { field: 'v', type: 'quantitative', ...lineScale }, y: { field: 'v', type: 'quantitative', ...lineScale } } },
           {
-            data: { values: rows },
+            data: { values: points },
             mark: { type: 'circle', size: 18, opacity: 0.55 },
             encoding: {
-              x: { field: 'predicted', type: 'quantitative', title: `Predicted ${target}`, scale: { domain: [lo, hi] } },
-              y: { field: 'observed', type: 'quantitative', title: `Observed ${target}`, scale: { domain: [lo, hi] } },
+              x: { field: 'predicted', type: 'quantitative', title: `Predicted ${shown}`, scale: axisScale },
+              y: { field: 'observed', type: 'quantitative', title: `Observed ${shown}`, scale: axisScale },
             },
           },
         ],

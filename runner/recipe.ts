@@ -270,6 +270,7 @@ function checkMeaning(recipe: Recipe, doc: PositionedDocument): string[] {
   });
   if (recipe.groups) need(['groups'], recipe.groups, 'groups');
   if (recipe.time) need(['time'], recipe.time, 'time');
+  recipe.row_key?.forEach((c, i) => need(['row_key', i], c, 'row_key'));
   if (recipe.blocks) {
     for (const axis of ['x', 'y'] as const) {
       const c = recipe.blocks[axis];

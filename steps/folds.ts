@@ -13,6 +13,8 @@ export interface FoldsParams {
   gap: number;
   groups: string | null;
   time: string | null;
+  /** The recipe's row_key, as for the holdout; absent when not declared. */
+  rowKey?: string[];
 }
 
 /**

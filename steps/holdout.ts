@@ -6,9 +6,9 @@ import type { FrameOutput, StepDefinition } from '../core/step-types.js';
 import { parseValue } from './readers/values.js';
 import { DAY_MS, drawOrder, rowIdentities, rowsByGroup, timesOf, unitColumn } from './split-util.js';
 
-/** The columns a row is known by in a split without groups (see rowIdentities). */
-export function rowKeys(params: { target: string; time: string | null }): string[] {
-  return params.time ? [params.target, params.time] : [params.target];
+/** The columns a row is known by in a split without groups (see rowIdentities): the declared key, else the target and time. */
+export function rowKeys(params: { target: string; time: string | null; rowKey?: string[] }): string[] {
+  return params.rowKey ?? (params.time ? [params.target, params.time] : [params.target]);
 }
 
 /** A row within the gap before a time holdout: on neither side. */
@@ -24,6 +24,8 @@ export interface HoldoutParams {
   gap: number;
   groups: string | null;
   time: string | null;
+  /** The recipe's row_key: what a row is known by instead of its target and time; absent when not declared. */
+  rowKey?: string[];
 }
 
 /** Row indices (into the model table) of the training and holdout sets, each ascending. */
@@ -92,6 +94,9 @@ export const holdout: StepDefinition<HoldoutParams, HoldoutOutput> = {
         taken += groups[k][1].length;
       }
     } else {
+      // a row's identity is its key, with a rank after it ("…]#1") only where rows share the key
+      const shared = params.rowKey ? rowIds().filter((id) => /\]#\d+$/.test(id)).length : 0;
+      if (shared > 0) ctx.warn('row-key-not-unique', messages.rowKeyNotUnique(params.rowKey!, shared));
       const order = drawOrder(rowIds(), (id) => ctx.unitDraw('holdout', id));
       for (let k = 0; k < wanted; k++) isTest[order[k]] = 1;
     }

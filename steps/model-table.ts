@@ -9,6 +9,8 @@ export interface ModelTableParams {
   predictors: string[];
   groups: string | null;
   time: string | null;
+  /** The recipe's row_key columns, kept so splits can know rows by them; absent when not declared. */
+  rowKey?: string[];
   /** Spatial blocks: the coordinates are kept and each row's block added (BLOCK_COLUMN); absent when the recipe declares none. */
   blocks?: Blocks;
 }
@@ -25,7 +27,7 @@ export const modelTable: StepDefinition<ModelTableParams, FrameOutput> = {
   run(inputs, params) {
     const input = (inputs[0] as FrameOutput).frame;
     const b = params.blocks;
-    const names = [...new Set([params.target, ...params.predictors, params.groups, params.time, b?.x, b?.y].filter((n): n is string => !!n))];
+    const names = [...new Set([params.target, ...params.predictors, params.groups, params.time, ...(params.rowKey ?? []), b?.x, b?.y].filter((n): n is string => !!n))];
     const narrowed: Frame = { rows: input.rows, columns: names.map((n) => column(input, n)) };
     const target = column(narrowed, params.target);
     const keep: number[] = [];

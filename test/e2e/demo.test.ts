@@ -101,6 +101,11 @@ describe('the demo recipe, end to end through the built command', () => {
     expect(firstReport).toContain(`of ${counts().test.toLocaleString('en').replace(',', '\u2009')} observed values fell inside their interval (nominal 90%)`);
   });
 
+  it('draws observed against predicted in µg/L, the original units of its log10 target, on log axes', () => {
+    expect(firstReport).toContain("X-axis titled 'Predicted 10^log_chl' for a log scale");
+    expect(firstReport).toContain("Y-axis titled 'Observed 10^log_chl' for a log scale");
+  });
+
   describe('in a real browser', () => {
     let browser: Browser | undefined;
     const enabled = browserAvailable();

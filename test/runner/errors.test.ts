@@ -247,6 +247,12 @@ describe('recipe meaning and files', () => {
     ]);
   });
 
+  it('refuses a row_key column the table does not have', () => {
+    const text = SMALL_RECIPE.replace('groups: site', 'groups: site\nrow_key: [site, day]');
+    const { file, problems } = problemsOf(text);
+    expect(problems).toEqual([`${atOn(file, text, 'row_key:', 'day')}: ${messages.unknownColumn('day', 'row_key', ['site', 'x1', 'x2', 'y'], 'y')}`]);
+  });
+
   it('asks for blocks when the holdout or the folds split by blocks without them', () => {
     const text = SMALL_RECIPE.replace('folds: {k: 3}', 'holdout: {by: blocks}\n  folds: {k: 3, by: blocks}');
     const { file, problems } = problemsOf(text);

@@ -213,3 +213,31 @@ describe('a unit’s side (holdout or fold) follows from the seed and the unit a
     }
   });
 });
+
+describe('a declared row_key', () => {
+  // the sites frame with a target: row r's y is r / 10
+  const withY = (f: Frame, edit: (r: number) => number = (r) => r / 10): Frame => ({ ...f, columns: [...f.columns, { name: 'y', type: 'number', values: Float64Array.from({ length: f.rows }, (_, r) => edit(r)) }] });
+  const randomSides = (f: Frame, rowKey?: string[], warnings: string[] = []) => {
+    const s = holdout.run([asOutput(f)], { target: 'y', by: 'random', fraction: 0.25, cutoff: null, gap: 0, groups: 'site', time: 'day', ...(rowKey ? { rowKey } : {}) }, stepContext(warnings)) as HoldoutOutput;
+    const d = folds.run([asOutput(f), s], { target: 'y', k: 4, by: 'random', gap: 0, groups: 'site', time: 'day', ...(rowKey ? { rowKey } : {}) }, stepContext()) as FoldsOutput;
+    const side = new Array<string>(f.rows);
+    for (const r of s.test) side[r] = 'holdout';
+    s.train.forEach((r, k) => (side[r] = `fold ${d.fold[k]}`));
+    return side;
+  };
+
+  it('keeps every row on its side when a measured value is corrected, which the target-and-time identity cannot', () => {
+    const corrected = withY(frame, (r) => (r === 5 ? 99 : r / 10));
+    expect(randomSides(corrected, ['site', 'day'])).toEqual(randomSides(withY(frame), ['site', 'day']));
+    // without the key, the corrected row is a new unit, drawn afresh (with this seed it lands elsewhere)
+    const before = randomSides(withY(frame));
+    const after = randomSides(corrected);
+    expect(after.filter((side, r) => side !== before[r]).length).toBeGreaterThan(0);
+  });
+
+  it('warns when rows share their key, naming the key and how many rows', () => {
+    const warnings: string[] = [];
+    randomSides(withY(frame), ['site'], warnings);
+    expect(warnings).toEqual([`row-key-not-unique: ${messages.rowKeyNotUnique(['site'], frame.rows)}`]);
+  });
+});
