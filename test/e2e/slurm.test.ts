@@ -68,8 +68,9 @@ describe.runIf(enabled)('the Slurm executor on a real cluster', () => {
     const arrays = cluster.out.split('\n').map(submitted).filter((m) => m !== null);
     expect(arrays.map((m) => [m[1], m[2]])).toEqual([
       ['120', '15'],
-      // the forest's two tasks of trees, and the other three fits in one
-      ['4', '3'],
+      // the final fits and the prediction intervals' fold models (4 models × 5 folds): the forest's
+      // two tasks of trees, and the other 22 steps eight to a task
+      ['24', '5'],
       ['3', '1'],
     ]);
     expect(outputs(join(work, 'cluster', 'manifest.json'))).toEqual(outputs(join(work, 'local', 'manifest.json')));
@@ -99,8 +100,8 @@ describe.runIf(enabled)('the Slurm executor on a real cluster', () => {
     expect(first.err.startsWith(before), first.err).toBe(true);
     const second = await dendrolog(args, dir);
     expect(second.code, second.err).toBe(0);
-    // the cancelled cell's 3 folds, then 3 final fits and 2 explanations
-    expect(second.out.split('\n').map((l) => submitted(l)?.[1]).filter(Boolean)).toEqual(['3', '3', '2']);
+    // the cancelled cell's 3 folds, then 3 final fits beside 3 models × 3 interval folds, and 2 explanations
+    expect(second.out.split('\n').map((l) => submitted(l)?.[1]).filter(Boolean)).toEqual(['3', '12', '2']);
     const third = await dendrolog(args, dir);
     expect(third.code).toBe(0);
     expect(third.out).not.toMatch(/submitted/);
