@@ -89,10 +89,18 @@ function dendrologRun(train: number) {
   }
 }
 
+/** The first Python that has Debian's scikit-learn and pandas (the system one first: a pyenv shim may shadow it). */
+function python(): string | null {
+  for (const p of ['/usr/bin/python3', 'python3']) {
+    if (spawnSync(p, ['-c', 'import sklearn, pandas'], { encoding: 'utf8' }).status === 0) return p;
+  }
+  return null;
+}
+
 function sklearnRun(csv: string, cutoff: number) {
-  const probe = spawnSync('python3', ['-c', 'import sklearn, pandas'], { encoding: 'utf8' });
-  if (probe.status !== 0) return null;
-  const r = timed('python3', [join(root, 'test', 'bench', 'sklearn_protocol.py'), csv, String(cutoff)], dirname(csv));
+  const py = python();
+  if (!py) return null;
+  const r = timed(py, [join(root, 'test', 'bench', 'sklearn_protocol.py'), csv, String(cutoff)], dirname(csv));
   const o = JSON.parse(r.out) as { phases: Record<string, number>; r2: number };
   return { ...r, phases: o.phases, r2: o.r2 };
 }
