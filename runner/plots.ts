@@ -7,6 +7,9 @@ import type { Recipe } from '../core/recipe-types.js';
 import { shortenText } from './shorten.js';
 import type { Results } from './results.js';
 
+/** The most points a scatter plot draws; beyond, every k-th row, and the caption says so. */
+export const MAX_SCATTER_POINTS = 5000;
+
 /** Longest group name an axis label shows whole. */
 const PLOT_LABEL_LIMIT = 60;
 
@@ -77,22 +80,27 @@ export async function buildFigures(recipe: Recipe, results: Results): Promise<Re
   const { observed, predicted, groups } = results.holdoutRows;
   // a group name from the data can be any length: axis labels show it shortened (figures are not shortened later)
   const rows = observed.map((o, i) => ({ observed: o, predicted: predicted[i], residual: o - predicted[i], group: shortenText(groups?.[i] ?? '', PLOT_LABEL_LIMIT) }));
-  const lo = Math.min(...observed, ...predicted);
-  const hi = Math.max(...observed, ...predicted);
+  let lo = Infinity;
+  let hi = -Infinity;
+  for (const v of [observed, predicted]) for (const x of v) [lo, hi] = [Math.min(lo, x), Math.max(hi, x)];
+  // a scatter of more points than a reader can tell apart only makes the page heavy: every step-th row
+  const step = Math.max(1, Math.ceil(rows.length / MAX_SCATTER_POINTS));
+  const drawn = step > 1 ? rows.filter((_, i) => i % step === 0) : rows;
+  const scatterWords = step > 1 ? `${drawn.length.toLocaleString('en')} of the ${rows.length.toLocaleString('en')} holdout rows (one in every ${step}, in holdout order)` : `${rows.length} holdout rows`;
   const holdout: Figure[] = [];
   // with a target scale, observed against predicted in the quantity's own units, on a log axis
   // (the same picture, read in those units); else on the model's scale
   const scale = recipe.target_scale;
   const back = scale ? TARGET_SCALES[scale].inverse : (v: number) => v;
   const shown = scale ? targetScaleWords(scale, target) : target;
-  const points = rows.map((r) => ({ observed: back(r.observed), predicted: back(r.predicted) }));
+  const points = drawn.map((r) => ({ observed: back(r.observed), predicted: back(r.predicted) }));
   const [plo, phi] = [back(lo), back(hi)];
   const axisScale = scale === 'log1p' ? { type: 'symlog', domain: [plo, phi] } : scale ? { type: 'log', domain: [plo, phi] } : { domain: [lo, hi] };
   // the 1:1 line takes the points' domain on log axes; on a linear one it leaves the axis its nice round ends
   const lineScale = scale ? { scale: axisScale } : {};
   holdout.push(
     await figure('observed-predicted', `Observed vs predicted, holdout rows (${head.name})${scale ? `, in ${shown}` : ''}`,
-      `Scatter of ${rows.length} holdout rows: predicted ${shown} on the horizontal axis, observed on the vertical${scale ? ' (back-transformed, on logarithmic axes)' : ''}, with the 1:1 line where a perfect model would put every point.`,
+      `Scatter of ${scatterWords}: predicted ${shown} on the horizontal axis, observed on the vertical${scale ? ' (back-transformed, on logarithmic axes)' : ''}, with the 1:1 line where a perfect model would put every point.`,
       {
         width: 340,
         height: 300,
@@ -111,11 +119,11 @@ export async function buildFigures(recipe: Recipe, results: Results): Promise<Re
   );
   holdout.push(
     await figure('residuals-predicted', `Residuals vs predicted, holdout rows (${head.name})`,
-      `Scatter of residuals (observed minus predicted ${target}) against predicted ${target} for ${rows.length} holdout rows; a pattern around the zero line means the model is biased in part of its range.`,
+      `Scatter of residuals (observed minus predicted ${target}) against predicted ${target} for ${scatterWords}; a pattern around the zero line means the model is biased in part of its range.`,
       {
         width: 340,
         height: 300,
-        data: { values: rows },
+        data: { values: drawn },
         layer: [
           { mark: { type: 'rule', color: SECOND, strokeDash: [5, 4] }, encoding: { y: { datum: 0, type: 'quantitative' } } },
           {
@@ -249,7 +257,7 @@ async function splitMapFigures(recipe: Recipe, results: Results): Promise<Figure
     const values = edges(v);
     return values ? { scale: { zero: false, domain: [values[0], values[values.length - 1]] }, axis: { values } } : { scale: { zero: false, padding: 12 } };
   };
-  const sample = map.step > 1 ? ` (every ${map.step}th of ${map.rows.toLocaleString('en')} rows)` : '';
+  const sample = map.step > 1 ? ` (one in every ${map.step} of ${map.rows.toLocaleString('en')} rows)` : '';
   return [
     await figure('split-map', `Rows on ${b.x} and ${b.y}, by holdout and fold`,
       `Map of ${map.points.length.toLocaleString('en')} modelling rows${sample} on their coordinates ${b.x} and ${b.y}, coloured by the holdout and by the fold each training row is tested in; grid lines mark the square blocks of ${formatSetting(b.size)} on a side where they are few enough to draw.`,
