@@ -8,7 +8,7 @@ import { shortenText } from './shorten.js';
 import type { Results } from './results.js';
 
 /** The most points a scatter plot draws; beyond, every k-th row, and the caption says so. */
-export const MAX_SCATTER_POINTS = 5000;
+export const MAX_SCATTER_POINTS = 2500;
 
 /** Longest group name an axis label shows whole. */
 const PLOT_LABEL_LIMIT = 60;

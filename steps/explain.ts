@@ -74,25 +74,20 @@ export const explain: StepDefinition<ExplainParams, ExplainOutput> = {
     const x = applyDesign(design, test, all);
     const baselineMse = mse(await model.predict(x, 'prediction of the holdout rows'));
     const columnsOf = predictorColumns(design);
-    const importance: Importance[] = [];
-    for (const [j, predictor] of design.predictors.entries()) {
+    // each predictor's orders drawn in turn, as they always were; then every predictor's repeats,
+    // each predictor in one pass over the trees, spread over the step's threads
+    const orders = design.predictors.map((_, j) => {
       const rand = ctx.rng('permutation', j);
-      const rises: number[] = [];
-      for (let r = 0; r < params.repeats; r++) {
-        const order = shuffle([...all], rand);
-        const columns = x.columns.slice();
-        for (const c of columnsOf[j]) {
-          const src = x.columns[c];
-          const moved = new Float64Array(x.rows);
-          for (let i = 0; i < x.rows; i++) moved[i] = src[order[i]];
-          columns[c] = moved;
-        }
-        rises.push(mse(await model.predict({ ...x, columns }, `permutation importance of ${predictor}`)) - baselineMse);
-      }
+      return Array.from({ length: params.repeats }, () => Int32Array.from(shuffle([...all], rand)));
+    });
+    const jobs = design.predictors.map((_, j) => ({ columns: columnsOf[j] }));
+    const permuted = await model.permuted(x, jobs, orders, ctx.workers, 'permutation importance');
+    const importance: Importance[] = design.predictors.map((predictor, j) => {
+      const rises = permuted[j].map((p) => mse(p) - baselineMse);
       const m = rises.reduce((a, b) => a + b, 0) / rises.length;
       const sd = rises.length > 1 ? Math.sqrt(rises.reduce((s, v) => s + (v - m) ** 2, 0) / (rises.length - 1)) : 0;
-      importance.push({ predictor, mean: m, sd });
-    }
+      return { predictor, mean: m, sd };
+    });
     importance.sort((a, b) => b.mean - a.mean || (a.predictor < b.predictor ? -1 : 1));
 
     const sampleAt = shuffle([...split.train], ctx.rng('pd-sample')).slice(0, params.sampleRows).sort((a, b) => a - b);

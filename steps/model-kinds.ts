@@ -54,6 +54,12 @@ export interface ModelKindAdapter {
 /** A fitted model read from its bytes. */
 export interface LoadedModel {
   predict(x: Matrix): Float64Array;
+  /**
+   * For each job, predictions with the job's matrix columns read through each of its orders (row i
+   * takes row order[i]'s values), one array per order; equal to predicting each permuted matrix,
+   * on up to `threads` threads. Kinds without their own way get the plain one (permutedByCopy).
+   */
+  permuted?(x: Matrix, jobs: { columns: number[] }[], orders: ArrayLike<number>[][], threads: number): Promise<Float64Array[][]>;
 }
 
 /** Where the engine's randomness starts, and the threads a fit may use. */
@@ -172,7 +178,8 @@ export const modelKinds: Record<string, ModelKindAdapter> = dictOf<ModelKindAdap
 async function loadForest(bytes: Uint8Array): Promise<LoadedModel> {
   const { deserializeForest, predictForest } = await forestEngine();
   const forest = deserializeForest(bytes);
-  return { predict: (x) => predictForest(forest, x) };
+  const { permutedOnThreads } = await import('../models/permute-pool.js');
+  return { predict: (x) => predictForest(forest, x), permuted: (x, jobs, orders, threads) => permutedOnThreads(forest, bytes, x, jobs, orders, threads) };
 }
 
 /** The forest engine's options for a random_forest grid cell. */
@@ -201,7 +208,13 @@ export interface ModelEngine {
   fit(x: Matrix, y: Float64Array, cell: Cell, opts: FitOptions, where: string): Promise<FittedModel>;
   predict(bytes: Uint8Array, x: Matrix, where: string): Promise<Float64Array>;
   /** The model read once; its predictions go through the same boundary, with `where`. */
-  load(bytes: Uint8Array, where: string): Promise<{ predict(x: Matrix, where: string): Promise<Float64Array> }>;
+  load(
+    bytes: Uint8Array,
+    where: string,
+  ): Promise<{
+    predict(x: Matrix, where: string): Promise<Float64Array>;
+    permuted(x: Matrix, jobs: { columns: number[] }[], orders: ArrayLike<number>[][], threads: number, where: string): Promise<Float64Array[][]>;
+  }>;
   /** Present for kinds whose fit divides into blocks (see ModelBlocks), with the same `where`. */
   blocks?: {
     divide: ModelBlocks['divide'];
@@ -233,7 +246,10 @@ export function engineFor(kind: string, model: string): ModelEngine {
     predict: (bytes, x, where) => guarded(where, async () => (await adapter.load(bytes)).predict(x)),
     async load(bytes, where) {
       const model = await guarded(where, () => adapter.load(bytes));
-      return { predict: (x, at) => guarded(at, async () => model.predict(x)) };
+      return {
+        predict: (x, at) => guarded(at, async () => model.predict(x)),
+        permuted: (x, jobs, orders, threads, at) => guarded(at, async () => (model.permuted ?? permutedByCopy(model))(x, jobs, orders, threads)),
+      };
     },
     ...(blocks && {
       blocks: {
@@ -339,4 +355,21 @@ export function linearColumns(x: Matrix): string[] {
 /** The named columns of a matrix, in the order given. */
 export function selectColumns(x: Matrix, names: string[]): Matrix {
   return { columns: names.map((n) => x.columns[x.names.indexOf(n)]), names: [...names], rows: x.rows };
+}
+
+/** Permuted predictions the plain way, on this thread: each order's columns copied, then predicted. */
+export function permutedByCopy(model: LoadedModel): NonNullable<LoadedModel['permuted']> {
+  return async (x, jobs, orders) =>
+    jobs.map(({ columns }, j) =>
+      orders[j].map((order) => {
+        const moved = x.columns.slice();
+        for (const c of columns) {
+          const src = x.columns[c];
+          const out = new Float64Array(x.rows);
+          for (let i = 0; i < x.rows; i++) out[i] = src[order[i]];
+          moved[c] = out;
+        }
+        return model.predict({ ...x, columns: moved });
+      }),
+    );
 }

@@ -1,0 +1,61 @@
+/**
+ * Forest predictions with some features' values taken from other rows, for every permutation of
+ * permutation importance at once. A row follows its own path through a tree until the first node
+ * that splits on a permuted feature; only from there does each permutation go its own way, so the
+ * shared part of the path is walked once instead of once per repeat, and a row whose path never
+ * meets a permuted feature adds the same leaf to every repeat.
+ *
+ * The sums run in tree order per row and are divided by the tree count at the end, as
+ * predictUnchecked does, so each result equals predicting the permuted matrix bit for bit.
+ *
+ * Example: `predictPermuted(forest, x, [3], [order1, order2])[1][i]` is the prediction of row i with
+ * feature 3 read from row `order2[i]`.
+ */
+import type { Matrix } from './checks.js';
+import type { Forest } from './forest.js';
+import { checkPredictionMatrix } from './predict.js';
+
+export function predictPermuted(f: Forest, x: Matrix, permuted: number[], orders: ArrayLike<number>[]): Float64Array[] {
+  checkPredictionMatrix(f, x);
+  const p = x.columns.length;
+  const rows = x.rows;
+  const repeats = orders.length;
+  const isPermuted = new Uint8Array(p);
+  for (const c of permuted) isPermuted[c] = 1;
+  // row-major, so a row's values share cache lines; a permuted value is read from another row's
+  const block = new Float64Array(rows * p);
+  for (let j = 0; j < p; j++) {
+    const c = x.columns[j];
+    for (let r = 0, at = j; r < rows; r++, at += p) block[at] = c[r];
+  }
+  const out = orders.map(() => new Float64Array(rows));
+  for (const tree of f.trees) {
+    const { feature, threshold, left, right, value } = tree;
+    for (let i = 0, base = 0; i < rows; i++, base += p) {
+      let node = 0;
+      let g = feature[0];
+      while (g >= 0 && isPermuted[g] === 0) {
+        node = block[base + g] <= threshold[node] ? left[node] : right[node];
+        g = feature[node];
+      }
+      if (g < 0) {
+        const v = value[node];
+        for (let k = 0; k < repeats; k++) out[k][i] += v;
+        continue;
+      }
+      for (let k = 0; k < repeats; k++) {
+        const from = orders[k][i] * p;
+        let n = node;
+        let h = g;
+        while (h >= 0) {
+          n = (isPermuted[h] === 1 ? block[from + h] : block[base + h]) <= threshold[n] ? left[n] : right[n];
+          h = feature[n];
+        }
+        out[k][i] += value[n];
+      }
+    }
+  }
+  const t = f.trees.length;
+  if (t !== 1) for (const o of out) for (let i = 0; i < rows; i++) o[i] /= t;
+  return out;
+}
