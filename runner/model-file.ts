@@ -45,7 +45,8 @@ export interface ModelInterval {
  * model.bin: gzip of "DLM1", a 4-byte header length, a JSON header and the engine's bytes; with
  * prediction intervals, the header gives the headline model's byte length and each fold model's,
  * and the fold models follow it in fold order. gzip from Node writes no timestamp, so equal models
- * give equal files.
+ * give equal files. Level 1: a forest's floating-point bytes shrink by about a fifth at any level,
+ * and level 9 took ten times as long (11 s against 1.1 s for a 54 MB forest).
  *
  * Example: `readModelFile(writeModelFile(fit, null, recipe, run)).kind === fit.kind`
  */
@@ -86,7 +87,7 @@ export function writeModelFile(
   );
   const len = Buffer.alloc(4);
   len.writeUInt32LE(header.length, 0);
-  return new Uint8Array(gzipSync(Buffer.concat([Buffer.from(MAGIC, 'latin1'), len, header, bytes, ...foldBytes]), { level: 9 }));
+  return new Uint8Array(gzipSync(Buffer.concat([Buffer.from(MAGIC, 'latin1'), len, header, bytes, ...foldBytes]), { level: 1 }));
 }
 
 type StoredInterval = Omit<ModelInterval, 'folds'> & { folds: { design: FitOutput['design']; bytesLength: number }[] };
