@@ -20,21 +20,30 @@ export function predictPermuted(f: Forest, x: Matrix, permuted: number[], orders
   const p = x.columns.length;
   const rows = x.rows;
   const repeats = orders.length;
-  const isPermuted = new Uint8Array(p);
-  for (const c of permuted) isPermuted[c] = 1;
-  // row-major, so a row's values share cache lines; a permuted value is read from another row's
+  // slot[f] is feature f's place among the permuted columns, -1 when it is not permuted
+  const slot = new Int32Array(p).fill(-1);
+  permuted.forEach((c, m) => (slot[c] = m));
+  const width = permuted.length;
+  // row-major, so a row's values share cache lines
   const block = new Float64Array(rows * p);
   for (let j = 0; j < p; j++) {
     const c = x.columns[j];
     for (let r = 0, at = j; r < rows; r++, at += p) block[at] = c[r];
   }
+  // per repeat, the permuted values gathered into row order once, so a traversal reads them in
+  // sequence instead of jumping to another row for each
+  const moved = orders.map((order) => {
+    const v = new Float64Array(rows * width);
+    for (let i = 0; i < rows; i++) for (let m = 0; m < width; m++) v[i * width + m] = x.columns[permuted[m]][order[i]];
+    return v;
+  });
   const out = orders.map(() => new Float64Array(rows));
   for (const tree of f.trees) {
     const { feature, threshold, left, right, value } = tree;
     for (let i = 0, base = 0; i < rows; i++, base += p) {
       let node = 0;
       let g = feature[0];
-      while (g >= 0 && isPermuted[g] === 0) {
+      while (g >= 0 && slot[g] < 0) {
         node = block[base + g] <= threshold[node] ? left[node] : right[node];
         g = feature[node];
       }
@@ -43,12 +52,14 @@ export function predictPermuted(f: Forest, x: Matrix, permuted: number[], orders
         for (let k = 0; k < repeats; k++) out[k][i] += v;
         continue;
       }
+      const at = i * width;
       for (let k = 0; k < repeats; k++) {
-        const from = orders[k][i] * p;
+        const mine = moved[k];
         let n = node;
         let h = g;
         while (h >= 0) {
-          n = (isPermuted[h] === 1 ? block[from + h] : block[base + h]) <= threshold[n] ? left[n] : right[n];
+          const m = slot[h];
+          n = (m >= 0 ? mine[at + m] : block[base + h]) <= threshold[n] ? left[n] : right[n];
           h = feature[n];
         }
         out[k][i] += value[n];
