@@ -4,7 +4,8 @@ import { parseJson } from './dict.js';
 
 /**
  * A step's output as cache bytes: 4-byte length, the step's warnings as JSON, then the output in
- * its codec (frame binary, JSON, or bytes as they are). The same bytes go to the cache and between
+ * its codec (frame binary, JSON, bytes as they are, or a record: JSON whose binary fields follow it
+ * as raw bytes, see encodeRecord). The same bytes go to the cache and between
  * threads.
  *
  * Example: `unpackEntry('json', packEntry('json', {a: 1}, [])).output` is `{a: 1}`.
@@ -15,7 +16,9 @@ export function packEntry(codec: OutputCodec, output: unknown, warnings: Warning
       ? encodeFrame((output as FrameOutput).frame, (output as FrameOutput).notes)
       : codec === 'bytes'
         ? (output as Uint8Array)
-        : new Uint8Array(Buffer.from(JSON.stringify(output), 'utf8'));
+        : codec === 'record'
+          ? encodeRecord(output)
+          : new Uint8Array(Buffer.from(JSON.stringify(output), 'utf8'));
   const w = Buffer.from(JSON.stringify(warnings), 'utf8');
   const out = new Uint8Array(4 + w.length + body.length);
   new DataView(out.buffer).setUint32(0, w.length, true);
@@ -41,5 +44,71 @@ export function decodeOutput(codec: OutputCodec, body: Uint8Array): unknown {
     return { frame, notes };
   }
   if (codec === 'bytes') return body;
+  if (codec === 'record') return decodeRecord(body);
   return parseJson(Buffer.from(body).toString('utf8'));
+}
+
+/**
+ * A JSON value whose Uint8Array fields (a fitted model's bytes) travel as raw bytes rather than as
+ * text: 4-byte length and the JSON, with null where each array was, then 4-byte length and the
+ * list of those places (paths of keys and indexes), then the arrays one after another. Paths, not
+ * markers in the JSON, so no key or value from the data can be mistaken for one.
+ *
+ * Example: `decodeRecord(encodeRecord({model: 'm', bytes: Uint8Array.of(1, 2)})).bytes` is `Uint8Array [1, 2]`.
+ */
+export function encodeRecord(value: unknown): Uint8Array {
+  const places: { path: (string | number)[]; length: number }[] = [];
+  const blobs: Uint8Array[] = [];
+  const strip = (v: unknown, path: (string | number)[]): unknown => {
+    if (v instanceof Uint8Array) {
+      places.push({ path, length: v.length });
+      blobs.push(v);
+      return null;
+    }
+    if (Array.isArray(v)) return v.some((x) => x !== null && typeof x === 'object') ? v.map((x, i) => strip(x, [...path, i])) : v;
+    if (v !== null && typeof v === 'object' && !ArrayBuffer.isView(v)) {
+      const out: Record<string, unknown> = Object.create(null) as Record<string, unknown>;
+      for (const [k, x] of Object.entries(v)) out[k] = strip(x, [...path, k]);
+      return out;
+    }
+    return v;
+  };
+  const json = Buffer.from(JSON.stringify(strip(value, [])), 'utf8');
+  const index = Buffer.from(JSON.stringify(places), 'utf8');
+  const total = 8 + json.length + index.length + blobs.reduce((n, b) => n + b.length, 0);
+  const out = new Uint8Array(total);
+  const view = new DataView(out.buffer);
+  view.setUint32(0, json.length, true);
+  out.set(json, 4);
+  view.setUint32(4 + json.length, index.length, true);
+  let at = 8 + json.length;
+  out.set(index, at);
+  at += index.length;
+  for (const b of blobs) {
+    out.set(b, at);
+    at += b.length;
+  }
+  return out;
+}
+
+/** Inverse of encodeRecord; throws a plain Error when the lengths do not add up. */
+export function decodeRecord(body: Uint8Array): unknown {
+  const view = new DataView(body.buffer, body.byteOffset, body.byteLength);
+  const n = body.length >= 4 ? view.getUint32(0, true) : Infinity;
+  if (8 + n > body.length) throw new Error(`the record's JSON claims ${n} bytes, more than the ${body.length} stored`);
+  const value = parseJson(Buffer.from(body.subarray(4, 4 + n)).toString('utf8'));
+  const m = view.getUint32(4 + n, true);
+  let at = 8 + n + m;
+  if (at > body.length) throw new Error(`the record's index claims ${m} bytes, more than are stored`);
+  const places = parseJson(Buffer.from(body.subarray(8 + n, at)).toString('utf8')) as { path: (string | number)[]; length: number }[];
+  for (const { path, length } of places) {
+    if (at + length > body.length) throw new Error(`the record's binary fields claim more bytes than are stored`);
+    let holder = value as Record<string | number, unknown>;
+    for (const key of path.slice(0, -1)) holder = holder[key] as Record<string | number, unknown>;
+    // a copy, so the field does not keep the whole entry's buffer alive
+    holder[path[path.length - 1]] = body.slice(at, at + length);
+    at += length;
+  }
+  if (at !== body.length) throw new Error(`the record holds ${body.length - at} bytes more than its fields`);
+  return value;
 }

@@ -4,7 +4,7 @@ import { generator, seedString, unitDraw } from './rng.js';
 import { sha256 } from './hash.js';
 
 /** How a step's output becomes bytes for the cache and back ('bytes': a Uint8Array kept as it is). */
-export type OutputCodec = 'frame' | 'json' | 'bytes';
+export type OutputCodec = 'frame' | 'json' | 'bytes' | 'record';
 
 /** A frame plus what the step has to say about it (rows in and out, reasons). */
 export interface FrameOutput {

@@ -47,7 +47,7 @@ const nodeIo: CacheIo = {
  * ```
  * dendrolog-cache-entry 2
  * key <the step key, 64 hex>
- * codec <frame|json|bytes>
+ * codec <frame|json|bytes|record>
  * sha256 <64 hex over every byte of the entry except this line>
  * <the packed output>
  * ```

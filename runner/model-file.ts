@@ -56,9 +56,9 @@ export function writeModelFile(
   recipe: Recipe,
   run: { holdoutPredictionsSha256: string },
 ): Uint8Array {
-  const bytes = Buffer.from(fit.bytes, 'base64');
+  const bytes = Buffer.from(fit.bytes);
   const table = interval?.output.table ?? null;
-  const foldBytes = interval && table ? interval.folds.map((f) => Buffer.from(f.bytes, 'base64')) : [];
+  const foldBytes = interval && table ? interval.folds.map((f) => Buffer.from(f.bytes)) : [];
   const header = Buffer.from(
     JSON.stringify({
       format: 1,

@@ -22,8 +22,8 @@ export interface FitOutput {
   cell: Cell;
   used: Record<string, unknown>;
   design: LearnedDesign;
-  /** The serialized engine model, base64. */
-  bytes: string;
+  /** The serialized engine model (kept as raw bytes by the record codec, not as text). */
+  bytes: Uint8Array;
   oobR2: number | null;
   trainingRows: number;
   /** Range of each numeric predictor over the training rows: outside it, a tree model cannot extrapolate. */
@@ -60,7 +60,7 @@ function output(p: ReturnType<typeof prepare>, params: FitParams, fitted: Fitted
     cell: p.cell,
     used: fitted.used,
     design: p.design,
-    bytes: Buffer.from(fitted.bytes).toString('base64'),
+    bytes: fitted.bytes,
     oobR2: fitted.oobR2 ?? null,
     trainingRows: p.split.train.length,
     ranges: trainingRanges(p.frame, params.predictors, p.split.train),
@@ -81,11 +81,12 @@ function blocksOf(params: FitParams) {
  */
 export const fit: StepDefinition<FitParams, FitOutput> = {
   kind: 'fit',
-  // 4: seeded from the training table, the split and the chosen cell only (seedInputs), so an
+  // 5: the model's bytes as raw bytes in a record, no longer base64 text in JSON (a big forest's
+  // text outgrew what one JavaScript string can hold); 4: seeded from the training table, the split and the chosen cell only (seedInputs), so an
   // unchosen grid value changes nothing; standardize learns on the values an impute step fills; 3: collinear linear predictors are left out (listed in
   // used); engine errors become messages
-  version: 4,
-  codec: 'json',
+  version: 5,
+  codec: 'record',
   usesSeed: true,
   seedInputs: [0, 1],
   parallel: true,

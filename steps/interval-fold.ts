@@ -24,8 +24,8 @@ export interface IntervalFoldOutput {
   holdout: number[];
   /** What the learned feature steps took from this fold's fitting rows. */
   design: LearnedDesign;
-  /** The fold model's engine bytes, base64, so `predict` can give new rows their intervals. */
-  bytes: string;
+  /** The fold model's engine bytes, so `predict` can give new rows their intervals. */
+  bytes: Uint8Array;
   /** The first prediction that was not a finite number, described; null when all were (then no interval is given). */
   nonFinite: string | null;
 }
@@ -38,8 +38,9 @@ export interface IntervalFoldOutput {
  */
 export const intervalFold: StepDefinition<IntervalFoldParams, IntervalFoldOutput> = {
   kind: 'interval_fold',
-  version: 1,
-  codec: 'json',
+  // 2: the model's bytes raw in a record, not base64 in JSON
+  version: 2,
+  codec: 'record',
   usesSeed: true,
   seedInputs: [0, 1, 2],
   parallel: true,
@@ -63,7 +64,7 @@ export const intervalFold: StepDefinition<IntervalFoldParams, IntervalFoldOutput
       residuals: Array.from(tested, (p, i) => Math.abs(observed[i] - p)),
       holdout: Array.from(holdout),
       design: fold.design,
-      bytes: Buffer.from(fold.fitted.bytes).toString('base64'),
+      bytes: fold.fitted.bytes,
       nonFinite: bad === undefined ? null : messages.predictionNotFinite(bad, where),
     };
   },

@@ -146,7 +146,7 @@ async function main() {
         cell: {},
         used: {},
         design: { predictors: NAMES, names: NAMES, impute: {}, standardize: {}, oneHot: {} },
-        bytes: Buffer.from(serializeForest(forest)).toString('base64'),
+        bytes: serializeForest(forest),
         oobR2: null,
         trainingRows: train.length,
         ranges: {},

@@ -5,7 +5,7 @@ import { readModelFile, writeModelFile } from '../../runner/model-file.js';
 import type { FitOutput, IntervalFoldOutput, PredictionIntervalOutput } from '../../steps/index.js';
 import type { Recipe } from '../../core/recipe-types.js';
 
-const b64 = (bytes: number[]) => Buffer.from(bytes).toString('base64');
+const b64 = (bytes: number[]) => Uint8Array.from(bytes);
 const FIT = { model: 'm', kind: 'linear', cell: {}, used: {}, design: { predictors: ['x'] }, ranges: {}, trainingRows: 10, bytes: b64([1, 2, 3]) } as unknown as FitOutput;
 const TABLE = { folds: [{ residuals: [0.5], cumulative: [1] }, { residuals: [1], cumulative: [1] }], units: 2 };
 const INTERVAL = {

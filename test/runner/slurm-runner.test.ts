@@ -96,7 +96,7 @@ describe('the Slurm executor (stand-in commands)', () => {
     const fit = manifest('cluster').steps.find((x) => x.id === 'fit forest')!;
     const cache = new Cache(s.cache);
     expect([0, 1, 2].map((b) => cache.get(partKey(fit.key, b, b + 1), 'bytes').status)).toEqual(['miss', 'miss', 'miss']);
-    expect(cache.get(fit.key, 'json').status).toBe('hit');
+    expect(cache.get(fit.key, 'record').status).toBe('hit');
   });
 
   it('submits a task lost with its node once more, and only that task', async () => {

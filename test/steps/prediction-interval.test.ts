@@ -19,7 +19,7 @@ const SPLIT = { train: [0, 1, 2, 3, 4, 5, 6, 7, 8, 9, 10, 11], test: [12, 13] } 
 
 /** Fold f tests group f's rows with residuals 0.5, 1, 1.5 and predicts 6 for every holdout row. */
 const folds = (nonFinite: string | null = null): IntervalFoldOutput[] =>
-  [0, 1, 2, 3].map((f) => ({ fold: f, cell: {}, tested: [3 * f, 3 * f + 1, 3 * f + 2], residuals: [0.5, 1, 1.5], holdout: [6, 6], design: {} as never, bytes: '', nonFinite }));
+  [0, 1, 2, 3].map((f) => ({ fold: f, cell: {}, tested: [3 * f, 3 * f + 1, 3 * f + 2], residuals: [0.5, 1, 1.5], holdout: [6, 6], design: {} as never, bytes: new Uint8Array(0), nonFinite }));
 
 const run = (params: Partial<PredictionIntervalParams>, fs = folds()) =>
   predictionInterval.run([asOutput(FRAME), SPLIT, ...fs], { level: 0.5, target: 'y', targetScale: null, groups: 'g', units: null, ...params }, stepContext()) as PredictionIntervalOutput;

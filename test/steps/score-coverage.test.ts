@@ -60,7 +60,7 @@ async function coverage(heldGroups: number, replicates: number): Promise<{ r2: n
       cell: {},
       used: {},
       design: { predictors: ['x1', 'x2'], names: ['x1', 'x2'], impute: {}, standardize: {}, oneHot: {} },
-      bytes: Buffer.from(serializeLinear(model)).toString('base64'),
+      bytes: serializeLinear(model),
       oobR2: null,
       trainingRows: train.length,
       ranges: {},

@@ -1,0 +1,37 @@
+/** The record codec: JSON whose binary fields travel as raw bytes, found again by their paths. */
+import { describe, expect, it } from 'vitest';
+import { decodeRecord, encodeRecord, packEntry, unpackEntry } from '../../core/codec.js';
+import { parseJson } from '../../core/dict.js';
+
+describe('records', () => {
+  it('give back every binary field at its place, with keys from the data that look like anything', () => {
+    const value = parseJson(
+      JSON.stringify({ model: 'm', ranges: { __proto__x: { min: 1, max: 2 }, $blob: 3 }, folds: [{ k: 0 }, { k: 1 }], list: [1, 2, 3] }),
+    ) as Record<string, unknown>;
+    value.bytes = Uint8Array.of(1, 2, 3);
+    (value.folds as Record<string, unknown>[])[1].bytes = Uint8Array.of(9);
+    (value.ranges as Record<string, unknown>)['__proto__'] = Uint8Array.of(7, 7);
+    const back = decodeRecord(encodeRecord(value)) as Record<string, unknown>;
+    expect(back.bytes).toEqual(Uint8Array.of(1, 2, 3));
+    expect((back.folds as Record<string, unknown>[])[1].bytes).toEqual(Uint8Array.of(9));
+    expect((back.folds as Record<string, unknown>[])[0]).toEqual({ k: 0 });
+    expect(Object.getOwnPropertyDescriptor(back.ranges, '__proto__')?.value).toEqual(Uint8Array.of(7, 7));
+    expect((back.ranges as Record<string, unknown>).$blob).toBe(3);
+    expect(back.list).toEqual([1, 2, 3]);
+  });
+
+  it('pass through a cache entry unchanged', () => {
+    const entry = unpackEntry('record', packEntry('record', { a: 1, b: Uint8Array.of(5, 6) }, [{ code: 'w', message: 'm', count: 1 }]));
+    expect(entry.output).toEqual({ a: 1, b: Uint8Array.of(5, 6) });
+    expect(entry.stepWarnings).toEqual([{ code: 'w', message: 'm', count: 1 }]);
+  });
+
+  it('refuse bytes that do not add up: cut short, or with more after the fields', () => {
+    const body = encodeRecord({ a: Uint8Array.of(1, 2, 3, 4) });
+    expect(() => decodeRecord(body.subarray(0, body.length - 2))).toThrow("the record's binary fields claim more bytes than are stored");
+    const longer = new Uint8Array(body.length + 1);
+    longer.set(body);
+    expect(() => decodeRecord(longer)).toThrow('the record holds 1 bytes more than its fields');
+    expect(() => decodeRecord(body.subarray(0, 3))).toThrow("the record's JSON claims");
+  });
+});
