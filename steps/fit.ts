@@ -81,11 +81,11 @@ function blocksOf(params: FitParams) {
  */
 export const fit: StepDefinition<FitParams, FitOutput> = {
   kind: 'fit',
-  // 5: the model's bytes as raw bytes in a record, no longer base64 text in JSON (a big forest's
-  // text outgrew what one JavaScript string can hold); 4: seeded from the training table, the split and the chosen cell only (seedInputs), so an
+  // (the version is in the seed of its draws: the switch to the record codec, which changed no
+  // number, kept 4) 4: seeded from the training table, the split and the chosen cell only (seedInputs), so an
   // unchosen grid value changes nothing; standardize learns on the values an impute step fills; 3: collinear linear predictors are left out (listed in
   // used); engine errors become messages
-  version: 5,
+  version: 4,
   codec: 'record',
   usesSeed: true,
   seedInputs: [0, 1],
