@@ -253,15 +253,6 @@ describe('recipe meaning and files', () => {
     expect(problems).toEqual([`${atOn(file, text, 'row_key:', 'day')}: ${messages.unknownColumn('day', 'row_key', ['site', 'x1', 'x2', 'y'], 'y')}`]);
   });
 
-  it('asks for blocks when the holdout or the folds split by blocks without them', () => {
-    const text = SMALL_RECIPE.replace('folds: {k: 3}', 'holdout: {by: blocks}\n  folds: {k: 3, by: blocks}');
-    const { file, problems } = problemsOf(text);
-    expect(problems).toEqual([
-      `${atOn(file, text, 'holdout:', 'blocks}')}: ${messages.blocksNeeded('evaluation.holdout')}`,
-      `${atOn(file, text, 'folds:', 'blocks}')}: ${messages.blocksNeeded('evaluation.folds')}`,
-    ]);
-  });
-
   it('refuses block coordinates that are not declared number columns', () => {
     const text = SMALL_RECIPE.replace('groups: site', 'groups: site\nblocks: {x: site, y: x3, size: 5}');
     const { file, problems } = problemsOf(text);
@@ -274,12 +265,15 @@ describe('recipe meaning and files', () => {
     expect(z.problems).toEqual([`${atOn(z.file, size, 'blocks:', '0}')}: ${messages.outOfRange('blocks.size', 0, 'greater than 0')}`]);
   });
 
-  it('asks for a time column when the holdout or the folds split by time without one', () => {
-    const text = SMALL_RECIPE.replace('folds: {k: 3}', 'holdout: {by: time}\n  folds: {k: 3, by: time}');
+  it.each([
+    ['a time column', 'time', messages.timeNeeded],
+    ['blocks', 'blocks', messages.blocksNeeded],
+  ] as const)('asks for %s when the holdout or the folds split by %s without it', (_, by, needed) => {
+    const text = SMALL_RECIPE.replace('folds: {k: 3}', `holdout: {by: ${by}}\n  folds: {k: 3, by: ${by}}`);
     const { file, problems } = problemsOf(text);
     expect(problems).toEqual([
-      `${atOn(file, text, 'holdout:', 'time}')}: ${messages.timeNeeded('evaluation.holdout')}`,
-      `${atOn(file, text, 'folds:', 'time}')}: ${messages.timeNeeded('evaluation.folds')}`,
+      `${atOn(file, text, 'holdout:', `${by}}`)}: ${needed('evaluation.holdout')}`,
+      `${atOn(file, text, 'folds:', `${by}}`)}: ${needed('evaluation.folds')}`,
     ]);
   });
 });
