@@ -38,6 +38,14 @@ export function predictPermuted(f: Forest, x: Matrix, permuted: number[], orders
     return v;
   });
   const out = orders.map(() => new Float64Array(rows));
+  // Below a node that does not split on a permuted feature, every repeat of a row goes the same way
+  // (they differ only in the permuted values), so the repeats walk down together as one set and part
+  // only where a node splits on a permuted feature: a set of repeats per pending branch, as a bit mask.
+  const grouped = repeats <= 30;
+  // pending sets are disjoint and never empty, so there are never more of them than repeats
+  const stackNode = new Int32Array(32);
+  const stackMask = new Int32Array(32);
+  const all = grouped ? (1 << repeats) - 1 : 0;
   for (const tree of f.trees) {
     const { feature, threshold, left, right, value } = tree;
     for (let i = 0, base = 0; i < rows; i++, base += p) {
@@ -53,6 +61,44 @@ export function predictPermuted(f: Forest, x: Matrix, permuted: number[], orders
         continue;
       }
       const at = i * width;
+      if (grouped) {
+        let top = 0;
+        stackNode[0] = node;
+        stackMask[0] = all;
+        while (top >= 0) {
+          let n = stackNode[top];
+          let mask = stackMask[top];
+          top--;
+          for (;;) {
+            const h = feature[n];
+            if (h < 0) {
+              const v = value[n];
+              for (let k = 0; mask !== 0; k++, mask >>>= 1) if (mask & 1) out[k][i] += v;
+              break;
+            }
+            const m = slot[h];
+            if (m < 0) {
+              n = block[base + h] <= threshold[n] ? left[n] : right[n];
+              continue;
+            }
+            // part the set: the repeats whose value goes left, and the rest
+            const t = threshold[n];
+            let goLeft = 0;
+            for (let k = 0, rest = mask; rest !== 0; k++, rest >>>= 1) if (rest & 1 && moved[k][at + m] <= t) goLeft |= 1 << k;
+            const goRight = mask & ~goLeft;
+            if (goLeft === 0) n = right[n];
+            else if (goRight === 0) n = left[n];
+            else {
+              top++;
+              stackNode[top] = right[n];
+              stackMask[top] = goRight;
+              n = left[n];
+              mask = goLeft;
+            }
+          }
+        }
+        continue;
+      }
       for (let k = 0; k < repeats; k++) {
         const mine = moved[k];
         let n = node;

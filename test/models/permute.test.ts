@@ -26,6 +26,20 @@ describe('permuted forest predictions', () => {
     }
   });
 
+  it('equal predicting the permuted matrix with more repeats than one walk carries together (31)', async () => {
+    const { x, y } = friedman1(300, 'permute-many');
+    const forest = await fitForest(x, y, { trees: 10, maxDepth: null, minLeaf: 3, mtry: 4, seed: 'permute-many' });
+    const rand = seedrandom('many-orders');
+    const rows = [...Array(x.rows).keys()];
+    const orders = Array.from({ length: 31 }, () => shuffle([...rows], rand));
+    const got = predictPermuted(forest, x, [1], orders);
+    for (const k of [0, 17, 30]) {
+      const moved = x.columns.slice();
+      moved[1] = Float64Array.from(orders[k], (r) => x.columns[1][r]);
+      expect(Array.from(got[k])).toEqual(Array.from(predictForest(forest, { ...x, columns: moved })));
+    }
+  });
+
   it('refuses a matrix that is not the forest’s, like predict does', async () => {
     const { x, y } = friedman1(100, 'permute-names');
     const forest = await fitForest(x, y, { trees: 3, maxDepth: 3, minLeaf: 5, mtry: null, seed: 's' });
