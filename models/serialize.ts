@@ -3,7 +3,7 @@
  *
  * Layout (little-endian):
  *   8 bytes  magic "DNDRFRST"
- *   u32      format version (1)
+ *   u32      format version (2)
  *   u32      header length, then that many bytes of UTF-8 JSON: kind, feature names, training rows,
  *            settings, OOB summary, width of feature indices
  *   f64 × p  impurity importance
@@ -11,9 +11,11 @@
  *   f64 × n  OOB predictions (NaN where a row was never out of bag)
  *   u32      number of trees, then per tree:
  *            u32 node count, node features in preorder (i16, or i32 past 32,766 features; -1 = leaf),
- *            then one f64 per node: the threshold of an internal node or the value of a leaf.
+ *            then one f64 per node: the threshold of an internal node or the value of a leaf,
+ *            then one u32 per node: the in-bag draws that reached it.
  * Child pointers are not stored: in preorder an internal node's left child is the next node and its
- * right child follows the left subtree, so they are rebuilt on reading. That makes a node 10 bytes.
+ * right child follows the left subtree, so they are rebuilt on reading. That makes a node 14 bytes.
+ * Version 1 had no draws.
  *
  * Example: `deserializeForest(serializeForest(forest))` predicts exactly as `forest` does.
  */
@@ -22,7 +24,7 @@ import type { Forest, ForestBlock, ForestSettings, OobResult } from './forest.js
 import type { Tree } from './tree.js';
 
 const MAGIC = 'DNDRFRST';
-export const FOREST_FORMAT_VERSION = 1;
+export const FOREST_FORMAT_VERSION = 2;
 
 interface Header {
   kind: Forest['kind'];
@@ -153,9 +155,9 @@ function openFormat(bytes: Uint8Array, magic: string, version: number, minLength
   return view;
 }
 
-/** Bytes one tree takes: its node count, then per node a feature index of `width` bytes and an f64. */
+/** Bytes one tree takes: its node count, then per node a feature index of `width` bytes, an f64 and a u32. */
 function treeSize(t: Tree, width: 2 | 4): number {
-  return 4 + t.feature.length * (width + 8);
+  return 4 + t.feature.length * (width + 12);
 }
 
 /** Writes one tree at `at` (see the layout above); returns where the next thing goes. */
@@ -168,6 +170,7 @@ function writeTree(view: DataView, at: number, t: Tree, width: 2 | 4): number {
     else view.setInt32(at, t.feature[i], true);
   }
   for (let i = 0; i < count; i++, at += 8) view.setFloat64(at, t.feature[i] >= 0 ? t.threshold[i] : t.value[i], true);
+  for (let i = 0; i < count; i++, at += 4) view.setUint32(at, t.draws[i], true);
   return at;
 }
 
@@ -179,13 +182,14 @@ function readTree(view: DataView, at: number, p: number, width: 2 | 4, k: number
   need(4);
   const count = view.getUint32(at, true);
   at += 4;
-  need(count * (width + 8));
+  need(count * (width + 12));
   const t: Tree = {
     feature: new Int32Array(count),
     threshold: new Float64Array(count),
     left: new Int32Array(count),
     right: new Int32Array(count),
     value: new Float64Array(count),
+    draws: new Int32Array(count),
   };
   for (let i = 0; i < count; i++, at += width) {
     const feat = width === 2 ? view.getInt16(at, true) : view.getInt32(at, true);
@@ -215,15 +219,20 @@ function readTree(view: DataView, at: number, p: number, width: 2 | 4, k: number
     }
   }
   if (count === 0 || stack.length > 0 || t.feature[count - 1] >= 0) throw bad(`tree ${k} is incomplete`);
+  for (let i = 0; i < count; i++, at += 4) {
+    const w = view.getUint32(at, true);
+    if (w > 0x7fffffff) throw bad(`tree ${k} node ${i} has ${w} draws`);
+    t.draws[i] = w;
+  }
   return { tree: t, at };
 }
 
 const BLOCKS_MAGIC = 'DNDRBLKS';
-export const BLOCKS_FORMAT_VERSION = 1;
+export const BLOCKS_FORMAT_VERSION = 2;
 
 /**
  * Blocks of forest trees (growForestBlocks) as bytes, round-tripping bit for bit. Layout
- * (little-endian): 8 bytes magic "DNDRBLKS", u32 format version (1), u32 training rows n, u32
+ * (little-endian): 8 bytes magic "DNDRBLKS", u32 format version (2), u32 training rows n, u32
  * features p, u32 block count; then per block: u32 block index, f64 × p importance sums, f64 × n
  * out-of-bag sums, u8 × n out-of-bag counts, u32 tree count and the trees as in a forest (feature
  * indices of 2 bytes, or 4 past 32,766 features).

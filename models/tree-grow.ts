@@ -149,6 +149,7 @@ export class TreeBuilder {
   private nLeft: Int32Array;
   private nRight: Int32Array;
   private nValue: Float64Array;
+  private nDraws: Int32Array;
   // Best split found by the last search. Fields that hold fractions start as non-integers, so V8 keeps
   // them as unboxed doubles from the start instead of changing their representation (and
   // deoptimizing the code that uses them) mid-tree.
@@ -189,6 +190,7 @@ export class TreeBuilder {
     this.nLeft = new Int32Array(cap);
     this.nRight = new Int32Array(cap);
     this.nValue = new Float64Array(cap);
+    this.nDraws = new Int32Array(cap);
   }
 
   /** Grow tree number `treeIndex`; its randomness comes only from (seed, treeIndex). */
@@ -315,6 +317,7 @@ export class TreeBuilder {
     const buf = this.sBuf[slot];
     const id = this.nodes++;
     if (id >= this.nFeature.length) this.growNodes2x();
+    this.nDraws[id] = W;
     const parent = this.sParent[slot];
     if (parent >= 0) {
       if (parent & 1) this.nRight[parent >> 1] = id;
@@ -493,6 +496,7 @@ export class TreeBuilder {
       left: this.nLeft.slice(0, nodes),
       right: this.nRight.slice(0, nodes),
       value: this.nValue.slice(0, nodes),
+      draws: this.nDraws.slice(0, nodes),
     };
     const rootW = this.rootW;
     for (let f = 0; f < importance.length; f++) importance[f] /= rootW;
@@ -769,5 +773,8 @@ export class TreeBuilder {
     const v = new Float64Array(cap);
     v.set(this.nValue);
     this.nValue = v;
+    const w = new Int32Array(cap);
+    w.set(this.nDraws);
+    this.nDraws = w;
   }
 }

@@ -17,6 +17,11 @@ export interface Tree {
   right: Int32Array;
   /** Prediction of a leaf (the weighted mean target of its in-bag rows). NaN for internal nodes. */
   value: Float64Array;
+  /**
+   * In-bag draws that reached the node (a row drawn twice counts twice): the weights of partial
+   * dependence by tree traversal.
+   */
+  draws: Int32Array;
 }
 
 /** The leaf value for row `row` of column-major `columns`. */

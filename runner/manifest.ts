@@ -98,7 +98,7 @@ export function buildManifest(
       ...(m.failed ? { failed: m.failed } : {}),
       learned: m.learned,
       importance: m.explain ? { measuredOn: 'holdout', repeats: m.explain.repeats, values: m.explain.importance } : null,
-      partialDependence: m.explain ? { measuredOn: 'training', rows: m.explain.pdRows, curves: m.explain.partialDependence } : null,
+      partialDependence: m.explain ? { measuredOn: 'training', rows: m.explain.pdRows, method: m.explain.pdMethod, curves: m.explain.partialDependence } : null,
       ...(m.predictionInterval ? { predictionInterval: m.predictionInterval } : {}),
     })),
     headline: {

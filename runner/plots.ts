@@ -179,7 +179,7 @@ export async function buildFigures(recipe: Recipe, results: Results): Promise<Re
       const numeric = pd.kind === 'number';
       drivers.push(
         await figure(`pd-${pd.predictor}`, `Partial dependence on ${pd.predictor} (${head.name})`,
-          `Average predicted ${target} over ${head.explain.pdRows} training rows when ${pd.predictor} is set to each value in turn (${numeric ? '5th to 95th percentile of the training values' : 'each category'}); it shows the model's response, not a cause.`,
+          `Average predicted ${target} over ${head.explain.pdMethod === 'traversal' ? `the ${head.explain.pdRows} training rows (each tree weighting the rows it was grown on)` : `${head.explain.pdRows} sampled training rows`} when ${pd.predictor} is set to each value in turn (${numeric ? '5th to 95th percentile of the training values' : 'each category'}); it shows the model's response, not a cause.`,
           {
             width: 220,
             height: 160,

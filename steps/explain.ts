@@ -6,6 +6,8 @@ import type { FitOutput } from './fit.js';
 import type { HoldoutOutput } from './holdout.js';
 import { engineFor } from './model-kinds.js';
 
+type LoadedEngineModel = Awaited<ReturnType<ReturnType<typeof engineFor>['load']>>;
+
 export interface ExplainParams {
   target: string;
   repeats: number;
@@ -13,7 +15,10 @@ export interface ExplainParams {
   top: number;
   /** Points along each curve. */
   points: number;
-  /** Training rows the curves average over (a seeded sample when there are more). */
+  /**
+   * For model kinds that cannot walk their own structure: the training rows the curves average
+   * over (a seeded sample when there are more). Trees and forests average over all their in-bag rows.
+   */
   sampleRows: number;
 }
 
@@ -36,7 +41,13 @@ export interface ExplainOutput {
   baselineMse: number;
   importance: Importance[];
   partialDependence: PartialDependence[];
+  /** Training rows the curves average over. */
   pdRows: number;
+  /**
+   * traversal: over every training row, each tree weighting its in-bag draws, by walking the trees
+   * (models/partial-dependence.ts); sample: predictions averaged over pdRows sampled training rows.
+   */
+  pdMethod: 'traversal' | 'sample';
 }
 
 /**
@@ -90,32 +101,47 @@ export const explain: StepDefinition<ExplainParams, ExplainOutput> = {
     });
     importance.sort((a, b) => b.mean - a.mean || (a.predictor < b.predictor ? -1 : 1));
 
-    const sampleAt = shuffle([...split.train], ctx.rng('pd-sample')).slice(0, params.sampleRows).sort((a, b) => a - b);
-    const sample = takeRows(full, sampleAt);
-    const rows = [...Array(sample.rows).keys()];
-    const sx = applyDesign(design, sample, rows);
+    // the trees' own walk when the kind has one; otherwise predictions over a sample of training rows
+    const sampleRows = Math.min(params.sampleRows, split.train.length);
+    const curve =
+      model.partialDependence ??
+      sampledCurve(model, design, takeRows(full, shuffle([...split.train], ctx.rng('pd-sample')).slice(0, sampleRows).sort((a, b) => a - b)));
     const partialDependence: PartialDependence[] = [];
     for (const { predictor } of importance.slice(0, params.top)) {
       const c = column(full, predictor);
       const numeric = c.values instanceof Float64Array;
       const xs = numeric ? quantilePoints(split.train.map((r) => (c.values as Float64Array)[r]), params.points) : categoriesOf(c, split.train);
       const own = columnsOf[design.predictors.indexOf(predictor)];
-      const points: PartialDependence['points'] = [];
-      for (const v of xs) {
-        // the predictor's matrix columns for the value v, as the design makes them for any row
-        const one = withColumn(takeRows(sample, [0]), predictor, (col) => ({ ...col, values: numeric ? Float64Array.of(v as number) : [v as string] }));
+      // the predictor's matrix columns for each value, as the design makes them for any row
+      const template = takeRows(full, split.train.slice(0, 1));
+      const settings = xs.map((v) => {
+        const one = withColumn(template, predictor, (col) => ({ ...col, values: numeric ? Float64Array.of(v as number) : [v as string] }));
         const at = applyDesign(design, one, [0]);
-        const columns = sx.columns.slice();
-        for (const k of own) columns[k] = new Float64Array(sample.rows).fill(at.columns[k][0]);
-        const p = await model.predict({ ...sx, columns }, `partial dependence on ${predictor}`);
-        points.push({ x: v, y: p.reduce((a, b) => a + b, 0) / p.length });
-      }
-      partialDependence.push({ predictor, kind: numeric ? 'number' : 'category', points });
+        return own.map((k) => at.columns[k][0]);
+      });
+      const ys = await curve(own, settings, `partial dependence on ${predictor}`);
+      partialDependence.push({ predictor, kind: numeric ? 'number' : 'category', points: xs.map((x, g) => ({ x, y: ys[g] })) });
     }
-    return { model: fitted.model, repeats: params.repeats, baselineMse, importance, partialDependence, pdRows: sample.rows };
+    const pdRows = model.partialDependence ? split.train.length : sampleRows;
+    return { model: fitted.model, repeats: params.repeats, baselineMse, importance, partialDependence, pdRows, pdMethod: model.partialDependence ? 'traversal' : 'sample' };
   },
   summary: (o) => `top predictor ${o.importance[0]?.predictor ?? 'none'}`,
 };
+
+/** Partial dependence the plain way: the mean prediction over `sample` with the columns set to each point. */
+function sampledCurve(model: LoadedEngineModel, design: FitOutput['design'], sample: Frame) {
+  const sx = applyDesign(design, sample, [...Array(sample.rows).keys()]);
+  return async (own: number[], points: ArrayLike<number>[], where: string): Promise<number[]> => {
+    const means: number[] = [];
+    for (const point of points) {
+      const columns = sx.columns.slice();
+      own.forEach((k, m) => (columns[k] = new Float64Array(sx.rows).fill(point[m])));
+      const p = await model.predict({ ...sx, columns }, where);
+      means.push(p.reduce((a, b) => a + b, 0) / p.length);
+    }
+    return means;
+  };
+}
 
 function withColumn(frame: Frame, name: string, change: (c: Column) => Column): Frame {
   return { rows: frame.rows, columns: frame.columns.map((c) => (c.name === name ? change(c) : c)) };

@@ -60,6 +60,12 @@ export interface LoadedModel {
    * on up to `threads` threads. Kinds without their own way get the plain one (permutedByCopy).
    */
   permuted?(x: Matrix, jobs: { columns: number[] }[], orders: ArrayLike<number>[][], threads: number): Promise<Float64Array[][]>;
+  /**
+   * For kinds that can: the average prediction over the rows the model was fitted on, with the
+   * given matrix columns set to each point's values (points[g][m] is point g's value of columns[m]),
+   * found without predicting rows. Kinds without it get the average over sampled training rows.
+   */
+  partialDependence?(columns: number[], points: ArrayLike<number>[]): Float64Array;
 }
 
 /** Where the engine's randomness starts, and the threads a fit may use. */
@@ -179,7 +185,12 @@ async function loadForest(bytes: Uint8Array): Promise<LoadedModel> {
   const { deserializeForest, predictForest } = await forestEngine();
   const forest = deserializeForest(bytes);
   const { permutedOnThreads } = await import('../models/permute-pool.js');
-  return { predict: (x) => predictForest(forest, x), permuted: (x, jobs, orders, threads) => permutedOnThreads(forest, bytes, x, jobs, orders, threads) };
+  const { forestPartialDependence } = await import('../models/partial-dependence.js');
+  return {
+    predict: (x) => predictForest(forest, x),
+    permuted: (x, jobs, orders, threads) => permutedOnThreads(forest, bytes, x, jobs, orders, threads),
+    partialDependence: (columns, points) => forestPartialDependence(forest, columns, points),
+  };
 }
 
 /** The forest engine's options for a random_forest grid cell. */
@@ -214,6 +225,8 @@ export interface ModelEngine {
   ): Promise<{
     predict(x: Matrix, where: string): Promise<Float64Array>;
     permuted(x: Matrix, jobs: { columns: number[] }[], orders: ArrayLike<number>[][], threads: number, where: string): Promise<Float64Array[][]>;
+    /** Present when the kind has its own (see LoadedModel.partialDependence). */
+    partialDependence?(columns: number[], points: ArrayLike<number>[], where: string): Promise<Float64Array>;
   }>;
   /** Present for kinds whose fit divides into blocks (see ModelBlocks), with the same `where`. */
   blocks?: {
@@ -249,6 +262,10 @@ export function engineFor(kind: string, model: string): ModelEngine {
       return {
         predict: (x, at) => guarded(at, async () => model.predict(x)),
         permuted: (x, jobs, orders, threads, at) => guarded(at, async () => (model.permuted ?? permutedByCopy(model))(x, jobs, orders, threads)),
+        ...(model.partialDependence && {
+          partialDependence: (columns: number[], points: ArrayLike<number>[], at: string) =>
+            guarded(at, async () => (model.partialDependence as NonNullable<LoadedModel['partialDependence']>)(columns, points)),
+        }),
       };
     },
     ...(blocks && {

@@ -6,6 +6,7 @@ import type { ModelKind } from '../../core/recipe-types.js';
 import type { ChooseOutput } from '../../steps/choose.js';
 import { explain, type ExplainOutput, type ExplainParams } from '../../steps/explain.js';
 import { fit, type FitOutput } from '../../steps/fit.js';
+import { engineFor } from '../../steps/model-kinds.js';
 import type { HoldoutOutput } from '../../steps/holdout.js';
 import { asOutput, errorOf, stepContext, NO_UNITS } from '../helpers.js';
 import { FRIEDMAN_NAMES, friedman1 } from '../bench/friedman.js';
@@ -38,8 +39,8 @@ const chosen: ChooseOutput = {
   failed: null,
 };
 
-async function fitted(kind: ModelKind): Promise<FitOutput> {
-  return (await fit.run([asOutput(frame), split, chosen], { model: kind, kind, target: 'y', predictors: ['x1', 'x2'], features: [] }, stepContext())) as FitOutput;
+async function fitted(kind: ModelKind, cell: Record<string, unknown> = {}): Promise<FitOutput> {
+  return (await fit.run([asOutput(frame), split, { ...chosen, cells: [{ ...chosen.cells[0], cell }] }], { model: kind, kind, target: 'y', predictors: ['x1', 'x2'], features: [] }, stepContext())) as FitOutput;
 }
 
 const PARAMS: ExplainParams = { target: 'y', repeats: 5, top: 1, points: 3, sampleRows: 100 };
@@ -76,7 +77,21 @@ describe('explain', () => {
     // for an additive model, the curve is the predictor's own term: y = 3·x
     pd.points.forEach((p) => expect(Math.abs(p.y - 3 * (p.x as number))).toBeLessThan(1e-9));
     // all 8 training rows are averaged over, fewer than sampleRows
-    expect(out.pdRows).toBe(8);
+    expect([out.pdRows, out.pdMethod]).toEqual([8, 'sample']);
+  });
+
+  it('walks a decision tree for partial dependence: the same curve as averaging its predictions over the training rows', async () => {
+    const model = await fitted('decision_tree', { max_depth: null, min_leaf: 1 });
+    const out = await run(model);
+    expect([out.pdRows, out.pdMethod]).toEqual([8, 'traversal']);
+    const [pd] = out.partialDependence;
+    // the definition: set x1 to the point's value in every training row, predict, average
+    const engine = await engineFor('decision_tree', 'tree').load(model.bytes, 'test');
+    for (const p of pd.points) {
+      const x = { names: ['x1', 'x2'], rows: 8, columns: [new Float64Array(8).fill(p.x as number), Float64Array.from(X2.slice(0, 8))] };
+      const brute = await engine.predict(x, 'test');
+      expect(p.y).toBeCloseTo(brute.reduce((a, b) => a + b, 0) / 8, 12);
+    }
   });
 
   it('gives every predictor exactly zero importance under the mean model, ties in name order', async () => {
