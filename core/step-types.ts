@@ -71,6 +71,12 @@ export interface StepDefinition<P = unknown, O = unknown> {
    * draw purpose instead, so adding an unchosen grid value leaves its draws, and its output, alone.
    */
   seedInputs?: number[];
+  /**
+   * Parameters left out of the seed key because the step puts them in its own draw purpose (a fit's
+   * `cell`, present only for a grid of one cell): a grid grown from one cell to two then leaves the
+   * chosen cell's draws alone, as seedInputs does for the choice.
+   */
+  seedOmits?: string[];
   /** Whether neighbouring instances may run side by side on worker threads (heavy, independent steps). */
   parallel?: boolean;
   run(inputs: unknown[], params: P, ctx: StepContext): O | Promise<O>;

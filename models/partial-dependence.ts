@@ -50,7 +50,7 @@ export function forestPartialDependence(f: Forest, columns: number[], points: Ar
     stackWeight[0] = 1;
     while (top >= 0) {
       let node = stackNode[top];
-      let from = stackFrom[top];
+      const from = stackFrom[top];
       let to = stackTo[top];
       let weight = stackWeight[top];
       top--;

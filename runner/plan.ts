@@ -56,7 +56,7 @@ function planner(seed: number): { steps: StepInstance[]; add: AddStep } {
     const key = hashValue({ kind, version: def.version, params, seed: usedSeed, software, inputs: inputs.map((i) => keyOf.get(i)) });
     // random draws follow the analysis, not the code: a refactor must not reshuffle the folds; the
     // executor adds the contents of the step's inputs (seededBy), so they follow parsed data, not file bytes
-    const seedKey = hashValue({ kind, version: def.version, params, seed: usedSeed });
+    const seedKey = hashValue({ kind, version: def.version, params: withoutKeys(params, def.seedOmits), seed: usedSeed });
     keyOf.set(id, key);
     steps.push({ id, kind, params, inputs, locator, key, seedKey, seed });
     return id;
@@ -170,10 +170,17 @@ export function planRecipe(recipe: Recipe, origin: RecipeOrigin): Plan {
       add(`choose ${name}`, 'choose', { target: recipe.target, choose_by: ev.choose_by, k: ev.folds.k }, [modelTable, holdout, ...cells[name]]),
     ]),
   );
+  // a grid of one cell has nothing to choose: its fits take the cell as a parameter and need not
+  // wait for cross-validation, so they run beside it
+  const only = (name: string) => {
+    const all = gridCells(recipe.models[name].grid);
+    return all.length === 1 ? { cell: all[0] } : null;
+  };
   const fit = dict(
     names.map((name) => {
       const m = recipe.models[name];
-      return [name, add(`fit ${name}`, 'fit', { model: name, kind: m.kind, ...common }, [modelTable, holdout, choose[name]])];
+      const one = only(name);
+      return [name, add(`fit ${name}`, 'fit', { model: name, kind: m.kind, ...common, ...one }, one ? [modelTable, holdout] : [modelTable, holdout, choose[name]])];
     }),
   );
   // the chosen cells' fold models, kept for prediction intervals, once every final fit is planned
@@ -182,8 +189,9 @@ export function planRecipe(recipe: Recipe, origin: RecipeOrigin): Plan {
     names.map((name) => {
       if (!pi) return [name, null];
       const m = recipe.models[name];
+      const one = only(name);
       const ids = Array.from({ length: ev.folds.k }, (_, fold) =>
-        add(`interval ${name} fold ${fold + 1}`, 'interval_fold', { model: name, kind: m.kind, time, ...common, fold }, [modelTable, holdout, folds, choose[name]]),
+        add(`interval ${name} fold ${fold + 1}`, 'interval_fold', { model: name, kind: m.kind, time, ...common, fold, ...one }, one ? [modelTable, holdout, folds] : [modelTable, holdout, folds, choose[name]]),
       );
       return [name, ids];
     }),
@@ -285,4 +293,10 @@ export function stepLocator(section: RecipeSection, step: RecipeStep, i: number,
 export function sourceParams(spec: SourceSpec, fileSha: string): Record<string, unknown> {
   const { file: _file, sha256: _pin, ...options } = spec;
   return { ...options, sha256: fileSha };
+}
+
+/** `params` without the named keys (a copy; the same object when there are none to leave out). */
+function withoutKeys(params: unknown, omit: string[] | undefined): unknown {
+  if (!omit || omit.length === 0 || params === null || typeof params !== 'object') return params;
+  return Object.fromEntries(Object.entries(params).filter(([k]) => !omit.includes(k)));
 }

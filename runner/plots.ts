@@ -6,6 +6,7 @@ import { formatSetting } from './format.js';
 import type { Recipe } from '../core/recipe-types.js';
 import { shortenText } from './shorten.js';
 import type { Results } from './results.js';
+import type { ExplainOutput } from '../steps/explain.js';
 
 /** The most points a scatter plot draws; beyond, every k-th row, and the caption says so. */
 export const MAX_SCATTER_POINTS = 2500;
@@ -179,7 +180,7 @@ export async function buildFigures(recipe: Recipe, results: Results): Promise<Re
       const numeric = pd.kind === 'number';
       drivers.push(
         await figure(`pd-${pd.predictor}`, `Partial dependence on ${pd.predictor} (${head.name})`,
-          `Average predicted ${target} over ${head.explain.pdMethod === 'traversal' ? `the ${head.explain.pdRows} training rows (each tree weighting the rows it was grown on)` : `${head.explain.pdRows} sampled training rows`} when ${pd.predictor} is set to each value in turn (${numeric ? '5th to 95th percentile of the training values' : 'each category'}); it shows the model's response, not a cause.`,
+          `Average predicted ${target} over ${pdOver(head.explain)} when ${pd.predictor} is set to each value in turn (${numeric ? '5th to 95th percentile of the training values' : 'each category'}); it shows the model's response, not a cause.`,
           {
             width: 220,
             height: 160,
@@ -277,3 +278,9 @@ async function splitMapFigures(recipe: Recipe, results: Results): Promise<Figure
 
 /** Fold colours: distinct, mid-light, so the holdout's dark ink stands out among them. */
 const FOLD_COLOURS = ['#7fb8a4', '#d9a55b', '#8fa3d6', '#d48a8a', '#b3b35c', '#a58cc4', '#6fb3c9', '#c9a07f', '#9cc47f', '#c98fb3'];
+
+/** Which training rows a partial dependence curve averages over, in words. */
+function pdOver(e: ExplainOutput): string {
+  if (e.pdMethod === 'traversal') return `the ${e.pdRows} training rows (each tree weighting the rows it was grown on)`;
+  return e.pdMethod === 'sample' ? `${e.pdRows} sampled training rows` : `the ${e.pdRows} training rows`;
+}

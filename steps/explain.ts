@@ -45,9 +45,10 @@ export interface ExplainOutput {
   pdRows: number;
   /**
    * traversal: over every training row, each tree weighting its in-bag draws, by walking the trees
-   * (models/partial-dependence.ts); sample: predictions averaged over pdRows sampled training rows.
+   * (models/partial-dependence.ts); rows: predictions averaged over every training row; sample:
+   * over pdRows sampled training rows.
    */
-  pdMethod: 'traversal' | 'sample';
+  pdMethod: 'traversal' | 'rows' | 'sample';
 }
 
 /**
@@ -123,7 +124,7 @@ export const explain: StepDefinition<ExplainParams, ExplainOutput> = {
       partialDependence.push({ predictor, kind: numeric ? 'number' : 'category', points: xs.map((x, g) => ({ x, y: ys[g] })) });
     }
     const pdRows = model.partialDependence ? split.train.length : sampleRows;
-    return { model: fitted.model, repeats: params.repeats, baselineMse, importance, partialDependence, pdRows, pdMethod: model.partialDependence ? 'traversal' : 'sample' };
+    return { model: fitted.model, repeats: params.repeats, baselineMse, importance, partialDependence, pdRows, pdMethod: model.partialDependence ? 'traversal' : sampleRows < split.train.length ? 'sample' : 'rows' };
   },
   summary: (o) => `top predictor ${o.importance[0]?.predictor ?? 'none'}`,
 };

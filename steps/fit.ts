@@ -14,6 +14,11 @@ export interface FitParams {
   target: string;
   predictors: string[];
   features: FeatureStep[];
+  /**
+   * The model's only grid cell, when its grid has one: then there is nothing to choose and the fit
+   * has no choose input, so it need not wait for cross-validation. Absent otherwise.
+   */
+  cell?: Cell;
 }
 
 export interface FitOutput {
@@ -44,8 +49,7 @@ function fitSeed(ctx: StepContext, cell: Cell): string {
 function prepare(inputs: unknown[], params: FitParams) {
   const frame = (inputs[0] as FrameOutput).frame;
   const split = inputs[1] as HoldoutOutput;
-  const chosen = inputs[2] as ChooseOutput;
-  const cell = chosen.cells[chosen.chosen].cell;
+  const cell = params.cell ?? chosenCell(inputs[2] as ChooseOutput);
   const design = learnDesign(frame, split.train, params.features, params.predictors);
   const x = applyDesign(design, frame, split.train);
   const y = targetOf(frame, params.target, split.train);
@@ -89,6 +93,8 @@ export const fit: StepDefinition<FitParams, FitOutput> = {
   codec: 'record',
   usesSeed: true,
   seedInputs: [0, 1],
+  // the cell is in fitSeed's purpose
+  seedOmits: ['cell'],
   parallel: true,
   async run(inputs, params, ctx) {
     const p = prepare(inputs, params);
@@ -97,9 +103,8 @@ export const fit: StepDefinition<FitParams, FitOutput> = {
   },
   parts: {
     divide(inputs, params) {
-      const chosen = inputs[2] as ChooseOutput;
       const rows = (inputs[1] as HoldoutOutput).train.length;
-      const d = engineFor(params.kind, params.model).blocks?.divide(chosen.cells[chosen.chosen].cell, rows);
+      const d = engineFor(params.kind, params.model).blocks?.divide(params.cell ?? chosenCell(inputs[2] as ChooseOutput), rows);
       return d ? { count: d.count, unit: d.unit, perPart: d.perBlock, total: d.total, work: d.work } : { count: 1, unit: 'fits', perPart: 1, total: 1, work: 0 };
     },
     async run(inputs, params, ctx, first, end) {
@@ -113,6 +118,11 @@ export const fit: StepDefinition<FitParams, FitOutput> = {
   },
   summary: (o) => `${o.trainingRows.toLocaleString('en')} training rows`,
 };
+
+/** The cell a choose step chose. */
+export function chosenCell(chosen: ChooseOutput): Cell {
+  return chosen.cells[chosen.chosen].cell;
+}
 
 /** Min and max of each numeric predictor over some rows (missing values skipped). */
 export function trainingRanges(frame: Frame, predictors: string[], rows: number[]): Record<string, { min: number; max: number }> {

@@ -2,6 +2,7 @@ import { canonicalJson } from '../core/hash.js';
 import { messages } from '../core/messages.js';
 import type { StepDefinition } from '../core/step-types.js';
 import type { ChooseOutput } from './choose.js';
+import { chosenCell } from './fit.js';
 import { fitFold, type CrossValidateParams } from './cross-validate.js';
 import type { LearnedDesign } from './design.js';
 import type { FoldsOutput } from './folds.js';
@@ -10,7 +11,8 @@ import { cellLabel, type Cell } from './model-kinds.js';
 import { targetOf } from './design.js';
 import type { FrameOutput } from '../core/step-types.js';
 
-export type IntervalFoldParams = Omit<CrossValidateParams, 'cell'> & { fold: number };
+/** `cell` as for a fit: present when the model's grid has only that cell, and then there is no choose input. */
+export type IntervalFoldParams = Omit<CrossValidateParams, 'cell'> & { fold: number; cell?: Cell };
 
 /** One fold model of a model's chosen cell, kept for its prediction intervals. */
 export interface IntervalFoldOutput {
@@ -43,13 +45,14 @@ export const intervalFold: StepDefinition<IntervalFoldParams, IntervalFoldOutput
   codec: 'record',
   usesSeed: true,
   seedInputs: [0, 1, 2],
+  // the cell is in the draw purpose
+  seedOmits: ['cell'],
   parallel: true,
   async run(inputs, params, ctx) {
     const frame = (inputs[0] as FrameOutput).frame;
     const split = inputs[1] as HoldoutOutput;
     const folds = inputs[2] as FoldsOutput;
-    const chosen = inputs[3] as ChooseOutput;
-    const cell = chosen.cells[chosen.chosen].cell;
+    const cell = params.cell ?? chosenCell(inputs[3] as ChooseOutput);
     const f = params.fold;
     const where = `prediction-interval fold ${f + 1} of ${folds.k}, ${cellLabel(cell)}`;
     const fold = await fitFold(inputs, params, cell, f, ctx.seedFor(`interval fold ${canonicalJson(cell)}`, f), ctx.workers, where);

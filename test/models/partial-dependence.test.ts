@@ -16,7 +16,15 @@ function factorial(): { x: Matrix; y: Float64Array } {
   const a: number[] = [];
   const b: number[] = [];
   const c: number[] = [];
-  for (let i = 0; i < 6; i++) for (let j = 0; j < 5; j++) for (let k = 0; k < 4; k++) (a.push(i), b.push(j * 0.5), c.push(k % 2 === 0 ? 1 : 0));
+  for (let i = 0; i < 6; i++) {
+    for (let j = 0; j < 5; j++) {
+      for (let k = 0; k < 4; k++) {
+        a.push(i);
+        b.push(j * 0.5);
+        c.push(k % 2 === 0 ? 1 : 0);
+      }
+    }
+  }
   const y = Float64Array.from(a, (v, r) => Math.sin(v) * 3 + b[r] * b[r] + (c[r] === 1 ? v : -v) + ((r * 7919) % 13) / 13);
   return { x: { columns: [Float64Array.from(a), Float64Array.from(b), Float64Array.from(c)], names: ['a', 'b', 'c'], rows: a.length }, y };
 }

@@ -25,7 +25,7 @@ describe('serializeForest / deserializeForest', () => {
     expect(sameBits(predictForest(f, test.x), predictForest(g, test.x))).toBe(true);
     expect(sameBits(serializeForest(g), bytes)).toBe(true);
     for (let t = 0; t < f.trees.length; t++) {
-      for (const key of ['feature', 'threshold', 'left', 'right', 'value'] as const) {
+      for (const key of ['feature', 'threshold', 'left', 'right', 'value', 'draws'] as const) {
         expect(sameBits(f.trees[t][key], g.trees[t][key])).toBe(true);
       }
     }
@@ -33,9 +33,14 @@ describe('serializeForest / deserializeForest', () => {
     expect(g.featureNames).toEqual(f.featureNames);
     expect(sameBits(oob(g).predictions, oob(f).predictions)).toBe(true);
     expect(oob(g).r2).toBe(oob(f).r2);
-    // 10 bytes per node plus the header and per-row OOB predictions.
+    // a node's draws are its children's together, and the root's are the tree's sample (n draws)
+    for (const t of g.trees) {
+      expect(t.draws[0]).toBe(train.x.rows);
+      for (let i = 0; i < t.feature.length; i++) if (t.feature[i] >= 0) expect(t.draws[t.left[i]] + t.draws[t.right[i]]).toBe(t.draws[i]);
+    }
+    // 14 bytes per node plus the header and per-row OOB predictions.
     const nodes = f.trees.reduce((s, t) => s + t.feature.length, 0);
-    expect(bytes.length).toBeLessThan(nodes * 10 + train.x.rows * 8 + 1024);
+    expect(bytes.length).toBeLessThan(nodes * 14 + train.x.rows * 8 + 1024);
   });
 
   it('keeps a decision tree with its undefined OOB R² and reason', async () => {

@@ -121,6 +121,32 @@ describe('model kinds in the plan', () => {
   });
 });
 
+describe('a grid of one cell', () => {
+  const planOf = (grid: string) => {
+    const dir = makeFolder({ 'recipe.yaml': SMALL_RECIPE.replace('  mean: {kind: mean}', `  mean: {kind: mean}\n  tree: {kind: decision_tree, grid: ${grid}}`), 'data/obs.csv': smallData() });
+    const { recipe, origin } = loadRecipe(join(dir, 'recipe.yaml'));
+    return new Map(planRecipe(recipe, origin).steps.map((s) => [s.id, s]));
+  };
+
+  it('has nothing to choose: its final fit and interval folds take the cell and wait for no cross-validation', () => {
+    const one = planOf('{max_depth: 2}');
+    expect(one.get('fit tree')!.inputs).toEqual(['model table', 'holdout']);
+    expect(one.get('interval tree fold 1')!.inputs).toEqual(['model table', 'holdout', 'folds']);
+    expect((one.get('fit tree')!.params as { cell: unknown }).cell).toEqual({ max_depth: 2, min_leaf: expect.any(Number) });
+    const two = planOf('{max_depth: [2, 3]}');
+    expect(two.get('fit tree')!.inputs).toEqual(['model table', 'holdout', 'choose tree']);
+    expect('cell' in (two.get('fit tree')!.params as object)).toBe(false);
+  });
+
+  it('draws as that cell does when chosen from a larger grid: the cell stays out of the seed key', () => {
+    const one = planOf('{max_depth: 2}');
+    const two = planOf('{max_depth: [2, 3]}');
+    for (const id of ['fit tree', 'interval tree fold 2']) expect(one.get(id)!.seedKey).toBe(two.get(id)!.seedKey);
+    // and the parameter still tells caches apart
+    expect(one.get('fit tree')!.key).not.toBe(two.get('fit tree')!.key);
+  });
+});
+
 describe('the headline step', () => {
   it('comes last and reads the model table, the holdout and each model’s choose, fit and score outputs in recipe order', () => {
     const dir = makeFolder({ 'recipe.yaml': SMALL_RECIPE, 'data/obs.csv': smallData() });

@@ -77,7 +77,7 @@ describe('explain', () => {
     // for an additive model, the curve is the predictor's own term: y = 3·x
     pd.points.forEach((p) => expect(Math.abs(p.y - 3 * (p.x as number))).toBeLessThan(1e-9));
     // all 8 training rows are averaged over, fewer than sampleRows
-    expect([out.pdRows, out.pdMethod]).toEqual([8, 'sample']);
+    expect([out.pdRows, out.pdMethod]).toEqual([8, 'rows']);
   });
 
   it('walks a decision tree for partial dependence: the same curve as averaging its predictions over the training rows', async () => {
