@@ -1,12 +1,11 @@
 import * as vega from 'vega';
 import * as vl from 'vega-lite';
 import type { TopLevelSpec } from 'vega-lite';
-import { TARGET_SCALES, targetScaleWords, varyingParams } from '../steps/index.js';
+import { TARGET_SCALES, targetScaleWords, varyingParams, type ExplainOutput } from '../steps/index.js';
 import { formatSetting } from './format.js';
 import type { Recipe } from '../core/recipe-types.js';
 import { shortenText } from './shorten.js';
 import type { Results } from './results.js';
-import type { ExplainOutput } from '../steps/explain.js';
 
 /** The most points a scatter plot draws; beyond, every k-th row, and the caption says so. */
 export const MAX_SCATTER_POINTS = 2500;
