@@ -102,9 +102,9 @@ export const messages = {
   dataFileMissing: (path: string) => `${path}: no such data file; give the path of a file shaped like the recipe's main source`,
   dataFileNotAFile: (path: string) => `${path}: is a folder or other non-file; give the path of a data file shaped like the recipe's main source`,
   recipeIsFolder: (path: string, yamls: string[]) =>
-    `${path} is a folder; give the recipe file inside it` + (yamls.length ? ` (it holds ${listed(yamls.map((y) => q(y)))})` : ', such as recipes/lake-chlorophyll/recipe.yaml'),
+    `${path} is a folder; give the recipe file inside it` + (yamls.length ? ` (it holds ${listed(yamls.map((y) => q(y)))})` : ', such as recipes/lake-chlorophyll/lake-chlorophyll.yaml'),
   recipeFileMissing: (path: string) =>
-    `${path}: no such recipe file; give the path of a recipe.yaml (for example recipes/lake-chlorophyll/recipe.yaml)`,
+    `${path}: no such recipe file; give the path of a recipe file, any .yaml name (for example recipes/lake-chlorophyll/lake-chlorophyll.yaml)`,
 
   // --- recipe syntax and schema (each prefixed by file:line:column by the caller)
   yamlSyntax: (detail: string) => `YAML syntax error: ${detail}; fix the YAML at this position`,
@@ -318,8 +318,12 @@ export const messages = {
 
   // --- verify, compare, predict
   notARunFolder: (folder: string) =>
-    `${folder} holds no manifest.json, so it is not a dendrolog run folder; give the folder that "dendrolog run" wrote (it prints its path)`,
-  manifestUnreadable: (file: string, detail: string) => `${file} is not a readable dendrolog manifest (${detail}); rerun the recipe to write a new one`,
+    `${folder} holds no run-record.json, so it is not a dendrolog run folder; give the folder that "dendrolog run" wrote (it prints its path)`,
+  oldRunRecordName: (file: string, current: string) =>
+    `note: ${file} is the run record's name from an older dendrolog (now ${current}); reading it`,
+  oldCacheFolder: (old: string, current: string) =>
+    `note: ${old} is the cache folder of an older dendrolog; this version keeps its cache in ${current} and leaves the old one alone: delete ${old} when you no longer need it`,
+  manifestUnreadable: (file: string, detail: string) => `${file} is not a readable dendrolog run record (${detail}); rerun the recipe to write a new one`,
   storedRecipeInvalid: (file: string, problems: string[]) =>
     `${file}: the recipe this run record keeps is damaged, so the run cannot be rerun or applied (${listed(problems, '; ')}); run the recipe again to write a new record`,
   predictionsFolderMissing: (out: string, folder: string) =>
@@ -329,22 +333,22 @@ export const messages = {
   runFileMissing: (file: string) =>
     `${file}, which the run wrote, is gone from the run folder; restore it from version control, or run the recipe again`,
   modelFileOtherRun: (file: string) =>
-    `${file} was written by another run (the holdout predictions it carries are not this run's); copy back this run's own model.bin, or run the recipe again`,
+    `${file} was written by another run (the holdout predictions it carries are not this run's); copy back this run's own model file, or run the recipe again`,
   outputUnwritable: (folder: string, code: string) =>
     `the run folder ${folder} cannot be written here (${code}: ${FILE_SYSTEM_ADVICE[code] ?? 'see the system error code'}); give --out a folder you can write, nothing was run`,
   recipeOfRunMissing: (file: string) =>
-    `the run's recipe ${file} is gone; restore it (the manifest keeps its normalized form and SHA-256) or run the recipe again`,
+    `the run's recipe ${file} is gone; restore it (the run record keeps its normalized form and SHA-256) or run the recipe again`,
   sourceOfRunMissing: (file: string) => `source file ${file} of the run is gone; restore it to verify the run`,
   modelFileMissing: (folder: string) =>
-    `${folder} has no model.bin; it was written by an older dendrolog or copied without it; run the recipe again`,
+    `${folder} has no model.dendro; it was written by an older dendrolog or copied without it; run the recipe again`,
   modelFileChanged: (file: string, recorded: string, actual: string) =>
-    `${file} has SHA-256 ${actual}, but the run's manifest records ${recorded}; it is not the model this run wrote (copied from another run, or edited): restore the run's own model.bin, or run the recipe again`,
+    `${file} has SHA-256 ${actual}, but the run record holds ${recorded}; it is not the model this run wrote (copied from another run, or edited): restore the run's own model file, or run the recipe again`,
   modelFileTruncated: (file: string, bytes: number, recorded: number) =>
     `${file} is ${bytes} bytes, but the run wrote ${recorded}; it is truncated (an interrupted copy?): copy the run folder again, or run the recipe again`,
   modelFileUndecodable: (file: string, detail: string) =>
     `${file} could not be read as a dendrolog model (${detail}); run the recipe again to write a new one`,
   modelFileUnrecorded: (file: string) =>
-    `the manifest beside ${file} records no SHA-256 for it (an older dendrolog wrote the run), so the model cannot be checked; run the recipe again`,
+    `the run record beside ${file} holds no SHA-256 for it (an older dendrolog wrote the run), so the model cannot be checked; run the recipe again`,
   fileSystemRefused: (code: string, syscall: string, path: string) =>
     `${path}: the file system refused to ${syscall} it (${code}: ${FILE_SYSTEM_ADVICE[code] ?? 'see the system error code'}); nothing was lost, fix that and run the command again`,
   // --- warnings (data: collected, merged, counted; in the run record and the report)

@@ -8,6 +8,10 @@ const FORMAT = 'dendrolog-cache-entry 2';
 const HEADER_LIMIT = 512;
 /** How `put` names a file before renaming it into place: `<key>.tmp-<pid>-<12 hex>`. */
 const TEMPORARY = /^[0-9a-f]{64}\.tmp-\d+-[0-9a-f]{12}$/;
+/** A step kind's folder name, as the registry spells kinds. */
+const KIND = /^[a-z][a-z0-9_]*$/;
+/** A step key (or a part's key): 64 hex digits. */
+const KEY = /^[0-9a-f]{64}$/;
 /** Age after which an unfinished write's temporary file is taken as abandoned: no write takes an hour. */
 export const ABANDONED_WRITE_MS = 3_600_000;
 
@@ -20,6 +24,13 @@ export type CacheDiscard =
 
 /** Result of a cache read: a hit, a miss, or an entry that could not be trusted (already removed). */
 export type CacheRead = { status: 'hit'; bytes: Uint8Array } | { status: 'miss' } | ({ status: 'discarded' } & CacheDiscard);
+
+/** Where an entry lives and how its output is packed: the step's kind, its key, and its codec. */
+export interface CacheAddress {
+  kind: string;
+  key: string;
+  codec: OutputCodec;
+}
 
 /** Result of a cache write: stored, or not, with the file-system error code that prevented it. */
 export type CacheWrite = { stored: true } | { stored: false; code: string; detail: string };
@@ -42,7 +53,8 @@ const nodeIo: CacheIo = {
 };
 
 /**
- * Content-addressed store: `<dir>/<key[0:2]>/<key>` holds a short text header, then the output:
+ * Content-addressed store, one folder per step kind: `<dir>/<kind>/<key>` holds a short text
+ * header, then the output (so `du -sh dendrolog-cache/*` shows which kind of step fills it):
  *
  * ```
  * dendrolog-cache-entry 2
@@ -58,7 +70,7 @@ const nodeIo: CacheIo = {
  * file system refuses (full disk, read-only folder) is reported, never thrown, and leaves no
  * temporary file behind.
  *
- * Example: `new Cache('.dendrolog/cache').put(key, 'json', bytes)`, then `.get(key, 'json').status === 'hit'`.
+ * Example: `new Cache('dendrolog-cache').put({kind: 'fit', key, codec: 'record'}, bytes)`, then `.get(same).status === 'hit'`.
  */
 export class Cache {
   private readonly io: CacheIo;
@@ -70,13 +82,20 @@ export class Cache {
     this.io = { ...nodeIo, ...io };
   }
 
-  private pathOf(key: string): string {
-    return join(this.dir, key.slice(0, 2), key);
+  private folderOf(kind: string): string {
+    // kinds come from the step registry; anything else must not become a path
+    if (!KIND.test(kind)) throw new Error(`not a step kind: ${JSON.stringify(kind)}`);
+    return join(this.dir, kind);
   }
 
-  /** The entry for key if it is whole, holds that key and is in the codec the step writes. */
-  get(key: string, codec: OutputCodec): CacheRead {
-    const p = this.pathOf(key);
+  private pathOf(kind: string, key: string): string {
+    if (!KEY.test(key)) throw new Error(`not a step key: ${JSON.stringify(key)}`);
+    return join(this.folderOf(kind), key);
+  }
+
+  /** The entry at the address if it is whole, holds that key and is in the codec the step writes. */
+  get({ kind, key, codec }: CacheAddress): CacheRead {
+    const p = this.pathOf(kind, key);
     let data: Buffer;
     try {
       data = this.io.readFileSync(p);
@@ -95,7 +114,7 @@ export class Cache {
             ? { reason: 'codec', storedCodec: entry.codec }
             : null;
     if (problem) {
-      this.discard(key);
+      this.discard({ kind, key });
       return { status: 'discarded', ...problem };
     }
     const { bytes } = entry as { bytes: Buffer };
@@ -112,22 +131,22 @@ export class Cache {
    */
   sweepTemporaries(olderThanMs: number, now = Date.now()): number {
     let removed = 0;
-    let shards: string[];
+    let kinds: string[];
     try {
-      shards = fs.readdirSync(this.dir).filter((d) => /^[0-9a-f]{2}$/.test(d));
+      kinds = fs.readdirSync(this.dir).filter((d) => KIND.test(d));
     } catch {
       return 0;
     }
-    for (const shard of shards) {
+    for (const kind of kinds) {
       let names: string[];
       try {
-        names = fs.readdirSync(join(this.dir, shard));
+        names = fs.readdirSync(join(this.dir, kind));
       } catch {
         continue;
       }
       for (const name of names) {
-        if (!TEMPORARY.test(name) || !name.startsWith(shard)) continue;
-        const path = join(this.dir, shard, name);
+        if (!TEMPORARY.test(name)) continue;
+        const path = join(this.dir, kind, name);
         try {
           if (now - fs.statSync(path).mtimeMs < olderThanMs) continue;
           this.io.rmSync(path, { force: true });
@@ -141,12 +160,12 @@ export class Cache {
   }
 
   /** Stores bytes under key; a file-system refusal comes back as `{stored: false}` with its code. */
-  put(key: string, codec: OutputCodec, bytes: Uint8Array): CacheWrite {
-    const p = this.pathOf(key);
+  put({ kind, key, codec }: CacheAddress, bytes: Uint8Array): CacheWrite {
+    const p = this.pathOf(kind, key);
     const tmp = `${p}.tmp-${process.pid}-${randomBytes(6).toString('hex')}`;
     let placed = false;
     try {
-      this.io.mkdirSync(join(this.dir, key.slice(0, 2)), { recursive: true });
+      this.io.mkdirSync(this.folderOf(kind), { recursive: true });
       this.io.writeFileSync(tmp, encodeEntry(key, codec, bytes));
       this.io.renameSync(tmp, p);
       placed = true;
@@ -168,9 +187,9 @@ export class Cache {
   }
 
   /** Removes an entry that could not be used, so the recomputed output replaces it. */
-  discard(key: string): void {
+  discard({ kind, key }: { kind: string; key: string }): void {
     try {
-      this.io.rmSync(this.pathOf(key), { force: true });
+      this.io.rmSync(this.pathOf(kind, key), { force: true });
     } catch {
       // a read-only cache keeps the entry; it is discarded again, with a warning, on every read
     }

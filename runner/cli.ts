@@ -25,7 +25,7 @@ Usage:
 
 Commands:
   run     plan the recipe's steps, take unchanged ones from the cache, run the rest,
-          and write report.html, summary.md and manifest.json
+          and write report.html, summary.md, run-record.json, model.dendro and predictions.csv
   check   validate the recipe (schema, names, expressions, source files) without running it
   verify  rerun a run folder's recipe from its sources with an empty cache and say
           "reproduced", or name the first step that differs and the likely cause
@@ -67,7 +67,7 @@ const COMMANDS = ['run', 'check', 'verify', 'compare', 'predict', 'task'];
 /**
  * Entry point: parses arguments, runs the command, prints errors as one line each, returns the exit code.
  *
- * Example: `await main(['check', 'recipes/lake-chlorophyll/recipe.yaml'])` returns 0 for a good recipe.
+ * Example: `await main(['check', 'recipes/lake-chlorophyll/lake-chlorophyll.yaml'])` returns 0 for a good recipe.
  */
 export async function main(argv: string[]): Promise<number> {
   const out = process.stdout;
@@ -153,7 +153,7 @@ export async function main(argv: string[]): Promise<number> {
     const w = warnings.length;
     // each warning in full, not only its count: a reader of the console should not need the report for them
     out.write(
-      `\nReport: ${where}/report.html\nSummary: ${where}/summary.md\nManifest: ${where}/manifest.json\n` +
+      `\nReport: ${where}/report.html\nSummary: ${where}/summary.md\nRun record: ${where}/run-record.json\n` +
         warningLines(warnings) +
         `${w} warning${w === 1 ? '' : 's'}; finished in ${((performance.now() - t0) / 1000).toFixed(1)} s\n`,
     );

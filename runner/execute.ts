@@ -80,13 +80,13 @@ export function localExecutor(opts: LocalExecutorOptions): Executor {
         const cache = opts.cache;
         if (!cache) return null;
         const codec = stepRegistry[step.kind].codec;
-        const got = cache.get(step.key, codec);
+        const got = cache.get({ kind: step.kind, key: step.key, codec });
         if (got.status === 'hit') {
           try {
             return unpackEntry(codec, got.bytes);
           } catch (e) {
             // bytes that pass their checksum yet do not decode would otherwise stop every later run
-            cache.discard(step.key);
+            cache.discard(step);
             cacheWarning('cache-undecodable', messages.cacheEntryUndecodable(step.id, step.key, (e as Error).message));
             return null;
           }
@@ -103,7 +103,7 @@ export function localExecutor(opts: LocalExecutorOptions): Executor {
       const store = (step: StepInstance, payload: Uint8Array): Decoded => {
         const codec = stepRegistry[step.kind].codec;
         if (opts.cache && cacheWritable) {
-          const written = opts.cache.put(step.key, codec, payload);
+          const written = opts.cache.put({ kind: step.kind, key: step.key, codec }, payload);
           if (!written.stored) {
             // cluster tasks read their inputs from the cache: without it they cannot run
             if (opts.remote) throw new DendrologError(messages.clusterCacheUnwritable(displayOf(opts.cache.dir)), 1);
@@ -176,14 +176,14 @@ export function localExecutor(opts: LocalExecutorOptions): Executor {
         if (missing.length > 0) {
           const inputOf = (id: string) => {
             const s = byId.get(id)!;
-            return { key: s.key, codec: stepRegistry[s.kind].codec };
+            return { kind: s.kind, key: s.key, codec: stepRegistry[s.kind].codec };
           };
           const tasks = missing.map(asRun).flatMap((s): TaskStep[] => {
             const task: TaskStep = { ...s, codec: stepRegistry[s.kind].codec, inputs: s.inputs.map(inputOf) };
             const parts = partTasks(task, s.inputs.map((id) => outputs.get(id)), (d) => remote.partsPerTask(d));
             if (!parts) return [task];
             divided.set(s.id, parts);
-            return parts.filter((p) => cache.get(p.key, p.codec).status !== 'hit');
+            return parts.filter((p) => cache.get(p).status !== 'hit');
           });
           if (tasks.length > 0) taskSeconds = await remote.run(tasks);
         }
@@ -192,7 +192,7 @@ export function localExecutor(opts: LocalExecutorOptions): Executor {
           const t = performance.now();
           const entry = store(step, await mergeParts(step, parts, step.inputs.map((i) => outputs.get(i)), cache, opts.workers));
           // the parts are only a way to this output: once it is stored they go
-          for (const p of parts) cache.discard(p.key);
+          for (const p of parts) cache.discard(p);
           const seconds = parts.reduce((sum, p) => sum + (taskSeconds.get(p.key) ?? 0), (performance.now() - t) / 1000);
           taskSeconds.set(step.key, seconds);
           merged.set(step.id, entry);

@@ -9,6 +9,7 @@ import type { RecipeOrigin } from './recipe.js';
 import type { Recipe } from '../core/recipe-types.js';
 import type { Results } from './results.js';
 import type { Warning } from '../core/step-types.js';
+import { RUN_FILES } from './run-files.js';
 
 export interface Manifest {
   manifest: 1;
@@ -42,10 +43,11 @@ export interface Manifest {
    */
   split?: { by: string; unit: 'group' | 'block' | 'row'; holdoutUnits: number; trainingUnits: number; digest: string; holdout?: string[] };
   /**
-   * The headline model as written to model.bin, so predict and verify can tell the run's own file
-   * from a truncated, edited or foreign one. Absent in manifests of older runs.
+   * The headline model as written to its model file, so predict and verify can tell the run's own
+   * file from a truncated, edited or foreign one. model.bin in records of older runs; absent in
+   * older ones still.
    */
-  modelFile?: { file: 'model.bin'; sha256: string; bytes: number };
+  modelFile?: { file: 'model.dendro' | 'model.bin'; sha256: string; bytes: number };
   environment: Environment & { fingerprint: string };
   git: { commit: string; dirty: boolean } | null;
   warnings: Warning[];
@@ -55,7 +57,7 @@ export interface Manifest {
 
 /**
  * The run's reproducibility record. Everything outside `timing` is identical across reruns of the
- * same recipe, data and software. `modelBin` is the model.bin written beside it.
+ * same recipe, data and software. `modelBin` is the model file written beside it.
  */
 export function buildManifest(
   recipe: Recipe,
@@ -109,7 +111,7 @@ export function buildManifest(
     },
     holdoutPredictionsSha256: holdoutPredictionsSha256(results),
     split: splitRecord(results),
-    modelFile: { file: 'model.bin', sha256: sha256(modelBin), bytes: modelBin.length },
+    modelFile: { file: RUN_FILES.model, sha256: sha256(modelBin), bytes: modelBin.length },
     environment: { ...environment(), fingerprint: softwareFingerprint() },
     git: gitState(origin.dir),
     warnings: results.warnings,
@@ -144,12 +146,12 @@ export function holdoutPredictionsSha256(results: Results): string {
 let validator: ReturnType<Ajv['compile']> | undefined;
 
 /**
- * Checks a manifest against schemas/manifest.v1.json; returns the problems (empty when valid).
+ * Checks a manifest against schemas/run-record.v1.json; returns the problems (empty when valid).
  * The runner calls it before writing, so a manifest on disk always matches its schema.
  */
 export function manifestProblems(manifest: unknown): string[] {
   if (!validator) {
-    const schema = JSON.parse(readFileSync(join(packageRoot(), 'schemas', 'manifest.v1.json'), 'utf8'));
+    const schema = JSON.parse(readFileSync(join(packageRoot(), 'schemas', 'run-record.v1.json'), 'utf8'));
     validator = new Ajv({ allErrors: true, strict: false, validateFormats: false }).compile(schema);
   }
   if (validator(manifest)) return [];

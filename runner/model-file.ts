@@ -8,9 +8,12 @@ import { sha256 } from '../core/hash.js';
 import type { Manifest } from './manifest.js';
 import { messages } from '../core/messages.js';
 import { displayOf } from './paths.js';
+import { RUN_FILES } from './run-files.js';
 import { parseJson } from '../core/dict.js';
 
 const MAGIC = 'DLM1';
+/** The model file's first line, readable with `head -1`; the number is the file layout's version. */
+export const MODEL_FILE_LINE = 'dendrolog model 2\n';
 
 /** Everything `predict` needs besides the recipe: the fitted model and what it learned. */
 export interface ModelFile {
@@ -24,8 +27,8 @@ export interface ModelFile {
   target: string;
   trainingRows: number;
   /**
-   * The holdout predictions' SHA-256 of the run that wrote the file, as its manifest records it, so
-   * a model.bin from another run is told apart even when a manifest was edited to match its bytes.
+   * The holdout predictions' SHA-256 of the run that wrote the file, as its run record holds it, so
+   * a model file from another run is told apart even when a record was edited to match its bytes.
    */
   run?: { holdoutPredictionsSha256: string };
   /** The engine's own serialized model. */
@@ -42,7 +45,8 @@ export interface ModelInterval {
 }
 
 /**
- * model.bin: gzip of "DLM1", a 4-byte header length, a JSON header and the engine's bytes; with
+ * model.dendro: the line "dendrolog model 2", then gzip of "DLM1", a 4-byte header length, a JSON
+ * header and the engine's bytes (older versions wrote the gzip part alone, as model.bin); with
  * prediction intervals, the header gives the headline model's byte length and each fold model's,
  * and the fold models follow it in fold order. gzip from Node writes no timestamp, so equal models
  * give equal files. Level 1: a forest's floating-point bytes shrink by about a fifth at any level,
@@ -87,14 +91,18 @@ export function writeModelFile(
   );
   const len = Buffer.alloc(4);
   len.writeUInt32LE(header.length, 0);
-  return new Uint8Array(gzipSync(Buffer.concat([Buffer.from(MAGIC, 'latin1'), len, header, bytes, ...foldBytes]), { level: 1 }));
+  const body = gzipSync(Buffer.concat([Buffer.from(MAGIC, 'latin1'), len, header, bytes, ...foldBytes]), { level: 1 });
+  return new Uint8Array(Buffer.concat([Buffer.from(MODEL_FILE_LINE, 'latin1'), body]));
 }
 
 type StoredInterval = Omit<ModelInterval, 'folds'> & { folds: { design: FitOutput['design']; bytesLength: number }[] };
 
-/** Reads model.bin back; throws a plain Error if the bytes are not a dendrolog model file. */
+/** Reads a model file back (either layout); throws a plain Error if the bytes are not a dendrolog model file. */
 export function readModelFile(data: Uint8Array): ModelFile {
-  const raw = gunzipSync(data);
+  const start = Buffer.from(data.subarray(0, MODEL_FILE_LINE.length)).toString('latin1');
+  const gzipped = start === MODEL_FILE_LINE ? data.subarray(MODEL_FILE_LINE.length) : data;
+  if (start !== MODEL_FILE_LINE && !(data[0] === 0x1f && data[1] === 0x8b)) throw new Error('not a dendrolog model file (it does not start with "dendrolog model")');
+  const raw = gunzipSync(gzipped);
   if (raw.subarray(0, 4).toString('latin1') !== MAGIC) throw new Error('not a dendrolog model file');
   const n = raw.readUInt32LE(4);
   if (8 + n > raw.length) throw new Error(`the model header claims ${n} bytes, more than the file holds`);
@@ -112,7 +120,7 @@ export function readModelFile(data: Uint8Array): ModelFile {
   return { ...header, bytes, interval: { ...interval, folds: interval.folds.map((f, k) => ({ design: f.design, bytes: folds[k] })) } };
 }
 
-/** Why a run folder's model.bin cannot be used, as a message naming the file and an exit code. */
+/** Why a run folder's model file cannot be used, as a message naming the file and an exit code. */
 export interface ModelFileProblem {
   kind: 'missing' | 'unrecorded' | 'unreadable' | 'truncated' | 'changed' | 'undecodable';
   message: string;
@@ -120,13 +128,14 @@ export interface ModelFileProblem {
 }
 
 /**
- * Reads a run folder's model.bin and checks it against the size and SHA-256 its manifest recorded,
+ * Reads a run folder's model file (the name its run record gives) and checks it against the size
+ * and SHA-256 the record holds,
  * so a truncated copy, an edit or another run's file is named instead of being used.
  *
  * Example: `const r = readRunModel(folder, readManifest(folder)); if ('problem' in r) throw …`
  */
 export function readRunModel(outDir: string, manifest: Manifest): { model: ModelFile } | { problem: ModelFileProblem } {
-  const path = join(outDir, 'model.bin');
+  const path = join(outDir, manifest.modelFile?.file ?? RUN_FILES.model);
   const file = displayOf(path);
   const problem = (kind: ModelFileProblem['kind'], message: string, exitCode: 1 | 2 = 1) => ({ problem: { kind, message, exitCode } });
   if (!existsSync(path)) return problem('missing', messages.modelFileMissing(displayOf(outDir)), 2);

@@ -53,7 +53,7 @@ export function partTasks(task: TaskStep, inputs: unknown[], perTask: (d: PartDi
 export async function mergeParts(step: StepInstance, parts: TaskStep[], inputs: unknown[], cache: Cache, workers: number): Promise<Uint8Array> {
   const def = stepRegistry[step.kind];
   const bytes = parts.map((p) => {
-    const got = cache.get(p.key, p.codec);
+    const got = cache.get(p);
     if (got.status !== 'hit') throw new DendrologError(messages.clusterPartUnreadable(p.id, p.key, got.status), 1);
     return unpackEntry(p.codec, got.bytes).output as Uint8Array;
   });

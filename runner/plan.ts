@@ -259,7 +259,7 @@ export interface ApplyPlan {
  * so each one removed can be given its reason. The learned features and the model are applied from
  * the run's model file afterwards.
  *
- * Example: `planApply(recipe, {dir, where: () => 'recipe.yaml'}, {path: '/data/new.csv', absent: ['chl'], without: new Set(['chl'])})`
+ * Example: `planApply(recipe, {dir, where: () => 'lake.yaml'}, {path: '/data/new.csv', absent: ['chl'], without: new Set(['chl'])})`
  */
 export function planApply(recipe: Recipe, origin: PlanOrigin, file: NewRowsFile): ApplyPlan {
   const { steps, add } = planner(recipe.seed);

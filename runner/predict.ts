@@ -11,7 +11,7 @@ import { silentProgress } from './progress.js';
 import { ROW_COLUMN, StrictTextStream, TARGET_SCALES, applyDesign, engineFor, readDefaults, readHeaderLine, recipeSteps } from '../steps/index.js';
 import { displayOf } from './paths.js';
 import type { Recipe } from '../core/recipe-types.js';
-import { readManifest } from './run-folder.js';
+import { readManifest, runRecordPath, RUN_FILES } from './run-folder.js';
 import { checkPredictionsTarget, replaceFile } from './predictions-file.js';
 import type { FrameOutput, Warning } from '../core/step-types.js';
 import { has } from '../core/dict.js';
@@ -42,11 +42,11 @@ export interface PredictionSummary {
 export async function predictRun(folder: string, dataFile: string, outFile: string): Promise<PredictionSummary> {
   const outDir = resolve(folder);
   const manifest = readManifest(outDir);
-  // only the model this run wrote: a truncated, edited or foreign model.bin is refused by name
+  // only the model this run wrote: a truncated, edited or foreign model file is refused by name
   const loaded = readRunModel(outDir, manifest);
   if ('problem' in loaded) throw new DendrologError(loaded.problem.message, loaded.problem.exitCode);
   const { model } = loaded;
-  const recipe = recipeFromManifest(manifest, displayOf(join(outDir, 'manifest.json')));
+  const recipe = recipeFromManifest(manifest, displayOf(runRecordPath(outDir)?.path ?? join(outDir, RUN_FILES.record)));
   const recipeDir = dirname(resolve(outDir, manifest.recipe.file));
   const dataPath = resolve(dataFile);
   if (!existsSync(dataPath)) throw new DendrologError(messages.dataFileMissing(dataFile), 2);

@@ -20,7 +20,7 @@ export interface PredictInputs {
  * them. An existing file is replaced only when predict wrote it (its header says so), so rerunning
  * predict replaces its own output and nothing else. `out` itself may not be a link.
  *
- * Example: `checkPredictionsTarget('pred.csv', {folder: 'out/lake', data: 'new.csv', runInputs: ['recipe.yaml']})`
+ * Example: `checkPredictionsTarget('pred.csv', {folder: 'out/lake', data: 'new.csv', runInputs: ['lake.yaml']})`
  */
 export function checkPredictionsTarget(out: string, inputs: PredictInputs): void {
   const abs = resolve(out);

@@ -17,7 +17,7 @@ export const MAX_RECIPE_BYTES = 1 << 20;
 
 /** Where a recipe came from: its file, folder, bytes' hash and a locator for its positions. */
 export interface RecipeOrigin {
-  /** Absolute path of recipe.yaml. */
+  /** Absolute path of the recipe file. */
   path: string;
   /** Absolute path of the folder holding it; source paths are relative to this. */
   dir: string;
@@ -37,7 +37,7 @@ export interface LoadedRecipe {
  * Reads, validates and normalizes a recipe; throws RecipeErrors listing every problem with file:line:column.
  * With `checkFiles`, also checks that each source file exists inside the recipe's folder (and its pin).
  *
- * Example: `loadRecipe('recipes/lake-chlorophyll/recipe.yaml').recipe.seed === 7`
+ * Example: `loadRecipe('recipes/lake-chlorophyll/lake-chlorophyll.yaml').recipe.seed === 7`
  */
 export function loadRecipe(path: string, opts: { checkFiles?: boolean } = {}): LoadedRecipe {
   const abs = resolve(path);

@@ -81,14 +81,14 @@ export interface Results {
   warnings: Warning[];
   /** Holdout observations and the chosen model's predictions, for the plots. */
   holdoutRows: { observed: number[]; predicted: number[]; groups: string[] | null };
-  /** The headline model's final fit, for model.bin. */
+  /** The headline model's final fit, for the model file. */
   headlineFit: FitOutput;
   /**
    * With spatial blocks, each modelling row's place and side ('holdout', or its fold), for the map;
    * every step-th row in model-table order when there are many. Null without blocks.
    */
   splitMap: { points: { x: number; y: number; set: string }[]; step: number; rows: number } | null;
-  /** The headline model's fold models and CV+ table, for model.bin; null without prediction intervals. */
+  /** The headline model's fold models and CV+ table, for the model file; null without prediction intervals. */
   headlineInterval: { output: PredictionIntervalOutput; folds: IntervalFoldOutput[] } | null;
   /** The headline model's prediction for every modelling row, in model-table order; holdout rows with their prediction interval. */
   predictions: { row: number; set: 'training' | 'holdout'; observed: number; predicted: number; low?: number; high?: number }[];

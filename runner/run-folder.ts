@@ -5,14 +5,30 @@ import { manifestProblems, type Manifest } from './manifest.js';
 import { displayOf } from './paths.js';
 import { parseJson } from '../core/dict.js';
 import { sha256 } from '../core/hash.js';
+import { OLD_FILES, RUN_FILES } from './run-files.js';
+
+export { OLD_FILES, RUN_FILES };
+
+/** Where a run folder's record is: the current name, else the old one (with `old` set), else null. */
+export function runRecordPath(folder: string): { path: string; old: boolean } | null {
+  const now = join(folder, RUN_FILES.record);
+  if (existsSync(now)) return { path: now, old: false };
+  const old = join(folder, OLD_FILES.record);
+  return existsSync(old) ? { path: old, old: true } : null;
+}
 
 /**
- * Reads and checks a run folder's manifest.json; stops with a clear message when it is missing or
- * does not match schemas/manifest.v1.json.
+ * Reads and checks a run folder's run-record.json (or the manifest.json of an older dendrolog, with
+ * a one-line notice); stops with a clear message when it is missing or does not match
+ * schemas/run-record.v1.json.
+ *
+ * Example: `readManifest('out/lake').headline.model`
  */
-export function readManifest(folder: string): Manifest {
-  const path = join(folder, 'manifest.json');
-  if (!existsSync(path)) throw new DendrologError(messages.notARunFolder(displayOf(folder)), 2);
+export function readManifest(folder: string, notice: (line: string) => void = (line) => process.stderr.write(`${line}\n`)): Manifest {
+  const found = runRecordPath(folder);
+  if (!found) throw new DendrologError(messages.notARunFolder(displayOf(folder)), 2);
+  const { path } = found;
+  if (found.old) notice(messages.oldRunRecordName(displayOf(path), RUN_FILES.record));
   let manifest: unknown;
   try {
     manifest = parseJson(readFileSync(path, 'utf8'));
@@ -34,7 +50,7 @@ const MARKER_FORMAT = 1;
  * Files that run folders of dendrolog versions before the marker held. A folder without a marker is
  * taken as such an old run folder only when it holds a dendrolog manifest and nothing but these.
  */
-const UNMARKED_RUN_FILES = new Set(['manifest.json', 'report.html', 'summary.md', 'model.bin', 'predictions.csv']);
+const UNMARKED_RUN_FILES = new Set<string>([...Object.values(OLD_FILES), ...Object.values(RUN_FILES)]);
 
 /**
  * The marker's text: which files dendrolog put in the folder, so that replacing the folder later
@@ -89,10 +105,12 @@ function markedFiles(folder: string): Set<string> | null {
   }
 }
 
-/** Whether manifest.json in folder is a dendrolog manifest (of any version that had `manifest: 1`). */
+/** Whether the folder's run record (either name) is a dendrolog manifest (of any version that had `manifest: 1`). */
 function holdsDendrologManifest(folder: string): boolean {
   try {
-    const m = JSON.parse(readFileSync(join(folder, 'manifest.json'), 'utf8')) as Record<string, unknown>;
+    const found = runRecordPath(folder);
+    if (!found) return false;
+    const m = JSON.parse(readFileSync(found.path, 'utf8')) as Record<string, unknown>;
     return m.manifest === 1 && typeof m.recipe === 'object' && m.recipe !== null && 'sha256' in m.recipe;
   } catch {
     return false;

@@ -1,8 +1,10 @@
+import { existsSync } from 'node:fs';
 import { availableParallelism } from 'node:os';
-import { resolve } from 'node:path';
+import { join, resolve } from 'node:path';
 import { ABANDONED_WRITE_MS, Cache } from './cache.js';
 import { localExecutor, type Execution } from './execute.js';
 import { buildManifest, holdoutPredictionsSha256, manifestProblems, type Manifest } from './manifest.js';
+import { RUN_FILES } from './run-files.js';
 import { prepareRunFolder, writeFolderAtomically } from './output.js';
 import { planRecipe, type Plan } from './plan.js';
 import type { Progress } from './progress.js';
@@ -21,7 +23,7 @@ import { DendrologError, messages } from '../core/messages.js';
 export interface RunOptions {
   /** Output folder; default `<recipe folder>/<report.folder>/<recipe name>`. */
   out?: string;
-  /** Cache folder; default `.dendrolog/cache` under the working folder. */
+  /** Cache folder; default `dendrolog-cache` under the working folder. */
   cache?: string;
   noCache?: boolean;
   /** Threads for grid cells, final fits and trees; default defaultWorkers(), one per core. */
@@ -45,22 +47,25 @@ export function defaultWorkers(): number {
 }
 
 /** Default cache folder, relative to the working folder. */
-export const DEFAULT_CACHE = '.dendrolog/cache';
+export const DEFAULT_CACHE = 'dendrolog-cache';
+
+/** Where dendrolog versions before DEFAULT_CACHE kept the default cache; never read, only pointed out. */
+export const OLD_DEFAULT_CACHE = join('.dendrolog', 'cache');
 
 /**
  * Runs a recipe end to end:
  *
  * ```
- * recipe.yaml --1 read--> YAML with positions
+ * <analysis>.yaml --1 read--> YAML with positions
  *             --2 validate (schemas/recipe.v1.json)--> problems as file:line:column
  *             --3 normalize--> Recipe, every default written out
  *             --4 plan--> step instances, each with a content key
  *             --5 execute--> each step from the cache, or run and stored
  *             --6 gather--> results and evaluation warnings
- *             --7 render--> report.html, summary.md, manifest.json, moved into place at once
+ *             --7 render--> report.html, summary.md, run-record.json, model.dendro, predictions.csv, moved into place at once
  * ```
  *
- * Example: `await runRecipe('recipes/lake-chlorophyll/recipe.yaml', {progress: silentProgress()})`
+ * Example: `await runRecipe('recipes/lake-chlorophyll/lake-chlorophyll.yaml', {progress: silentProgress()})`
  */
 export async function runRecipe(recipePath: string, opts: RunOptions): Promise<RunResult> {
   const started = new Date();
@@ -73,6 +78,7 @@ export async function runRecipe(recipePath: string, opts: RunOptions): Promise<R
   // 4–6: plan, execute, gather
   if (opts.slurm && opts.noCache) throw new DendrologError(messages.clusterNeedsCache(), 2);
   const cache = opts.noCache ? null : new Cache(resolve(opts.cache ?? DEFAULT_CACHE));
+  if (cache && opts.cache === undefined && existsSync(OLD_DEFAULT_CACHE)) opts.progress.note(messages.oldCacheFolder(OLD_DEFAULT_CACHE, DEFAULT_CACHE));
   cache?.sweepTemporaries(ABANDONED_WRITE_MS);
   const { execution, results } = await executeRecipe(recipe, origin, { cache, workers: opts.workers ?? defaultWorkers(), progress: opts.progress, slurm: opts.slurm });
   // 7: render and write
@@ -83,14 +89,14 @@ export async function runRecipe(recipePath: string, opts: RunOptions): Promise<R
     new Set(['recipe', 'environment']),
   );
   const problems = manifestProblems(manifest);
-  if (problems.length > 0) throw new Error(`the manifest does not match schemas/manifest.v1.json: ${problems.join('; ')}`);
+  if (problems.length > 0) throw new Error(`the manifest does not match schemas/run-record.v1.json: ${problems.join('; ')}`);
   const view = reportView(recipe, results, manifest, await buildFigures(recipe, results));
   writeFolderAtomically(outDir, {
-    'report.html': renderReport(view),
-    'summary.md': renderSummary(view),
-    'manifest.json': JSON.stringify(manifest, null, 2) + '\n',
-    'model.bin': modelBin,
-    'predictions.csv': predictionsCsv(results, recipe.target_scale),
+    [RUN_FILES.report]: renderReport(view),
+    [RUN_FILES.summary]: renderSummary(view),
+    [RUN_FILES.record]: JSON.stringify(manifest, null, 2) + '\n',
+    [RUN_FILES.model]: modelBin,
+    [RUN_FILES.predictions]: predictionsCsv(results, recipe.target_scale),
   });
   return { outDir, manifest, results, stepsOnThreads: execution.onThreads };
 }

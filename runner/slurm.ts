@@ -225,7 +225,7 @@ export const RETRIED_STATES = new Set(['NODE_FAIL', 'PREEMPTED', 'BOOT_FAIL']);
  */
 export type TaskStep = Omit<StepInstance, 'inputs'> & {
   codec: OutputCodec;
-  inputs: { key: string; codec: OutputCodec }[];
+  inputs: { kind: string; key: string; codec: OutputCodec }[];
   part?: { first: number; end: number; of: string };
 };
 
@@ -318,7 +318,7 @@ export class SlurmRunner implements RemoteRunner {
       // the parts of a divided step count as one step
       const stepCount = new Set(pending.flatMap((t) => groups[t].map((s) => s.part?.of ?? s.key))).size;
       const job = await this.submit(dir, pending, `dendrolog-${steps[0].kind}`, stepCount);
-      const missing = pending.flatMap((t) => groups[t].filter((s) => this.cache.get(s.key, s.codec).status !== 'hit').map((s) => ({ t, s })));
+      const missing = pending.flatMap((t) => groups[t].filter((s) => this.cache.get(s).status !== 'hit').map((s) => ({ t, s })));
       if (missing.length === 0) break;
       const records = new Map((this.records(job) ?? []).map((r) => [r.task, r]));
       const failedTasks = [...new Set(missing.map((m) => m.t))];

@@ -12,7 +12,7 @@ import type { ModelSpec, Recipe, RecipeStep } from '../core/recipe-types.js';
  * recipe file, then compared with what was stored. A record edited by hand (a model's kind
  * removed, a step mangled) is refused with the reason instead of failing somewhere inside a step.
  *
- * Example: `recipeFromManifest(readManifest('out/lake'), 'out/lake/manifest.json').name`
+ * Example: `recipeFromManifest(readManifest('out/lake'), 'out/lake/run-record.json').name`
  */
 export function recipeFromManifest(manifest: Manifest, manifestPath: string): Recipe {
   const stored: unknown = manifest.recipe.normalized;

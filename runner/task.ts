@@ -33,9 +33,9 @@ export async function runTask(batchFile: string, index: number): Promise<number>
       const t0 = performance.now();
       current = step.id;
       // a task submitted again (its node was lost) skips what it already stored
-      if (cache.get(step.key, step.codec).status === 'hit') continue;
+      if (cache.get(step).status === 'hit') continue;
       const inputs = step.inputs.map((input) => {
-        const got = cache.get(input.key, input.codec);
+        const got = cache.get(input);
         if (got.status !== 'hit') throw new DendrologError(`an input of step ${step.id} (key ${input.key}) is not in the cache ${batch.cache} as seen from this node; is the cache on a file system every node shares?`, 1);
         return unpackEntry(input.codec, got.bytes).output;
       });
@@ -46,7 +46,7 @@ export async function runTask(batchFile: string, index: number): Promise<number>
       const part = step.part;
       if (part && !def.parts) throw new DendrologError(`step ${step.id} is given as parts, but steps of kind ${step.kind} do not divide`, 2);
       const output = part ? await def.parts!.run(inputs, step.params as never, ctx, part.first, part.end) : await def.run(inputs, step.params as never, ctx);
-      const stored = cache.put(step.key, step.codec, packEntry(step.codec, output, warnings.list()));
+      const stored = cache.put(step, packEntry(step.codec, output, warnings.list()));
       if (!stored.stored) throw new DendrologError(`cannot write the output of step ${step.id} into the cache ${batch.cache} (${stored.code}: ${stored.detail})`, 1);
       seconds[step.key] = (performance.now() - t0) / 1000;
       process.stdout.write(`step ${step.id}: output stored under ${step.key} (${seconds[step.key].toFixed(2)} s)\n`);

@@ -18,7 +18,7 @@ function validator(): ReturnType<Ajv['compile']> {
 /**
  * Checks a recipe document against schemas/recipe.v1.json; returns one `file:line:column: message` per problem.
  *
- * Example: an unknown key `predictor:` gives `recipe.yaml:12:1: unknown key "predictor" in the recipe; did you mean "predictors"?`
+ * Example: an unknown key `predictor:` gives `lake.yaml:12:1: unknown key "predictor" in the recipe; did you mean "predictors"?`
  */
 export function validateRecipe(doc: PositionedDocument): string[] {
   const validate = validator();

@@ -5,13 +5,13 @@ import { Cache } from './cache.js';
 import { environment, softwareFingerprint } from './environment.js';
 import { sha256 } from '../core/hash.js';
 import { buildManifest, holdoutPredictionsSha256 } from './manifest.js';
-import { readRunModel, writeModelFile } from './model-file.js';
+import { MODEL_FILE_LINE, readRunModel, writeModelFile } from './model-file.js';
 import { DendrologError, messages } from '../core/messages.js';
 import type { Progress } from './progress.js';
 import { type RecipeOrigin } from './recipe.js';
 import { displayOf } from './paths.js';
 import type { Recipe } from '../core/recipe-types.js';
-import { readManifest, runFolderChanges } from './run-folder.js';
+import { OLD_FILES, readManifest, runFolderChanges, runRecordPath, RUN_FILES } from './run-folder.js';
 import { DEFAULT_CACHE, executeRecipe } from './run.js';
 import type { SlurmOptions } from './slurm.js';
 import { dict } from '../core/dict.js';
@@ -26,7 +26,7 @@ export interface Verification {
 /**
  * Re-executes a run from its sources with an empty temporary cache and compares every step's
  * output hash and every metric with the manifest. The run's own recipe (the normalized form kept in
- * the manifest) is what gets executed, so a later edit to recipe.yaml is reported, not silently used.
+ * the manifest) is what gets executed, so a later edit to the recipe file is reported, not silently used.
  *
  * Example: `(await verifyRun('recipes/lake-chlorophyll/out/lake-chlorophyll', opts)).reproduced`
  */
@@ -36,7 +36,7 @@ export async function verifyRun(folder: string, opts: { workers: number; progres
   const recipePath = resolve(outDir, manifest.recipe.file);
   const recipeDir = dirname(recipePath);
   const causes: string[] = [];
-  // the folder's own model.bin must be the file the run wrote, whatever the rerun gives
+  // the folder's own model file must be the file the run wrote, whatever the rerun gives
   const modelCheck = readRunModel(outDir, manifest);
   const modelProblem = 'problem' in modelCheck ? modelCheck.problem : null;
   const modelBroken = modelProblem && modelProblem.kind !== 'unrecorded' ? modelProblem.message : null;
@@ -45,7 +45,7 @@ export async function verifyRun(folder: string, opts: { workers: number; progres
   // the file's bytes, as the manifest records them (decoded text would hide a changed byte order mark or a stray byte)
   const recipeSha = sha256(readFileSync(recipePath));
   if (recipeSha !== manifest.recipe.sha256) {
-    causes.push(`the recipe changed since the run: ${displayOf(recipePath)} had SHA-256 ${manifest.recipe.sha256.slice(0, 12)}…, now ${recipeSha.slice(0, 12)}…; the run's own recipe (kept in the manifest) was executed below`);
+    causes.push(`the recipe changed since the run: ${displayOf(recipePath)} had SHA-256 ${manifest.recipe.sha256.slice(0, 12)}…, now ${recipeSha.slice(0, 12)}…; the run's own recipe (kept in the run record) was executed below`);
   }
   const changedSources = new Map<string, string>();
   for (const s of manifest.sources) {
@@ -73,7 +73,7 @@ export async function verifyRun(folder: string, opts: { workers: number; progres
   if (envChanges.length) causes.push(`software changed since the run: ${envChanges.join(', ')}`);
 
   // a pinned hash would stop the rerun at a changed file; the change is reported above instead
-  const kept = recipeFromManifest(manifest, displayOf(join(outDir, 'manifest.json')));
+  const kept = recipeFromManifest(manifest, displayOf(runRecordPath(outDir)?.path ?? join(outDir, RUN_FILES.record)));
   const recipe: Recipe = {
     ...kept,
     sources: dict(Object.entries(kept.sources).map(([name, s]) => [name, { ...s, sha256: null }])),
@@ -85,18 +85,22 @@ export async function verifyRun(folder: string, opts: { workers: number; progres
     displayPath: display,
     sha256: manifest.recipe.sha256,
     text: '',
-    doc: { displayPath: display, value: recipe, where: () => `${display} (as kept in the manifest)`, whereKey: () => display, whereInValue: () => display },
+    doc: { displayPath: display, value: recipe, where: () => `${display} (as kept in the run record)`, whereKey: () => display, whereInValue: () => display },
   };
-  // cluster tasks read and write the cache, so under Slurm the empty cache sits beside the default
+  // cluster tasks read and write the cache, so under Slurm the empty cache sits inside the default
   // one, in the working folder, which the nodes share; a local rerun uses the machine's own temp folder
-  const tempBase = opts.slurm ? dirname(resolve(DEFAULT_CACHE)) : tmpdir();
+  const tempBase = opts.slurm ? resolve(DEFAULT_CACHE) : tmpdir();
   mkdirSync(tempBase, { recursive: true });
   const cacheDir = mkdtempSync(join(tempBase, 'verify-'));
   let rerun;
+  let rerunModelSha = '';
   let keep = false;
   try {
     const { execution, results } = await executeRecipe(recipe, origin, { cache: new Cache(cacheDir), workers: opts.workers, progress: opts.progress, slurm: opts.slurm });
-    rerun = buildManifest(recipe, origin, execution, results, { started: new Date(), seconds: 0 }, outDir, writeModelFile(results.headlineFit, results.headlineInterval, recipe, { holdoutPredictionsSha256: holdoutPredictionsSha256(results) }));
+    const modelBytes = writeModelFile(results.headlineFit, results.headlineInterval, recipe, { holdoutPredictionsSha256: holdoutPredictionsSha256(results) });
+    rerun = buildManifest(recipe, origin, execution, results, { started: new Date(), seconds: 0 }, outDir, modelBytes);
+    // an older dendrolog's model.bin is the same file without the first line
+    rerunModelSha = manifest.modelFile?.file === OLD_FILES.model ? sha256(modelBytes.subarray(MODEL_FILE_LINE.length)) : sha256(modelBytes);
   } catch (e) {
     // a failed cluster task's log lives in this cache: keep it, and do not promise a resumable rerun
     if (opts.slurm && e instanceof DendrologError && existsSync(join(cacheDir, 'tasks')) && readdirSync(join(cacheDir, 'tasks')).length > 0) {
@@ -136,7 +140,7 @@ export async function verifyRun(folder: string, opts: { workers: number; progres
     if (JSON.stringify(r.metrics) !== JSON.stringify(m.metrics)) metricDiffs.push(`model ${m.name}: metrics differ`);
   }
   if (rerun.holdoutPredictionsSha256 !== manifest.holdoutPredictionsSha256) metricDiffs.push('the holdout predictions differ');
-  if (manifest.modelFile && rerun.modelFile?.sha256 !== manifest.modelFile.sha256) metricDiffs.push('the headline model the rerun writes to model.bin differs from the recorded one');
+  if (manifest.modelFile && rerunModelSha !== manifest.modelFile.sha256) metricDiffs.push(`the headline model the rerun writes to ${manifest.modelFile.file} differs from the recorded one`);
 
   // the files people read (report, summary, predictions) must be the ones the run wrote
   const folderChanges = runFolderChanges(outDir);
@@ -144,7 +148,7 @@ export async function verifyRun(folder: string, opts: { workers: number; progres
   const where = relative(process.cwd(), outDir) || '.';
   if (reproduced) {
     lines.push(
-      `reproduced: ${where} — all ${manifest.steps.length} step outputs, the metrics of ${manifest.models.length} models, the holdout predictions${manifest.modelFile ? ' and model.bin' : ''} match the manifest, and the run folder's files are the ones the run wrote`,
+      `reproduced: ${where} — all ${manifest.steps.length} step outputs, the metrics of ${manifest.models.length} models, the holdout predictions${manifest.modelFile ? ` and ${manifest.modelFile.file}` : ''} match the run record, and the run folder's files are the ones the run wrote`,
     );
     if (modelProblem) lines.push(`note: ${modelProblem.message}`);
     if (envChanges.length) lines.push(`note: ${causes[causes.length - 1]}`);

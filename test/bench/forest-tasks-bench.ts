@@ -26,10 +26,10 @@ interface Manifest {
 
 function run(work: string, args: string[]): { wall: number; out: string; manifest: Manifest } {
   const t0 = performance.now();
-  const r = spawnSync(process.execPath, [bin, 'run', 'recipe.yaml', '--cache', 'cache', '--out', 'out', ...args], { cwd: work, encoding: 'utf8' });
+  const r = spawnSync(process.execPath, [bin, 'run', 'forest-tasks.yaml', '--cache', 'cache', '--out', 'out', ...args], { cwd: work, encoding: 'utf8' });
   const wall = (performance.now() - t0) / 1000;
   if (r.status !== 0) throw new Error(`run failed: ${r.stderr}`);
-  return { wall, out: r.stdout, manifest: JSON.parse(readFileSync(join(work, 'out', 'manifest.json'), 'utf8')) as Manifest };
+  return { wall, out: r.stdout, manifest: JSON.parse(readFileSync(join(work, 'out', 'run-record.json'), 'utf8')) as Manifest };
 }
 
 /**
@@ -37,7 +37,7 @@ function run(work: string, args: string[]): { wall: number; out: string; manifes
  * cache as long as the fit's output is the same, which the run then shows.
  */
 function forgetFit(work: string, m: Manifest): void {
-  new Cache(join(work, 'cache')).discard(m.steps.find((s) => s.kind === 'fit')!.key);
+  new Cache(join(work, 'cache')).discard(m.steps.find((s) => s.kind === 'fit')!);
 }
 
 function main() {
@@ -50,7 +50,7 @@ function main() {
     mkdirSync(join(work, 'data'));
     writeFileSync(join(work, 'data', 'friedman.csv'), lines.join('\n') + '\n');
     writeFileSync(
-      join(work, 'recipe.yaml'),
+      join(work, 'forest-tasks.yaml'),
       [
         'dendrolog: 1',
         'name: big-forest',
@@ -77,7 +77,7 @@ function main() {
     const fitSeconds = (m: Manifest) => m.timing.steps.find((t) => t.id === fitOf(m).id)!.seconds;
     const reference = fitOf(first.manifest).output;
     const fitKey = fitOf(first.manifest).key;
-    const entryBytes = statSync(join(work, 'cache', fitKey.slice(0, 2), fitKey)).size;
+    const entryBytes = statSync(join(work, 'cache', 'fit', fitKey)).size;
     console.log(`local, first run (cross-validation and all): ${first.wall.toFixed(1)} s wall, of which the fit ${fitSeconds(first.manifest).toFixed(1)} s; the fit's cache entry is ${(entryBytes / 2 ** 20).toFixed(0)} MiB`);
     const ways: [string, string[]][] = [
       [`local, ${cores} threads`, ['--workers', String(cores)]],

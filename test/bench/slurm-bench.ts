@@ -28,11 +28,11 @@ interface StepRecord {
 /** Wall seconds of a run, and per phase the wall time (a parallel phase's steps share it under Slurm). */
 function runDemo(work: string, args: string[]): { wall: number; steps: StepRecord[]; out: string } {
   const t0 = performance.now();
-  const r = spawnSync(process.execPath, [bin, 'run', 'lake/recipe.yaml', ...args], { cwd: work, encoding: 'utf8' });
+  const r = spawnSync(process.execPath, [bin, 'run', 'lake/lake-chlorophyll.yaml', ...args], { cwd: work, encoding: 'utf8' });
   const wall = (performance.now() - t0) / 1000;
   if (r.status !== 0) throw new Error(`run failed: ${r.stderr}`);
   const out = args[args.indexOf('--out') + 1];
-  const manifest = JSON.parse(readFileSync(join(work, out, 'manifest.json'), 'utf8')) as { steps: { id: string; kind: string }[]; timing: { steps: { id: string; seconds: number }[] } };
+  const manifest = JSON.parse(readFileSync(join(work, out, 'run-record.json'), 'utf8')) as { steps: { id: string; kind: string }[]; timing: { steps: { id: string; seconds: number }[] } };
   const seconds = new Map(manifest.timing.steps.map((t) => [t.id, t.seconds]));
   return { wall, steps: manifest.steps.map((s) => ({ ...s, seconds: seconds.get(s.id) ?? NaN })), out: r.stdout };
 }
@@ -92,7 +92,7 @@ async function main() {
       seedKey: '',
       locator: {},
       codec: 'json',
-      inputs: [{ key: '0'.repeat(64), codec: 'json' }],
+      inputs: [{ kind: 'source', key: '0'.repeat(64), codec: 'json' }],
     }));
     const t0 = performance.now();
     await new SlurmRunner(cache, slurmOptions({}), silentProgress()).run(noop).catch(() => undefined);

@@ -45,8 +45,8 @@ evaluation:
   folds: {k: 5, by: random}
   prediction_interval: false
 `;
-  writeFileSync(join(dir, 'recipe.yaml'), recipe);
-  return join(dir, 'recipe.yaml');
+  writeFileSync(join(dir, 'whole-run.yaml'), recipe);
+  return join(dir, 'whole-run.yaml');
 }
 
 /** Runs a command under GNU time when there is one: wall, CPU (user + sys) and peak memory. */
@@ -68,7 +68,7 @@ function dendrologRun(train: number) {
     const recipe = prepare(dir, train);
     const out = join(dir, 'out');
     const r = timed(process.execPath, [join(root, 'bin', 'dendrolog.js'), 'run', recipe, '--no-cache', '--workers', '2', '--out', out], dir);
-    const manifest = JSON.parse(readFileSync(join(out, 'manifest.json'), 'utf8')) as {
+    const manifest = JSON.parse(readFileSync(join(out, 'run-record.json'), 'utf8')) as {
       steps: { id: string; kind: string }[];
       timing: { seconds: number; steps: { id: string; seconds: number }[] };
       models: { metrics: { holdout: { r2: { value: number } } } }[];

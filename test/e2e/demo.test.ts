@@ -36,10 +36,10 @@ describe('the demo recipe, end to end through the built command', () => {
       recursive: true,
       filter: (src) => !src.includes(join('lake-chlorophyll', 'out')),
     });
-    first = dendrolog(['run', 'lake/recipe.yaml', '--cache', 'cache'], work);
-    firstManifest = JSON.parse(readFileSync(join(outDir(), 'manifest.json'), 'utf8'));
+    first = dendrolog(['run', 'lake/lake-chlorophyll.yaml', '--cache', 'cache'], work);
+    firstManifest = JSON.parse(readFileSync(join(outDir(), 'run-record.json'), 'utf8'));
     firstReport = readFileSync(join(outDir(), 'report.html'), 'utf8');
-    second = dendrolog(['run', 'lake/recipe.yaml', '--cache', 'cache'], work);
+    second = dendrolog(['run', 'lake/lake-chlorophyll.yaml', '--cache', 'cache'], work);
   });
 
   it('runs, prints one plain line per step, and says where the report is', () => {
@@ -48,7 +48,7 @@ describe('the demo recipe, end to end through the built command', () => {
     expect(first.out).not.toContain('\r');
     expect(first.out).toMatch(/^ran +\d+\.\d\d s {2}source samples/m);
     expect(first.out).toContain('Report: lake/out/lake-chlorophyll/report.html');
-    for (const f of ['report.html', 'summary.md', 'manifest.json']) expect(existsSync(join(outDir(), f))).toBe(true);
+    for (const f of ['report.html', 'summary.md', 'run-record.json']) expect(existsSync(join(outDir(), f))).toBe(true);
     // every warning in full at the end, then the count
     const warnings = firstManifest.warnings as { message: string }[];
     expect(warnings.length).toBeGreaterThan(0);
@@ -64,7 +64,7 @@ describe('the demo recipe, end to end through the built command', () => {
   });
 
   it('writes an identical manifest apart from the timing block', () => {
-    const again = JSON.parse(readFileSync(join(outDir(), 'manifest.json'), 'utf8'));
+    const again = JSON.parse(readFileSync(join(outDir(), 'run-record.json'), 'utf8'));
     expect({ ...again, timing: null }).toEqual({ ...firstManifest, timing: null });
   });
 

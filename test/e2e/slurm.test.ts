@@ -58,11 +58,11 @@ describe.runIf(enabled)('the Slurm executor on a real cluster', () => {
 
   it('gives the demo every step output hash of a local run', async () => {
     cpSync(join(root, 'recipes', 'lake-chlorophyll'), join(work, 'lake'), { recursive: true, filter: (src) => !src.includes(join('lake-chlorophyll', 'out')) });
-    const local = await dendrolog(['run', 'lake/recipe.yaml', '--no-cache', '--out', 'local'], work);
+    const local = await dendrolog(['run', 'lake/lake-chlorophyll.yaml', '--no-cache', '--out', 'local'], work);
     expect(local.code, local.err).toBe(0);
     // 120 folds of 24 cells: eight to a task keeps the scheduler's seconds per task from dominating;
     // the final forest's 200 trees grow as two tasks of 100
-    const cluster = await dendrolog(['run', 'lake/recipe.yaml', '--cache', 'cache', '--executor', 'slurm', '--slurm-steps-per-task', '8', '--slurm-trees-per-task', '100', '--out', 'cluster'], work);
+    const cluster = await dendrolog(['run', 'lake/lake-chlorophyll.yaml', '--cache', 'cache', '--executor', 'slurm', '--slurm-steps-per-task', '8', '--slurm-trees-per-task', '100', '--out', 'cluster'], work);
     expect(cluster.code, cluster.err).toBe(0);
     // cross-validation folds, final fits and explanations: three arrays
     const arrays = cluster.out.split('\n').map(submitted).filter((m) => m !== null);
@@ -73,7 +73,7 @@ describe.runIf(enabled)('the Slurm executor on a real cluster', () => {
       ['24', '5'],
       ['3', '1'],
     ]);
-    expect(outputs(join(work, 'cluster', 'manifest.json'))).toEqual(outputs(join(work, 'local', 'manifest.json')));
+    expect(outputs(join(work, 'cluster', 'run-record.json'))).toEqual(outputs(join(work, 'local', 'run-record.json')));
   }, SLOW);
 
   it('names the job and task of a task cancelled with scancel; a rerun submits only the gap, a third run nothing', async () => {

@@ -1,5 +1,5 @@
 /**
- * Bad input around the cache and a run folder's model.bin: entries copied between keys, damaged,
+ * Bad input around the cache and a run folder's model.dendro: entries copied between keys, damaged,
  * undecodable or of an older format; a cache folder that cannot be written; a model file that is
  * truncated, edited or another run's. Each case checks the exit code, the catalogued message and
  * that nothing outside the run folder and the cache changed.
@@ -20,8 +20,9 @@ import { cli, expectOutcome, scenario } from './harness.js';
 type Scenario = ReturnType<typeof scenario>;
 
 const runArgs = (s: Scenario, workers = 1) => ['run', s.recipe, '--cache', s.cache, '--workers', String(workers)];
-const manifestOf = (s: Scenario): Manifest => JSON.parse(readFileSync(join(s.dir, 'out/small/manifest.json'), 'utf8')) as Manifest;
-const entryPath = (s: Scenario, key: string) => join(s.cache, key.slice(0, 2), key);
+const manifestOf = (s: Scenario): Manifest => JSON.parse(readFileSync(join(s.dir, 'out/small/run-record.json'), 'utf8')) as Manifest;
+/** The entry file of the step with this key in the scenario's last run. */
+const entryPath = (s: Scenario, key: string) => join(s.cache, manifestOf(s).steps.find((st) => st.key === key)!.kind, key);
 const stepOf = (m: Manifest, id: string) => m.steps.find((x) => x.id === id)!;
 const statusOf = (m: Manifest, id: string) => m.timing.steps.find((x) => x.id === id)!.status;
 const withoutTiming = (m: Manifest) => ({ ...m, timing: null });
@@ -93,11 +94,12 @@ describe('cache entries bound to their key', () => {
     const { s, first } = await warmScenario();
     const table = stepOf(first, 'model table').key;
     const cache = new Cache(s.cache);
-    const got = cache.get(table, 'frame');
+    const at = { kind: 'model_table', key: table, codec: 'frame' } as const;
+    const got = cache.get(at);
     expect(got.status).toBe('hit');
     // the frame's last value cut off, stored again with a checksum of the shortened bytes
     const short = got.status === 'hit' ? got.bytes.subarray(0, got.bytes.length - 8) : new Uint8Array();
-    expect(cache.put(table, 'frame', short)).toEqual({ stored: true });
+    expect(cache.put(at, short)).toEqual({ stored: true });
     const r = await expectOutcome(s.dir, runArgs(s), { code: 0, changes: ['out/small/'] });
     // the decoder's own words fill the middle of the message
     const [before, after] = messages.cacheEntryUndecodable('model table', table, '\u0000').split('\u0000');
@@ -131,7 +133,7 @@ describe('cache entries bound to their key', () => {
   it('quietly replaces an entry in the previous format (checksum line, then the output)', async () => {
     const { s, first } = await warmScenario();
     const key = stepOf(first, 'folds').key;
-    const got = new Cache(s.cache).get(key, 'json');
+    const got = new Cache(s.cache).get({ kind: 'folds', key, codec: 'json' });
     expect(got.status).toBe('hit');
     const payload = got.status === 'hit' ? Buffer.from(got.bytes) : Buffer.alloc(0);
     writeFileSync(entryPath(s, key), Buffer.concat([Buffer.from(sha256(payload) + '\n', 'latin1'), payload]));
@@ -202,23 +204,23 @@ describe('a full disk under the cache', () => {
   });
 });
 
-describe('model.bin of a run folder', () => {
+describe('model.dendro of a run folder', () => {
   const predictArgs = (s: Scenario) => ['predict', join(s.dir, 'out/small'), join(s.dir, 'data/obs.csv'), '--out', join(s.dir, 'pred.csv')];
-  const modelPath = (s: Scenario) => join(s.dir, 'out/small/model.bin');
+  const modelPath = (s: Scenario) => join(s.dir, 'out/small/model.dendro');
 
-  it('predict refuses a truncated model.bin, naming the file and both sizes', async () => {
+  it('predict refuses a truncated model.dendro, naming the file and both sizes', async () => {
     const { s, first } = await warmScenario();
     const full = readFileSync(modelPath(s)).length;
     truncateSync(modelPath(s), 20);
-    expect(first.modelFile).toEqual({ file: 'model.bin', sha256: expect.stringMatching(/^[0-9a-f]{64}$/), bytes: full });
+    expect(first.modelFile).toEqual({ file: 'model.dendro', sha256: expect.stringMatching(/^[0-9a-f]{64}$/), bytes: full });
     await expectOutcome(s.dir, predictArgs(s), { code: 1, err: messages.modelFileTruncated(displayOf(modelPath(s)), 20, full) });
   });
 
-  it('predict refuses another run’s model.bin copied into the run folder', async () => {
+  it('predict refuses another run’s model.dendro copied into the run folder', async () => {
     const { s, first } = await warmScenario();
     const other = scenario({ 'recipe.yaml': SMALL_RECIPE.replace('seed: 3', 'seed: 4').replace('linear: {kind: linear}\n', '') });
     expect((await cli(['run', other.recipe, '--cache', other.cache, '--workers', '1'])).code).toBe(0);
-    const foreign = readFileSync(join(other.dir, 'out/small/model.bin'));
+    const foreign = readFileSync(join(other.dir, 'out/small/model.dendro'));
     writeFileSync(modelPath(s), foreign);
     await expectOutcome(s.dir, predictArgs(s), {
       code: 1,
@@ -226,7 +228,7 @@ describe('model.bin of a run folder', () => {
     });
   });
 
-  it('verify reports a changed model.bin and says not reproduced', async () => {
+  it('verify reports a changed model.dendro and says not reproduced', async () => {
     const { s, first } = await warmScenario();
     const bytes = readFileSync(modelPath(s));
     bytes[bytes.length - 5] ^= 0xff;
@@ -236,16 +238,16 @@ describe('model.bin of a run folder', () => {
     expect(r.out).toContain(messages.modelFileChanged(displayOf(modelPath(s)), first.modelFile!.sha256, sha256(bytes)));
   });
 
-  it('verify still says reproduced for an untouched run, now checking model.bin too', async () => {
+  it('verify still says reproduced for an untouched run, now checking model.dendro too', async () => {
     const { s } = await warmScenario();
     const r = await expectOutcome(s.dir, ['verify', join(s.dir, 'out/small'), '--workers', '1'], { code: 0 });
     expect(r.out).toContain('reproduced: ');
-    expect(r.out).toContain('model.bin');
+    expect(r.out).toContain('model.dendro');
   });
 
   it('predict refuses a run whose manifest records no model hash, rather than trusting the file', async () => {
     const { s } = await warmScenario();
-    const path = join(s.dir, 'out/small/manifest.json');
+    const path = join(s.dir, 'out/small/run-record.json');
     const m = JSON.parse(readFileSync(path, 'utf8')) as Record<string, unknown>;
     delete m.modelFile;
     writeFileSync(path, JSON.stringify(m));

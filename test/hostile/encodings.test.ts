@@ -35,7 +35,7 @@ function placeData(places: string[]): string {
 /** Runs a recipe and returns its manifest. */
 async function runOk(s: { dir: string; recipe: string; cache: string }): Promise<Record<string, unknown>> {
   await expectOutcome(s.dir, ['run', s.recipe, '--cache', s.cache, '--workers', '1'], { code: 0, changes: [RUN_FOLDER] });
-  return JSON.parse(readFileSync(join(s.dir, RUN_FOLDER, 'manifest.json'), 'utf8')) as Record<string, unknown>;
+  return JSON.parse(readFileSync(join(s.dir, RUN_FOLDER, 'run-record.json'), 'utf8')) as Record<string, unknown>;
 }
 
 /** The distinct values of a source column as the manifest profiles them. */

@@ -97,7 +97,7 @@ describe('limits with messages', () => {
     const s = scenario({ 'data/obs.csv': lines.join('\n') + '\n' });
     await expectOutcome(s.dir, ['run', s.recipe, '--cache', s.cache, '--workers', '1'], { code: 0, changes: ['out/small/'] });
     const report = readFileSync(join(s.dir, 'out/small/report.html'), 'utf8');
-    const record = readFileSync(join(s.dir, 'out/small/manifest.json'), 'utf8');
+    const record = readFileSync(join(s.dir, 'out/small/run-record.json'), 'utf8');
     for (const text of [report, record]) {
       expect(text).not.toContain('L'.repeat(TEXT_LIMIT + 1));
     }

@@ -77,7 +77,7 @@ describe('names that are also members of every object', () => {
     const s = scenario({ 'recipe.yaml': RECIPE, 'data/obs.csv': main, 'data/side.csv': side });
     const r = await expectOutcome(s.dir, ['run', s.recipe, '--cache', s.cache, '--workers', '1'], { code: 0, changes: ['out/reserved/'] });
     expect(r.err).toBe('');
-    const manifest = JSON.parse(readFileSync(join(s.dir, 'out/reserved/manifest.json'), 'utf8'));
+    const manifest = JSON.parse(readFileSync(join(s.dir, 'out/reserved/run-record.json'), 'utf8'));
     const models = manifest.models as { name: string; kind: string; metrics: { holdout: { r2: { value: number | null } } } }[];
     expect(models.map((m) => [m.name, m.kind]).sort()).toEqual([
       ['__proto__', 'linear'],

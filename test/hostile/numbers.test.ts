@@ -16,7 +16,7 @@ import { SMALL_RECIPE, smallData } from '../helpers.js';
 import { expectOutcome, lineColOf, scenario } from './harness.js';
 
 const runArgs = (s: { recipe: string; cache: string }) => ['run', s.recipe, '--cache', s.cache, '--workers', '1'];
-const manifestOf = (dir: string): Manifest => JSON.parse(readFileSync(join(dir, 'out/small/manifest.json'), 'utf8'));
+const manifestOf = (dir: string): Manifest => JSON.parse(readFileSync(join(dir, 'out/small/run-record.json'), 'utf8'));
 const summaryOf = (dir: string): string => readFileSync(join(dir, 'out/small/summary.md'), 'utf8');
 const reportOf = (dir: string): string => readFileSync(join(dir, 'out/small/report.html'), 'utf8');
 

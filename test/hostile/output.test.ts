@@ -80,7 +80,7 @@ describe('a run folder replaces only what dendrolog wrote', () => {
     mkdirSync(join(s.dir, 'empty'));
     await expectOutcome(s.dir, runArgs(s, '--out', join(s.dir, 'empty')), { code: 0, changes: ['empty/'] });
     const marker = JSON.parse(readFileSync(join(s.dir, 'empty', RUN_MARKER), 'utf8'));
-    expect(marker.files).toEqual(['manifest.json', 'model.bin', 'predictions.csv', 'report.html', 'summary.md']);
+    expect(marker.files).toEqual(['model.dendro', 'predictions.csv', 'report.html', 'run-record.json', 'summary.md']);
   });
 
   it('replaces its own earlier run folder', async () => {
@@ -93,13 +93,13 @@ describe('a run folder replaces only what dendrolog wrote', () => {
     const s = await ranScenario();
     const { rmSync } = await import('node:fs');
     rmSync(join(s.run, RUN_MARKER));
-    rmSync(join(s.run, 'model.bin'));
+    rmSync(join(s.run, 'model.dendro'));
     await expectOutcome(s.dir, runArgs(s), { code: 0, changes: ['out/small/'] });
     expect(existsSync(join(s.run, RUN_MARKER))).toBe(true);
   });
 
-  it('refuses a folder holding only a manifest.json that is not a dendrolog manifest', async () => {
-    const s = scenario({ 'out/small/manifest.json': '{"name": "my package"}\n' });
+  it('refuses a folder holding only a run-record.json that is not a dendrolog manifest', async () => {
+    const s = scenario({ 'out/small/run-record.json': '{"name": "my package"}\n' });
     await expectOutcome(s.dir, runArgs(s), { code: 2, err: messages.outputFolderNotDendrologs(displayOf(join(s.dir, 'out/small'))) });
   });
 });
@@ -158,15 +158,15 @@ describe('predict --out never writes over what it reads or over the run folder',
     await expectOutcome(s.dir, predict(s, join(s.dir, 'alias.csv')), { code: 2, err: messages.predictionsOverInput(join(s.dir, 'alias.csv')) });
   });
 
-  it('refuses the run folder\'s manifest.json', async () => {
+  it('refuses the run folder\'s run-record.json', async () => {
     const s = await ranScenario();
-    const out = join(s.run, 'manifest.json');
+    const out = join(s.run, 'run-record.json');
     await expectOutcome(s.dir, predict(s, out), { code: 2, err: messages.predictionsIntoRunFolder(out, displayOf(s.run)) });
   });
 
-  it('refuses the run folder\'s model.bin', async () => {
+  it('refuses the run folder\'s model.dendro', async () => {
     const s = await ranScenario();
-    const out = join(s.run, 'model.bin');
+    const out = join(s.run, 'model.dendro');
     await expectOutcome(s.dir, predict(s, out), { code: 2, err: messages.predictionsIntoRunFolder(out, displayOf(s.run)) });
   });
 
@@ -258,9 +258,9 @@ describe('leftovers of a killed run', () => {
     const r = await cli(runArgs(s));
     expect(r.code, r.err).toBe(0);
     expect(readdirSync(join(s.dir, 'out'))).toEqual(['small']);
-    expect(readdirSync(s.run).sort()).toEqual([RUN_MARKER, 'manifest.json', 'model.bin', 'predictions.csv', 'report.html', 'summary.md']);
+    expect(readdirSync(s.run).sort()).toEqual([RUN_MARKER, 'model.dendro', 'predictions.csv', 'report.html', 'run-record.json', 'summary.md']);
     expect(readFileSync(join(s.run, 'report.html'), 'utf8').trimEnd()).toMatch(/<\/html>$/);
-    expect(() => JSON.parse(readFileSync(join(s.run, 'manifest.json'), 'utf8'))).not.toThrow();
+    expect(() => JSON.parse(readFileSync(join(s.run, 'run-record.json'), 'utf8'))).not.toThrow();
     const verified = await cli(['verify', s.run, '--workers', '1']);
     expect(verified.code, verified.out + verified.err).toBe(0);
   });

@@ -1,5 +1,5 @@
 /**
- * A run record (manifest.json) edited by hand: verify and predict read the recipe it keeps through
+ * A run record (run-record.json) edited by hand: verify and predict read the recipe it keeps through
  * the same checks as a recipe file, so damage is named instead of failing inside a step.
  */
 import { copyFileSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
@@ -16,7 +16,7 @@ async function finishedRun() {
   const s = scenario();
   await expectOutcome(s.dir, ['run', s.recipe, '--cache', s.cache, '--workers', '1'], { code: 0, changes: ['out/small/'] });
   const run = join(s.dir, 'out/small');
-  const path = join(run, 'manifest.json');
+  const path = join(run, 'run-record.json');
   const edit = (f: (normalized: Record<string, unknown>) => void) => {
     const m = JSON.parse(readFileSync(path, 'utf8'));
     f(m.recipe.normalized);
@@ -89,19 +89,19 @@ describe('a run folder whose files were changed after the run', () => {
     expect(out.out).toContain(`run folder: ${messages.runFileMissing('predictions.csv')}`);
   });
 
-  it('refuses in predict a model.bin of another run even when the record was edited to its size and hash', async () => {
+  it('refuses in predict a model.dendro of another run even when the record was edited to its size and hash', async () => {
     const r = await finishedRun();
     // a second run of a different analysis, in a folder of its own
     const other = scenario({ 'recipe.yaml': SMALL_RECIPE.replace('seed: 3', 'seed: 4') });
     await expectOutcome(other.dir, ['run', other.recipe, '--cache', other.cache, '--workers', '1'], { code: 0, changes: ['out/small/'] });
-    copyFileSync(join(other.dir, 'out/small/model.bin'), join(r.run, 'model.bin'));
-    const bytes = readFileSync(join(r.run, 'model.bin'));
+    copyFileSync(join(other.dir, 'out/small/model.dendro'), join(r.run, 'model.dendro'));
+    const bytes = readFileSync(join(r.run, 'model.dendro'));
     const m = JSON.parse(readFileSync(r.path, 'utf8'));
-    m.modelFile = { file: 'model.bin', sha256: sha256(bytes), bytes: bytes.length };
+    m.modelFile = { file: 'model.dendro', sha256: sha256(bytes), bytes: bytes.length };
     writeFileSync(r.path, JSON.stringify(m, null, 2));
     await expectOutcome(r.dir, ['predict', r.run, join(r.dir, 'data/obs.csv'), '--out', join(r.dir, 'p.csv')], {
       code: 1,
-      err: messages.modelFileOtherRun(displayOf(join(r.run, 'model.bin'))),
+      err: messages.modelFileOtherRun(displayOf(join(r.run, 'model.dendro'))),
     });
   });
 });

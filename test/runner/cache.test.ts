@@ -8,28 +8,30 @@ import { makeFolder } from '../helpers.js';
 const key = sha256('a step');
 const other = sha256('another step');
 const bytes = new Uint8Array([1, 2, 3, 250]);
-const entryOf = (dir: string, k = key) => join(dir, k.slice(0, 2), k);
+/** Any step kind; the cache keeps one folder per kind. */
+const kind = 'fit';
+const entryOf = (dir: string, k = key) => join(dir, kind, k);
 const leftovers = (dir: string) => (existsSync(dir) ? readdirSync(dir, { recursive: true, encoding: 'utf8' }).filter((f) => f.includes('.tmp-')) : []);
 const fsError = (code: string) => Object.assign(new Error(`${code}: simulated`), { code });
 
 describe('cache', () => {
   it('misses when nothing is stored', () => {
-    expect(new Cache(makeFolder({})).get(key, 'json')).toEqual({ status: 'miss' });
+    expect(new Cache(makeFolder({})).get({ kind, key, codec: 'json' })).toEqual({ status: 'miss' });
   });
 
-  it('returns stored bytes on a hit, under <key[0:2]>/<key>', () => {
+  it('returns stored bytes on a hit, under <kind>/<key>', () => {
     const dir = makeFolder({});
     const cache = new Cache(dir);
-    expect(cache.put(key, 'json', bytes)).toEqual({ stored: true });
-    const got = cache.get(key, 'json');
+    expect(cache.put({ kind, key, codec: 'json' }, bytes)).toEqual({ stored: true });
+    const got = cache.get({ kind, key, codec: 'json' });
     expect(got.status).toBe('hit');
     expect(got.status === 'hit' && Array.from(got.bytes)).toEqual(Array.from(bytes));
-    expect(readdirSync(join(dir, key.slice(0, 2)))).toEqual([key]);
+    expect(readdirSync(join(dir, kind))).toEqual([key]);
   });
 
   it('heads each entry with its format, key, codec and checksum', () => {
     const dir = makeFolder({});
-    new Cache(dir).put(key, 'frame', bytes);
+    new Cache(dir).put({ kind, key, codec: 'frame' }, bytes);
     const raw = readFileSync(entryOf(dir));
     const lines = raw.toString('latin1').split('\n').slice(0, 4);
     expect(lines.slice(0, 3)).toEqual(['dendrolog-cache-entry 2', `key ${key}`, 'codec frame']);
@@ -42,63 +44,63 @@ describe('cache', () => {
   it('discards a corrupted entry and removes it', () => {
     const dir = makeFolder({});
     const cache = new Cache(dir);
-    cache.put(key, 'json', bytes);
+    cache.put({ kind, key, codec: 'json' }, bytes);
     const raw = readFileSync(entryOf(dir));
     raw[raw.length - 1] ^= 0xff;
     writeFileSync(entryOf(dir), raw);
-    expect(cache.get(key, 'json')).toEqual({ status: 'discarded', reason: 'checksum' });
-    expect(cache.get(key, 'json')).toEqual({ status: 'miss' });
+    expect(cache.get({ kind, key, codec: 'json' })).toEqual({ status: 'discarded', reason: 'checksum' });
+    expect(cache.get({ kind, key, codec: 'json' })).toEqual({ status: 'miss' });
   });
 
   it('treats a truncated or empty entry as corrupt', () => {
     const dir = makeFolder({});
     const cache = new Cache(dir);
-    cache.put(key, 'json', bytes);
+    cache.put({ kind, key, codec: 'json' }, bytes);
     writeFileSync(entryOf(dir), 'dendrolog-cache-entry 2\nkey ab');
-    expect(cache.get(key, 'json')).toEqual({ status: 'discarded', reason: 'checksum' });
-    cache.put(key, 'json', bytes);
+    expect(cache.get({ kind, key, codec: 'json' })).toEqual({ status: 'discarded', reason: 'checksum' });
+    cache.put({ kind, key, codec: 'json' }, bytes);
     writeFileSync(entryOf(dir), '');
-    expect(cache.get(key, 'json')).toEqual({ status: 'discarded', reason: 'checksum' });
+    expect(cache.get({ kind, key, codec: 'json' })).toEqual({ status: 'discarded', reason: 'checksum' });
   });
 
   it('refuses an entry copied over another key, naming the key it holds', () => {
     const dir = makeFolder({});
     const cache = new Cache(dir);
-    cache.put(key, 'json', bytes);
-    cache.put(other, 'json', new Uint8Array([9]));
+    cache.put({ kind, key, codec: 'json' }, bytes);
+    cache.put({ kind, key: other, codec: 'json' }, new Uint8Array([9]));
     copyFileSync(entryOf(dir, other), entryOf(dir, key));
-    expect(cache.get(key, 'json')).toEqual({ status: 'discarded', reason: 'key', storedKey: other });
+    expect(cache.get({ kind, key, codec: 'json' })).toEqual({ status: 'discarded', reason: 'key', storedKey: other });
     expect(existsSync(entryOf(dir))).toBe(false);
-    expect(cache.get(other, 'json').status).toBe('hit');
+    expect(cache.get({ kind, key: other, codec: 'json' }).status).toBe('hit');
   });
 
   it('refuses an entry in another codec than the step writes', () => {
     const dir = makeFolder({});
     const cache = new Cache(dir);
-    cache.put(key, 'json', bytes);
-    expect(cache.get(key, 'frame')).toEqual({ status: 'discarded', reason: 'codec', storedCodec: 'json' });
+    cache.put({ kind, key, codec: 'json' }, bytes);
+    expect(cache.get({ kind, key, codec: 'frame' })).toEqual({ status: 'discarded', reason: 'codec', storedCodec: 'json' });
   });
 
   it('reads an entry of the previous layout as a plain miss, and overwrites it', () => {
     const dir = makeFolder({});
     const cache = new Cache(dir);
-    mkdirSync(join(dir, key.slice(0, 2)));
+    mkdirSync(join(dir, kind));
     writeFileSync(entryOf(dir), Buffer.concat([Buffer.from(sha256(bytes) + '\n', 'latin1'), bytes]));
-    expect(cache.get(key, 'json')).toEqual({ status: 'miss' });
-    cache.put(key, 'json', bytes);
-    expect(cache.get(key, 'json').status).toBe('hit');
+    expect(cache.get({ kind, key, codec: 'json' })).toEqual({ status: 'miss' });
+    cache.put({ kind, key, codec: 'json' }, bytes);
+    expect(cache.get({ kind, key, codec: 'json' }).status).toBe('hit');
   });
 
   it('discards an entry in a format it does not know, quoting its start', () => {
     const dir = makeFolder({});
-    mkdirSync(join(dir, key.slice(0, 2)));
+    mkdirSync(join(dir, kind));
     writeFileSync(entryOf(dir), 'PK\u0003\u0004 a zip file\n');
-    expect(new Cache(dir).get(key, 'json')).toEqual({ status: 'discarded', reason: 'format', start: 'PK?? a zip file' });
+    expect(new Cache(dir).get({ kind, key, codec: 'json' })).toEqual({ status: 'discarded', reason: 'format', start: 'PK?? a zip file' });
   });
 
   it('leaves no temporary files behind', () => {
     const dir = makeFolder({});
-    new Cache(dir).put(key, 'json', bytes);
+    new Cache(dir).put({ kind, key, codec: 'json' }, bytes);
     expect(leftovers(dir)).toEqual([]);
   });
 });
@@ -112,26 +114,26 @@ describe('cache on a full or read-only disk', () => {
         throw fsError('ENOSPC');
       },
     });
-    expect(cache.put(key, 'json', bytes)).toEqual({ stored: false, code: 'ENOSPC', detail: 'ENOSPC: simulated' });
+    expect(cache.put({ kind, key, codec: 'json' }, bytes)).toEqual({ stored: false, code: 'ENOSPC', detail: 'ENOSPC: simulated' });
     expect(leftovers(dir)).toEqual([]);
-    expect(readdirSync(join(dir, key.slice(0, 2)))).toEqual([]);
-    expect(cache.get(key, 'json')).toEqual({ status: 'miss' });
+    expect(readdirSync(join(dir, kind))).toEqual([]);
+    expect(cache.get({ kind, key, codec: 'json' })).toEqual({ status: 'miss' });
   });
 
   it('reports EROFS when the folder cannot be made, and EACCES when the rename is refused', () => {
     const dir = makeFolder({});
     const readOnly = new Cache(join(dir, 'cache'), { mkdirSync: () => { throw fsError('EROFS'); } });
-    expect(readOnly.put(key, 'json', bytes)).toMatchObject({ stored: false, code: 'EROFS' });
+    expect(readOnly.put({ kind, key, codec: 'json' }, bytes)).toMatchObject({ stored: false, code: 'EROFS' });
     const noRename = new Cache(dir, { renameSync: () => { throw fsError('EACCES'); } });
-    expect(noRename.put(key, 'json', bytes)).toMatchObject({ stored: false, code: 'EACCES' });
+    expect(noRename.put({ kind, key, codec: 'json' }, bytes)).toMatchObject({ stored: false, code: 'EACCES' });
     expect(leftovers(dir)).toEqual([]);
   });
 
   it('reports ENOTDIR for a cache folder below a file (what a real unwritable path gives, even as root)', () => {
     const dir = makeFolder({ 'a-file': 'x' });
     const cache = new Cache(join(dir, 'a-file', 'cache'));
-    expect(cache.put(key, 'json', bytes)).toMatchObject({ stored: false, code: 'ENOTDIR' });
-    expect(cache.get(key, 'json')).toEqual({ status: 'miss' });
+    expect(cache.put({ kind, key, codec: 'json' }, bytes)).toMatchObject({ stored: false, code: 'ENOTDIR' });
+    expect(cache.get({ kind, key, codec: 'json' })).toEqual({ status: 'miss' });
   });
 
   it('rethrows an error that is not the file system’s, still without a temporary file', () => {
@@ -142,7 +144,7 @@ describe('cache on a full or read-only disk', () => {
         throw new TypeError('a bug');
       },
     });
-    expect(() => cache.put(key, 'json', bytes)).toThrow('a bug');
+    expect(() => cache.put({ kind, key, codec: 'json' }, bytes)).toThrow('a bug');
     expect(leftovers(dir)).toEqual([]);
   });
 });
@@ -152,8 +154,8 @@ describe('cache temporaries', () => {
     const dir = makeFolder({});
     const cache = new Cache(dir);
     const key = sha256('a');
-    expect(cache.put(key, 'json', new Uint8Array([1])).stored).toBe(true);
-    const shard = join(dir, key.slice(0, 2));
+    expect(cache.put({ kind, key, codec: 'json' }, new Uint8Array([1])).stored).toBe(true);
+    const shard = join(dir, kind);
     const old = join(shard, `${key}.tmp-123-0123456789ab`);
     const fresh = join(shard, `${key}.tmp-124-0123456789ab`);
     const foreign = join(shard, 'notes.tmp-1-0123456789ab');
@@ -165,7 +167,7 @@ describe('cache temporaries', () => {
     expect(existsSync(old)).toBe(false);
     expect(existsSync(fresh)).toBe(true);
     expect(existsSync(foreign)).toBe(true);
-    expect(cache.get(key, 'json').status).toBe('hit');
+    expect(cache.get({ kind, key, codec: 'json' }).status).toBe('hit');
     // a cache folder that does not exist yet has nothing to sweep
     expect(new Cache(join(dir, 'none')).sweepTemporaries(hour)).toBe(0);
   });

@@ -323,7 +323,7 @@ describe('run folders: verify, compare and predict', () => {
   it('refuses a manifest that is not JSON, with the parser’s complaint', async () => {
     const { out } = copyOfRun();
     const text = '{"dendrolog": 1,';
-    writeFileSync(join(out, 'manifest.json'), text);
+    writeFileSync(join(out, 'run-record.json'), text);
     // the detail is what the JSON parser itself says about the text
     const detail = (() => {
       try {
@@ -333,7 +333,7 @@ describe('run folders: verify, compare and predict', () => {
       }
       throw new Error('expected the text not to parse');
     })();
-    const want = messages.manifestUnreadable(displayOf(join(out, 'manifest.json')), detail);
+    const want = messages.manifestUnreadable(displayOf(join(out, 'run-record.json')), detail);
     expect(() => readManifest(out)).toThrow(new DendrologError(want, 2));
     const e = await errorOf(() => verify(out));
     expect([e.message, e.exitCode]).toEqual([want, 2]);
@@ -341,23 +341,23 @@ describe('run folders: verify, compare and predict', () => {
 
   it('refuses a manifest that does not match its schema, naming the first problems', async () => {
     const { out } = copyOfRun();
-    writeFileSync(join(out, 'manifest.json'), '[]\n');
-    // schemas/manifest.v1.json: the manifest is an object; ajv's wording for a type error at the root
-    const want = messages.manifestUnreadable(displayOf(join(out, 'manifest.json')), '/ must be object');
+    writeFileSync(join(out, 'run-record.json'), '[]\n');
+    // schemas/run-record.v1.json: the manifest is an object; ajv's wording for a type error at the root
+    const want = messages.manifestUnreadable(displayOf(join(out, 'run-record.json')), '/ must be object');
     const e = await errorOf(async () => readManifest(out));
     expect([e.message, e.exitCode]).toEqual([want, 2]);
   });
 
   it('compare exits 2 on an unreadable manifest', async () => {
     const { out } = copyOfRun();
-    writeFileSync(join(out, 'manifest.json'), '[]\n');
+    writeFileSync(join(out, 'run-record.json'), '[]\n');
     const err: string[] = [];
     vi.spyOn(process.stdout, 'write').mockImplementation(() => true);
     vi.spyOn(process.stderr, 'write').mockImplementation((s) => (err.push(String(s)), true));
     const code = await main(['compare', join(runDir, outName), out]);
     vi.restoreAllMocks();
     expect(code).toBe(2);
-    expect(err.join('')).toBe(messages.manifestUnreadable(displayOf(join(out, 'manifest.json')), '/ must be object') + '\n');
+    expect(err.join('')).toBe(messages.manifestUnreadable(displayOf(join(out, 'run-record.json')), '/ must be object') + '\n');
   });
 
   it('verify stops when the run’s recipe is gone', async () => {
@@ -374,9 +374,9 @@ describe('run folders: verify, compare and predict', () => {
     expect([e.message, e.exitCode]).toEqual([messages.sourceOfRunMissing(displayOf(join(dir, 'data/obs.csv'))), 1]);
   });
 
-  it('predict stops when the run folder has no model.bin', async () => {
+  it('predict stops when the run folder has no model.dendro', async () => {
     const { dir, out } = copyOfRun();
-    rmSync(join(out, 'model.bin'));
+    rmSync(join(out, 'model.dendro'));
     const e = await errorOf(() => predictRun(out, join(dir, 'data/obs.csv'), join(dir, 'p.csv')));
     expect([e.message, e.exitCode]).toEqual([messages.modelFileMissing(displayOf(out)), 2]);
   });

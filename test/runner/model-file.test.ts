@@ -1,4 +1,4 @@
-/** model.bin with prediction intervals: the fold models ride behind the headline model, each by its length. */
+/** model.dendro with prediction intervals: the fold models ride behind the headline model, each by its length. */
 import { gzipSync } from 'node:zlib';
 import { describe, expect, it } from 'vitest';
 import { readModelFile, writeModelFile } from '../../runner/model-file.js';
@@ -18,7 +18,7 @@ const INTERVAL = {
 const RECIPE = { target: 'y' } as Recipe;
 const RUN = { holdoutPredictionsSha256: 'a'.repeat(64) };
 
-describe('model.bin', () => {
+describe('model.dendro', () => {
   it('keeps the fold models, their designs and the residual table, and reads a file without them as before', () => {
     const m = readModelFile(writeModelFile(FIT, INTERVAL, RECIPE, RUN));
     expect(Array.from(m.bytes)).toEqual([1, 2, 3]);

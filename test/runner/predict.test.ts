@@ -96,7 +96,7 @@ describe('the apply plan', () => {
     expect(lines[2]).toBe('B,-1,2,2,,,,,missing lx');
   });
 
-  it("gives the run's own holdout rows the prediction intervals the run gave them, from the fold models in model.bin", async () => {
+  it("gives the run's own holdout rows the prediction intervals the run gave them, from the fold models in model.dendro", async () => {
     const s = scenario({ 'recipe.yaml': SMALL_RECIPE, 'data/obs.csv': smallData() });
     await expectOutcome(s.dir, ['run', s.recipe, '--cache', s.cache, '--workers', '1'], { code: 0, changes: ['out/small/'] });
     await expectOutcome(s.dir, ['predict', join(s.dir, 'out/small'), join(s.dir, 'data/obs.csv'), '--out', join(s.dir, 'p.csv')], { code: 0, changes: ['p.csv'] });

@@ -39,7 +39,7 @@ describe('running a recipe', () => {
     const linear = result.results.models.find((m) => m.name === 'linear')!;
     expect(linear.holdout.r2.value).toBeGreaterThan(0.99);
     expect(result.results.chosenModel).toBe('linear');
-    expect(readdirSync(result.outDir).sort()).toEqual([RUN_MARKER, 'manifest.json', 'model.bin', 'predictions.csv', 'report.html', 'summary.md']);
+    expect(readdirSync(result.outDir).sort()).toEqual([RUN_MARKER, 'model.dendro', 'predictions.csv', 'report.html', 'run-record.json', 'summary.md']);
   });
 
   it('takes every step from the cache the second time, with an identical manifest apart from timing', async () => {
@@ -56,7 +56,7 @@ describe('running a recipe', () => {
   it('recomputes a corrupted cache entry, warns about it, and gets the same outputs', async () => {
     const { dir, result: first } = await run({ 'data/obs.csv': smallData() });
     const key = first.manifest.steps.find((s) => s.id === 'holdout')!.key;
-    const entry = join(dir, '.cache', key.slice(0, 2), key);
+    const entry = join(dir, '.cache', 'holdout', key);
     const raw = readFileSync(entry);
     raw[raw.length - 2] ^= 1;
     writeFileSync(entry, raw);
@@ -118,7 +118,7 @@ describe('running a recipe', () => {
     );
     expect(readFileSync(join(result.outDir, 'report.html'), 'utf8')).toBe(before);
     expect(readdirSync(join(dir, 'out')).filter((f) => f.startsWith('.'))).toEqual([]);
-    expect(existsSync(join(result.outDir, 'manifest.json'))).toBe(true);
+    expect(existsSync(join(result.outDir, 'run-record.json'))).toBe(true);
   });
 });
 

@@ -5,7 +5,7 @@ import { describe, expect, it } from 'vitest';
 import { SMALL_RECIPE, smallData } from '../helpers.js';
 import { cli, scenario } from '../hostile/harness.js';
 
-const manifest = (dir: string) => JSON.parse(readFileSync(join(dir, 'manifest.json'), 'utf8')) as { steps: { id: string; output: string }[] };
+const manifest = (dir: string) => JSON.parse(readFileSync(join(dir, 'run-record.json'), 'utf8')) as { steps: { id: string; output: string }[] };
 const outputOf = (dir: string, id: string) => manifest(dir).steps.find((s) => s.id === id)?.output;
 
 describe('the final fit, its score and its explanation', () => {

@@ -43,10 +43,10 @@ describe('the Slurm executor (stand-in commands)', () => {
     // SMALL_RECIPE: 2 models × 3 folds; 2 final fits beside 2 models × 3 interval folds; 1 explanation (mean has none)
     expect(calls().map(arrayOf)).toEqual(['--array=0-5', '--array=0-7', '--array=0']);
     expect(calls()[0]).toContain('--partition=short');
-    const steps = (dir: string) => (JSON.parse(readFileSync(join(s.dir, dir, 'manifest.json'), 'utf8')) as { steps: { id: string; output: string }[] }).steps;
+    const steps = (dir: string) => (JSON.parse(readFileSync(join(s.dir, dir, 'run-record.json'), 'utf8')) as { steps: { id: string; output: string }[] }).steps;
     expect(steps('cluster')).toEqual(steps('local').map((x) => expect.objectContaining({ id: x.id, output: x.output })));
     // each step records its own time from its task, not the whole array's
-    const timing = (JSON.parse(readFileSync(join(s.dir, 'cluster', 'manifest.json'), 'utf8')) as { timing: { steps: { id: string; seconds: number }[] } }).timing.steps;
+    const timing = (JSON.parse(readFileSync(join(s.dir, 'cluster', 'run-record.json'), 'utf8')) as { timing: { steps: { id: string; seconds: number }[] } }).timing.steps;
     expect(new Set(timing.filter((t) => t.id.includes(' fold ')).map((t) => t.seconds)).size).toBeGreaterThan(1);
     // batch folders of arrays that succeeded are removed
     expect(readdirSync(join(s.cache, 'tasks'))).toEqual([]);
@@ -62,7 +62,7 @@ describe('the Slurm executor (stand-in commands)', () => {
     expect(r.out).toContain('submitted 6 steps in 2 tasks as Slurm job array 101');
     const local = await cli(['run', s.recipe, '--no-cache', '--workers', '1', '--out', join(s.dir, 'b')]);
     expect(local.code).toBe(0);
-    const steps = (dir: string) => readFileSync(join(s.dir, dir, 'manifest.json'), 'utf8').match(/"output": "[0-9a-f]{64}"/g);
+    const steps = (dir: string) => readFileSync(join(s.dir, dir, 'run-record.json'), 'utf8').match(/"output": "[0-9a-f]{64}"/g);
     expect(steps('a')).toEqual(steps('b'));
   });
 
@@ -89,14 +89,14 @@ describe('the Slurm executor (stand-in commands)', () => {
     // the rerun grows only the cancelled trees, then explains
     expect(calls().map(arrayOf)).toEqual(['--array=0-2', '--array=0-3', '--array=0', '--array=0']);
     expect(second.out).toContain('submitted 1 step as Slurm job array 103');
-    const manifest = (dir: string) => JSON.parse(readFileSync(join(s.dir, dir, 'manifest.json'), 'utf8')) as { steps: { id: string; key: string; output: string }[] };
+    const manifest = (dir: string) => JSON.parse(readFileSync(join(s.dir, dir, 'run-record.json'), 'utf8')) as { steps: { id: string; key: string; output: string }[] };
     const outputs = (dir: string) => manifest(dir).steps.map((x) => [x.id, x.output]);
     expect(outputs('cluster')).toEqual(outputs('local'));
     // the parts are gone from the cache once merged; the forest's output is there
     const fit = manifest('cluster').steps.find((x) => x.id === 'fit forest')!;
     const cache = new Cache(s.cache);
-    expect([0, 1, 2].map((b) => cache.get(partKey(fit.key, b, b + 1), 'bytes').status)).toEqual(['miss', 'miss', 'miss']);
-    expect(cache.get(fit.key, 'record').status).toBe('hit');
+    expect([0, 1, 2].map((b) => cache.get({ kind: 'fit', key: partKey(fit.key, b, b + 1), codec: 'bytes' }).status)).toEqual(['miss', 'miss', 'miss']);
+    expect(cache.get({ kind: 'fit', key: fit.key, codec: 'record' }).status).toBe('hit');
   });
 
   it('submits a task lost with its node once more, and only that task', async () => {

@@ -30,7 +30,7 @@ describe('a cluster task', () => {
   it('refuses parts of a step whose kind does not divide', async () => {
     vi.spyOn(process.stderr, 'write').mockImplementation(() => true);
     const cache = makeFolder({});
-    const step = { id: 'holdout', kind: 'holdout', params: {}, locator: {}, key: 'k'.repeat(64), seedKey: 's', seed: 1, codec: 'bytes' as const, inputs: [], part: { first: 0, end: 1, of: 'h' } };
+    const step = { id: 'holdout', kind: 'holdout', params: {}, locator: {}, key: 'c'.repeat(64), seedKey: 's', seed: 1, codec: 'bytes' as const, inputs: [], part: { first: 0, end: 1, of: 'h' } };
     const file = batchFile({ cache, tasks: [[step]] });
     expect(await runTask(file, 0)).toBe(1);
     expect(failureOf(file, 0)).toEqual({ step: 'holdout', message: 'step holdout is given as parts, but steps of kind holdout do not divide', exitCode: 2 });

@@ -73,7 +73,7 @@ describe('deduplicate in a recipe', () => {
   it('defaults keep to first, drops the repeats and says so in the cleaning table', async () => {
     const s = scenario({ 'recipe.yaml': RECIPE, 'data/obs.csv': dataWithRepeats() });
     await expectOutcome(s.dir, ['run', s.recipe, '--cache', s.cache, '--workers', '1'], { code: 0, changes: ['out/small/'] });
-    const manifest = JSON.parse(readFileSync(join(s.dir, 'out/small/manifest.json'), 'utf8'));
+    const manifest = JSON.parse(readFileSync(join(s.dir, 'out/small/run-record.json'), 'utf8'));
     expect(manifest.recipe.normalized.clean).toEqual([{ kind: 'deduplicate', columns: ['site', 'x1'], keep: 'first' }]);
     expect(readFileSync(join(s.dir, 'out/small/report.html'), 'utf8')).toContain('3 rows dropped: 3 values of site, x1 appear more than once (kept the first of each)');
   });

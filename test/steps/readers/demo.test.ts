@@ -14,7 +14,7 @@ describe('the stream-temperature demo (NetCDF-4 grid joined to station samples),
       recursive: true,
       filter: (src) => !src.includes(join('stream-temperature', 'out')),
     });
-    const r = spawnSync(process.execPath, [join(root, 'bin', 'dendrolog.js'), 'run', 'stream/recipe.yaml', '--no-cache'], { cwd: work, encoding: 'utf8' });
+    const r = spawnSync(process.execPath, [join(root, 'bin', 'dendrolog.js'), 'run', 'stream/stream-temperature.yaml', '--no-cache'], { cwd: work, encoding: 'utf8' });
     expect(r.stderr).toBe('');
     expect(r.status).toBe(0);
     const samples = readFileSync(join(work, 'stream', 'data', 'samples.csv'), 'utf8').trim().split('\n').length - 1;
@@ -25,7 +25,7 @@ describe('the stream-temperature demo (NetCDF-4 grid joined to station samples),
     // its folds are half-degree blocks: the protocol says so and maps the rows by fold
     expect(report).toContain('4 folds by spatial blocks (squares of 0.5 on lon and lat, each whole on one side)');
     expect(report).toContain('<figure class="plot" id="fig-split-map">');
-    const manifest = JSON.parse(readFileSync(join(work, 'stream', 'out', 'stream-temperature', 'manifest.json'), 'utf8')) as { recipe: { normalized: { blocks: unknown } } };
+    const manifest = JSON.parse(readFileSync(join(work, 'stream', 'out', 'stream-temperature', 'run-record.json'), 'utf8')) as { recipe: { normalized: { blocks: unknown } } };
     expect(manifest.recipe.normalized.blocks).toEqual({ x: 'lon', y: 'lat', size: 0.5 });
   });
 });
