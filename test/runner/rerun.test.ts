@@ -7,6 +7,7 @@ import { predictRun } from '../../runner/predict.js';
 import { silentProgress } from '../../runner/progress.js';
 import { displayOf } from '../../runner/recipe.js';
 import { readManifest } from '../../runner/run-folder.js';
+import type { Manifest } from '../../runner/manifest.js';
 import { runRecipe } from '../../runner/run.js';
 import { verifyRun } from '../../runner/verify.js';
 import { sha256 } from '../../core/hash.js';
@@ -32,6 +33,20 @@ async function run(recipe = FOREST, extra: Record<string, string> = {}, workers 
   const r = await runRecipe(join(dir, 'recipe.yaml'), { cache: join(dir, '.cache'), workers, progress: silentProgress() });
   return { dir, ...r };
 }
+
+/**
+ * Two made-up run records for compare, three models on the same holdout: a's R² moves from 0.5 to
+ * 0.9, beyond the old interval 0.4 to 0.6; b's to 0.55, within it; c's stays. Only R² changes.
+ */
+const FAKE_PAIR = (() => {
+  const scores = (r2: number) => ({ r2: { value: r2 }, rmse: { value: 1 }, mae: { value: 1 }, bias: { value: 0 } });
+  const interval = { r2: { low: 0.4, high: 0.6 }, rmse: { low: 0.8, high: 1.2 }, mae: { low: 0.8, high: 1.2 }, bias: { low: -0.1, high: 0.1 } };
+  const model = (name: string, r2: number) => ({ name, chosen: {}, metrics: { holdout: scores(r2), holdoutInterval90: interval }, importance: null });
+  const split = { by: 'group', unit: 'group' as const, holdoutUnits: 2, trainingUnits: 6, digest: '1'.repeat(64), holdout: ['g1', 'g2'] };
+  const record = (a: number, b: number) =>
+    ({ recipe: { normalized: { name: 'x' } }, sources: [], models: [model('a', a), model('b', b), model('c', 0.5)], warnings: [], headline: { model: 'a' }, split }) as unknown as Manifest;
+  return { old: record(0.5, 0.5), new: record(0.9, 0.55) };
+})();
 
 const noTiming = (m: object) => ({ ...m, timing: null });
 
@@ -124,7 +139,31 @@ describe('compare', () => {
     expect(c.holdout).toEqual({ status: 'same', unit: 'group', old: { unit: 'group', holdout: 3, training: 9 }, new: { unit: 'group', holdout: 3, training: 9 }, nowHeldOut: [], noLongerHeldOut: [] });
     expect(c.metrics.length).toBeGreaterThan(0);
     expect(c.metrics.every((m) => m.comparable)).toBe(true);
-    expect(comparisonMarkdown(c, 'a', 'b')).toContain('Same holdout: the same 3 groups held out in both runs');
+    const md = comparisonMarkdown(c, 'a', 'b');
+    expect(md).toContain('Same holdout: the same 3 groups held out in both runs');
+    // the verdict leads: the holdout, then one line per model judged against the old interval
+    expect(md.split('\n')[2]).toMatch(/^\*\*Verdict\.\*\* Both runs held out the same 3 groups, so each change is judged against the old run's 90% bootstrap interval\. Of the models, /);
+    const forest = c.verdicts.find((v) => v.model === 'forest')!;
+    expect(['within', 'beyond']).toContain(forest.verdict);
+    const outside = c.metrics.filter((m) => m.model === 'forest' && m.outsideOldInterval).length;
+    expect(forest.verdict).toBe(outside > 0 ? 'beyond' : 'within');
+    const line = md.split('\n').find((l) => l.startsWith('- **`forest`**'))!;
+    for (const m of c.metrics.filter((x) => x.model === 'forest')) expect(line).toContain(m.outsideOldInterval ? '(**beyond** the old interval ' : '(within the old interval ');
+    expect(md.indexOf('**Verdict.**')).toBeLessThan(md.indexOf('### Details'));
+  });
+
+  it("judges each model on its own: beyond the old interval, within it, or unchanged", () => {
+    const c = compareManifests(FAKE_PAIR.old, FAKE_PAIR.new);
+    expect(c.verdicts).toEqual([
+      { model: 'a', verdict: 'beyond', headline: { old: true, new: true } },
+      { model: 'b', verdict: 'within', headline: { old: false, new: false } },
+      { model: 'c', verdict: 'unchanged', headline: { old: false, new: false } },
+    ]);
+    const md = comparisonMarkdown(c, 'old', 'new');
+    expect(md).toContain("Of the models, 1 of 3 moved beyond the old run's interval; 1 changed within it; 1 kept its holdout scores.");
+    expect(md).toContain("- **`a`** (headline in both runs): moved beyond the old run's interval. R² 0.500 → 0.900 (**beyond** the old interval 0.400 to 0.600).");
+    expect(md).toContain("- **`b`**: changed within the old run's interval. R² 0.500 → 0.550 (within the old interval 0.400 to 0.600).");
+    expect(md).toContain('- **`c`**: the same holdout scores.');
   });
 
   it('says which groups moved when the holdout changed, and does not judge metrics against the old interval', async () => {
@@ -143,7 +182,8 @@ describe('compare', () => {
     expect(md).toContain('**The holdout changed** (3 groups → 3 groups held out)');
     expect(md).toContain(`- held out now, not before: ${c.holdout.nowHeldOut!.length} group`);
     expect(md).toContain(`\`${c.holdout.nowHeldOut![0]}\``);
-    expect(md).toContain('not comparable (other holdout)');
+    expect(md).toContain('not comparable: other holdout');
+    expect(md).toContain('The holdout changed, so the two runs were scored on different rows');
   });
 
   it('counts moved rows without naming them, and says when a holdout was too large to list', async () => {
@@ -176,16 +216,26 @@ describe('compare', () => {
     expect(c.metrics.every((x) => !x.comparable)).toBe(true);
     const md = comparisonMarkdown(c, 'a', 'b');
     expect(md).toContain('Not known: a run predates the record of its holdout');
-    expect(md).toContain('not known (no holdout record)');
-    expect(md).not.toContain('not comparable (other holdout)');
+    expect(md).toContain('not judged: no holdout record');
+    expect(md).not.toContain('not comparable: other holdout');
   });
 
   it('reports exactly the added grid value as the recipe change', async () => {
     const a = await run();
     const b = await run(FOREST.replace('min_leaf: [2, 4]', 'min_leaf: [2, 4, 6]'));
     const c = compareManifests(readManifest(a.outDir), readManifest(b.outDir));
-    expect(c.recipe).toEqual([{ path: 'models.forest.grid.min_leaf', old: [2, 4], new: [2, 4, 6] }]);
+    expect(c.recipe).toEqual([{ path: 'models.forest.grid.min_leaf', keys: ['models', 'forest', 'grid', 'min_leaf'], old: [2, 4], new: [2, 4, 6] }]);
     expect(c.data).toEqual([]);
+    // shown where it sits in the recipe, as a diff of its YAML
+    expect(comparisonMarkdown(c, 'a', 'b')).toContain(['```diff', ' models:', '   forest:', '     grid:', '-      min_leaf: [2,4]', '+      min_leaf: [2,4,6]', '```'].join('\n'));
+  });
+
+  it('keeps recipe values inside their diff block, whatever backticks they hold', () => {
+    const m = { ...FAKE_PAIR.old, recipe: { ...FAKE_PAIR.old.recipe, normalized: { name: 'x', clean: [{ keep_rows: 'a' }] } } } as unknown as Manifest;
+    const n = { ...m, recipe: { ...m.recipe, normalized: { name: 'x', clean: [{ keep_rows: '```\n# injected' }] } } } as unknown as Manifest;
+    const md = comparisonMarkdown(compareManifests(m, n), 'a', 'b');
+    expect(md).toContain(['````diff', ' clean:', '   (item 1):', '-    keep_rows: "a"', '+    keep_rows: "```\\n# injected"', '````'].join('\n'));
+    expect(md).not.toContain('\n# injected');
   });
 });
 
