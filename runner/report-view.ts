@@ -1,5 +1,6 @@
 import type { MetricSet } from '../models/metrics.js';
-import { cellLabel, isLearned, recipeContract, targetScaleWords, varyingParams } from '../steps/index.js';
+import { cellLabel, isLearned, modelKinds, recipeContract, targetScaleWords, varyingParams } from '../steps/index.js';
+import { scoreLadder } from './score-ladder.js';
 import { formatCount, formatNumber, formatSetting } from './format.js';
 import type { Manifest } from './manifest.js';
 import type { Recipe } from '../core/recipe-types.js';
@@ -50,8 +51,20 @@ export function reportView(recipe: Recipe, results: Results, manifest: Manifest,
         : null,
       holdoutRows: formatCount(results.holdout.test),
       interval: intervalView(best.predictionInterval, recipe, results.folds.k),
+      chooseBy: METRIC_LABELS[recipe.evaluation.choose_by],
+      ladder: scoreLadder(
+        results.models.map((m) => ({
+          name: m.name,
+          role: m.name === best.name ? 'chosen' : modelKinds[m.kind].baseline !== null ? 'baseline' : '',
+          value: m.holdout.r2.value,
+          reason: m.holdout.r2.reason ?? undefined,
+          low: m.intervals.r2.low,
+          high: m.intervals.r2.high,
+        })),
+      ),
       skill: Object.entries(best.skill).map(([b, s]) => ({ baseline: b, value: s === null ? `undefined (${best.skillReasons[b] ?? 'no value'})` : formatNumber(s) })),
       warnings: results.warnings.length,
+      warningsWord: results.warnings.length === 1 ? 'warning' : 'warnings',
     },
     sources: results.sources.map((s) => ({
       name: s.name,
