@@ -1,4 +1,4 @@
-import { formatNumber } from './format.js';
+import { formatMetric } from './format.js';
 import type { Manifest } from './manifest.js';
 
 export interface RecipeChange {
@@ -263,7 +263,7 @@ function modelLine(v: ModelVerdict, c: Comparison): string {
   const parts = c.metrics
     .filter((m) => m.model === v.model)
     .map((m) => {
-      const interval = m.oldInterval.low === null || m.oldInterval.high === null ? null : `${formatNumber(m.oldInterval.low)} to ${formatNumber(m.oldInterval.high)}`;
+      const interval = m.oldInterval.low === null || m.oldInterval.high === null ? null : `${formatMetric(m.metric, m.oldInterval.low)} to ${formatMetric(m.metric, m.oldInterval.high)}`;
       const judged =
         c.holdout.status === 'unknown'
           ? 'not judged: no holdout record'
@@ -274,7 +274,7 @@ function modelLine(v: ModelVerdict, c: Comparison): string {
               : m.outsideOldInterval
                 ? `**beyond** the old interval ${interval}`
                 : `within the old interval ${interval}`;
-      return `${METRIC_WORDS.get(m.metric) ?? m.metric} ${formatNumber(m.old)} → ${formatNumber(m.new)} (${judged})`;
+      return `${METRIC_WORDS.get(m.metric) ?? m.metric} ${formatMetric(m.metric, m.old)} → ${formatMetric(m.metric, m.new)} (${judged})`;
     });
   return `- ${name}: ${said}. ${parts.join('; ')}.${choice}`;
 }

@@ -2,7 +2,9 @@ import * as vega from 'vega';
 import * as vl from 'vega-lite';
 import type { TopLevelSpec } from 'vega-lite';
 import { TARGET_SCALES, targetScaleWords, varyingParams, type ExplainOutput } from '../steps/index.js';
-import { formatSetting } from './format.js';
+import { formatCount, formatMetric, formatNumber, formatSetting } from './format.js';
+import { gridHeatmap, HEAT_DARK, HEAT_LIGHT } from './grid-heatmap.js';
+import { timeResidualView } from './time-view.js';
 import type { Recipe } from '../core/recipe-types.js';
 import { shortenText } from './shorten.js';
 import type { Results } from './results.js';
@@ -86,7 +88,7 @@ export async function buildFigures(recipe: Recipe, results: Results): Promise<Re
   // a scatter of more points than a reader can tell apart only makes the page heavy: every step-th row
   const step = Math.max(1, Math.ceil(rows.length / MAX_SCATTER_POINTS));
   const drawn = step > 1 ? rows.filter((_, i) => i % step === 0) : rows;
-  const scatterWords = step > 1 ? `${drawn.length.toLocaleString('en')} of the ${rows.length.toLocaleString('en')} holdout rows (one in every ${step}, in holdout order)` : `${rows.length} holdout rows`;
+  const scatterWords = step > 1 ? `${formatCount(drawn.length)} of the ${formatCount(rows.length)} holdout rows (one in every ${step}, in holdout order)` : `${formatCount(rows.length)} holdout rows`;
   const holdout: Figure[] = [];
   // with a target scale, observed against predicted in the quantity's own units, on a log axis
   // (the same picture, read in those units); else on the model's scale
@@ -157,6 +159,8 @@ export async function buildFigures(recipe: Recipe, results: Results): Promise<Re
         }),
     );
   }
+  const timed = results.timeResiduals ? timeResidualView(results.timeResiduals, head.name, target, [SECOND, ACCENT]) : null;
+  if (timed) holdout.push(await figure('residuals-time', timed.title, timed.description, timed.spec));
 
   const drivers: Figure[] = [];
   if (head.explain) {
@@ -198,24 +202,25 @@ export async function buildFigures(recipe: Recipe, results: Results): Promise<Re
   const by = recipe.evaluation.choose_by;
   for (const m of results.models) {
     const varying = varyingParams(recipe.models[m.name].grid);
-    if (varying.length < 2) continue;
+    const heat = gridHeatmap(m, varying, by, results.folds.k);
+    if (!heat) continue;
     const [a, b] = varying;
-    const best = new Map<string, { a: string; b: string; score: number }>();
-    for (const c of m.cells) {
-      const v = c.pooled[by].value;
-      if (v === null) continue;
-      const key = `${formatSetting(c.cell[a])}|${formatSetting(c.cell[b])}`;
-      const prev = best.get(key);
-      if (!prev || (by === 'r2' ? v > prev.score : v < prev.score)) best.set(key, { a: formatSetting(c.cell[a]), b: formatSetting(c.cell[b]), score: v });
-    }
-    const rest = varying.slice(2);
+    const word = by === 'r2' ? 'R²' : by.toUpperCase();
+    const noise =
+      heat.se === null
+        ? 'No fold-to-fold spread is known, so no square is marked as within it.'
+        : `Dashed: within one standard error (${formatNumber(heat.se)}, the sd of its per-fold scores ÷ √${results.folds.k}), which this data cannot tell apart from it (CART's one-standard-error rule).`;
     grid.push(
-      await figure(`grid-${m.name}`, `Cross-validated ${by.toUpperCase()} over ${a} and ${b} (${m.name})`,
-        `Heat map of the pooled cross-validated ${by} for each combination of ${a} and ${b}${rest.length ? `, taking the best over ${rest.join(', ')}` : ''}; ${by === 'r2' ? 'higher' : 'lower'} is better.`,
+      await figure(`grid-${m.name}`, `Cross-validated ${word} over ${a} and ${b} (${m.name})`,
+        `Pooled cross-validated ${word} for each ${a} × ${b}${heat.rest.length ? ` (best over ${heat.rest.join(', ')})` : ''}; ${by === 'r2' ? 'higher' : 'lower'} is better. ` +
+          `Colour from ${formatMetric(by, heat.worst)} (light) to ${formatMetric(by, heat.best)} (dark, best), at least four standard errors of the chosen cell wide, so fold-to-fold noise looks alike. ` +
+          `Solid outline: the chosen cell. ${noise}`,
         {
           width: { step: 72 },
           height: { step: 40 },
-          data: { values: [...best.values()] },
+          data: { values: heat.cells },
+          // the labels' colours are given, not scaled: their colour channel must not join the squares'
+          resolve: { scale: { color: 'independent' } },
           encoding: {
             x: { field: 'a', type: 'ordinal', title: a, sort: null },
             y: { field: 'b', type: 'ordinal', title: b, sort: null },
@@ -227,12 +232,14 @@ export async function buildFigures(recipe: Recipe, results: Results): Promise<Re
                 color: {
                   field: 'score',
                   type: 'quantitative',
-                  title: `${by} (CV)`,
-                  scale: { scheme: 'greens', reverse: by !== 'r2' },
+                  title: `${word} (CV)`,
+                  scale: { domain: [heat.worst, heat.best], range: [HEAT_LIGHT, HEAT_DARK], interpolate: 'rgb', clamp: true },
                 },
               },
             },
-            { mark: { type: 'text', fontSize: 11, color: INK }, encoding: { text: { field: 'score', type: 'quantitative', format: '.3~r' } } },
+            { transform: [{ filter: 'datum.near' }], mark: { type: 'rect', filled: false, stroke: '#000000', strokeWidth: 1.5, strokeDash: [4, 3] } },
+            { transform: [{ filter: 'datum.chosen' }], mark: { type: 'rect', filled: false, stroke: '#000000', strokeWidth: 3 } },
+            { mark: { type: 'text', fontSize: 11 }, encoding: { text: { field: 'label', type: 'nominal' }, color: { field: 'ink', type: 'nominal', scale: null } } },
           ],
         }),
     );
@@ -257,10 +264,10 @@ async function splitMapFigures(recipe: Recipe, results: Results): Promise<Figure
     const values = edges(v);
     return values ? { scale: { zero: false, domain: [values[0], values[values.length - 1]] }, axis: { values } } : { scale: { zero: false, padding: 12 } };
   };
-  const sample = map.step > 1 ? ` (one in every ${map.step} of ${map.rows.toLocaleString('en')} rows)` : '';
+  const sample = map.step > 1 ? ` (one in every ${map.step} of ${formatCount(map.rows)} rows)` : '';
   return [
     await figure('split-map', `Rows on ${b.x} and ${b.y}, by holdout and fold`,
-      `Map of ${map.points.length.toLocaleString('en')} modelling rows${sample} on their coordinates ${b.x} and ${b.y}, coloured by the holdout and by the fold each training row is tested in; grid lines mark the square blocks of ${formatSetting(b.size)} on a side where they are few enough to draw.`,
+      `Map of ${formatCount(map.points.length)} modelling rows${sample} on their coordinates ${b.x} and ${b.y}, coloured by the holdout and by the fold each training row is tested in; grid lines mark the square blocks of ${formatSetting(b.size)} on a side where they are few enough to draw.`,
       {
         width: 420,
         height: 360,

@@ -1,7 +1,7 @@
 import type { MetricSet } from '../models/metrics.js';
-import { cellLabel, isLearned, modelKinds, recipeContract, targetScaleWords, varyingParams } from '../steps/index.js';
+import { cellLabel, isLearned, modelKinds, recipeContract, targetScaleWords, varyingParams, type ColumnProfile } from '../steps/index.js';
 import { scoreLadder } from './score-ladder.js';
-import { formatCount, formatNumber, formatSetting } from './format.js';
+import { formatCount, formatFixed, formatMetric, formatNumber, formatPercent, formatSetting, formatValue } from './format.js';
 import type { Manifest } from './manifest.js';
 import type { Recipe } from '../core/recipe-types.js';
 import type { Results } from './results.js';
@@ -10,6 +10,24 @@ import { table } from '../core/dict.js';
 
 const METRIC_LABELS: Record<string, string> = table({ r2: 'R²', rmse: 'RMSE', mae: 'MAE', bias: 'Bias (predicted − observed)' });
 
+/** One column's line of a profile table: type, units, missing count, and range or categories. */
+function columnRow(c: ColumnProfile & { units?: string }) {
+  return {
+    name: c.name,
+    type: c.type,
+    units: c.units ?? '',
+    missing: formatCount(c.missing),
+    range:
+      c.min !== undefined
+        ? c.type === 'date'
+          ? `${new Date(c.min).toISOString().slice(0, 10)} to ${new Date(c.max!).toISOString().slice(0, 10)}`
+          : `${formatValue(c.min)} to ${formatValue(c.max)}`
+        : c.categories
+          ? `${c.distinct} distinct: ${c.categories.map((k) => `${k.value} (${k.count})`).join(', ')}${(c.distinct ?? 0) > c.categories.length ? ', …' : ''}`
+          : 'no values',
+  };
+}
+
 /** Everything the templates show, already formatted: templates only lay it out and escape it. */
 export function reportView(recipe: Recipe, results: Results, manifest: Manifest, figures: Record<string, Figure[]> = {}) {
   const best = results.models.find((m) => m.name === results.chosenModel)!;
@@ -17,15 +35,15 @@ export function reportView(recipe: Recipe, results: Results, manifest: Manifest,
   const gridMetrics = [...new Set([recipe.evaluation.choose_by, 'r2' as const])];
   // intervals from a handful of holdout groups or rows carry the label wherever they are shown
   const unreliable = results.holdout.unreliable;
-  const intervalText = (low: number | null, high: number | null) =>
-    low === null ? '' : `${formatNumber(low)} to ${formatNumber(high)}${unreliable ? ', unreliable' : ''}`;
+  const intervalText = (k: string, low: number | null, high: number | null) =>
+    low === null ? '' : `${formatMetric(k, low)} to ${formatMetric(k, high)}${unreliable ? ', unreliable' : ''}`;
   const metricRow = (label: string, source: string, m: MetricSet, interval?: Results['models'][number]['intervals']) => ({
     label,
     source,
     n: formatCount(m.n),
     values: recipe.evaluation.metrics.map((k) => ({
-      value: m[k].value === null ? `undefined (${m[k].reason})` : formatNumber(m[k].value),
-      interval: interval ? intervalText(interval[k].low, interval[k].high) : '',
+      value: m[k].value === null ? `undefined (${m[k].reason})` : formatMetric(k, m[k].value),
+      interval: interval ? intervalText(k, interval[k].low, interval[k].high) : '',
     })),
   });
   return {
@@ -36,9 +54,9 @@ export function reportView(recipe: Recipe, results: Results, manifest: Manifest,
     headline: {
       model: best.name,
       kind: best.kind,
-      r2: best.holdout.r2.value === null ? 'undefined' : formatNumber(best.holdout.r2.value),
+      r2: best.holdout.r2.value === null ? 'undefined' : formatMetric('r2', best.holdout.r2.value),
       r2Reason: best.holdout.r2.reason ?? '',
-      r2Interval: intervalText(best.intervals.r2.low, best.intervals.r2.high),
+      r2Interval: intervalText('r2', best.intervals.r2.low, best.intervals.r2.high),
       unreliable: unreliable ?? '',
       rmse: formatNumber(best.holdout.rmse.value),
       original: best.original
@@ -62,7 +80,7 @@ export function reportView(recipe: Recipe, results: Results, manifest: Manifest,
           high: m.intervals.r2.high,
         })),
       ),
-      skill: Object.entries(best.skill).map(([b, s]) => ({ baseline: b, value: s === null ? `undefined (${best.skillReasons[b] ?? 'no value'})` : formatNumber(s) })),
+      skill: Object.entries(best.skill).map(([b, s]) => ({ baseline: b, value: s === null ? `undefined (${best.skillReasons[b] ?? 'no value'})` : formatMetric('r2', s) })),
       warnings: results.warnings.length,
       warningsWord: results.warnings.length === 1 ? 'warning' : 'warnings',
     },
@@ -73,21 +91,9 @@ export function reportView(recipe: Recipe, results: Results, manifest: Manifest,
       tableSha256: s.tableSha256,
       hasUnits: s.columns.some((c) => c.units),
       rows: formatCount(s.rows),
-      columns: s.columns.map((c) => ({
-        name: c.name,
-        type: c.type,
-        units: c.units ?? '',
-        missing: formatCount(c.missing),
-        range:
-          c.min !== undefined
-            ? c.type === 'date'
-              ? `${new Date(c.min).toISOString().slice(0, 10)} to ${new Date(c.max!).toISOString().slice(0, 10)}`
-              : `${formatNumber(c.min)} to ${formatNumber(c.max)}`
-            : c.categories
-              ? `${c.distinct} distinct: ${c.categories.map((k) => `${k.value} (${k.count})`).join(', ')}${(c.distinct ?? 0) > c.categories.length ? ', …' : ''}`
-              : 'no values',
-      })),
+      columns: s.columns.map(columnRow),
     })),
+    modelTable: { rows: formatCount(results.modelTable.rows), columns: results.modelTable.columns.map(columnRow) },
     cleaning: results.cleaning.map((c) => ({
       step: c.id,
       rowsIn: formatCount(c.rowsIn),
@@ -107,13 +113,13 @@ export function reportView(recipe: Recipe, results: Results, manifest: Manifest,
       kind: best.kind,
       cell: best.chosenLabel,
       used: Object.entries(best.used).map(([k, v]) => ({ name: k, value: formatSetting(v) })),
-      oob: best.oobR2 === null ? null : formatNumber(best.oobR2),
+      oob: best.oobR2 === null ? null : formatMetric('r2', best.oobR2),
     },
     protocol: {
       rows: formatCount(results.holdout.train + results.holdout.test),
       foldCells: Array.from({ length: results.folds.k }, (_, i) => i + 1),
       holdoutBy: splitWords(results.holdout.by, recipe, 'holdout'),
-      fraction: formatNumber(results.holdout.fraction * 100, 0).replace(/\.0+$/, ''),
+      fraction: formatValue(results.holdout.fraction * 100),
       train: formatCount(results.holdout.train),
       test: formatCount(results.holdout.test),
       // plain numbers for the bar's CSS flex: a thousands separator would make the value invalid
@@ -149,7 +155,7 @@ export function reportView(recipe: Recipe, results: Results, manifest: Manifest,
         failed: c.failed ?? '',
         scores: gridMetrics.flatMap((k) => {
           const s = c.perFold[k];
-          return [c.pooled[k].value === null ? 'undefined' : formatNumber(c.pooled[k].value), s.mean === null ? '—' : `${formatNumber(s.mean)} ± ${formatNumber(s.sd)}`];
+          return [c.pooled[k].value === null ? 'undefined' : formatMetric(k, c.pooled[k].value), s.mean === null ? '—' : `${formatMetric(k, s.mean)} ± ${formatNumber(s.sd)}`];
         }),
       })),
       used: Object.entries(m.used).map(([k, v]) => ({ name: k, value: formatSetting(v) })),
@@ -158,7 +164,7 @@ export function reportView(recipe: Recipe, results: Results, manifest: Manifest,
         metricRow('cross-validated', `pooled out-of-fold predictions, ${results.folds.k} folds`, m.crossValidated),
         metricRow('training', 'in-sample: not skill', m.training),
       ],
-      oob: m.oobR2 === null ? null : formatNumber(m.oobR2),
+      oob: m.oobR2 === null ? null : formatMetric('r2', m.oobR2),
       importance: (m.explain?.importance ?? []).map((i) => ({ predictor: i.predictor, mean: formatNumber(i.mean), sd: formatNumber(i.sd) })),
       repeats: m.explain?.repeats ?? 0,
       interval: intervalView(m.predictionInterval, recipe, results.folds.k),
@@ -174,7 +180,7 @@ export function reportView(recipe: Recipe, results: Results, manifest: Manifest,
       dependencies: Object.entries(manifest.environment.dependencies).map(([k, v]) => `${k} ${v}`).join(', '),
       git: manifest.git ? `${manifest.git.commit.slice(0, 12)}${manifest.git.dirty ? ' (with uncommitted changes)' : ''}` : 'not in a git repository',
       started: manifest.timing.started,
-      seconds: formatNumber(manifest.timing.seconds, 1),
+      seconds: formatFixed(manifest.timing.seconds, 1),
       steps: manifest.steps.length,
     },
   };
@@ -186,13 +192,13 @@ export type ReportView = ReturnType<typeof reportView>;
 const LISTED_GROUPS = 12;
 
 function percent(share: number): string {
-  return `${formatNumber(100 * share, 1)}%`;
+  return formatPercent(share, 1);
 }
 
 /** A model's prediction intervals and their coverage, in words and a by-group table; null when the recipe turned them off. */
 function intervalView(pi: Results['models'][number]['predictionInterval'], recipe: Recipe, k: number) {
   if (!pi) return null;
-  const level = `${formatNumber(100 * pi.level, 2).replace(/\.?0+$/, '')}%`;
+  const level = `${formatValue(100 * pi.level)}%`;
   const units =
     pi.unitKind === 'groups' ? `${formatCount(pi.units)} training groups (${recipe.groups}), each counting once`
     : pi.unitKind === 'blocks' ? `${formatCount(pi.units)} training blocks, each counting once`

@@ -5,7 +5,7 @@ import type { FitOutput } from '../steps/index.js';
 import type { FoldsOutput } from '../steps/index.js';
 import type { HeadlineOutput } from '../steps/index.js';
 import type { HoldoutOutput } from '../steps/index.js';
-import { cellLabel } from '../steps/index.js';
+import { cellLabel, profileFrame } from '../steps/index.js';
 import type { ColumnProfile } from '../steps/index.js';
 import type { ScoreOutput } from '../steps/index.js';
 import type { IntervalFoldOutput, PredictionIntervalOutput } from '../steps/index.js';
@@ -58,6 +58,12 @@ export interface ModelResult {
 }
 
 /** Everything the report and manifest say about a run, gathered from step outputs. */
+/** A row's time (a number, or milliseconds since 1970 for a date) and its residual. */
+export interface TimedResidual {
+  t: number;
+  residual: number;
+}
+
 export interface Results {
   sources: SourceResult[];
   cleaning: { id: string; rowsIn: number; rowsOut: number; detail: string }[];
@@ -88,6 +94,14 @@ export interface Results {
    * every step-th row in model-table order when there are many. Null without blocks.
    */
   splitMap: { points: { x: number; y: number; set: string }[]; step: number; rows: number } | null;
+  /**
+   * With a declared time column, the headline model's residuals (observed − predicted) over time:
+   * holdout rows by the final fit, training rows by the fold model that did not see them (rows no
+   * fold tests are left out). Null without a time column.
+   */
+  /** The table every model saw, after cleaning and the row-wise features, before the learned ones. */
+  modelTable: { rows: number; columns: ColumnProfile[] };
+  timeResiduals: { time: string; date: boolean; holdout: TimedResidual[]; outOfFold: TimedResidual[] } | null;
   /** The headline model's fold models and CV+ table, for the model file; null without prediction intervals. */
   headlineInterval: { output: PredictionIntervalOutput; folds: IntervalFoldOutput[] } | null;
   /** The headline model's prediction for every modelling row, in model-table order; holdout rows with their prediction interval. */
@@ -181,10 +195,28 @@ export function gatherResults(recipe: Recipe, plan: Plan, exec: Execution): Resu
     headlineFit: out(plan.models[best].fit) as FitOutput,
     headlineInterval,
     splitMap: recipe.blocks ? splitMap((out(plan.modelTable) as FrameOutput).frame, recipe.blocks, split, folds) : null,
+    modelTable: { rows: (out(plan.modelTable) as FrameOutput).frame.rows, columns: profileFrame((out(plan.modelTable) as FrameOutput).frame) },
+    timeResiduals: recipe.time
+      ? timeResiduals((out(plan.modelTable) as FrameOutput).frame, recipe.time, split, targetValues, bestScore.predictions, out(plan.models[best].cells[(out(plan.models[best].choose) as ChooseOutput).chosen]) as CrossValidateOutput)
+      : null,
     predictions: [
       ...split.train.map((row, k) => ({ row, set: 'training' as const, observed: targetValues[row], predicted: bestScore.trainingPredictions[k] })),
       ...split.test.map((row, k) => ({ row, set: 'holdout' as const, observed: targetValues[row], predicted: bestScore.predictions[k], ...(bounds ? { low: bounds.low[k], high: bounds.high[k] } : {}) })),
     ].sort((a, b) => a.row - b.row),
+  };
+}
+
+/** Residuals over the time column, for rows whose time and prediction are finite numbers. */
+function timeResiduals(frame: Frame, time: string, split: HoldoutOutput, observed: Float64Array, holdoutPredictions: number[], cv: CrossValidateOutput): NonNullable<Results['timeResiduals']> {
+  const col = column(frame, time);
+  const t = col.values as Float64Array;
+  const keep = (row: number, p: number | null): TimedResidual[] =>
+    p !== null && Number.isFinite(p) && Number.isFinite(t[row]) && Number.isFinite(observed[row]) ? [{ t: t[row], residual: observed[row] - p }] : [];
+  return {
+    time,
+    date: col.type === 'date',
+    holdout: split.test.flatMap((row, k) => keep(row, holdoutPredictions[k])),
+    outOfFold: split.train.flatMap((row, k) => keep(row, cv.predictions[k])),
   };
 }
 

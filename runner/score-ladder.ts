@@ -1,4 +1,4 @@
-import { formatNumber } from './format.js';
+import { formatFixed, formatMetric } from './format.js';
 
 /** One model's holdout R² and its 90% interval, as the results hold them (null where undefined). */
 export interface LadderInput {
@@ -54,7 +54,7 @@ export function scoreLadder(models: LadderInput[]): Ladder {
   // round multiples of the step, so 0 and 1 are always among them
   for (let k = Math.ceil(from / step - 1e-9); k * step <= to + 1e-9; k++) {
     const v = Math.round(k * step * 10) / 10;
-    ticks.push({ left: pct(at(v)), label: formatNumber(v, 1) });
+    ticks.push({ left: pct(at(v)), label: formatFixed(v, 1) });
   }
   const ordered = [...models.filter((m) => m.role === 'chosen'), ...models.filter((m) => m.role !== 'chosen')];
   const rungs = ordered.map((m): LadderRung => {
@@ -64,11 +64,11 @@ export function scoreLadder(models: LadderInput[]): Ladder {
       name: m.name,
       role: m.role,
       chosen: m.role === 'chosen',
-      value: has ? formatNumber(m.value) : `undefined${m.reason ? ` (${m.reason})` : ''}`,
+      value: has ? formatMetric('r2', m.value) : `undefined${m.reason ? ` (${m.reason})` : ''}`,
       dot: has ? pct(at(m.value!)) : null,
       span: spanned ? { left: pct(at(m.low!)), width: pct(at(m.high!) - at(m.low!)) } : null,
       below: (has && m.value! < from) || (spanned && m.low! < from),
     };
   });
-  return { rungs, ticks, domain: `${formatNumber(from, 1)} to ${formatNumber(to, 1)}` };
+  return { rungs, ticks, domain: `${formatFixed(from, 1)} to ${formatFixed(to, 1)}` };
 }

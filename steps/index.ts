@@ -108,6 +108,7 @@ export type { HoldoutOutput } from './holdout.js';
 export { cellLabel, engineFor, gridCells, gridWithDefaults, modelKinds, modelSchema, varyingParams } from './model-kinds.js';
 export type { GridValue } from './model-kinds.js';
 export type { ColumnProfile } from './profile.js';
+export { profileFrame } from './profile.js';
 export { ROW_COLUMN } from './new-rows.js';
 export { BLOCK_COLUMN, blockName, unitColumn } from './split-util.js';
 export { readDefaults } from './source.js';

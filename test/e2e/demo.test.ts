@@ -17,6 +17,22 @@ function dendrolog(args: string[], cwd: string) {
   return { code: r.status, out: r.stdout, err: r.stderr };
 }
 
+/**
+ * WCAG 2.x contrast ratio of two CSS rgb() colours (W3C, "Web Content Accessibility Guidelines 2.1",
+ * definitions of relative luminance and contrast ratio), written out here apart from the report's own.
+ */
+function contrast(a: string, b: string): number {
+  const lum = (c: string) => {
+    const [r, g, bl] = (c.match(/\d+(\.\d+)?/g) ?? []).slice(0, 3).map((v) => {
+      const s = Number(v) / 255;
+      return s <= 0.03928 ? s / 12.92 : ((s + 0.055) / 1.055) ** 2.4;
+    });
+    return 0.2126 * r + 0.7152 * g + 0.0722 * bl;
+  };
+  const [hi, lo] = [lum(a), lum(b)].sort((x, y) => y - x);
+  return (hi + 0.05) / (lo + 0.05);
+}
+
 const SECTIONS = ['Headline', 'Data', 'Cleaning', 'Features', 'Protocol', 'Grid', 'Chosen model', 'Holdout', 'Drivers', 'Warnings', 'Cautions', 'Reproducibility'];
 
 describe('the demo recipe, end to end through the built command', () => {
@@ -149,6 +165,48 @@ describe('the demo recipe, end to end through the built command', () => {
         await page.screenshot({ path: join(SHOTS, `demo-report-${width}.png`), fullPage: true });
         await page.close();
       }
+    });
+
+    it.runIf(enabled)('reaches every section from the contents list at the top', async () => {
+      const page = await browser!.newPage({ viewport: { width: 1280, height: 900 } });
+      await page.goto(`file://${join(outDir(), 'report.html')}`);
+      const { links, sections } = await page.evaluate(() => ({
+        links: [...document.querySelectorAll('nav.contents a')].map((a) => ({ href: a.getAttribute('href') ?? '', text: a.textContent ?? '' })),
+        sections: [...document.querySelectorAll('section > h2')].map((h) => ({ id: h.parentElement!.id, text: h.textContent ?? '' })),
+      }));
+      expect(links.map((l) => l.href)).toEqual(sections.map((s) => `#${s.id}`));
+      for (const [i, l] of links.entries()) expect(l.text.startsWith(sections[i].text)).toBe(true);
+      // following a link scrolls its section to the top
+      await page.click('nav.contents a[href="#drivers"]');
+      expect(await page.evaluate(() => Math.round(document.getElementById('drivers')!.getBoundingClientRect().top))).toBeLessThanOrEqual(1);
+      await page.close();
+    });
+
+    it.runIf(enabled)('labels every heat-map square with at least 4.5:1 contrast (WCAG 2.x), measured on the rendered SVG; screenshots of the headline, heat map and time view', async () => {
+      const page = await browser!.newPage({ viewport: { width: 1280, height: 900 } });
+      await page.goto(`file://${join(outDir(), 'report.html')}`);
+      const pairs = await page.evaluate(() => {
+        const out: { label: string; text: string; square: string }[] = [];
+        for (const svg of document.querySelectorAll('figure[id^="fig-grid-"] svg')) {
+          const squares = [...svg.querySelectorAll('.layer_0_marks path')];
+          for (const t of svg.querySelectorAll('.layer_3_marks text')) {
+            const r = t.getBoundingClientRect();
+            const [x, y] = [r.left + r.width / 2, r.top + r.height / 2];
+            const under = squares.find((p) => {
+              const b = p.getBoundingClientRect();
+              return x >= b.left && x <= b.right && y >= b.top && y <= b.bottom;
+            });
+            out.push({ label: t.textContent ?? '', text: getComputedStyle(t).fill, square: under ? getComputedStyle(under).fill : 'none' });
+          }
+        }
+        return out;
+      });
+      expect(pairs.length).toBeGreaterThanOrEqual(4);
+      for (const p of pairs) expect(contrast(p.text, p.square), `${p.label}: ${p.text} on ${p.square}`).toBeGreaterThanOrEqual(4.5);
+      for (const [id, name] of [['headline', 'headline'], ['fig-grid-forest', 'heat-map'], ['fig-residuals-time', 'time-view']]) {
+        await page.locator(`#${id}`).screenshot({ path: join(SHOTS, `demo-${name}-1280.png`) });
+      }
+      await page.close();
     });
   });
 });

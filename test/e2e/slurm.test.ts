@@ -60,14 +60,14 @@ describe.runIf(enabled)('the Slurm executor on a real cluster', () => {
     cpSync(join(root, 'recipes', 'lake-chlorophyll'), join(work, 'lake'), { recursive: true, filter: (src) => !src.includes(join('lake-chlorophyll', 'out')) });
     const local = await dendrolog(['run', 'lake/lake-chlorophyll.yaml', '--no-cache', '--out', 'local'], work);
     expect(local.code, local.err).toBe(0);
-    // 120 folds of 24 cells: eight to a task keeps the scheduler's seconds per task from dominating;
+    // 150 folds of 30 cells (24 of the forest, 4 of the tree, one each of linear and mean): eight to a task keeps the scheduler's seconds per task from dominating;
     // the final forest's 200 trees grow as two tasks of 100
     const cluster = await dendrolog(['run', 'lake/lake-chlorophyll.yaml', '--cache', 'cache', '--executor', 'slurm', '--slurm-steps-per-task', '8', '--slurm-trees-per-task', '100', '--out', 'cluster'], work);
     expect(cluster.code, cluster.err).toBe(0);
     // cross-validation folds, final fits and explanations: three arrays
     const arrays = cluster.out.split('\n').map(submitted).filter((m) => m !== null);
     expect(arrays.map((m) => [m[1], m[2]])).toEqual([
-      ['120', '15'],
+      ['150', '19'],
       // the final fits and the prediction intervals' fold models (4 models × 5 folds): the forest's
       // two tasks of trees, and the other 22 steps eight to a task
       ['24', '5'],

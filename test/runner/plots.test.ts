@@ -27,7 +27,7 @@ describe('scatter plots on many rows', () => {
       const figure = report.slice(report.indexOf(`<figure class="plot" id="fig-${id}">`), report.indexOf('</figure>', report.indexOf(`id="fig-${id}"`)));
       // 5,200 holdout rows: one in every 3
       expect(figure.match(/aria-roledescription="circle"/g)).toHaveLength(1734);
-      expect(figure).toContain('1,734 of the 5,200 holdout rows (one in every 3, in holdout order)');
+      expect(figure).toContain('1\u2009734 of the 5\u2009200 holdout rows (one in every 3, in holdout order)');
     }
   }, 60_000);
 });
