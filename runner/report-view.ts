@@ -108,6 +108,7 @@ export function reportView(recipe: Recipe, results: Results, manifest: Manifest,
     })),
     figures,
     headlineRepeats: best.explain?.repeats ?? 0,
+    headlineRepeatsPlural: (best.explain?.repeats ?? 0) !== 1,
     chosen: {
       name: best.name,
       kind: best.kind,
