@@ -9,10 +9,13 @@ import { table } from './dict.js';
 export class DendrologError extends Error {
   /** 2: bad usage or bad recipe; 1: the analysis failed. */
   readonly exitCode: 1 | 2;
-  constructor(message: string, exitCode: 1 | 2) {
+  /** The declared column the problem is about, when it is about one: check adds where the recipe declares it. */
+  readonly column?: string;
+  constructor(message: string, exitCode: 1 | 2, column?: string) {
     super(message);
     this.name = 'DendrologError';
     this.exitCode = exitCode;
+    if (column !== undefined) this.column = column;
   }
 }
 
@@ -215,6 +218,10 @@ export const messages = {
   csvUnterminatedQuote: (file: string, line: number) =>
     `${file}:${line}: a quoted field starts here and is never closed; add the closing quote`,
   csvEmpty: (file: string) => `${file}: the file is empty; it needs a header row`,
+  cachePruneNeedsRule: () =>
+    'cache prune needs --unused-by PATH (entries no run record under PATH lists), --older-than DAYS, or both; nothing was removed',
+  cacheSubcommand: (given: string) => `cache has no "${given}"; use "cache info", "cache verify" or "cache prune"`,
+  declaredAt: (problem: string, column: string, where: string) => `${problem} (${q(column)} is declared at ${where})`,
   sourceNoRows: (file: string, detail: string) =>
     `${file}: ${detail}, so there is nothing to analyse; add the data rows, or check that the source names the right file`,
   textNotDecodable: (file: string, line: number, offset: number, byte: number, encoding: string, declared: boolean, utf16?: 'utf-16le' | 'utf-16be') =>

@@ -9,9 +9,18 @@ const HEADER_LIMIT = 512;
 /** How `put` names a file before renaming it into place: `<key>.tmp-<pid>-<12 hex>`. */
 const TEMPORARY = /^[0-9a-f]{64}\.tmp-\d+-[0-9a-f]{12}$/;
 /** A step kind's folder name, as the registry spells kinds. */
-const KIND = /^[a-z][a-z0-9_]*$/;
+export const KIND = /^[a-z][a-z0-9_]*$/;
 /** A step key (or a part's key): 64 hex digits. */
-const KEY = /^[0-9a-f]{64}$/;
+export const KEY = /^[0-9a-f]{64}$/;
+
+/** One stored entry as the folder holds it. */
+export interface CacheEntryFile {
+  kind: string;
+  key: string;
+  path: string;
+  bytes: number;
+  mtimeMs: number;
+}
 /** Age after which an unfinished write's temporary file is taken as abandoned: no write takes an hour. */
 export const ABANDONED_WRITE_MS = 3_600_000;
 
@@ -157,6 +166,53 @@ export class Cache {
       }
     }
     return removed;
+  }
+
+  /** Whether an entry file is at the address (its content unchecked: a read checks it). */
+  has({ kind, key }: { kind: string; key: string }): boolean {
+    return fs.existsSync(this.pathOf(kind, key));
+  }
+
+  /**
+   * Every entry file of dendrolog's naming (a kind folder, a 64-hex name), in kind and key order;
+   * anything else in the folder is not listed, so nothing else is ever touched through this list.
+   */
+  list(): CacheEntryFile[] {
+    const out: CacheEntryFile[] = [];
+    let kinds: string[];
+    try {
+      kinds = fs.readdirSync(this.dir).filter((d) => KIND.test(d)).sort();
+    } catch {
+      return out;
+    }
+    for (const kind of kinds) {
+      let names: string[];
+      try {
+        names = fs.readdirSync(join(this.dir, kind)).filter((n) => KEY.test(n)).sort();
+      } catch {
+        continue;
+      }
+      for (const key of names) {
+        const path = join(this.dir, kind, key);
+        const st = fs.lstatSync(path, { throwIfNoEntry: false });
+        if (st?.isFile()) out.push({ kind, key, path, bytes: st.size, mtimeMs: st.mtimeMs });
+      }
+    }
+    return out;
+  }
+
+  /** The entry's problem when it is read, without removing it: null for a sound entry. */
+  inspect({ kind, key }: { kind: string; key: string }): CacheDiscard | null {
+    let data: Buffer;
+    try {
+      data = this.io.readFileSync(this.pathOf(kind, key));
+    } catch {
+      return null;
+    }
+    const entry = parseEntry(data);
+    if (entry === 'previous') return { reason: 'format', start: 'an older layout' };
+    if ('reason' in entry) return entry;
+    return entry.storedKey !== key ? { reason: 'key', storedKey: entry.storedKey } : null;
   }
 
   /** Stores bytes under key; a file-system refusal comes back as `{stored: false}` with its code. */

@@ -1,68 +1,26 @@
 import { relative, resolve } from 'node:path';
 import { parseArgs } from 'node:util';
 import { DendrologError, isFileSystemRefusal, messages } from '../core/messages.js';
-import { streamProgress } from './progress.js';
+import { notesOnly, streamProgress } from './progress.js';
+import { COMMAND_HELP, GENERAL_HELP } from './cli-help.js';
+import { planListing } from './plan-listing.js';
+import { cacheCheck, cacheInfo, cachePrune } from './cache-admin.js';
+import { Cache } from './cache.js';
+import { RUN_FILES } from './run-files.js';
 import { loadRecipe } from './recipe.js';
 import { displayOf } from './paths.js';
-import { DEFAULT_CACHE, defaultWorkers, runRecipe } from './run.js';
+import { cacheFromEnvironment, DEFAULT_CACHE, defaultWorkers, runRecipe } from './run.js';
 import { closest } from '../core/suggest.js';
 import { verifyRun } from './verify.js';
 import { compareManifests, comparisonMarkdown } from './compare.js';
 import { predictRun } from './predict.js';
 import { readManifest } from './run-folder.js';
+import { CHECK_ROWS, checkData } from './check-data.js';
 import { SLURM_SETTINGS, slurmOptions, type SlurmOptions } from './slurm.js';
 import { runTask } from './task.js';
 
-const HELP = `dendrolog — run a tree and forest regression recipe and write an audit report
 
-Usage:
-  dendrolog run RECIPE [--out DIR] [--cache DIR] [--no-cache] [--workers N] [--executor local|slurm]
-  dendrolog check RECIPE
-  dendrolog verify RUN_FOLDER [--workers N] [--executor local|slurm]
-  dendrolog compare OLD_RUN_FOLDER NEW_RUN_FOLDER [--format markdown|json]
-  dendrolog predict RUN_FOLDER DATA_FILE --out PREDICTIONS.csv
-  dendrolog --help | --version
-
-Commands:
-  run     plan the recipe's steps, take unchanged ones from the cache, run the rest,
-          and write report.html, summary.md, run-record.json, model.dendro and predictions.csv
-  check   validate the recipe (schema, names, expressions, source files) without running it
-  verify  rerun a run folder's recipe from its sources with an empty cache and say
-          "reproduced", or name the first step that differs and the likely cause
-  compare what changed between two runs (recipe, data, choices, metrics, importance,
-          warnings), as Markdown for a pull request or as JSON
-  predict apply a run's cleaning, features and headline model to new data; one output
-          line per input row, in order, with a reason where no prediction is possible
-
-Options for run:
-  --out DIR      output folder (default: <recipe folder>/<report.folder>/<recipe name>)
-  --cache DIR    cache folder (default: ${DEFAULT_CACHE} under the current folder)
-  --no-cache     neither read nor write the cache
-  --workers N    threads for cross-validation folds, final fits and trees (default: the number of
-                 cores); results are identical for any N
-
-Options for run and verify on a Slurm cluster (see the README's cluster section); each may
-instead be set by the environment variable in brackets, and the option wins:
-  --executor local|slurm    where folds, final fits and explanations run (default local);
-                            with slurm, as Slurm job arrays: the cache (and for verify the
-                            current folder) must be on a file system every node shares;
-                            outputs are identical to a local run
-  --slurm-partition P       partition                        [DENDROLOG_SLURM_PARTITION]
-  --slurm-time T            time per task, e.g. 2:00:00      [DENDROLOG_SLURM_TIME]
-  --slurm-mem M             memory per task, e.g. 8G         [DENDROLOG_SLURM_MEM]
-  --slurm-account A         account                          [DENDROLOG_SLURM_ACCOUNT]
-  --slurm-max-running N     tasks of one array at once       [DENDROLOG_SLURM_MAX_RUNNING]
-  --slurm-cpus N            cores per task (default 1)       [DENDROLOG_SLURM_CPUS]
-  --slurm-steps-per-task N  steps each task runs (default 1) [DENDROLOG_SLURM_STEPS_PER_TASK]
-  --slurm-trees-per-task N  trees of a final forest per task [DENDROLOG_SLURM_TREES_PER_TASK]
-
-Exit codes:
-  0  success (verify: reproduced)
-  1  the analysis failed (bad data, a step error; verify: not reproduced)
-  2  bad usage or a bad recipe
-`;
-
-const COMMANDS = ['run', 'check', 'verify', 'compare', 'predict', 'task'];
+const COMMANDS = ['run', 'check', 'plan', 'verify', 'compare', 'predict', 'cache', 'task'];
 
 /**
  * Entry point: parses arguments, runs the command, prints errors as one line each, returns the exit code.
@@ -72,10 +30,17 @@ const COMMANDS = ['run', 'check', 'verify', 'compare', 'predict', 'task'];
 export async function main(argv: string[]): Promise<number> {
   const out = process.stdout;
   const err = process.stderr;
+  let json = false;
   try {
     const [command, ...rest] = argv;
+    if (command === 'help' && rest.length > 0) {
+      const topic = rest[0];
+      if (!Object.hasOwn(COMMAND_HELP, topic)) throw new DendrologError(messages.usageUnknownCommand(topic, closest(topic, Object.keys(COMMAND_HELP))), 2);
+      out.write(COMMAND_HELP[topic]);
+      return 0;
+    }
     if (!command || command === '--help' || command === '-h' || command === 'help') {
-      out.write(HELP);
+      out.write(GENERAL_HELP);
       return command ? 0 : 2;
     }
     if (command === '--version') {
@@ -84,9 +49,10 @@ export async function main(argv: string[]): Promise<number> {
     }
     if (!COMMANDS.includes(command)) throw new DendrologError(messages.usageUnknownCommand(command, closest(command, COMMANDS)), 2);
     if (rest.includes('--help') || rest.includes('-h')) {
-      out.write(HELP);
+      out.write(Object.hasOwn(COMMAND_HELP, command) ? COMMAND_HELP[command] : GENERAL_HELP);
       return 0;
     }
+    json = rest.includes('--json');
     if (command === 'task') {
       // what a Slurm array task runs (not listed in --help: dendrolog writes this command itself)
       const { positionals } = parse(rest, {}, command);
@@ -95,23 +61,52 @@ export async function main(argv: string[]): Promise<number> {
       return await runTask(positionals[0], index);
     }
     if (command === 'check') {
-      const { positionals } = parse(rest, {}, command);
+      const { positionals } = parse(rest, { json: { type: 'boolean' } }, command);
       const recipe = onePositional(positionals, command);
-      const { recipe: r } = loadRecipe(recipe, { checkFiles: true });
-      out.write(`${recipe}: ok (${Object.keys(r.sources).length} sources, ${Object.keys(r.models).length} models)\n`);
+      const { recipe: r, origin } = loadRecipe(recipe, { checkFiles: true });
+      // the recipe is sound; now the data, cheaply: columns present and the first rows of the declared types
+      const problems = await checkData(r, origin);
+      if (problems.length > 0) throw new DendrologError(problems.join('\n'), 1);
+      const n = Object.keys(r.sources).length;
+      const line = `${recipe}: ok (${n} source${n === 1 ? '' : 's'}, the first ${CHECK_ROWS.toLocaleString('en-US')} rows of each read with the declared types; ${Object.keys(r.models).length} models)\n`;
+      if (json) {
+        err.write(line);
+        out.write(JSON.stringify({ ok: true, recipe, sources: n, models: Object.keys(r.models).length, rowsChecked: CHECK_ROWS }, null, 2) + '\n');
+      } else out.write(line);
       return 0;
     }
+    if (command === 'plan') {
+      const { values, positionals } = parse(rest, { cache: { type: 'string' }, json: { type: 'boolean' } }, command);
+      const recipe = onePositional(positionals, command);
+      const listing = planListing(recipe, (values.cache as string | undefined) ?? cacheFromEnvironment() ?? DEFAULT_CACHE);
+      const cached = listing.steps.filter((st) => st.cached).length;
+      const summary = `${listing.steps.length} steps: ${cached} in the cache, ${listing.steps.length - cached} to run\n`;
+      if (json) {
+        err.write(summary);
+        out.write(JSON.stringify({ recipe, cache: listing.cache, steps: listing.steps }, null, 2) + '\n');
+      } else {
+        out.write(listing.steps.map((st) => `${st.cached ? 'cached' : 'to run'}  ${st.key.slice(0, 12)}  ${st.id}\n`).join('') + summary);
+      }
+      return 0;
+    }
+    if (command === 'cache') {
+      return cacheCommand(rest, out, err);
+    }
     if (command === 'verify') {
-      const { values, positionals } = parse(rest, { workers: { type: 'string' }, ...EXECUTOR_OPTIONS }, command);
+      const { values, positionals } = parse(rest, { workers: { type: 'string' }, quiet: { type: 'boolean' }, json: { type: 'boolean' }, ...EXECUTOR_OPTIONS }, command);
       const folder = onePositional(positionals, command, 'a run folder');
-      const result = await verifyRun(folder, { workers: workersOf(values.workers), progress: streamProgress(err), slurm: executorOf(values) });
-      out.write(result.lines.join('\n') + '\n');
+      const result = await verifyRun(folder, { workers: workersOf(values.workers), progress: values.quiet ? notesOnly(err) : streamProgress(err), slurm: executorOf(values) });
+      if (json) {
+        err.write(result.lines.join('\n') + '\n');
+        out.write(JSON.stringify({ reproduced: result.reproduced, folder, lines: result.lines }, null, 2) + '\n');
+      } else out.write(result.lines.join('\n') + '\n');
       return result.reproduced ? 0 : 1;
     }
     if (command === 'compare') {
-      const { values, positionals } = parse(rest, { format: { type: 'string' } }, command);
+      const { values, positionals } = parse(rest, { format: { type: 'string' }, json: { type: 'boolean' } }, command);
       if (positionals.length !== 2) throw new DendrologError(messages.usageMissingArgument('two run folders, the old then the new', command), 2);
-      const format = (values.format as string | undefined) ?? 'markdown';
+      const format = (values.format as string | undefined) ?? (json ? 'json' : 'markdown');
+      if (json && format !== 'json') throw new DendrologError(messages.usageOptionValue('--format', format, '"json" together with --json'), 2);
       if (format !== 'markdown' && format !== 'json') throw new DendrologError(messages.usageOptionValue('--format', format, '"markdown" or "json"'), 2);
       const [a, b] = positionals.map((p) => readManifest(p));
       const comparison = compareManifests(a, b);
@@ -123,7 +118,8 @@ export async function main(argv: string[]): Promise<number> {
       if (positionals.length !== 2) throw new DendrologError(messages.usageMissingArgument('a run folder and a data file', command), 2);
       if (!values.out) throw new DendrologError(messages.usageMissingArgument('--out PREDICTIONS.csv', command), 2);
       const s = await predictRun(positionals[0], positionals[1], values.out as string);
-      out.write(
+      // with the predictions on stdout, the summary goes to stderr
+      (values.out === '-' ? err : out).write(
         `${s.predicted} of ${s.rows} rows predicted, ${s.notPredicted} not (reasons in the file), ${s.outsideRange} with a predictor outside the training range\n` +
           (s.intervalLevel !== null ? `each prediction has its ${+(100 * s.intervalLevel).toFixed(2)}% prediction interval (low_ and high_ columns; see the run's report for its measured coverage)\n` : '') +
           (s.skippedSteps.length ? `the file has no target, so these steps that need it were skipped: ${s.skippedSteps.join(', ')}\n` : '') +
@@ -134,7 +130,7 @@ export async function main(argv: string[]): Promise<number> {
     }
     const { values, positionals } = parse(
       rest,
-      { out: { type: 'string' }, cache: { type: 'string' }, 'no-cache': { type: 'boolean' }, workers: { type: 'string' }, ...EXECUTOR_OPTIONS },
+      { out: { type: 'string' }, cache: { type: 'string' }, 'no-cache': { type: 'boolean' }, workers: { type: 'string' }, quiet: { type: 'boolean' }, json: { type: 'boolean' }, ...EXECUTOR_OPTIONS },
       command,
     );
     const recipe = onePositional(positionals, command);
@@ -145,22 +141,44 @@ export async function main(argv: string[]): Promise<number> {
       cache: values.cache as string | undefined,
       noCache: Boolean(values['no-cache']),
       workers,
-      progress: streamProgress(out),
+      // with --json, stdout holds the one JSON document: the lines a person reads go to stderr
+      progress: values.quiet ? notesOnly(json ? err : out) : streamProgress(json ? err : out),
       slurm: executorOf(values),
     });
     const where = relative(process.cwd(), result.outDir) || '.';
     const warnings = result.manifest.warnings;
     const w = warnings.length;
     // each warning in full, not only its count: a reader of the console should not need the report for them
-    out.write(
+    const seconds = (performance.now() - t0) / 1000;
+    (json ? err : out).write(
       `\nReport: ${where}/report.html\nSummary: ${where}/summary.md\nRun record: ${where}/run-record.json\n` +
         warningLines(warnings) +
-        `${w} warning${w === 1 ? '' : 's'}; finished in ${((performance.now() - t0) / 1000).toFixed(1)} s\n`,
+        `${w} warning${w === 1 ? '' : 's'}; finished in ${seconds.toFixed(1)} s\n`,
     );
+    if (json) {
+      const m = result.manifest;
+      out.write(
+        JSON.stringify(
+          {
+            ok: true,
+            folder: where,
+            files: Object.fromEntries(Object.entries(RUN_FILES).map(([k, f]) => [k, `${where}/${f}`])),
+            headline: { model: m.headline.model, metric: m.headline.metric, value: m.headline.value, measuredOn: m.headline.label },
+            warnings: warnings.map((x) => ({ code: x.code, message: x.message, count: x.count })),
+            steps: { total: m.steps.length, cached: m.timing.steps.filter((x) => x.status === 'cached').length },
+            seconds: Number(seconds.toFixed(3)),
+          },
+          null,
+          2,
+        ) + '\n',
+      );
+    }
     return 0;
   } catch (e) {
     if (e instanceof DendrologError) {
       err.write(`${e.message}\n`);
+      // the one JSON document a script waits for, even on failure
+      if (json) out.write(JSON.stringify({ ok: false, exitCode: e.exitCode, problems: e.message.split('\n') }, null, 2) + '\n');
       return e.exitCode;
     }
     // the file system refusing (full disk, no permission, a folder where a file should be) is the
@@ -231,4 +249,44 @@ function workersOf(value: string | boolean | undefined): number {
 /** One line per warning, with how often it came when more than once. */
 function warningLines(warnings: { message: string; count: number }[]): string {
   return warnings.map((w) => `warning: ${w.message}${w.count > 1 ? ` (×${w.count})` : ''}\n`).join('');
+}
+
+/** `dendrolog cache [info|verify|prune]`: the cache's size, its entries checked, or pruned by a rule. */
+function cacheCommand(rest: string[], out: { write(s: string): unknown }, err: { write(s: string): unknown }): number {
+  const { values, positionals } = parse(
+    rest,
+    { cache: { type: 'string' }, json: { type: 'boolean' }, 'unused-by': { type: 'string' }, 'older-than': { type: 'string' }, 'dry-run': { type: 'boolean' } },
+    'cache',
+  );
+  const sub = positionals[0] ?? 'info';
+  if (positionals.length > 1) throw new DendrologError(messages.usageTooManyArguments('cache', 'one of info, verify, prune', positionals), 2);
+  const cache = new Cache(resolve((values.cache as string | undefined) ?? cacheFromEnvironment() ?? DEFAULT_CACHE));
+  const where = displayOf(cache.dir);
+  const mib = (b: number) => `${(b / 2 ** 20).toFixed(1)} MiB`;
+  if (sub === 'info') {
+    const info = cacheInfo(cache);
+    if (values.json) {
+      out.write(JSON.stringify({ ...info, dir: where }, null, 2) + '\n');
+      return 0;
+    }
+    out.write(info.kinds.map((k) => `${k.kind.padEnd(20)} ${String(k.entries).padStart(7)} entries  ${mib(k.bytes).padStart(11)}\n`).join(''));
+    out.write(`${where}: ${info.entries} entries, ${mib(info.bytes)}\n`);
+    return 0;
+  }
+  if (sub === 'verify') {
+    const { checked, bad } = cacheCheck(cache);
+    for (const b of bad) err.write(`${displayOf(b.path)} ${b.problem}\n`);
+    out.write(`${where}: ${checked} entries read, ${bad.length} bad${bad.length ? ' (a run discards and recomputes them; "cache prune" does not pick them out)' : ''}\n`);
+    return bad.length ? 1 : 0;
+  }
+  if (sub === 'prune') {
+    const days = values['older-than'] === undefined ? undefined : Number(values['older-than']);
+    if (days !== undefined && (!Number.isFinite(days) || days < 0)) throw new DendrologError(messages.usageOptionValue('--older-than', String(values['older-than']), 'a number of days, 0 or more'), 2);
+    const unusedBy = values['unused-by'] as string | undefined;
+    const r = cachePrune(cache, { unusedBy: unusedBy === undefined ? undefined : resolve(unusedBy), olderThanDays: days, dryRun: Boolean(values['dry-run']) });
+    if (values['dry-run']) for (const f of r.removed) out.write(`would remove ${displayOf(f.path)}\n`);
+    out.write(`${where}: ${values['dry-run'] ? 'would remove' : 'removed'} ${r.removed.length} entries (${mib(r.bytes)}), kept ${r.kept}\n`);
+    return 0;
+  }
+  throw new DendrologError(messages.cacheSubcommand(sub), 2);
 }

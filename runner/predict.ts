@@ -51,7 +51,8 @@ export async function predictRun(folder: string, dataFile: string, outFile: stri
   const dataPath = resolve(dataFile);
   if (!existsSync(dataPath)) throw new DendrologError(messages.dataFileMissing(dataFile), 2);
   if (!statSync(dataPath).isFile()) throw new DendrologError(messages.dataFileNotAFile(dataFile), 2);
-  checkPredictionsTarget(outFile, {
+  // "-": the CSV goes to stdout, nothing is written
+  if (outFile !== '-') checkPredictionsTarget(outFile, {
     folder: outDir,
     data: dataPath,
     runInputs: [resolve(outDir, manifest.recipe.file), ...Object.values(recipe.sources).map((s) => resolve(recipeDir, s.file))],
@@ -155,7 +156,8 @@ export async function predictRun(folder: string, dataFile: string, outFile: stri
     fields.push(outside[r], p === null ? (reason[r] ?? 'not predicted') : '');
     lines.push(fields.map(csvField).join(','));
   }
-  replaceFile(outFile, lines.join('\n') + '\n');
+  if (outFile === '-') process.stdout.write(lines.join('\n') + '\n');
+  else replaceFile(outFile, lines.join('\n') + '\n');
   return {
     rows: input.rows,
     predicted: predictions.filter((p) => p !== null).length,

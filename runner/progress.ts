@@ -65,3 +65,15 @@ export function silentProgress(lines: string[] = []): Progress {
     },
   };
 }
+
+/** Progress for --quiet: no line per step, but notes (an old cache folder, a cache that cannot be written) still shown. */
+export function notesOnly(stream: { write(s: string): unknown }): Progress {
+  return {
+    start() {},
+    update() {},
+    finish() {},
+    note(text) {
+      stream.write(`${text}\n`);
+    },
+  };
+}

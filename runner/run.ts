@@ -23,7 +23,7 @@ import { DendrologError, messages } from '../core/messages.js';
 export interface RunOptions {
   /** Output folder; default `<recipe folder>/<report.folder>/<recipe name>`. */
   out?: string;
-  /** Cache folder; default `dendrolog-cache` under the working folder. */
+  /** Cache folder; default DENDROLOG_CACHE, else `dendrolog-cache` under the working folder. */
   cache?: string;
   noCache?: boolean;
   /** Threads for grid cells, final fits and trees; default defaultWorkers(), one per core. */
@@ -48,6 +48,12 @@ export function defaultWorkers(): number {
 
 /** Default cache folder, relative to the working folder. */
 export const DEFAULT_CACHE = 'dendrolog-cache';
+
+/** The cache folder the DENDROLOG_CACHE environment variable names, when it names one. */
+export function cacheFromEnvironment(): string | undefined {
+  const v = process.env.DENDROLOG_CACHE;
+  return v === undefined || v.trim() === '' ? undefined : v;
+}
 
 /** Where dendrolog versions before DEFAULT_CACHE kept the default cache; never read, only pointed out. */
 export const OLD_DEFAULT_CACHE = join('.dendrolog', 'cache');
@@ -77,8 +83,8 @@ export async function runRecipe(recipePath: string, opts: RunOptions): Promise<R
   prepareRunFolder(outDir);
   // 4–6: plan, execute, gather
   if (opts.slurm && opts.noCache) throw new DendrologError(messages.clusterNeedsCache(), 2);
-  const cache = opts.noCache ? null : new Cache(resolve(opts.cache ?? DEFAULT_CACHE));
-  if (cache && opts.cache === undefined && existsSync(OLD_DEFAULT_CACHE)) opts.progress.note(messages.oldCacheFolder(OLD_DEFAULT_CACHE, DEFAULT_CACHE));
+  const cache = opts.noCache ? null : new Cache(resolve(opts.cache ?? cacheFromEnvironment() ?? DEFAULT_CACHE));
+  if (cache && opts.cache === undefined && cacheFromEnvironment() === undefined && existsSync(OLD_DEFAULT_CACHE)) opts.progress.note(messages.oldCacheFolder(OLD_DEFAULT_CACHE, DEFAULT_CACHE));
   cache?.sweepTemporaries(ABANDONED_WRITE_MS);
   const { execution, results } = await executeRecipe(recipe, origin, { cache, workers: opts.workers ?? defaultWorkers(), progress: opts.progress, slurm: opts.slurm });
   // 7: render and write

@@ -12,7 +12,7 @@ import { type RecipeOrigin } from './recipe.js';
 import { displayOf } from './paths.js';
 import type { Recipe } from '../core/recipe-types.js';
 import { OLD_FILES, readManifest, runFolderChanges, runRecordPath, RUN_FILES } from './run-folder.js';
-import { DEFAULT_CACHE, executeRecipe } from './run.js';
+import { cacheFromEnvironment, DEFAULT_CACHE, executeRecipe } from './run.js';
 import type { SlurmOptions } from './slurm.js';
 import { dict } from '../core/dict.js';
 import { recipeFromManifest } from './stored-recipe.js';
@@ -89,7 +89,7 @@ export async function verifyRun(folder: string, opts: { workers: number; progres
   };
   // cluster tasks read and write the cache, so under Slurm the empty cache sits inside the default
   // one, in the working folder, which the nodes share; a local rerun uses the machine's own temp folder
-  const tempBase = opts.slurm ? resolve(DEFAULT_CACHE) : tmpdir();
+  const tempBase = opts.slurm ? resolve(cacheFromEnvironment() ?? DEFAULT_CACHE) : tmpdir();
   mkdirSync(tempBase, { recursive: true });
   const cacheDir = mkdtempSync(join(tempBase, 'verify-'));
   let rerun;

@@ -111,7 +111,7 @@ export type { ColumnProfile } from './profile.js';
 export { profileFrame } from './profile.js';
 export { ROW_COLUMN } from './new-rows.js';
 export { BLOCK_COLUMN, blockName, unitColumn } from './split-util.js';
-export { readDefaults } from './source.js';
+export { READERS, readDefaults, readRequest, type SourceParams } from './source.js';
 export { readHeaderLine } from './readers/csv.js';
 export { COMMON_ENCODINGS, StrictTextStream, decodeStrict, encodingName } from './readers/text-decode.js';
 export { parseValue } from './readers/values.js';

@@ -23,6 +23,8 @@ export interface ReadRequest {
   variables: string[] | null;
   select: Record<string, CoordinateRange>;
   progress?: (fraction: number) => void;
+  /** Read at most this many data rows (check reads the first rows only); readers of columnar formats may read all. */
+  maxRows?: number;
 }
 
 /** What a reader hands back: typed columns, plus what the step notes need. */

@@ -72,6 +72,8 @@ export function buildColumns(
   where: (row: number) => string,
 ): ReadResult {
   const { display } = req;
+  // check reads the first rows only
+  rows = req.maxRows === undefined ? rows : Math.min(rows, req.maxRows);
   const missing = new Set(req.missing);
   const opts = { decimal: '.' as const, dateFormat: req.dateFormat };
   const undeclared = fileColumns.filter((c) => !Object.hasOwn(req.columns, c));
@@ -80,14 +82,14 @@ export function buildColumns(
   if (req.undeclared === 'text') for (const c of undeclared) wanted.push([c, 'string']);
   const columns = wanted.map(([name, type]) => {
     const at = get(name);
-    if (!at) throw new DendrologError(messages.declaredColumnMissing(display, name, fileColumns, closest(name, fileColumns)), 1);
+    if (!at) throw new DendrologError(messages.declaredColumnMissing(display, name, fileColumns, closest(name, fileColumns)), 1, name);
     const sink = columnSink(name, type);
     sink.reserve(rows);
     for (let i = 0; i < rows; i++) {
       const raw = at(i);
       const v = convertValue(raw, type, missing, opts);
-      if (v === undefined && type === 'number' && overflowsFloat(raw)) throw new DendrologError(messages.valueNotFinite(`${display}: ${where(i)}`, name, showValue(raw)), 1);
-      if (v === undefined) throw new DendrologError(messages.valueParseAt(display, where(i), name, showValue(raw), typeLabel(type, req.dateFormat)), 1);
+      if (v === undefined && type === 'number' && overflowsFloat(raw)) throw new DendrologError(messages.valueNotFinite(`${display}: ${where(i)}`, name, showValue(raw)), 1, name);
+      if (v === undefined) throw new DendrologError(messages.valueParseAt(display, where(i), name, showValue(raw), typeLabel(type, req.dateFormat)), 1, name);
       sink.add(v);
     }
     return sink.finish();

@@ -37,8 +37,8 @@ function readOpen(file: NcFile, req: ReadRequest): ReadResult {
   const names = req.variables ?? Object.keys(req.columns).filter((c) => !allDims.has(c));
   const vars: NcVariable[] = names.map((n) => {
     const v = byName.get(n);
-    if (!v) throw new DendrologError(messages.netcdfUnknownVariable(display, n, known, closest(n, known)), 1);
-    if (!NUMERIC.has(v.type)) throw new DendrologError(messages.netcdfNotNumeric(display, n, v.type), 1);
+    if (!v) throw new DendrologError(messages.netcdfUnknownVariable(display, n, known, closest(n, known)), 1, n);
+    if (!NUMERIC.has(v.type)) throw new DendrologError(messages.netcdfNotNumeric(display, n, v.type), 1, n);
     return v;
   });
   if (vars.length === 0) throw new DendrologError(messages.netcdfUnknownVariable(display, '', known), 1);
@@ -50,14 +50,14 @@ function readOpen(file: NcFile, req: ReadRequest): ReadResult {
   for (const d of dims) {
     const t = req.columns[d];
     if (!t) throw new DendrologError(messages.netcdfUndeclaredDimension(display, vars[0].name, d), 1);
-    if (t !== 'number' && t !== 'date') throw new DendrologError(messages.netcdfDimensionValues(display, d, t), 1);
+    if (t !== 'number' && t !== 'date') throw new DendrologError(messages.netcdfDimensionValues(display, d, t), 1, d);
   }
   for (const c of Object.keys(req.columns)) {
-    if (!dims.includes(c) && !names.includes(c)) throw new DendrologError(messages.netcdfDeclaredNotRead(display, c, dims, names), 1);
+    if (!dims.includes(c) && !names.includes(c)) throw new DendrologError(messages.netcdfDeclaredNotRead(display, c, dims, names), 1, c);
   }
   for (const v of vars) {
     const t = req.columns[v.name];
-    if (t !== 'number' && t !== 'date') throw new DendrologError(messages.netcdfDimensionValues(display, v.name, t), 1);
+    if (t !== 'number' && t !== 'date') throw new DendrologError(messages.netcdfDimensionValues(display, v.name, t), 1, v.name);
   }
 
   const units = dict<string>();

@@ -28,7 +28,7 @@ export async function readParquet(req: ReadRequest): Promise<ReadResult> {
   const wanted: [string, ColumnType][] = Object.entries(req.columns);
   if (req.undeclared === 'text') for (const c of undeclared) wanted.push([c, 'string']);
   for (const [name] of wanted) {
-    if (!fileColumns.includes(name)) throw new DendrologError(messages.declaredColumnMissing(display, name, fileColumns, closest(name, fileColumns)), 1);
+    if (!fileColumns.includes(name)) throw new DendrologError(messages.declaredColumnMissing(display, name, fileColumns, closest(name, fileColumns)), 1, name);
   }
   const rows = Number(metadata.num_rows);
   const missing = new Set(req.missing);
@@ -61,6 +61,7 @@ export async function readParquet(req: ReadRequest): Promise<ReadResult> {
                   ? messages.valueNotFinite(`${display}: row ${rowStart + k + 1}`, columnName, showValue(raw))
                   : messages.valueParseAt(display, `row ${rowStart + k + 1}`, columnName, showValue(raw), typeLabel(type, req.dateFormat)),
                 1,
+                columnName,
               );
               return;
             }

@@ -63,7 +63,7 @@ describe('command line', () => {
     const dir = makeFolder({ 'recipe.yaml': SMALL_RECIPE, 'bad.yaml': SMALL_RECIPE.replace('seed: 3', 'seed: -1'), 'data/obs.csv': smallData() });
     const io = capture();
     expect(await main(['check', join(dir, 'recipe.yaml')])).toBe(0);
-    expect(io.out()).toContain(': ok (1 sources, 2 models)');
+    expect(io.out()).toContain(': ok (1 source, the first 1,000 rows of each read with the declared types; 2 models)');
     expect(await main(['check', join(dir, 'bad.yaml')])).toBe(2);
     expect(io.err()).toMatch(/bad\.yaml:3:7: seed is -1, but it must be at least 0/);
   });
