@@ -49,7 +49,14 @@ export const deduplicate: StepDefinition<DeduplicateParams, FrameOutput> = {
       type: 'object',
       additionalProperties: false,
       required: ['columns'],
-      properties: { columns: { $ref: '#/definitions/columnList' }, keep: { enum: ['first', 'last', 'none'] } },
+      description: 'Drops rows that repeat another row\'s values in the key columns, such as a sample entered twice. A missing key value counts as a value of its own.',
+      properties: {
+        columns: { $ref: '#/definitions/columnList', description: 'The key columns: rows equal in all of them are duplicates of each other.' },
+        keep: {
+          enum: ['first', 'last', 'none'],
+          description: 'Which row of each set of duplicates stays: first (default), last, or none when no copy can be trusted.',
+        },
+      },
     },
     normalize: (v) => {
       const r = v as { columns: string[]; keep?: DeduplicateParams['keep'] };

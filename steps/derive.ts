@@ -58,7 +58,13 @@ export const derive: StepDefinition<DeriveParams, FrameOutput> = {
       type: 'object',
       minProperties: 1,
       propertyNames: { pattern: '^[A-Za-z_][A-Za-z0-9_]*$' },
-      additionalProperties: { type: 'string', minLength: 1 },
+      description:
+        'New columns, each named by its key (letters, digits and underscores) and computed row by row from an arquero expression. A row missing a column the expression names gets a missing value, and so does a result that is not finite.',
+      additionalProperties: {
+        type: 'string',
+        minLength: 1,
+        description: 'An arquero expression over the row\'s own values, such as "op.log10(d.tp_ug_l)"; it may not name another column of the same derive step.',
+      },
     },
     normalize: (v) => ({ columns: dictOf(v as Record<string, string>) }),
     shape: (p) => p.columns,

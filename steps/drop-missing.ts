@@ -36,7 +36,10 @@ export const dropMissing: StepDefinition<DropMissingParams, FrameOutput> = {
   summary: (o) => `${o.notes.rowsIn - o.notes.rowsOut} rows dropped`,
   recipe: {
     section: 'clean',
-    schema: { $ref: '#/definitions/columnList' },
+    schema: {
+      $ref: '#/definitions/columnList',
+      description: 'Columns that must hold a value: a row missing any of them is dropped. The report counts the rows each column removed.',
+    },
     normalize: (v) => ({ columns: (v as string[]).map(String) }),
     shape: (p) => p.columns,
     reads: (p) => p.columns.map((c, k) => ({ column: c, at: [k] })),

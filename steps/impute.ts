@@ -30,7 +30,11 @@ export const impute: LearnedFeature<ImputeParams> = {
       type: 'object',
       additionalProperties: false,
       required: ['columns'],
-      properties: { columns: { $ref: '#/definitions/columnList' }, with: { enum: ['mean', 'median'] } },
+      description: 'Fills missing values of number predictors with the median or mean of the training rows, learned inside each fold and in the final fit.',
+      properties: {
+        columns: { $ref: '#/definitions/columnList', description: 'The number columns to fill; each must be one of the predictors.' },
+        with: { enum: ['mean', 'median'], description: 'The statistic of the training rows to fill with: median (default) or mean.' },
+      },
     },
     normalize: (v) => {
       const r = v as { columns: string[]; with?: ImputeParams['with'] };

@@ -51,7 +51,12 @@ export const keepRows: StepDefinition<KeepRowsParams, FrameOutput> = {
   summary: (o) => `${o.notes.rowsIn - o.notes.rowsOut} rows dropped`,
   recipe: {
     section: 'clean',
-    schema: { type: 'string', minLength: 1 },
+    schema: {
+      type: 'string',
+      minLength: 1,
+      description:
+        'An arquero condition over the row\'s own values, such as "d.depth_m <= 2"; rows where it is false or missing are dropped. Any result other than true, false or missing stops the run.',
+    },
     normalize: (v) => ({ expr: v as string }),
     shape: (p) => p.expr,
     reads: (p) => referencedColumns(p.expr).map((column) => ({ column, at: [] })),

@@ -24,7 +24,10 @@ export type GridValue = number | boolean | null;
 /** One hyperparameter of a kind: the value used when the recipe gives none, and the schema of what a recipe may give. */
 export interface GridParam {
   default: GridValue;
-  /** JSON schema of the recipe's value: one value or a list; `#/definitions/...` refers to the recipe schema's. */
+  /**
+   * JSON schema of the recipe's value: one value or a list; `#/definitions/...` refers to the recipe schema's.
+   * Its `description` (meaning, range, default) is what editors show for the key.
+   */
   schema: Record<string, unknown>;
   /**
    * Values no grid can go beyond (one row per leaf, the whole sample): a choice there is not a sign
@@ -90,21 +93,37 @@ export interface ModelBlocks {
 // The forest engine loads on first use, so runs without tree models never start its worker pool.
 const forestEngine = () => import('../models/forest.js');
 
-/** A boolean hyperparameter written as one value or a list. */
-const booleanGrid = { anyOf: [{ type: 'boolean' }, { type: 'array', minItems: 1, items: { type: 'boolean' } }] };
-const ref = (name: string) => ({ $ref: `#/definitions/${name}` });
+/** A boolean hyperparameter written as one value or a list, with what it means for a recipe's reader. */
+const booleanGrid = (description: string) => ({ anyOf: [{ type: 'boolean' }, { type: 'array', minItems: 1, items: { type: 'boolean' } }], description });
+/** A hyperparameter whose values the recipe schema's definition `name` describes, with what it means for a recipe's reader. */
+const ref = (name: string, description: string) => ({ $ref: `#/definitions/${name}`, description });
+
+// What editors show for each hyperparameter (one value or a list, as the grid's own text says).
+const MAX_DEPTH = 'Deepest level a tree may grow to, from 1 to 64, or null for no limit; default null.';
+const leafText = (rows: string) => `Fewest ${rows} a leaf may hold, at least 1; default ${DEFAULT_MIN_LEAF}.`;
 
 // Defaults are the engine's own (models/defaults.ts says why each). `mtry: null` means one third of
 // the predictors (after one-hot expansion), rounded down, at least 1; the value used is recorded per fit.
 export const modelKinds: Record<string, ModelKindAdapter> = dictOf<ModelKindAdapter>({
   random_forest: {
     grid: {
-      trees: { default: DEFAULT_TREES, schema: ref('gridOfTrees') },
-      max_depth: { default: null, schema: ref('gridOfDepth'), limits: { low: 1 } },
-      min_leaf: { default: DEFAULT_MIN_LEAF, schema: ref('gridOfLeaf'), limits: { low: 1 } },
-      mtry: { default: null, schema: ref('gridOfMtry'), limits: { low: 1 } },
-      sample_fraction: { default: DEFAULT_SAMPLE_FRACTION, schema: ref('gridOfFraction'), limits: { high: 1 } },
-      replace: { default: DEFAULT_REPLACE, schema: booleanGrid },
+      trees: { default: DEFAULT_TREES, schema: ref('gridOfTrees', `Number of trees in the forest, from 1 to 100000; default ${DEFAULT_TREES}.`) },
+      max_depth: { default: null, schema: ref('gridOfDepth', MAX_DEPTH), limits: { low: 1 } },
+      min_leaf: { default: DEFAULT_MIN_LEAF, schema: ref('gridOfLeaf', leafText('training rows (bootstrap draws)')), limits: { low: 1 } },
+      mtry: {
+        default: null,
+        schema: ref(
+          'gridOfMtry',
+          'Predictors drawn as candidates at each split, counted after one-hot expansion: below 1 a fraction of them, 1 or more a whole count no larger than their number. Left out: a third of them, rounded down, at least 1.',
+        ),
+        limits: { low: 1 },
+      },
+      sample_fraction: {
+        default: DEFAULT_SAMPLE_FRACTION,
+        schema: ref('gridOfFraction', `Rows drawn for each tree as a fraction of the training rows, above 0 and at most 1; default ${DEFAULT_SAMPLE_FRACTION}.`),
+        limits: { high: 1 },
+      },
+      replace: { default: DEFAULT_REPLACE, schema: booleanGrid(`Whether each tree draws its rows with replacement (a bootstrap); default ${DEFAULT_REPLACE}.`) },
     },
     baseline: null,
     explained: true,
@@ -133,8 +152,8 @@ export const modelKinds: Record<string, ModelKindAdapter> = dictOf<ModelKindAdap
   },
   decision_tree: {
     grid: {
-      max_depth: { default: null, schema: ref('gridOfDepth'), limits: { low: 1 } },
-      min_leaf: { default: DEFAULT_MIN_LEAF, schema: ref('gridOfLeaf'), limits: { low: 1 } },
+      max_depth: { default: null, schema: ref('gridOfDepth', MAX_DEPTH), limits: { low: 1 } },
+      min_leaf: { default: DEFAULT_MIN_LEAF, schema: ref('gridOfLeaf', leafText('training rows')), limits: { low: 1 } },
     },
     baseline: null,
     explained: true,
@@ -298,16 +317,27 @@ export function gridWithDefaults(kind: string, given: Record<string, GridValue |
  * Example: `modelSchema().properties.kind.enum` lists every kind of the registry.
  */
 export function modelSchema(): Record<string, unknown> {
+  const kindText =
+    'The kind of model to fit. linear (least squares with an intercept) and mean (the mean of the training rows) are baselines: the report gives each model\'s skill against them.';
+  const gridText =
+    'Values to try for each hyperparameter, as one value or a list; every combination is cross-validated and the best by evaluation.choose_by is kept. A hyperparameter left out takes its default.';
   return {
     type: 'object',
     required: ['kind'],
-    properties: { kind: { enum: Object.keys(modelKinds) } },
+    properties: { kind: { enum: Object.keys(modelKinds), description: kindText } },
     allOf: Object.entries(modelKinds).map(([kind, adapter]) => {
       const params = Object.entries(adapter.grid);
-      const grid = { type: 'object', additionalProperties: false, properties: Object.fromEntries(params.map(([name, p]) => [name, p.schema])) };
+      const grid = {
+        type: 'object',
+        additionalProperties: false,
+        description: gridText,
+        properties: Object.fromEntries(params.map(([name, p]) => [name, p.schema])),
+      };
+      // kind is checked above; here it is only allowed, with the same text for editors
+      const kindAllowed = { description: kindText };
       return {
         if: { properties: { kind: { const: kind } } },
-        then: { additionalProperties: false, properties: params.length ? { kind: true, grid } : { kind: true } },
+        then: { additionalProperties: false, properties: params.length ? { kind: kindAllowed, grid } : { kind: kindAllowed } },
       };
     }),
   };

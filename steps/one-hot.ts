@@ -42,10 +42,20 @@ export const oneHot: LearnedFeature<OneHotParams> = {
       type: 'object',
       additionalProperties: false,
       required: ['column'],
+      description:
+        'Turns a text or category predictor into one indicator column per category in the training rows, learned inside each fold and in the final fit, so the models can use it.',
       properties: {
-        column: { $ref: '#/definitions/columnName' },
-        unseen: { enum: ['error', 'other'] },
-        max_levels: { type: 'integer', minimum: 1, maximum: 100000 },
+        column: { $ref: '#/definitions/columnName', description: 'The text or category column to expand; it must be one of the predictors.' },
+        unseen: {
+          enum: ['error', 'other'],
+          description: 'A category the training rows never had: error (default) stops the run, other counts it in a shared "(other)" indicator column.',
+        },
+        max_levels: {
+          type: 'integer',
+          minimum: 1,
+          maximum: 100000,
+          description: `Most categories allowed, from 1 to 100000; more stops the run, since an identifier or free-text column would make one column per value. Default ${DEFAULT_MAX_LEVELS}.`,
+        },
       },
     },
     normalize: (v) => {

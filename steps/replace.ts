@@ -60,10 +60,19 @@ export const replace: StepDefinition<ReplaceParams, FrameOutput> = {
       type: 'object',
       additionalProperties: false,
       required: ['columns', 'values', 'with'],
+      description: 'Replaces listed values, such as a -9999 sentinel, in the listed columns; the report counts the changes per column.',
       properties: {
-        columns: { $ref: '#/definitions/columnList' },
-        values: { type: 'array', minItems: 1, items: { $ref: '#/definitions/scalar' } },
-        with: { anyOf: [{ const: 'missing' }, { type: 'number' }] },
+        columns: { $ref: '#/definitions/columnList', description: 'The columns whose values are replaced.' },
+        values: {
+          type: 'array',
+          minItems: 1,
+          items: { $ref: '#/definitions/scalar' },
+          description: 'The values to replace, as numbers or text; in a number column they are compared as numbers, in a text column as text.',
+        },
+        with: {
+          anyOf: [{ const: 'missing' }, { type: 'number' }],
+          description: 'What the values become: missing, or a number (written as text in a text column).',
+        },
       },
     },
     normalize: (v) => {

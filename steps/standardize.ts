@@ -35,7 +35,9 @@ export const standardize: LearnedFeature<StandardizeParams> = {
       type: 'object',
       additionalProperties: false,
       required: ['columns'],
-      properties: { columns: { $ref: '#/definitions/columnList' } },
+      description:
+        'Centres and scales number predictors by the mean and standard deviation of the training rows, learned inside each fold and in the final fit.',
+      properties: { columns: { $ref: '#/definitions/columnList', description: 'The number columns to standardize; each must be one of the predictors.' } },
     },
     normalize: (v) => ({ columns: (v as { columns: string[] }).columns.map(String) }),
     shape: (p) => ({ columns: p.columns }),

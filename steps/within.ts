@@ -46,7 +46,12 @@ export const within: StepDefinition<WithinParams, FrameOutput> = {
       type: 'object',
       additionalProperties: false,
       required: ['column'],
-      properties: { column: { $ref: '#/definitions/columnName' }, min: { type: 'number' }, max: { type: 'number' } },
+      description: 'Drops rows whose value in a number column lies outside [min, max], counting those below and above; give min, max or both. Missing values are kept.',
+      properties: {
+        column: { $ref: '#/definitions/columnName', description: 'The number column whose values are checked.' },
+        min: { type: 'number', description: 'Smallest value kept (inclusive); without it there is no lower bound.' },
+        max: { type: 'number', description: 'Largest value kept (inclusive); without it there is no upper bound.' },
+      },
     },
     normalize: (v) => {
       const r = v as { column: string; min?: number; max?: number };
