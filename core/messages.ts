@@ -320,6 +320,8 @@ export const messages = {
     `predictor ${q(column)} has ${rows} missing values in the modelling rows; drop them with "drop_missing" or fill them with an "impute" feature step`,
   tooManyLevels: (column: string, levels: number, limit: number) =>
     `one_hot on ${q(column)} would make ${levels.toLocaleString('en-US')} indicator columns, one per category in the training rows, more than max_levels (${limit.toLocaleString('en-US')}); is it an identifier or free text? leave it out of predictors, group rare categories before dendrolog reads the file, or raise max_levels on the one_hot step if you mean it`,
+  unseenCategoryRow: (column: string, value: string) =>
+    `${q(column)} is ${q(value)}, a category the training rows never had (set "unseen: other" on its one_hot step to predict such rows)`,
   unseenCategory: (column: string, value: string, known: string[]) =>
     `column ${q(column)} holds category ${q(value)}, which the training rows never had (they had ${listed(known)}); set "unseen: other" on its one_hot step to map it to a shared column, or drop those rows`,
 

@@ -100,9 +100,18 @@ export async function predictRun(folder: string, dataFile: string, outFile: stri
   // rows with a missing predictor that no impute step fills cannot be predicted; say so per row
   const rowsOf = column(frame, ROW_COLUMN).values as Float64Array;
   const usable: number[] = [];
+  // and so can rows with a category the training rows never had, when its one_hot step says "error":
+  // a reason on that row, not a refusal of the whole file (the fold models of a run that finished
+  // saw every training category, so the headline's design decides for them too)
+  const strict = model.design.predictors.flatMap((p) => {
+    const oh = model.design.oneHot[p];
+    return oh && oh.unseen === 'error' ? [{ p, known: new Set(oh.categories) }] : [];
+  });
   for (let k = 0; k < frame.rows; k++) {
     const missing = model.design.predictors.filter((p) => isMissing(column(frame, p), k) && !has(model.design.impute, p));
+    const unseen = strict.find(({ p, known }) => !isMissing(column(frame, p), k) && !known.has(String(column(frame, p).values[k])));
     if (missing.length) reason[rowsOf[k]] = `missing ${missing.join(', ')}`;
+    else if (unseen) reason[rowsOf[k]] = messages.unseenCategoryRow(unseen.p, String(column(frame, unseen.p).values[k]));
     else usable.push(k);
   }
   const predictions = new Array<number | null>(input.rows).fill(null);

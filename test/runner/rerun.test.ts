@@ -50,6 +50,9 @@ const FAKE_PAIR = (() => {
 
 const noTiming = (m: object) => ({ ...m, timing: null });
 
+/** A CSV field as predictions.csv writes it: quoted when it holds a comma, a quote or a line break. */
+const csvQuoted = (v: string) => (/[",\n\r]/.test(v) ? `"${v.replace(/"/g, '""')}"` : v);
+
 describe('determinism', () => {
   it('gives a byte-identical manifest (outside timing) for 1 and 2 workers and in two separate folders', async () => {
     const one = await run(FOREST, {}, 1);
@@ -261,12 +264,15 @@ describe('predict', () => {
     await expect(predictRun(outDir, join(dir, 'new.csv'), join(dir, 'p.csv'))).rejects.toThrow(/declared column "x2" is not in the file's header/);
   });
 
-  it('follows the recipe on an unseen category: an error by default, the shared column with unseen: other', async () => {
+  it('follows the recipe on an unseen category: that row not predicted, with the reason, by default; the shared column with unseen: other', async () => {
     const { dir, outDir } = await run();
-    writeFileSync(join(dir, 'new.csv'), 'site,x1,x2,kind,y\nS1,1,2,zzz,0\n');
-    await expect(predictRun(outDir, join(dir, 'new.csv'), join(dir, 'p.csv'))).rejects.toThrow(
-      new DendrologError(messages.unseenCategory('kind', 'zzz', ['a', 'b']), 1),
-    );
+    writeFileSync(join(dir, 'new.csv'), 'site,x1,x2,kind,y\nS1,1,2,zzz,0\nS1,1,2,a,0\n');
+    const first = await predictRun(outDir, join(dir, 'new.csv'), join(dir, 'p.csv'));
+    // one reason on that row; the other row is predicted as usual
+    expect(first).toMatchObject({ rows: 2, predicted: 1, notPredicted: 1 });
+    const lines = readFileSync(join(dir, 'p.csv'), 'utf8').trim().split('\n');
+    expect(lines[1].endsWith(`,${csvQuoted(messages.unseenCategoryRow('kind', 'zzz'))}`)).toBe(true);
+    expect(lines[2]).toMatch(/^S1,1,2,a,0,2,-?\d/);
     const other = await run(FOREST.replace('one_hot: {column: kind}', 'one_hot: {column: kind, unseen: other}'));
     writeFileSync(join(other.dir, 'new.csv'), 'site,x1,x2,kind,y\nS1,1,2,zzz,0\n');
     const s = await predictRun(other.outDir, join(other.dir, 'new.csv'), join(other.dir, 'p.csv'));
