@@ -220,6 +220,10 @@ export const messages = {
   csvEmpty: (file: string) => `${file}: the file is empty; it needs a header row`,
   cachePruneNeedsRule: () =>
     'cache prune needs --unused-by PATH (entries no run record under PATH lists), --older-than DAYS, or both; nothing was removed',
+  cachePruneNotAFolder: (path: string) =>
+    `--unused-by ${path}: no such folder; give the folder under which the run folders to keep lie (their run-record.json files are searched for); nothing was removed`,
+  cachePruneNoRecords: (path: string) =>
+    `--unused-by ${path}: no run record (run-record.json) lies under this folder, so every entry would count as unused; give the folder that holds your run folders; nothing was removed`,
   cacheSubcommand: (given: string) => `cache has no "${given}"; use "cache info", "cache verify" or "cache prune"`,
   declaredAt: (problem: string, column: string, where: string) => `${problem} (${q(column)} is declared at ${where})`,
   sourceNoRows: (file: string, detail: string) =>

@@ -4,6 +4,10 @@ import { dict } from '../core/dict.js';
 import { DendrologError, messages } from '../core/messages.js';
 import type { Cache, CacheEntryFile } from './cache.js';
 import { OLD_FILES, RUN_FILES } from './run-files.js';
+import { ABANDONED_WRITE_MS } from './cache.js';
+
+/** Entries younger than this are never pruned: a run may still need them. */
+const RECENT_MS = ABANDONED_WRITE_MS;
 
 /** The cache's size: entries and bytes per step kind, and in all. */
 export interface CacheInfo {
@@ -67,10 +71,11 @@ const SKIPPED = new Set(['node_modules', '.git']);
  * versions), searched recursively without following links. A file that is not a dendrolog run
  * record is passed over.
  *
- * Example: `referencedKeys('analysis').has(key)`
+ * Example: `referencedKeys('analysis', cacheDir).keys.has(key)`
  */
-export function referencedKeys(root: string, skip: string): Set<string> {
+export function referencedKeys(root: string, skip: string): { keys: Set<string>; records: number } {
   const keys = new Set<string>();
+  let records = 0;
   const walk = (dir: string) => {
     let names: string[];
     try {
@@ -88,6 +93,7 @@ export function referencedKeys(root: string, skip: string): Set<string> {
         try {
           const record = JSON.parse(readFileSync(path, 'utf8')) as { manifest?: unknown; steps?: { key?: unknown }[] };
           if (record.manifest !== 1 || !Array.isArray(record.steps)) continue;
+          records++;
           for (const s of record.steps) if (typeof s?.key === 'string') keys.add(s.key);
         } catch {
           // not JSON, or not a run record: nothing it could keep
@@ -96,7 +102,7 @@ export function referencedKeys(root: string, skip: string): Set<string> {
     }
   };
   walk(root);
-  return keys;
+  return { keys, records };
 }
 
 export interface PruneRule {
@@ -117,10 +123,19 @@ export interface PruneRule {
  */
 export function cachePrune(cache: Cache, rule: PruneRule, now = Date.now()): { removed: CacheEntryFile[]; kept: number; bytes: number } {
   if (rule.unusedBy === undefined && rule.olderThanDays === undefined) throw new DendrologError(messages.cachePruneNeedsRule(), 2);
-  const used = rule.unusedBy === undefined ? null : referencedKeys(rule.unusedBy, cache.dir);
-  const cutoff = rule.olderThanDays === undefined ? null : now - rule.olderThanDays * 86_400_000;
+  let used: Set<string> | null = null;
+  if (rule.unusedBy !== undefined) {
+    // a mistyped folder, or one without run records, would make every entry look unused
+    if (!lstatSync(rule.unusedBy, { throwIfNoEntry: false })?.isDirectory()) throw new DendrologError(messages.cachePruneNotAFolder(rule.unusedBy), 2);
+    const found = referencedKeys(rule.unusedBy, cache.dir);
+    if (found.records === 0) throw new DendrologError(messages.cachePruneNoRecords(rule.unusedBy), 2);
+    used = found.keys;
+  }
+  // entries of the last hour may belong to a run still going (its record not yet written, a
+  // cluster task's part not yet merged): they are never pruned
+  const cutoff = Math.min(now - RECENT_MS, rule.olderThanDays === undefined ? Infinity : now - rule.olderThanDays * 86_400_000);
   const files = cache.list();
-  const removed = files.filter((f) => (used === null || !used.has(f.key)) && (cutoff === null || f.mtimeMs <= cutoff));
+  const removed = files.filter((f) => (used === null || !used.has(f.key)) && f.mtimeMs <= cutoff && cache.isEntry(f));
   if (!rule.dryRun) for (const f of removed) rmSync(f.path, { force: true });
   return { removed, kept: files.length - removed.length, bytes: removed.reduce((a, f) => a + f.bytes, 0) };
 }

@@ -181,7 +181,11 @@ export class Cache {
     const out: CacheEntryFile[] = [];
     let kinds: string[];
     try {
-      kinds = fs.readdirSync(this.dir).filter((d) => KIND.test(d)).sort();
+      // a link among the kind folders could lead anywhere: only real folders are listed
+      kinds = fs
+        .readdirSync(this.dir)
+        .filter((d) => KIND.test(d) && fs.lstatSync(join(this.dir, d), { throwIfNoEntry: false })?.isDirectory())
+        .sort();
     } catch {
       return out;
     }
@@ -199,6 +203,27 @@ export class Cache {
       }
     }
     return out;
+  }
+
+  /**
+   * Whether the file starts as dendrolog's entries do (this layout's first line, or the previous
+   * layout's checksum line): what prune checks before removing a file, so that a cache folder
+   * pointed at something else loses nothing.
+   */
+  isEntry(f: { path: string }): boolean {
+    try {
+      const fd = fs.openSync(f.path, 'r');
+      try {
+        const head = Buffer.alloc(65);
+        const n = fs.readSync(fd, head, 0, 65, 0);
+        const text = head.subarray(0, n).toString('latin1');
+        return text.startsWith(`${FORMAT}\n`) || /^[0-9a-f]{64}\n/.test(text);
+      } finally {
+        fs.closeSync(fd);
+      }
+    } catch {
+      return false;
+    }
   }
 
   /** The entry's problem when it is read, without removing it: null for a sound entry. */

@@ -184,11 +184,17 @@ export async function main(argv: string[]): Promise<number> {
     // the file system refusing (full disk, no permission, a folder where a file should be) is the
     // machine's state, not a bug: say which file and what to do
     const sys = e as NodeJS.ErrnoException;
+    const failure = (message: string) => {
+      if (json) out.write(JSON.stringify({ ok: false, exitCode: 1, problems: [message] }, null, 2) + '\n');
+    };
     if (sys && typeof sys.code === 'string' && typeof sys.path === 'string' && isFileSystemRefusal(sys.code)) {
-      err.write(`${messages.fileSystemRefused(sys.code, sys.syscall ?? 'use', displayOf(resolve(sys.path)))}\n`);
+      const message = messages.fileSystemRefused(sys.code, sys.syscall ?? 'use', displayOf(resolve(sys.path)));
+      err.write(`${message}\n`);
+      failure(message);
       return 1;
     }
     err.write(`dendrolog: unexpected internal error; please report it with the recipe that caused it\n${(e as Error).stack ?? e}\n`);
+    failure(`dendrolog: unexpected internal error: ${(e as Error).message}`);
     return 1;
   }
 }
@@ -280,7 +286,8 @@ function cacheCommand(rest: string[], out: { write(s: string): unknown }, err: {
     return bad.length ? 1 : 0;
   }
   if (sub === 'prune') {
-    const days = values['older-than'] === undefined ? undefined : Number(values['older-than']);
+    const given = values['older-than'] as string | undefined;
+    const days = given === undefined ? undefined : given.trim() === '' ? Number.NaN : Number(given);
     if (days !== undefined && (!Number.isFinite(days) || days < 0)) throw new DendrologError(messages.usageOptionValue('--older-than', String(values['older-than']), 'a number of days, 0 or more'), 2);
     const unusedBy = values['unused-by'] as string | undefined;
     const r = cachePrune(cache, { unusedBy: unusedBy === undefined ? undefined : resolve(unusedBy), olderThanDays: days, dryRun: Boolean(values['dry-run']) });

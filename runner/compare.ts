@@ -37,11 +37,12 @@ export interface HoldoutChange {
 /**
  * One model's verdict: in one run only ('added', 'removed'); the same holdout scores ('unchanged');
  * scores changed, each within the old run's 90% interval ('within') or at least one beyond it
- * ('beyond'); or scores changed on another holdout, or one not on record ('not comparable').
+ * ('beyond'), or changed where the old run has no interval or the new score is undefined ('unjudged');
+ * or scores changed on another holdout, or one not on record ('not comparable').
  */
 export interface ModelVerdict {
   model: string;
-  verdict: 'added' | 'removed' | 'unchanged' | 'within' | 'beyond' | 'not comparable';
+  verdict: 'added' | 'removed' | 'unchanged' | 'within' | 'beyond' | 'unjudged' | 'not comparable';
   /** Whether the model was the headline of the old run and of the new one. */
   headline: { old: boolean; new: boolean };
 }
@@ -122,7 +123,13 @@ export function compareManifests(a: Manifest, b: Manifest): Comparison {
     verdicts.push({
       model: name,
       headline,
-      verdict: moved.length === 0 ? 'unchanged' : !comparable ? 'not comparable' : moved.some((m) => m.outsideOldInterval) ? 'beyond' : 'within',
+      verdict:
+        moved.length === 0 ? 'unchanged'
+        : !comparable ? 'not comparable'
+        : moved.some((m) => m.outsideOldInterval) ? 'beyond'
+        // within only when every moved score had an old interval and a value to place in it
+        : moved.every((m) => m.new !== null && m.oldInterval.low !== null && m.oldInterval.high !== null) ? 'within'
+        : 'unjudged',
     });
     const ranks = (m: typeof o) => {
       const values = ((m.importance as { values?: { predictor: string }[] } | null)?.values ?? []).map((v) => v.predictor);
@@ -215,7 +222,15 @@ function diff(a: unknown, b: unknown, keys: (string | number)[], out: RecipeChan
 /** A key's own value (a user's model named `__proto__` reads its own entry, never the prototype). */
 const own = (o: Record<string, unknown>, k: string): unknown => (Object.hasOwn(o, k) ? o[k] : undefined);
 
-const cell = (s: string) => s.replace(/\|/g, '\\|').replace(/</g, '&lt;').replace(/>/g, '&gt;');
+/** Text from a run record made inert in Markdown: no table cell, tag, code span or link can start in it. */
+const cell = (s: string) =>
+  s
+    .replace(/\\/g, '\\\\')
+    .replace(/\|/g, '\\|')
+    .replace(/</g, '&lt;')
+    .replace(/>/g, '&gt;')
+    .replace(/`/g, '&#96;')
+    .replace(/\[/g, '\\[');
 
 const METRIC_WORDS: ReadonlyMap<string, string> = new Map([
   ['r2', 'R²'],
@@ -239,6 +254,7 @@ function countVerdict(v: ModelVerdict[]): string {
   const parts: string[] = [];
   if (n('beyond')) parts.push(`${n('beyond')} of ${both} moved beyond the old run's interval`);
   if (n('within')) parts.push(`${n('within')} changed within ${n('beyond') ? 'it' : "the old run's interval"}`);
+  if (n('unjudged')) parts.push(`${n('unjudged')} changed with no old interval to judge by`);
   if (n('not comparable')) parts.push(`${n('not comparable')} scored differently on the other holdout`);
   if (n('unchanged')) parts.push(`${n('unchanged')} kept ${n('unchanged') === 1 ? 'its' : 'their'} holdout scores`);
   if (n('added')) parts.push(`${n('added')} added`);
@@ -259,7 +275,12 @@ function modelLine(v: ModelVerdict, c: Comparison): string {
   if (v.verdict === 'added') return `- ${name}: only in the new run${chosen?.new ? ` (${cell(chosen.new)})` : ''}.`;
   if (v.verdict === 'removed') return `- ${name}: only in the old run.`;
   if (v.verdict === 'unchanged') return `- ${name}: the same holdout scores.${choice}`;
-  const said = { beyond: "moved beyond the old run's interval", within: "changed within the old run's interval", 'not comparable': 'scored on another holdout' }[v.verdict];
+  const said = {
+    beyond: "moved beyond the old run's interval",
+    within: "changed within the old run's interval",
+    unjudged: 'changed, with no old interval to judge it by',
+    'not comparable': c.holdout.status === 'unknown' ? 'changed, on a holdout not on record' : 'scored on another holdout',
+  }[v.verdict];
   const parts = c.metrics
     .filter((m) => m.model === v.model)
     .map((m) => {

@@ -8,7 +8,7 @@ import { sha256 } from '../core/hash.js';
 import type { Manifest } from './manifest.js';
 import { messages } from '../core/messages.js';
 import { displayOf } from './paths.js';
-import { RUN_FILES } from './run-files.js';
+import { OLD_FILES } from './run-files.js';
 import { parseJson } from '../core/dict.js';
 
 const MAGIC = 'DLM1';
@@ -135,7 +135,8 @@ export interface ModelFileProblem {
  * Example: `const r = readRunModel(folder, readManifest(folder)); if ('problem' in r) throw …`
  */
 export function readRunModel(outDir: string, manifest: Manifest): { model: ModelFile } | { problem: ModelFileProblem } {
-  const path = join(outDir, manifest.modelFile?.file ?? RUN_FILES.model);
+  // a record without modelFile predates model.dendro: its model file, if any, is model.bin
+  const path = join(outDir, manifest.modelFile?.file ?? OLD_FILES.model);
   const file = displayOf(path);
   const problem = (kind: ModelFileProblem['kind'], message: string, exitCode: 1 | 2 = 1) => ({ problem: { kind, message, exitCode } });
   if (!existsSync(path)) return problem('missing', messages.modelFileMissing(displayOf(outDir)), 2);

@@ -90,7 +90,8 @@ export function readDelimited(req: ReadRequest): ReadResult {
           // after the first chunk, size the columns for the whole file so they are not regrown repeatedly
           if (!reserved && rows > 0) {
             reserved = true;
-            const estimate = Math.ceil(((rows * total) / Math.max(1, done)) * 1.02) + 16;
+            // check reads only maxRows rows: no need to make room for the whole file
+          const estimate = Math.min(Math.ceil(((rows * total) / Math.max(1, done)) * 1.02) + 16, req.maxRows ?? Infinity);
             for (const s of sinks) s.sink.reserve(estimate);
           }
           req.progress?.(total > 0 ? done / total : 1);

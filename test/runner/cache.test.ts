@@ -1,7 +1,8 @@
-import { copyFileSync, existsSync, mkdirSync, readFileSync, readdirSync, utimesSync, writeFileSync } from 'node:fs';
+import { copyFileSync, existsSync, mkdirSync, readFileSync, readdirSync, symlinkSync, utimesSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import { Cache } from '../../runner/cache.js';
+import { cachePrune } from '../../runner/cache-admin.js';
 import { sha256 } from '../../core/hash.js';
 import { makeFolder } from '../helpers.js';
 
@@ -170,5 +171,27 @@ describe('cache temporaries', () => {
     expect(cache.get({ kind, key, codec: 'json' }).status).toBe('hit');
     // a cache folder that does not exist yet has nothing to sweep
     expect(new Cache(join(dir, 'none')).sweepTemporaries(hour)).toBe(0);
+  });
+});
+
+describe('cache prune', () => {
+  it('removes only files that are dendrolog entries, never through a linked kind folder, and never one of the last hour', () => {
+    const dir = makeFolder({});
+    const cache = new Cache(dir);
+    const old = sha256('old');
+    const fresh = sha256('fresh');
+    cache.put({ kind, key: old, codec: 'json' }, bytes);
+    cache.put({ kind, key: fresh, codec: 'json' }, bytes);
+    // a file named like an entry that is something else, and a linked folder named like a kind
+    mkdirSync(join(dir, 'sha256'));
+    const blob = join(dir, 'sha256', sha256('blob'));
+    writeFileSync(blob, 'not a cache entry');
+    const elsewhere = makeFolder({ [sha256('linked')]: `dendrolog-cache-entry 2\nkey x\n` });
+    symlinkSync(elsewhere, join(dir, 'linked'));
+    const day = 86_400_000;
+    for (const p of [entryOf(dir, old), blob, join(elsewhere, sha256('linked'))]) utimesSync(p, new Date(Date.now() - 2 * day), new Date(Date.now() - 2 * day));
+    const r = cachePrune(cache, { olderThanDays: 1 });
+    expect(r.removed.map((f) => f.key)).toEqual([old]);
+    expect([existsSync(entryOf(dir, old)), existsSync(entryOf(dir, fresh)), existsSync(blob), existsSync(join(elsewhere, sha256('linked')))]).toEqual([false, true, true, true]);
   });
 });

@@ -4,7 +4,9 @@
  * DENDROLOG_CACHE, and predict to stdout.
  */
 import { Ajv } from 'ajv';
-import { existsSync, readFileSync, writeFileSync } from 'node:fs';
+import { existsSync, readFileSync, utimesSync, writeFileSync } from 'node:fs';
+import { Cache } from '../../runner/cache.js';
+import { messages } from '../../core/messages.js';
 import { join } from 'node:path';
 import { afterEach, describe, expect, it } from 'vitest';
 import { COMMAND_HELP } from '../../runner/cli-help.js';
@@ -100,6 +102,8 @@ describe('the cache command', () => {
     process.env.DENDROLOG_CACHE = s.cache;
     expect((await cli(['run', s.recipe, '--out', join(s.dir, 'keep', 'small'), '--workers', '1'])).code).toBe(0);
     expect((await cli(['run', join(s.dir, 'other.yaml'), '--out', join(s.dir, 'gone', 'other'), '--workers', '1'])).code).toBe(0);
+    // entries of the last hour are never pruned (a run may still need them): these are made older
+    for (const f of new Cache(s.cache).list()) utimesSync(f.path, new Date(Date.now() - 2 * 3_600_000), new Date(Date.now() - 2 * 3_600_000));
     const info = JSON.parse((await cli(['cache', '--json'])).out) as { entries: number; kinds: { kind: string }[] };
     expect(info.kinds.map((k) => k.kind)).toContain('fit');
     expect((await cli(['cache', 'verify'])).code).toBe(0);
@@ -114,8 +118,13 @@ describe('the cache command', () => {
     expect(plan.steps.every((x) => x.cached)).toBe(true);
     const other = JSON.parse((await cli(['plan', join(s.dir, 'other.yaml'), '--json'])).out) as { steps: { cached: boolean }[] };
     expect(other.steps.some((x) => !x.cached)).toBe(true);
-    // a rule is required
+    // a rule is required, and --unused-by must name a folder holding run records: a slip never empties the cache
     expect((await cli(['cache', 'prune'])).code).toBe(2);
+    const typo = await cli(['cache', 'prune', '--unused-by', join(s.dir, 'kep')]);
+    expect([typo.code, typo.err]).toEqual([2, messages.cachePruneNotAFolder(join(s.dir, 'kep')) + '\n']);
+    const empty = await cli(['cache', 'prune', '--unused-by', join(s.dir, 'data')]);
+    expect([empty.code, empty.err]).toEqual([2, messages.cachePruneNoRecords(join(s.dir, 'data')) + '\n']);
+    expect((await cli(['cache', 'prune', '--older-than', ''])).code).toBe(2);
     // an entry changed by hand is named by verify, which removes nothing
     const record = JSON.parse(readFileSync(join(s.dir, 'keep', 'small', 'run-record.json'), 'utf8')) as { steps: { kind: string; key: string }[] };
     const holdout = record.steps.find((x) => x.kind === 'holdout')!;
@@ -127,6 +136,12 @@ describe('the cache command', () => {
     expect(checked.code).toBe(1);
     expect(checked.err).toContain(`${holdout.key} fails its checksum`);
     expect(existsSync(entry)).toBe(true);
+    // a run's entries of the last hour stay even with --older-than 0; the older ones go
+    await cli(['run', join(s.dir, 'other.yaml'), '--out', join(s.dir, 'gone', 'other'), '--workers', '1']);
+    const recent = new Cache(s.cache).list().filter((f) => f.mtimeMs > Date.now() - 3_600_000);
+    expect(recent.length).toBeGreaterThan(0);
+    expect((await cli(['cache', 'prune', '--older-than', '0'])).code).toBe(0);
+    expect(new Cache(s.cache).list().map((f) => f.key)).toEqual(recent.map((f) => f.key));
   });
 });
 

@@ -233,6 +233,23 @@ describe('compare', () => {
     expect(comparisonMarkdown(c, 'a', 'b')).toContain(['```diff', ' models:', '   forest:', '     grid:', '-      min_leaf: [2,4]', '+      min_leaf: [2,4,6]', '```'].join('\n'));
   });
 
+  it('does not call a change "within" when the old run had no interval to judge it by', () => {
+    const old = JSON.parse(JSON.stringify(FAKE_PAIR.old)) as Manifest;
+    (old.models[1].metrics.holdoutInterval90 as Record<string, { low: number | null; high: number | null }>).r2 = { low: null, high: null };
+    const c = compareManifests(old, FAKE_PAIR.new);
+    expect(c.verdicts[1]).toMatchObject({ model: 'b', verdict: 'unjudged' });
+    expect(comparisonMarkdown(c, 'old', 'new')).toContain('- **`b`**: changed, with no old interval to judge it by. R² 0.500 → 0.550 (no old interval to judge by).');
+  });
+
+  it('keeps names from the data inert in Markdown: no code span or link can start in them', () => {
+    const rec = (holdout: string[], digest: string) => ({ by: 'groups', unit: 'group' as const, holdoutUnits: holdout.length, trainingUnits: 8, digest, holdout });
+    const c = compareManifests({ ...FAKE_PAIR.old, split: rec(['g1'], '1'.repeat(64)) }, { ...FAKE_PAIR.new, split: rec(['x` [link](https://example.invalid) `'], '2'.repeat(64)) });
+    const md = comparisonMarkdown(c, 'a', 'b');
+    expect(md).toContain('`x&#96; \\[link](https://example.invalid) &#96;`');
+    // every bracket escaped: a link needs an unescaped one
+    expect(md).not.toMatch(/[^\\]\[link\]\(/);
+  });
+
   it('keeps recipe values inside their diff block, whatever backticks they hold', () => {
     const m = { ...FAKE_PAIR.old, recipe: { ...FAKE_PAIR.old.recipe, normalized: { name: 'x', clean: [{ keep_rows: 'a' }] } } } as unknown as Manifest;
     const n = { ...m, recipe: { ...m.recipe, normalized: { name: 'x', clean: [{ keep_rows: '```\n# injected' }] } } } as unknown as Manifest;
