@@ -110,7 +110,7 @@ export async function buildFigures(recipe: Recipe, results: Results): Promise<Re
           { data: { values: [{ v: plo }, { v: phi }] }, mark: { type: 'line', color: SECOND, strokeDash: [5, 4] }, encoding: { x: { field: 'v', type: 'quantitative', ...lineScale }, y: { field: 'v', type: 'quantitative', ...lineScale } } },
           {
             data: { values: points },
-            mark: { type: 'circle', size: 18, opacity: 0.55 },
+            mark: { type: 'circle', size: 18, opacity: 0.55, aria: false },
             encoding: {
               x: { field: 'predicted', type: 'quantitative', title: `Predicted ${shown}`, scale: axisScale },
               y: { field: 'observed', type: 'quantitative', title: `Observed ${shown}`, scale: axisScale },
@@ -129,7 +129,7 @@ export async function buildFigures(recipe: Recipe, results: Results): Promise<Re
         layer: [
           { mark: { type: 'rule', color: SECOND, strokeDash: [5, 4] }, encoding: { y: { datum: 0, type: 'quantitative' } } },
           {
-            mark: { type: 'circle', size: 18, opacity: 0.55 },
+            mark: { type: 'circle', size: 18, opacity: 0.55, aria: false },
             encoding: {
               x: { field: 'predicted', type: 'quantitative', title: `Predicted ${target}` },
               y: { field: 'residual', type: 'quantitative', title: `Residual (observed − predicted) ${target}` },

@@ -1,8 +1,12 @@
 import { formatCount } from './format.js';
 import type { Results, TimedResidual } from './results.js';
 
-/** The most points each set draws; beyond, every k-th row in time order, and the caption says so. */
-export const MAX_TIME_POINTS = 2500;
+/**
+ * The most points each set draws; beyond, every k-th row in time order, and the caption says so.
+ * Points carry no label of their own for screen readers (the figure's description says what they
+ * show), which keeps a page of many points light.
+ */
+export const MAX_TIME_POINTS = 1000;
 
 /** The LOESS smooth's bandwidth: the share of the points each local fit uses. */
 const BANDWIDTH = 0.3;
@@ -50,7 +54,7 @@ export function timeResidualView(
       data: { values: sampled.flatMap((s) => s.points) },
       layer: [
         { mark: { type: 'rule', color: '#5b6b70', strokeDash: [5, 4] }, encoding: { y: { datum: 0, type: 'quantitative' } } },
-        { mark: { type: 'point', filled: true, opacity: 0.45, size: 14 }, encoding: { x, y: { field: 'residual', type: 'quantitative', title: `Residual (${target})` }, color: colour } },
+        { mark: { type: 'point', filled: true, opacity: 0.45, size: 14, aria: false }, encoding: { x, y: { field: 'residual', type: 'quantitative', title: `Residual (${target})` }, color: colour } },
         {
           transform: [{ loess: 'residual', on: 't', groupby: ['set'], bandwidth: BANDWIDTH }],
           mark: { type: 'line', strokeWidth: 2.5 },
