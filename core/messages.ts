@@ -352,8 +352,8 @@ export const messages = {
   recipeOfRunMissing: (file: string) =>
     `the run's recipe ${file} is gone; restore it (the run record keeps its normalized form and SHA-256) or run the recipe again`,
   sourceOfRunMissing: (file: string) => `source file ${file} of the run is gone; restore it to verify the run`,
-  modelFileMissing: (folder: string) =>
-    `${folder} has no model.dendro; it was written by an older dendrolog or copied without it; run the recipe again`,
+  modelFileMissing: (folder: string, file: string) =>
+    `${folder} has no ${file}; it was written by an older dendrolog or copied without it; run the recipe again`,
   modelFileChanged: (file: string, recorded: string, actual: string) =>
     `${file} has SHA-256 ${actual}, but the run record holds ${recorded}; it is not the model this run wrote (copied from another run, or edited): restore the run's own model file, or run the recipe again`,
   modelFileTruncated: (file: string, bytes: number, recorded: number) =>

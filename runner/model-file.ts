@@ -8,7 +8,7 @@ import { sha256 } from '../core/hash.js';
 import type { Manifest } from './manifest.js';
 import { messages } from '../core/messages.js';
 import { displayOf } from './paths.js';
-import { OLD_FILES } from './run-files.js';
+import { OLD_FILES, RUN_FILES } from './run-files.js';
 import { parseJson } from '../core/dict.js';
 
 const MAGIC = 'DLM1';
@@ -135,11 +135,13 @@ export interface ModelFileProblem {
  * Example: `const r = readRunModel(folder, readManifest(folder)); if ('problem' in r) throw …`
  */
 export function readRunModel(outDir: string, manifest: Manifest): { model: ModelFile } | { problem: ModelFileProblem } {
-  // a record without modelFile predates model.dendro: its model file, if any, is model.bin
-  const path = join(outDir, manifest.modelFile?.file ?? OLD_FILES.model);
+  // a record without modelFile predates model.dendro, so its model file, if any, is model.bin; a
+  // model.dendro beside such a record is named as unrecorded, never trusted
+  const name = manifest.modelFile?.file ?? (existsSync(join(outDir, RUN_FILES.model)) ? RUN_FILES.model : OLD_FILES.model);
+  const path = join(outDir, name);
   const file = displayOf(path);
   const problem = (kind: ModelFileProblem['kind'], message: string, exitCode: 1 | 2 = 1) => ({ problem: { kind, message, exitCode } });
-  if (!existsSync(path)) return problem('missing', messages.modelFileMissing(displayOf(outDir)), 2);
+  if (!existsSync(path)) return problem('missing', messages.modelFileMissing(displayOf(outDir), name), 2);
   const recorded = manifest.modelFile;
   if (!recorded) return problem('unrecorded', messages.modelFileUnrecorded(file));
   let data: Buffer;

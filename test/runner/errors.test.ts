@@ -378,7 +378,7 @@ describe('run folders: verify, compare and predict', () => {
     const { dir, out } = copyOfRun();
     rmSync(join(out, 'model.dendro'));
     const e = await errorOf(() => predictRun(out, join(dir, 'data/obs.csv'), join(dir, 'p.csv')));
-    expect([e.message, e.exitCode]).toEqual([messages.modelFileMissing(displayOf(out)), 2]);
+    expect([e.message, e.exitCode]).toEqual([messages.modelFileMissing(displayOf(out), 'model.dendro'), 2]);
   });
 });
 

@@ -74,6 +74,22 @@ describe('a run folder', () => {
     expect(readFileSync(join(s.dir, 'pred.csv'), 'utf8').split('\n').length).toBeGreaterThan(2);
   });
 
+  it('of the oldest kind (manifest.json without a model record, beside model.bin) still verifies, with a note that the model cannot be checked', async () => {
+    const s = scenario();
+    const out = join(s.dir, 'out');
+    expect((await cli(['run', s.recipe, '--cache', s.cache, '--out', out, '--workers', '1'])).code).toBe(0);
+    makeOld(out);
+    const record = JSON.parse(readFileSync(join(out, 'manifest.json'), 'utf8')) as Manifest;
+    delete record.modelFile;
+    writeFileSync(join(out, 'manifest.json'), JSON.stringify(record, null, 2) + '\n');
+    const files: Record<string, string | Uint8Array> = {};
+    for (const name of ['report.html', 'summary.md', 'predictions.csv', 'manifest.json', 'model.bin']) files[name] = readFileSync(join(out, name));
+    writeFileSync(join(out, RUN_MARKER), runMarker(files));
+    const verified = await cli(['verify', out, '--workers', '1']);
+    expect(verified.code).toBe(0);
+    expect(verified.out).toContain(`note: ${messages.modelFileUnrecorded(displayOf(join(out, 'model.bin')))}`);
+  });
+
   it('written over an older one keeps nothing of the old names', async () => {
     const s = scenario();
     const out = join(s.dir, 'out');
