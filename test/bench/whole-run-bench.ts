@@ -8,7 +8,7 @@
  * size, and the ratio. Prediction intervals are turned off in the recipe: the peer has none.
  * Asserts nothing.
  *
- * Run: npm run build && node dist/test/bench/whole-run-bench.js [training rows ...]   (default 20000 100000)
+ * Run: npm run build && node dist/test/bench/whole-run-bench.js [--dendrolog-only] [training rows ...]   (default 20000 100000)
  */
 import { spawnSync } from 'node:child_process';
 import { existsSync, mkdirSync, mkdtempSync, readFileSync, rmSync, statSync, writeFileSync } from 'node:fs';
@@ -107,20 +107,22 @@ function sklearnRun(csv: string, cutoff: number) {
 
 const f = (v: number | null | undefined, d = 1) => (v === null || v === undefined ? '–' : v.toFixed(d));
 
-const sizes = process.argv.slice(2).map(Number);
+// --dendrolog-only: the whole run without the peer (the protocol in scikit-learn takes too long at 1,000,000 rows)
+const alone = process.argv.includes('--dendrolog-only');
+const sizes = process.argv.slice(2).filter((a) => a !== '--dendrolog-only').map(Number);
 console.log('| training rows | dendrolog whole run | explain / cv / fit / score (step seconds) | CPU ÷ wall | peak MiB | report KiB | holdout R² | scikit-learn protocol | explain / cv / fit / score | CPU ÷ wall | holdout R² | ratio |');
 console.log('|---:|---:|---|---:|---:|---:|---:|---:|---|---:|---:|---:|');
 for (const train of sizes.length ? sizes : [20_000, 100_000]) {
   const d = dendrologRun(train);
   try {
-    const s = sklearnRun(d.csv, train);
+    const s = alone ? null : sklearnRun(d.csv, train);
     const p = d.phases;
     const sp = s?.phases;
     console.log(
       `| ${train.toLocaleString('en')} | ${f(d.wall)} s | ${f(p.explain)} / ${f(p.cv)} / ${f(p.fit)} / ${f(p.score)} | ${d.cpu === null ? '–' : f(d.cpu / d.wall, 2)} | ${f(d.peakMiB, 0)} | ${f(d.reportKiB, 0)} | ${f(d.r2, 3)} | ` +
         (s && sp
           ? `${f(s.wall)} s | ${f(sp.explain)} / ${f(sp.cv)} / ${f(sp.fit)} / ${f(sp.score)} | ${s.cpu === null ? '–' : f(s.cpu / s.wall, 2)} | ${f(s.r2, 3)} | ${f(s.wall / d.wall, 2)}× |`
-          : 'skipped: no python3-sklearn / python3-pandas | | | | |'),
+          : `${alone ? 'not run (--dendrolog-only)' : 'skipped: no python3-sklearn / python3-pandas'} | | | | |`),
     );
   } finally {
     rmSync(d.dir, { recursive: true, force: true });
