@@ -7,7 +7,6 @@ import { planListing } from './plan-listing.js';
 import { cacheCheck, cacheInfo, cachePrune } from './cache-admin.js';
 import { Cache } from './cache.js';
 import { RUN_FILES } from './run-files.js';
-import { loadRecipe } from './recipe.js';
 import { displayOf } from './paths.js';
 import { cacheFromEnvironment, DEFAULT_CACHE, defaultWorkers, runRecipe } from './run.js';
 import { closest } from '../core/suggest.js';
@@ -15,7 +14,8 @@ import { verifyRun } from './verify.js';
 import { compareManifests, comparisonMarkdown } from './compare.js';
 import { predictRun } from './predict.js';
 import { readManifest } from './run-folder.js';
-import { CHECK_ROWS, checkData } from './check-data.js';
+import { CHECK_ROWS } from './check-data.js';
+import { check as checkRecipe } from './api.js';
 import { SLURM_SETTINGS, slurmOptions, type SlurmOptions } from './slurm.js';
 import { runTask } from './task.js';
 
@@ -63,15 +63,12 @@ export async function main(argv: string[]): Promise<number> {
     if (command === 'check') {
       const { positionals } = parse(rest, { json: { type: 'boolean' } }, command);
       const recipe = onePositional(positionals, command);
-      const { recipe: r, origin } = loadRecipe(recipe, { checkFiles: true });
-      // the recipe is sound; now the data, cheaply: columns present and the first rows of the declared types
-      const problems = await checkData(r, origin);
-      if (problems.length > 0) throw new DendrologError(problems.join('\n'), 1);
-      const n = Object.keys(r.sources).length;
-      const line = `${recipe}: ok (${n} source${n === 1 ? '' : 's'}, the first ${CHECK_ROWS.toLocaleString('en-US')} rows of each read with the declared types; ${Object.keys(r.models).length} models)\n`;
+      // the recipe, then its data, cheaply: columns present and the first rows of the declared types
+      const { sources: n, models } = await checkRecipe(recipe);
+      const line = `${recipe}: ok (${n} source${n === 1 ? '' : 's'}, the first ${CHECK_ROWS.toLocaleString('en-US')} rows of each read with the declared types; ${models} models)\n`;
       if (json) {
         err.write(line);
-        out.write(JSON.stringify({ ok: true, recipe, sources: n, models: Object.keys(r.models).length, rowsChecked: CHECK_ROWS }, null, 2) + '\n');
+        out.write(JSON.stringify({ ok: true, recipe, sources: n, models, rowsChecked: CHECK_ROWS }, null, 2) + '\n');
       } else out.write(line);
       return 0;
     }

@@ -192,9 +192,6 @@ export type ReportView = ReturnType<typeof reportView>;
 /** The largest number of groups listed one by one under the prediction intervals' coverage. */
 const LISTED_GROUPS = 12;
 
-function percent(share: number): string {
-  return formatPercent(share, 1);
-}
 
 /** A model's prediction intervals and their coverage, in words and a by-group table; null when the recipe turned them off. */
 function intervalView(pi: Results['models'][number]['predictionInterval'], recipe: Recipe, k: number) {
@@ -217,13 +214,13 @@ function intervalView(pi: Results['models'][number]['predictionInterval'], recip
     groupHead: recipe.groups ? `Holdout group (${recipe.groups})` : 'Holdout block',
     coverage: c
       ? {
-          share: percent(c.share),
+          share: formatPercent(c.share),
           inside: formatCount(c.inside),
           rows: formatCount(c.rows),
           width: formatNumber(c.meanWidth),
           widthOriginal: c.meanWidthOriginal === null ? null : formatNumber(c.meanWidthOriginal),
           below: c.share < pi.level,
-          groups: groups.slice(0, LISTED_GROUPS).map((g) => ({ group: g.group, rows: formatCount(g.rows), share: percent(g.inside / g.rows) })),
+          groups: groups.slice(0, LISTED_GROUPS).map((g) => ({ group: g.group, rows: formatCount(g.rows), share: formatPercent(g.inside / g.rows) })),
           moreGroups: groups.length > LISTED_GROUPS ? formatCount(groups.length - LISTED_GROUPS) : null,
           groupCount: formatCount(groups.length),
         }

@@ -172,7 +172,8 @@ export function gatherResults(recipe: Recipe, plan: Plan, exec: Execution): Resu
   const ids = plan.models[best].interval;
   const headlineInterval = ids ? { output: out(ids.gather) as PredictionIntervalOutput, folds: ids.folds.map((id) => out(id) as IntervalFoldOutput) } : null;
   const bounds = headlineInterval?.output.holdout ?? null;
-  const targetValues = column((out(plan.modelTable) as FrameOutput).frame, recipe.target).values as Float64Array;
+  const table = (out(plan.modelTable) as FrameOutput).frame;
+  const targetValues = column(table, recipe.target).values as Float64Array;
   return {
     sources,
     cleaning,
@@ -194,10 +195,10 @@ export function gatherResults(recipe: Recipe, plan: Plan, exec: Execution): Resu
     holdoutRows: { observed: bestScore.observed, predicted: bestScore.predictions, groups: bestScore.groups },
     headlineFit: out(plan.models[best].fit) as FitOutput,
     headlineInterval,
-    splitMap: recipe.blocks ? splitMap((out(plan.modelTable) as FrameOutput).frame, recipe.blocks, split, folds) : null,
-    modelTable: { rows: (out(plan.modelTable) as FrameOutput).frame.rows, columns: profileFrame((out(plan.modelTable) as FrameOutput).frame) },
+    splitMap: recipe.blocks ? splitMap(table, recipe.blocks, split, folds) : null,
+    modelTable: { rows: table.rows, columns: profileFrame(table) },
     timeResiduals: recipe.time
-      ? timeResiduals((out(plan.modelTable) as FrameOutput).frame, recipe.time, split, targetValues, bestScore.predictions, out(plan.models[best].cells[(out(plan.models[best].choose) as ChooseOutput).chosen]) as CrossValidateOutput)
+      ? timeResiduals(table, recipe.time, split, targetValues, bestScore.predictions, out(plan.models[best].cells[(out(plan.models[best].choose) as ChooseOutput).chosen]) as CrossValidateOutput)
       : null,
     predictions: [
       ...split.train.map((row, k) => ({ row, set: 'training' as const, observed: targetValues[row], predicted: bestScore.trainingPredictions[k] })),
