@@ -362,6 +362,10 @@ export const messages = {
     `${file} could not be read as a dendrolog model (${detail}); run the recipe again to write a new one`,
   modelFileUnrecorded: (file: string) =>
     `the run record beside ${file} holds no SHA-256 for it (an older dendrolog wrote the run), so the model cannot be checked; run the recipe again`,
+  modelNotInRun: (name: string, file: string, names: string[], suggestion: string | undefined) =>
+    `--model ${name}: ${file} holds no model of that name${suggestion ? `; did you mean "${suggestion}"?` : '.'} The run fitted ${listed(names.map((n) => `"${n}"`))}; name one of them, or leave out --model for the one it chose`,
+  modelFileHeadlineOnly: (name: string, file: string, headline: string) =>
+    `--model ${name}: ${file} was written by an older dendrolog and holds the headline model "${headline}" alone; run the recipe again to keep every model it fits`,
   fileSystemRefused: (code: string, syscall: string, path: string) =>
     `${path}: the file system refused to ${syscall} it (${code}: ${FILE_SYSTEM_ADVICE[code] ?? 'see the system error code'}); nothing was lost, fix that and run the command again`,
   // --- warnings (data: collected, merged, counted; in the run record and the report)

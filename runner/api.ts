@@ -98,10 +98,11 @@ export async function compare(oldRunFolder: string, newRunFolder: string): Promi
 }
 
 /**
- * Applies a run's cleaning, features and headline model to a new data file, as `dendrolog predict`.
+ * Applies a run's cleaning, features and headline model (or `opts.model`, another model the run
+ * fitted) to a new data file, as `dendrolog predict`.
  *
- * Example: `await predict('out/lake', 'new-samples.csv', 'predictions.csv')`
+ * Example: `await predict('out/lake', 'new-samples.csv', 'predictions.csv', { model: 'linear' })`
  */
-export async function predict(runFolder: string, dataFile: string, outFile: string): Promise<PredictionSummary> {
-  return predictRun(runFolder, dataFile, outFile);
+export async function predict(runFolder: string, dataFile: string, outFile: string, opts: { model?: string } = {}): Promise<PredictionSummary> {
+  return predictRun(runFolder, dataFile, outFile, opts);
 }

@@ -32,7 +32,7 @@ Usage:
   dendrolog plan RECIPE [--cache DIR] [--json]
   dendrolog verify RUN_FOLDER [--workers N] [--quiet] [--json] [--executor local|slurm]
   dendrolog compare OLD_RUN_FOLDER NEW_RUN_FOLDER [--json]
-  dendrolog predict RUN_FOLDER DATA_FILE --out PREDICTIONS.csv|-
+  dendrolog predict RUN_FOLDER DATA_FILE --out PREDICTIONS.csv|- [--model NAME]
   dendrolog cache [info|verify|prune] [--cache DIR] ...
   dendrolog help COMMAND | --help | --version
 
@@ -46,8 +46,8 @@ Commands:
           "reproduced", or name the first step that differs and the likely cause
   compare what changed between two runs: a verdict per model, then recipe, data, importance
           and warnings, as Markdown for a pull request or as JSON
-  predict apply a run's cleaning, features and headline model to new data; one output
-          line per input row, in order, with a reason where no prediction is possible
+  predict apply a run's cleaning, features and headline model (or --model NAME) to new data;
+          one output line per input row, in order, with a reason where no prediction is possible
   cache   the cache's size by step kind; check its entries; remove what no run needs
 
 "dendrolog help COMMAND" shows a command's options and examples.
@@ -160,19 +160,22 @@ Examples:
 
 ${EXIT_CODES}
 `,
-  predict: `dendrolog predict RUN_FOLDER DATA_FILE --out PREDICTIONS.csv|-
+  predict: `dendrolog predict RUN_FOLDER DATA_FILE --out PREDICTIONS.csv|- [--model NAME]
 
 Applies the run's cleaning, derived features, learned feature values and headline model to a new
-file shaped like the main source. Every input row gets one output line, in input order: the input's
+file shaped like the main source; --model uses another model the run fitted (every model of the
+recipe is in the run's model.dendro, with its own learned features and prediction intervals). Every input row gets one output line, in input order: the input's
 columns, the prediction, the predictors outside the training range, and for a row that cannot be
 predicted, the reason. "--out -" writes the CSV to stdout (the summary then goes to stderr).
 
 Options:
   --out FILE|-   where the predictions go; "-" for stdout
+  --model NAME   a model of the recipe other than the headline (the one the run chose)
 
 Examples:
   dendrolog predict analysis/out/lake data/new-samples.csv --out predictions.csv
   dendrolog predict analysis/out/lake data/new-samples.csv --out - | head
+  dendrolog predict analysis/out/lake data/new-samples.csv --out linear.csv --model linear
 
 ${EXIT_CODES}
 `,

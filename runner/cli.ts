@@ -111,13 +111,15 @@ export async function main(argv: string[]): Promise<number> {
       return 0;
     }
     if (command === 'predict') {
-      const { values, positionals } = parse(rest, { out: { type: 'string' } }, command);
+      const { values, positionals } = parse(rest, { out: { type: 'string' }, model: { type: 'string' } }, command);
       if (positionals.length !== 2) throw new DendrologError(messages.usageMissingArgument('a run folder and a data file', command), 2);
       if (!values.out) throw new DendrologError(messages.usageMissingArgument('--out PREDICTIONS.csv', command), 2);
-      const s = await predictRun(positionals[0], positionals[1], values.out as string);
+      if (values.model === '') throw new DendrologError(messages.usageOptionValue('--model', '', "the name of one of the run's models"), 2);
+      const s = await predictRun(positionals[0], positionals[1], values.out as string, { model: values.model as string | undefined });
       // with the predictions on stdout, the summary goes to stderr
       (values.out === '-' ? err : out).write(
         `${s.predicted} of ${s.rows} rows predicted, ${s.notPredicted} not (reasons in the file), ${s.outsideRange} with a predictor outside the training range\n` +
+          (s.model === s.headline ? `model: ${s.model}, the one the run chose\n` : `model: ${s.model}, not the one the run chose (${s.headline})\n`) +
           (s.intervalLevel !== null ? `each prediction has its ${+(100 * s.intervalLevel).toFixed(2)}% prediction interval (low_ and high_ columns; see the run's report for its measured coverage)\n` : '') +
           (s.skippedSteps.length ? `the file has no target, so these steps that need it were skipped: ${s.skippedSteps.join(', ')}\n` : '') +
           warningLines(s.warnings) +

@@ -5,32 +5,30 @@ import type { FitOutput, IntervalFoldOutput, PredictionIntervalOutput } from '..
 import type { ConformalTable } from '../models/conformal.js';
 import type { Recipe } from '../core/recipe-types.js';
 import { sha256 } from '../core/hash.js';
-import type { Manifest } from './manifest.js';
-import { messages } from '../core/messages.js';
+import { holdoutPredictionsSha256, type Manifest } from './manifest.js';
+import type { Results } from './results.js';
+import { DendrologError, messages } from '../core/messages.js';
+import { closest } from '../core/suggest.js';
 import { displayOf } from './paths.js';
 import { OLD_FILES, RUN_FILES } from './run-files.js';
 import { parseJson } from '../core/dict.js';
 
 const MAGIC = 'DLM1';
 /** The model file's first line, readable with `head -1`; the number is the file layout's version. */
-export const MODEL_FILE_LINE = 'dendrolog model 2\n';
+export const MODEL_FILE_LINE = 'dendrolog model 3\n';
+/** The first line of the layout that held the headline model only (dendrolog before --model). */
+export const HEADLINE_ONLY_LINE = 'dendrolog model 2\n';
 
-/** Everything `predict` needs besides the recipe: the fitted model and what it learned. */
+/** One fitted model as `predict` needs it besides the recipe: the engine's bytes and what the fit learned. */
 export interface ModelFile {
-  format: 1;
+  /** The model's name in the recipe. */
   model: string;
   kind: FitOutput['kind'];
   cell: FitOutput['cell'];
   used: FitOutput['used'];
   design: FitOutput['design'];
   ranges: FitOutput['ranges'];
-  target: string;
   trainingRows: number;
-  /**
-   * The holdout predictions' SHA-256 of the run that wrote the file, as its run record holds it, so
-   * a model file from another run is told apart even when a record was edited to match its bytes.
-   */
-  run?: { holdoutPredictionsSha256: string };
   /** The engine's own serialized model. */
   bytes: Uint8Array;
   /** The CV+ prediction intervals: the level, the fold residuals and each fold model; absent when the run had none. */
@@ -44,80 +42,168 @@ export interface ModelInterval {
   folds: { design: FitOutput['design']; bytes: Uint8Array }[];
 }
 
-/**
- * model.dendro: the line "dendrolog model 2", then gzip of "DLM1", a 4-byte header length, a JSON
- * header and the engine's bytes (older versions wrote the gzip part alone, as model.bin); with
- * prediction intervals, the header gives the headline model's byte length and each fold model's,
- * and the fold models follow it in fold order. gzip from Node writes no timestamp, so equal models
- * give equal files. Level 1: a forest's floating-point bytes shrink by about a fifth at any level,
- * and level 9 took ten times as long (11 s against 1.1 s for a 54 MB forest).
- *
- * Example: `readModelFile(writeModelFile(fit, null, recipe, run)).kind === fit.kind`
- */
-export function writeModelFile(
-  fit: FitOutput,
-  interval: { output: PredictionIntervalOutput; folds: IntervalFoldOutput[] } | null,
-  recipe: Recipe,
-  run: { holdoutPredictionsSha256: string },
-): Uint8Array {
-  const bytes = Buffer.from(fit.bytes);
+/** A model file's contents: every model the run fitted (or, in older files, the headline alone). */
+export interface ModelBundle {
+  /** 1: model.bin; 2: model.dendro with the headline model only; 3: every model. */
+  layout: 1 | 2 | 3;
+  target: string;
+  /** The model the run chose, which `predict` uses unless told otherwise. */
+  headline: string;
+  /**
+   * The holdout predictions' SHA-256 of the run that wrote the file, as its run record holds it, so
+   * a model file from another run is told apart even when a record was edited to match its bytes.
+   */
+  run?: { holdoutPredictionsSha256: string };
+  models: ModelFile[];
+}
+
+/** A model's final fit and, with prediction intervals, its fold models and residual table. */
+export interface FittedModel {
+  fit: FitOutput;
+  interval: { output: PredictionIntervalOutput; folds: IntervalFoldOutput[] } | null;
+}
+
+/** A fitted model as the model file keeps it. */
+export function modelEntry({ fit, interval }: FittedModel): ModelFile {
   const table = interval?.output.table ?? null;
-  const foldBytes = interval && table ? interval.folds.map((f) => Buffer.from(f.bytes)) : [];
-  const header = Buffer.from(
-    JSON.stringify({
-      format: 1,
-      model: fit.model,
-      kind: fit.kind,
-      cell: fit.cell,
-      used: fit.used,
-      design: fit.design,
-      ranges: fit.ranges,
-      target: recipe.target,
-      trainingRows: fit.trainingRows,
-      run,
-      ...(interval && table
-        ? {
-            bytesLength: bytes.length,
-            interval: {
-              level: interval.output.level,
-              unitKind: interval.output.unitKind,
-              table,
-              folds: interval.folds.map((f, k) => ({ design: f.design, bytesLength: foldBytes[k].length })),
-            },
-          }
-        : {}),
-    }),
-    'utf8',
-  );
+  return {
+    model: fit.model,
+    kind: fit.kind,
+    cell: fit.cell,
+    used: fit.used,
+    design: fit.design,
+    ranges: fit.ranges,
+    trainingRows: fit.trainingRows,
+    bytes: fit.bytes,
+    ...(interval && table
+      ? { interval: { level: interval.output.level, unitKind: interval.output.unitKind, table, folds: interval.folds.map((f) => ({ design: f.design, bytes: f.bytes })) } }
+      : {}),
+  };
+}
+
+/**
+ * model.dendro: the line "dendrolog model 3", then gzip of "DLM1", a 4-byte header length, a JSON
+ * header and the engines' bytes. The header names the target, the run and the headline model and
+ * lists every model the run fitted, each with its byte length and, with prediction intervals, its
+ * fold models' lengths; the bytes follow in that order (each model, then its fold models). Layout 2
+ * (the line "dendrolog model 2") held the headline model alone; layout 1 (model.bin) was layout 2
+ * without the first line. Both are still read, and written again only to verify a run folder that
+ * holds one. gzip from Node writes no timestamp, so equal models give equal files. Level 1: a
+ * forest's floating-point bytes shrink by about a fifth at any level, and level 9 took ten times as
+ * long (11 s against 1.1 s for a 54 MB forest).
+ *
+ * Example: `readModelFile(writeModelFile(bundle)).headline === bundle.headline`
+ */
+export function writeModelFile(bundle: Omit<ModelBundle, 'layout'> & { layout?: ModelBundle['layout'] }): Uint8Array {
+  const layout = bundle.layout ?? 3;
+  const models = layout === 3 ? bundle.models : bundle.models.filter((m) => m.model === bundle.headline);
+  if (models.length === 0) throw new Error(`internal: the headline model ${bundle.headline} is not among the models to write`);
+  const blobs: Buffer[] = [];
+  const entries = models.map((m) => {
+    const bytes = Buffer.from(m.bytes);
+    const folds = m.interval ? m.interval.folds.map((f) => Buffer.from(f.bytes)) : [];
+    blobs.push(bytes, ...folds);
+    const { bytes: _b, interval, ...fields } = m;
+    const stored = interval ? { level: interval.level, unitKind: interval.unitKind, table: interval.table, folds: interval.folds.map((f, k) => ({ design: f.design, bytesLength: folds[k].length })) } : null;
+    return { fields, bytesLength: bytes.length, interval: stored };
+  });
+  const header =
+    layout === 3
+      ? {
+          format: 3,
+          target: bundle.target,
+          run: bundle.run,
+          headline: bundle.headline,
+          models: entries.map((e) => ({ ...e.fields, bytesLength: e.bytesLength, ...(e.interval ? { interval: e.interval } : {}) })),
+        }
+      : // the older header, key for key in its order, so a rerun writes the very bytes an older run did
+        (() => {
+          const e = entries[0];
+          const f = e.fields;
+          return {
+            format: 1,
+            model: f.model,
+            kind: f.kind,
+            cell: f.cell,
+            used: f.used,
+            design: f.design,
+            ranges: f.ranges,
+            target: bundle.target,
+            trainingRows: f.trainingRows,
+            run: bundle.run,
+            ...(e.interval ? { bytesLength: e.bytesLength, interval: e.interval } : {}),
+          };
+        })();
+  const json = Buffer.from(JSON.stringify(header), 'utf8');
   const len = Buffer.alloc(4);
-  len.writeUInt32LE(header.length, 0);
-  const body = gzipSync(Buffer.concat([Buffer.from(MAGIC, 'latin1'), len, header, bytes, ...foldBytes]), { level: 1 });
-  return new Uint8Array(Buffer.concat([Buffer.from(MODEL_FILE_LINE, 'latin1'), body]));
+  len.writeUInt32LE(json.length, 0);
+  const body = gzipSync(Buffer.concat([Buffer.from(MAGIC, 'latin1'), len, json, ...blobs]), { level: 1 });
+  if (layout === 1) return new Uint8Array(body);
+  return new Uint8Array(Buffer.concat([Buffer.from(layout === 3 ? MODEL_FILE_LINE : HEADLINE_ONLY_LINE, 'latin1'), body]));
+}
+
+/**
+ * The model file of a run: every model it fitted, the chosen one named as the headline. A layout
+ * below 3 (headline only) is written only to compare a rerun with a run folder an older version wrote.
+ */
+export function runModelFile(recipe: Recipe, results: Results, layout: ModelBundle['layout'] = 3): Uint8Array {
+  return writeModelFile({
+    layout,
+    target: recipe.target,
+    run: { holdoutPredictionsSha256: holdoutPredictionsSha256(results) },
+    headline: results.chosenModel,
+    models: results.fitted.map(modelEntry),
+  });
+}
+
+/** Which layout a model file's bytes have, from their start alone; null for bytes that are no model file. */
+export function modelFileLayout(data: Uint8Array): ModelBundle['layout'] | null {
+  const start = Buffer.from(data.subarray(0, MODEL_FILE_LINE.length)).toString('latin1');
+  if (start === MODEL_FILE_LINE) return 3;
+  if (start === HEADLINE_ONLY_LINE) return 2;
+  return data[0] === 0x1f && data[1] === 0x8b ? 1 : null;
 }
 
 type StoredInterval = Omit<ModelInterval, 'folds'> & { folds: { design: FitOutput['design']; bytesLength: number }[] };
+type StoredModel = Omit<ModelFile, 'bytes' | 'interval'> & { bytesLength?: number; interval?: StoredInterval };
 
-/** Reads a model file back (either layout); throws a plain Error if the bytes are not a dendrolog model file. */
-export function readModelFile(data: Uint8Array): ModelFile {
-  const start = Buffer.from(data.subarray(0, MODEL_FILE_LINE.length)).toString('latin1');
-  const gzipped = start === MODEL_FILE_LINE ? data.subarray(MODEL_FILE_LINE.length) : data;
-  if (start !== MODEL_FILE_LINE && !(data[0] === 0x1f && data[1] === 0x8b)) throw new Error('not a dendrolog model file (it does not start with "dendrolog model")');
-  const raw = gunzipSync(gzipped);
+/** Reads a model file back (any layout); throws a plain Error if the bytes are not a dendrolog model file. */
+export function readModelFile(data: Uint8Array): ModelBundle {
+  const layout = modelFileLayout(data);
+  if (layout === null) throw new Error('not a dendrolog model file (it does not start with "dendrolog model")');
+  const raw = gunzipSync(layout === 1 ? data : data.subarray(MODEL_FILE_LINE.length));
   if (raw.subarray(0, 4).toString('latin1') !== MAGIC) throw new Error('not a dendrolog model file');
   const n = raw.readUInt32LE(4);
   if (8 + n > raw.length) throw new Error(`the model header claims ${n} bytes, more than the file holds`);
-  const { interval, bytesLength, ...header } = parseJson(raw.subarray(8, 8 + n).toString('utf8')) as Omit<ModelFile, 'bytes' | 'interval'> & {
-    interval?: StoredInterval;
-    bytesLength?: number;
-  };
+  const header = parseJson(raw.subarray(8, 8 + n).toString('utf8')) as Record<string, unknown>;
   const body = raw.subarray(8 + n);
-  if (!interval) return { ...header, bytes: new Uint8Array(body) };
-  const lengths = [bytesLength ?? 0, ...interval.folds.map((f) => f.bytesLength)];
+  if (layout === 3) {
+    const { target, run, headline, models } = header as { target: string; run?: ModelBundle['run']; headline: string; models: StoredModel[] };
+    if (!Array.isArray(models)) throw new Error('the model header lists no models');
+    const lengths = models.flatMap((m) => [m.bytesLength ?? 0, ...(m.interval?.folds.map((f) => f.bytesLength) ?? [])]);
+    const blobs = cut(body, lengths);
+    return { layout, target, run, headline, models: models.map((m) => storedModel(m, blobs)) };
+  }
+  // layouts 1 and 2: one model; without an interval, its bytes are all that follows the header
+  const { format: _f, target, run, ...model } = header as StoredModel & { format: number; target: string; run?: ModelBundle['run'] };
+  const blobs = model.interval ? cut(body, [model.bytesLength ?? 0, ...model.interval.folds.map((f) => f.bytesLength)]) : [new Uint8Array(body)];
+  return { layout, target, run, headline: model.model, models: [storedModel(model, blobs)] };
+}
+
+/** Cuts the models' bytes by the lengths the header lists, refusing a file whose lengths do not add up. */
+function cut(body: Buffer, lengths: number[]): Uint8Array[] {
   const total = lengths.reduce((a, b) => a + b, 0);
   if (total !== body.length) throw new Error(`the model header lists ${total} bytes of models, but ${body.length} follow it`);
   let at = 0;
-  const [bytes, ...folds] = lengths.map((len) => new Uint8Array(body.subarray(at, (at += len))));
-  return { ...header, bytes, interval: { ...interval, folds: interval.folds.map((f, k) => ({ design: f.design, bytes: folds[k] })) } };
+  return lengths.map((len) => new Uint8Array(body.subarray(at, (at += len))));
+}
+
+/** A model from its header entry, taking its bytes (and its fold models') from the front of blobs. */
+function storedModel(m: StoredModel, blobs: Uint8Array[]): ModelFile {
+  const { bytesLength: _l, interval, ...fields } = m;
+  const bytes = blobs.shift()!;
+  if (!interval) return { ...fields, bytes };
+  return { ...fields, bytes, interval: { ...interval, folds: interval.folds.map((f) => ({ design: f.design, bytes: blobs.shift()! })) } };
 }
 
 /** Why a run folder's model file cannot be used, as a message naming the file and an exit code. */
@@ -134,7 +220,7 @@ export interface ModelFileProblem {
  *
  * Example: `const r = readRunModel(folder, readManifest(folder)); if ('problem' in r) throw …`
  */
-export function readRunModel(outDir: string, manifest: Manifest): { model: ModelFile } | { problem: ModelFileProblem } {
+export function readRunModel(outDir: string, manifest: Manifest): { bundle: ModelBundle } | { problem: ModelFileProblem } {
   // a record without modelFile predates model.dendro, so its model file, if any, is model.bin; a
   // model.dendro beside such a record is named as unrecorded, never trusted
   const name = manifest.modelFile?.file ?? (existsSync(join(outDir, RUN_FILES.model)) ? RUN_FILES.model : OLD_FILES.model);
@@ -158,14 +244,32 @@ export function readRunModel(outDir: string, manifest: Manifest): { model: Model
     return problem('changed', messages.modelFileChanged(file, recorded.sha256, actual));
   }
   if ('error' in decoded) return problem('undecodable', messages.modelFileUndecodable(file, decoded.error));
-  if (decoded.model.run?.holdoutPredictionsSha256 !== manifest.holdoutPredictionsSha256) return problem('changed', messages.modelFileOtherRun(file));
+  if (decoded.bundle.run?.holdoutPredictionsSha256 !== manifest.holdoutPredictionsSha256) return problem('changed', messages.modelFileOtherRun(file));
   return decoded;
 }
 
-function decodeModel(data: Uint8Array): { model: ModelFile } | { error: string } {
+function decodeModel(data: Uint8Array): { bundle: ModelBundle } | { error: string } {
   try {
-    return { model: readModelFile(data) };
+    return { bundle: readModelFile(data) };
   } catch (e) {
     return { error: (e as Error).message };
   }
+}
+
+/**
+ * The model a prediction uses: the headline, or the one named, which must be in the file (an older
+ * model file holds the headline alone, and says so).
+ *
+ * Example: `pickModel(bundle, 'linear', 'out/model.dendro').model === 'linear'`
+ */
+export function pickModel(bundle: ModelBundle, name: string | undefined, file: string): ModelFile {
+  const wanted = name ?? bundle.headline;
+  const found = bundle.models.find((m) => m.model === wanted);
+  if (found) return found;
+  throw new DendrologError(
+    bundle.layout === 3
+      ? messages.modelNotInRun(wanted, file, bundle.models.map((m) => m.model), closest(wanted, bundle.models.map((m) => m.model)))
+      : messages.modelFileHeadlineOnly(wanted, file, bundle.headline),
+    2,
+  );
 }

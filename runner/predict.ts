@@ -3,7 +3,7 @@ import { dirname, join, resolve } from 'node:path';
 import type { Column } from '../core/frame.js';
 import { column, isMissing } from '../core/frame.js';
 import { DendrologError, messages } from '../core/messages.js';
-import { readRunModel } from './model-file.js';
+import { pickModel, readRunModel } from './model-file.js';
 import { cvPlus } from '../models/conformal.js';
 import { planApply } from './plan.js';
 import { localExecutor } from './execute.js';
@@ -18,6 +18,10 @@ import { has } from '../core/dict.js';
 import { recipeFromManifest } from './stored-recipe.js';
 
 export interface PredictionSummary {
+  /** The model that predicted: the run's headline model unless another was asked for. */
+  model: string;
+  /** The model the run chose (its headline). */
+  headline: string;
   rows: number;
   predicted: number;
   notPredicted: number;
@@ -31,21 +35,22 @@ export interface PredictionSummary {
 }
 
 /**
- * Applies a run's cleaning, features (with the values learned in training) and headline model to a
- * new file shaped like the recipe's main source, and writes one line per input row, in input order:
+ * Applies a run's cleaning, features (with the values learned in training) and headline model (or
+ * another model the run fitted, by name) to a new file shaped like the recipe's main source, and writes one line per input row, in input order:
  * the row's declared columns, the prediction, the predictors outside the training range, and, for a
  * row that cleaning or a missing predictor removed, the reason instead of a prediction. Cleaning
  * steps that need the target run only when the file has the target's columns.
  *
- * Example: `await predictRun('recipes/lake-chlorophyll/out/lake-chlorophyll', 'new.csv', 'pred.csv')`
+ * Example: `await predictRun('recipes/lake-chlorophyll/out/lake-chlorophyll', 'new.csv', 'pred.csv', { model: 'linear' })`
  */
-export async function predictRun(folder: string, dataFile: string, outFile: string): Promise<PredictionSummary> {
+export async function predictRun(folder: string, dataFile: string, outFile: string, opts: { model?: string } = {}): Promise<PredictionSummary> {
   const outDir = resolve(folder);
   const manifest = readManifest(outDir);
   // only the model this run wrote: a truncated, edited or foreign model file is refused by name
   const loaded = readRunModel(outDir, manifest);
   if ('problem' in loaded) throw new DendrologError(loaded.problem.message, loaded.problem.exitCode);
-  const { model } = loaded;
+  const { bundle } = loaded;
+  const model = pickModel(bundle, opts.model, displayOf(join(outDir, manifest.modelFile?.file ?? RUN_FILES.model)));
   const recipe = recipeFromManifest(manifest, displayOf(runRecordPath(outDir)?.path ?? join(outDir, RUN_FILES.record)));
   const recipeDir = dirname(resolve(outDir, manifest.recipe.file));
   const dataPath = resolve(dataFile);
@@ -168,6 +173,8 @@ export async function predictRun(folder: string, dataFile: string, outFile: stri
   if (outFile === '-') process.stdout.write(lines.join('\n') + '\n');
   else replaceFile(outFile, lines.join('\n') + '\n');
   return {
+    model: model.model,
+    headline: bundle.headline,
     rows: input.rows,
     predicted: predictions.filter((p) => p !== null).length,
     notPredicted: predictions.filter((p) => p === null).length,

@@ -11,6 +11,7 @@ import type { ScoreOutput } from '../steps/index.js';
 import type { IntervalFoldOutput, PredictionIntervalOutput } from '../steps/index.js';
 import type { ExplainOutput } from '../steps/index.js';
 import type { Execution } from './execute.js';
+import type { FittedModel } from './model-file.js';
 import type { Plan } from './plan.js';
 import type { Blocks, ModelKind, Recipe } from '../core/recipe-types.js';
 import type { FrameOutput, Warning } from '../core/step-types.js';
@@ -87,8 +88,8 @@ export interface Results {
   warnings: Warning[];
   /** Holdout observations and the chosen model's predictions, for the plots. */
   holdoutRows: { observed: number[]; predicted: number[]; groups: string[] | null };
-  /** The headline model's final fit, for the model file. */
-  headlineFit: FitOutput;
+  /** Every model's final fit and, with prediction intervals, its fold models and residual table, in recipe order: for the model file. */
+  fitted: FittedModel[];
   /**
    * With spatial blocks, each modelling row's place and side ('holdout', or its fold), for the map;
    * every step-th row in model-table order when there are many. Null without blocks.
@@ -193,7 +194,10 @@ export function gatherResults(recipe: Recipe, plan: Plan, exec: Execution): Resu
     chosenModel: best,
     warnings: warnings.list(),
     holdoutRows: { observed: bestScore.observed, predicted: bestScore.predictions, groups: bestScore.groups },
-    headlineFit: out(plan.models[best].fit) as FitOutput,
+    fitted: Object.values(plan.models).map((ids) => ({
+      fit: out(ids.fit) as FitOutput,
+      interval: ids.interval ? { output: out(ids.interval.gather) as PredictionIntervalOutput, folds: ids.interval.folds.map((id) => out(id) as IntervalFoldOutput) } : null,
+    })),
     headlineInterval,
     splitMap: recipe.blocks ? splitMap(table, recipe.blocks, split, folds) : null,
     modelTable: { rows: table.rows, columns: profileFrame(table) },

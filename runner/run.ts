@@ -3,7 +3,7 @@ import { availableParallelism } from 'node:os';
 import { join, resolve } from 'node:path';
 import { ABANDONED_WRITE_MS, Cache } from './cache.js';
 import { localExecutor, type Execution } from './execute.js';
-import { buildManifest, holdoutPredictionsSha256, manifestProblems, type Manifest } from './manifest.js';
+import { buildManifest, manifestProblems, type Manifest } from './manifest.js';
 import { RUN_FILES } from './run-files.js';
 import { prepareRunFolder, writeFolderAtomically } from './output.js';
 import { planRecipe, type Plan } from './plan.js';
@@ -15,7 +15,7 @@ import { renderReport, renderSummary } from './render.js';
 import { reportView } from './report-view.js';
 import { gatherResults, type Results } from './results.js';
 import { buildFigures } from './plots.js';
-import { writeModelFile } from './model-file.js';
+import { runModelFile } from './model-file.js';
 import { shortenTexts } from './shorten.js';
 import { SlurmRunner, type SlurmOptions } from './slurm.js';
 import { DendrologError, messages } from '../core/messages.js';
@@ -88,7 +88,7 @@ export async function runRecipe(recipePath: string, opts: RunOptions): Promise<R
   cache?.sweepTemporaries(ABANDONED_WRITE_MS);
   const { execution, results } = await executeRecipe(recipe, origin, { cache, workers: opts.workers ?? defaultWorkers(), progress: opts.progress, slurm: opts.slurm });
   // 7: render and write
-  const modelBin = writeModelFile(results.headlineFit, results.headlineInterval, recipe, { holdoutPredictionsSha256: holdoutPredictionsSha256(results) });
+  const modelBin = runModelFile(recipe, results);
   // texts from the data are shortened in the record; the recipe stays whole, since verify reruns it
   const manifest = shortenTexts(
     buildManifest(recipe, origin, execution, results, { started, seconds: (performance.now() - t0) / 1000 }, outDir, modelBin),

@@ -4,8 +4,8 @@ import { dirname, join, relative, resolve } from 'node:path';
 import { Cache } from './cache.js';
 import { environment, softwareFingerprint } from './environment.js';
 import { sha256 } from '../core/hash.js';
-import { buildManifest, holdoutPredictionsSha256 } from './manifest.js';
-import { MODEL_FILE_LINE, readRunModel, writeModelFile } from './model-file.js';
+import { buildManifest } from './manifest.js';
+import { readRunModel, runModelFile } from './model-file.js';
 import { DendrologError, messages } from '../core/messages.js';
 import type { Progress } from './progress.js';
 import { type RecipeOrigin } from './recipe.js';
@@ -97,10 +97,10 @@ export async function verifyRun(folder: string, opts: { workers: number; progres
   let keep = false;
   try {
     const { execution, results } = await executeRecipe(recipe, origin, { cache: new Cache(cacheDir), workers: opts.workers, progress: opts.progress, slurm: opts.slurm });
-    const modelBytes = writeModelFile(results.headlineFit, results.headlineInterval, recipe, { holdoutPredictionsSha256: holdoutPredictionsSha256(results) });
+    // the rerun's model file in the layout of the folder's own (an older one held the headline alone)
+    const modelBytes = runModelFile(recipe, results, 'bundle' in modelCheck ? modelCheck.bundle.layout : manifest.modelFile?.file === OLD_FILES.model ? 1 : 3);
     rerun = buildManifest(recipe, origin, execution, results, { started: new Date(), seconds: 0 }, outDir, modelBytes);
-    // an older dendrolog's model.bin is the same file without the first line
-    rerunModelSha = manifest.modelFile?.file === OLD_FILES.model ? sha256(modelBytes.subarray(MODEL_FILE_LINE.length)) : sha256(modelBytes);
+    rerunModelSha = sha256(modelBytes);
   } catch (e) {
     // a failed cluster task's log lives in this cache: keep it, and do not promise a resumable rerun
     if (opts.slurm && e instanceof DendrologError && existsSync(join(cacheDir, 'tasks')) && readdirSync(join(cacheDir, 'tasks')).length > 0) {

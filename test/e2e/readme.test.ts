@@ -63,8 +63,8 @@ describe("the README's commands", () => {
   }, 180_000);
   afterAll(() => rmSync(work, { recursive: true, force: true }));
 
-  it('marks four blocks', () => {
-    expect(blocks).toHaveLength(4);
+  it('marks five blocks', () => {
+    expect(blocks).toHaveLength(5);
   });
 
   it('print what the README shows under them', () => {

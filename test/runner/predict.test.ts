@@ -9,6 +9,8 @@ import { planApply } from '../../runner/plan.js';
 import { loadRecipe } from '../../runner/recipe.js';
 import { newRows, ROW_COLUMN } from '../../steps/new-rows.js';
 import { asOutput, SMALL_RECIPE, smallData } from '../helpers.js';
+import type { Manifest } from '../../runner/manifest.js';
+import { displayOf } from '../../runner/paths.js';
 import { expectOutcome, scenario } from '../hostile/harness.js';
 
 /** SMALL_RECIPE with a target computed from y, and a predictor computed from x1. */
@@ -120,5 +122,40 @@ describe('the apply plan', () => {
     expect(r.out).not.toContain('prediction interval');
     expect(readFileSync(join(s.dir, 'p.csv'), 'utf8').split('\n')[0]).not.toMatch(/low_|high_/);
     expect(readFileSync(join(s.dir, 'out/small/predictions.csv'), 'utf8').split('\n')[0]).toBe('model_row,set,observed,predicted');
+  });
+
+  it('predicts with another model the run fitted (--model), which gives the holdout scores the run recorded for it', async () => {
+    const s = scenario({ 'recipe.yaml': SMALL_RECIPE, 'data/obs.csv': smallData() });
+    await expectOutcome(s.dir, ['run', s.recipe, '--cache', s.cache, '--workers', '1'], { code: 0, changes: ['out/small/'] });
+    const record = JSON.parse(readFileSync(join(s.dir, 'out/small/run-record.json'), 'utf8')) as Manifest;
+    expect(record.headline.model).toBe('linear');
+    const r = await expectOutcome(s.dir, ['predict', join(s.dir, 'out/small'), join(s.dir, 'data/obs.csv'), '--out', join(s.dir, 'mean.csv'), '--model', 'mean'], { code: 0, changes: ['mean.csv'] });
+    expect(r.out).toContain('60 of 60 rows predicted, 0 not');
+    expect(r.out).toContain('\nmodel: mean, not the one the run chose (linear)\n');
+    const table = (file: string) => readFileSync(join(s.dir, file), 'utf8').trimEnd().split('\n').map((l) => l.split(','));
+    const [head, ...rows] = table('mean.csv');
+    const [, ...run] = table('out/small/predictions.csv');
+    // the mean model predicts the mean of the training rows' target for every row
+    const training = run.filter((row) => row[1] === 'training').map((row) => Number(row[2]));
+    const mean = training.reduce((a, b) => a + b, 0) / training.length;
+    for (const row of rows) expect(Number(row[head.indexOf('predicted_y')])).toBeCloseTo(mean, 12);
+    // and over the run's holdout rows, its RMSE is the one the run recorded for the mean model
+    const holdout = run.filter((row) => row[1] === 'holdout');
+    const rmse = Math.sqrt(holdout.reduce((a, [row, , observed]) => a + (Number(observed) - Number(rows[Number(row)][head.indexOf('predicted_y')])) ** 2, 0) / holdout.length);
+    expect(rmse).toBeCloseTo((record.models.find((m) => m.name === 'mean')!.metrics.holdout as { rmse: { value: number } }).rmse.value, 10);
+    // naming the headline gives the same file as not naming a model
+    await expectOutcome(s.dir, ['predict', join(s.dir, 'out/small'), join(s.dir, 'data/obs.csv'), '--out', join(s.dir, 'a.csv')], { code: 0, changes: ['a.csv'] });
+    const named = await expectOutcome(s.dir, ['predict', join(s.dir, 'out/small'), join(s.dir, 'data/obs.csv'), '--out', join(s.dir, 'b.csv'), '--model', 'linear'], { code: 0, changes: ['b.csv'] });
+    expect(named.out).toContain('\nmodel: linear, the one the run chose\n');
+    expect(readFileSync(join(s.dir, 'b.csv'), 'utf8')).toBe(readFileSync(join(s.dir, 'a.csv'), 'utf8'));
+  });
+
+  it('refuses a --model the run did not fit, naming the models it did, and writes nothing', async () => {
+    const s = scenario({ 'recipe.yaml': SMALL_RECIPE, 'data/obs.csv': smallData() });
+    await expectOutcome(s.dir, ['run', s.recipe, '--cache', s.cache, '--workers', '1'], { code: 0, changes: ['out/small/'] });
+    const r = await expectOutcome(s.dir, ['predict', join(s.dir, 'out/small'), join(s.dir, 'data/obs.csv'), '--out', join(s.dir, 'p.csv'), '--model', 'meen'], { code: 2, changes: [] });
+    expect(r.err).toContain(messages.modelNotInRun('meen', displayOf(join(s.dir, 'out/small/model.dendro')), ['linear', 'mean'], 'mean'));
+    const empty = await expectOutcome(s.dir, ['predict', join(s.dir, 'out/small'), join(s.dir, 'data/obs.csv'), '--out', join(s.dir, 'p.csv'), '--model', ''], { code: 2, changes: [] });
+    expect(empty.err).toContain('--model');
   });
 });

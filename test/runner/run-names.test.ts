@@ -8,7 +8,7 @@ import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import { messages } from '../../core/messages.js';
 import { sha256 } from '../../core/hash.js';
-import { MODEL_FILE_LINE, readModelFile } from '../../runner/model-file.js';
+import { MODEL_FILE_LINE, readModelFile, writeModelFile } from '../../runner/model-file.js';
 import { readManifest, RUN_MARKER, runMarker } from '../../runner/run-folder.js';
 import { runRecipe } from '../../runner/run.js';
 import type { Manifest } from '../../runner/manifest.js';
@@ -17,10 +17,22 @@ import { displayOf } from '../../runner/paths.js';
 import { cli, scenario } from '../hostile/harness.js';
 import { smallData } from '../helpers.js';
 
-/** Turns a run folder into the layout an older dendrolog wrote: manifest.json, and model.bin without its first line. */
+/** Turns a run folder's model file into the headline-only layout 2 ("dendrolog model 2"), recorded as such. */
+function makeHeadlineOnly(out: string): void {
+  const model = Buffer.from(writeModelFile({ ...readModelFile(readFileSync(join(out, 'model.dendro'))), layout: 2 }));
+  const record = JSON.parse(readFileSync(join(out, 'run-record.json'), 'utf8')) as Manifest;
+  record.modelFile = { file: 'model.dendro', sha256: sha256(model), bytes: model.length };
+  const files: Record<string, string | Uint8Array> = {};
+  for (const name of ['report.html', 'summary.md', 'predictions.csv']) files[name] = readFileSync(join(out, name));
+  files['run-record.json'] = JSON.stringify(record, null, 2) + '\n';
+  files['model.dendro'] = model;
+  for (const [name, data] of Object.entries(files)) writeFileSync(join(out, name), data);
+  writeFileSync(join(out, RUN_MARKER), runMarker(files));
+}
+
+/** Turns a run folder into the layout an older dendrolog wrote: manifest.json, and model.bin (layout 2 without its first line). */
 function makeOld(out: string): void {
-  const model = readFileSync(join(out, 'model.dendro'));
-  const old = model.subarray(MODEL_FILE_LINE.length);
+  const old = Buffer.from(writeModelFile({ ...readModelFile(readFileSync(join(out, 'model.dendro'))), layout: 1 }));
   const record = JSON.parse(readFileSync(join(out, 'run-record.json'), 'utf8')) as Manifest;
   record.modelFile = { file: 'model.bin', sha256: sha256(old), bytes: old.length };
   const files: Record<string, string | Uint8Array> = {};
@@ -43,9 +55,13 @@ describe('a run folder', () => {
     expect(readdirSync(out).sort()).toEqual([RUN_MARKER, 'model.dendro', 'predictions.csv', 'report.html', 'run-record.json', 'summary.md']);
     const model = readFileSync(join(out, 'model.dendro'));
     // the first line says what the file is; the gzip stream follows it
-    expect(model.subarray(0, MODEL_FILE_LINE.length).toString('latin1')).toBe('dendrolog model 2\n');
+    expect(model.subarray(0, MODEL_FILE_LINE.length).toString('latin1')).toBe('dendrolog model 3\n');
     expect([model[MODEL_FILE_LINE.length], model[MODEL_FILE_LINE.length + 1]]).toEqual([0x1f, 0x8b]);
-    expect(readModelFile(model).target).toBe('y');
+    // every model of the recipe, the chosen one named as the headline
+    const bundle = readModelFile(model);
+    expect(bundle.target).toBe('y');
+    expect(bundle.models.map((m) => m.model)).toEqual(readManifest(out).models.map((m) => m.name));
+    expect(bundle.headline).toBe(readManifest(out).headline.model);
     expect(readManifest(out).modelFile?.file).toBe('model.dendro');
     // the cache: one folder per step kind, each entry named by its step key
     const kinds = readdirSync(s.cache).sort();
@@ -72,6 +88,23 @@ describe('a run folder', () => {
     expect(predicted.code).toBe(0);
     expect(predicted.err).toContain(note);
     expect(readFileSync(join(s.dir, 'pred.csv'), 'utf8').split('\n').length).toBeGreaterThan(2);
+  });
+
+  it('with a headline-only model.dendro ("dendrolog model 2") still verifies, predicts with its headline and says --model needs a new run', async () => {
+    const s = scenario({ 'new.csv': smallData().split('\n').slice(0, 6).join('\n') + '\n' });
+    const out = join(s.dir, 'out');
+    expect((await cli(['run', s.recipe, '--cache', s.cache, '--out', out, '--workers', '1'])).code).toBe(0);
+    makeHeadlineOnly(out);
+    const verified = await cli(['verify', out, '--workers', '1']);
+    expect(verified.out + verified.err).toContain('the holdout predictions and model.dendro match the run record');
+    const headline = readManifest(out).headline.model;
+    const predicted = await cli(['predict', out, join(s.dir, 'new.csv'), '--out', join(s.dir, 'pred.csv')]);
+    expect(predicted.out).toContain(`\nmodel: ${headline}, the one the run chose\n`);
+    const other = readManifest(out).models.find((m) => m.name !== headline)!.name;
+    const refused = await cli(['predict', out, join(s.dir, 'new.csv'), '--out', join(s.dir, 'other.csv'), '--model', other]);
+    expect(refused.code).toBe(2);
+    expect(refused.err).toContain(messages.modelFileHeadlineOnly(other, displayOf(join(out, 'model.dendro')), headline));
+    expect(existsSync(join(s.dir, 'other.csv'))).toBe(false);
   });
 
   it('of the oldest kind (manifest.json without a model record, beside model.bin) still verifies, with a note that the model cannot be checked', async () => {
