@@ -46,6 +46,13 @@ describe('the packed tarball', () => {
     expect(lib.out.trim()).toBe('DendrologError check compare predict run verify');
     const checked = sh(process.execPath, ['--input-type=module', '-e', "const { check } = await import('dendrolog'); console.log(JSON.stringify(await check('analysis/lake-chlorophyll.yaml')))"], project);
     expect(JSON.parse(checked.out)).toEqual({ sources: 2, models: 4 });
+    // predict through the library, with a model other than the headline
+    const script = "const { predict } = await import('dendrolog'); const s = await predict('analysis/out/lake-chlorophyll', 'analysis/data/samples.csv', 'linear.csv', { model: 'linear' }); console.log(JSON.stringify([s.model, s.headline, s.rows, s.predicted + s.notPredicted]))";
+    const predicted = sh(process.execPath, ['--input-type=module', '-e', script], project);
+    expect(predicted.code, predicted.err).toBe(0);
+    const [model, headline, rows, lines] = JSON.parse(predicted.out) as [string, string, number, number];
+    expect([model, headline, lines]).toEqual(['linear', 'forest', rows]);
+    expect(existsSync(join(project, 'linear.csv'))).toBe(true);
   }, SLOW);
 
   it('installs globally and answers --version and help', () => {
