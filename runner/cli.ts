@@ -123,7 +123,7 @@ export async function main(argv: string[]): Promise<number> {
           (s.intervalLevel !== null ? `each prediction has its ${+(100 * s.intervalLevel).toFixed(2)}% prediction interval (low_ and high_ columns; see the run's report for its measured coverage)\n` : '') +
           (s.skippedSteps.length ? `the file has no target, so these steps that need it were skipped: ${s.skippedSteps.join(', ')}\n` : '') +
           warningLines(s.warnings) +
-          `Predictions: ${s.out}\n`,
+          `Predictions: ${s.out === '-' ? 'written to stdout' : s.out}\n`,
       );
       return 0;
     }
@@ -274,8 +274,8 @@ function cacheCommand(rest: string[], out: { write(s: string): unknown }, err: {
       out.write(JSON.stringify({ ...info, dir: where }, null, 2) + '\n');
       return 0;
     }
-    out.write(info.kinds.map((k) => `${k.kind.padEnd(20)} ${String(k.entries).padStart(7)} entries  ${mib(k.bytes).padStart(11)}\n`).join(''));
-    out.write(`${where}: ${info.entries} entries, ${mib(info.bytes)}\n`);
+    out.write(info.kinds.map((k) => `${k.kind.padEnd(20)} ${String(k.entries).padStart(7)} ${k.entries === 1 ? 'entry  ' : 'entries'}  ${mib(k.bytes).padStart(11)}\n`).join(''));
+    out.write(`${where}: ${info.entries} ${info.entries === 1 ? 'entry' : 'entries'}, ${mib(info.bytes)}\n`);
     return 0;
   }
   if (sub === 'verify') {

@@ -106,6 +106,13 @@ describe('the cache command', () => {
     for (const f of new Cache(s.cache).list()) utimesSync(f.path, new Date(Date.now() - 2 * 3_600_000), new Date(Date.now() - 2 * 3_600_000));
     const info = JSON.parse((await cli(['cache', '--json'])).out) as { entries: number; kinds: { kind: string }[] };
     expect(info.kinds.map((k) => k.kind)).toContain('fit');
+    // the human listing counts one entry as one, not "1 entries"
+    const listing = (await cli(['cache'])).out;
+    const kinds = info.kinds as { kind: string; entries: number }[];
+    const one = kinds.find((k) => k.entries === 1)!;
+    const two = kinds.find((k) => k.entries === 2)!;
+    expect(listing).toMatch(new RegExp(`^${one.kind} +1 entry  `, 'm'));
+    expect(listing).toMatch(new RegExp(`^${two.kind} +2 entries `, 'm'));
     expect((await cli(['cache', 'verify'])).code).toBe(0);
     // a dry run removes nothing
     const dry = await cli(['cache', 'prune', '--unused-by', join(s.dir, 'keep'), '--dry-run']);
@@ -154,6 +161,7 @@ describe('predict to stdout', () => {
     expect(r.out.split('\n')[0]).toMatch(/^site,x1,x2,y,/);
     expect(r.out.trim().split('\n')).toHaveLength(61);
     expect(r.err).toMatch(/^60 of 60 rows predicted/);
+    expect(r.err).toMatch(/\nPredictions: written to stdout\n$/);
     expect(existsSync(join(s.dir, '-'))).toBe(false);
   });
 });
