@@ -105,8 +105,9 @@ export function decodeRecord(body: Uint8Array): unknown {
     if (at + length > body.length) throw new Error(`the record's binary fields claim more bytes than are stored`);
     let holder = value as Record<string | number, unknown>;
     for (const key of path.slice(0, -1)) holder = holder[key] as Record<string | number, unknown>;
-    // a copy, so the field does not keep the whole entry's buffer alive
-    holder[path[path.length - 1]] = body.slice(at, at + length);
+    // a field that is most of the entry (a fitted model) is a view, not a second copy of it; a
+    // smaller one is copied, so it does not keep the whole entry's buffer alive
+    holder[path[path.length - 1]] = 2 * length >= body.length ? body.subarray(at, at + length) : body.slice(at, at + length);
     at += length;
   }
   if (at !== body.length) throw new Error(`the record holds ${body.length - at} bytes more than its fields`);

@@ -183,13 +183,15 @@ function readTree(view: DataView, at: number, p: number, width: 2 | 4, k: number
   const count = view.getUint32(at, true);
   at += 4;
   need(count * (width + 12));
+  // one allocation per tree, not six
+  const memory = new ArrayBuffer(count * 32);
   const t: Tree = {
-    feature: new Int32Array(count),
-    threshold: new Float64Array(count),
-    left: new Int32Array(count),
-    right: new Int32Array(count),
-    value: new Float64Array(count),
-    draws: new Int32Array(count),
+    threshold: new Float64Array(memory, 0, count),
+    value: new Float64Array(memory, 8 * count, count),
+    feature: new Int32Array(memory, 16 * count, count),
+    left: new Int32Array(memory, 20 * count, count),
+    right: new Int32Array(memory, 24 * count, count),
+    draws: new Int32Array(memory, 28 * count, count),
   };
   for (let i = 0; i < count; i++, at += width) {
     const feat = width === 2 ? view.getInt16(at, true) : view.getInt32(at, true);

@@ -11,10 +11,8 @@ import type { Progress } from './progress.js';
 import { loadRecipe, type RecipeOrigin } from './recipe.js';
 import type { Recipe, TargetScale } from '../core/recipe-types.js';
 import { TARGET_SCALES } from '../steps/index.js';
-import { renderReport, renderSummary } from './render.js';
 import { reportView } from './report-view.js';
 import { gatherResults, type Results } from './results.js';
-import { buildFigures } from './plots.js';
 import { runModelFile } from './model-file.js';
 import { shortenTexts } from './shorten.js';
 import { SlurmRunner, type SlurmOptions } from './slurm.js';
@@ -86,6 +84,9 @@ export async function runRecipe(recipePath: string, opts: RunOptions): Promise<R
   const cache = opts.noCache ? null : new Cache(resolve(opts.cache ?? cacheFromEnvironment() ?? DEFAULT_CACHE));
   if (cache && opts.cache === undefined && cacheFromEnvironment() === undefined && existsSync(OLD_DEFAULT_CACHE)) opts.progress.note(messages.oldCacheFolder(OLD_DEFAULT_CACHE, DEFAULT_CACHE));
   cache?.sweepTemporaries(ABANDONED_WRITE_MS);
+  // the report's code (vega, vega-lite, handlebars: about a third of a second to load) loads while
+  // the steps run, and other commands never load it
+  const reporting = reportCode();
   const { execution, results } = await executeRecipe(recipe, origin, { cache, workers: opts.workers ?? defaultWorkers(), progress: opts.progress, slurm: opts.slurm });
   // 7: render and write
   const modelBin = runModelFile(recipe, results);
@@ -96,6 +97,7 @@ export async function runRecipe(recipePath: string, opts: RunOptions): Promise<R
   );
   const problems = manifestProblems(manifest);
   if (problems.length > 0) throw new Error(`the manifest does not match schemas/run-record.v1.json: ${problems.join('; ')}`);
+  const { buildFigures, renderReport, renderSummary } = await reporting;
   const view = reportView(recipe, results, manifest, await buildFigures(recipe, results));
   writeFolderAtomically(outDir, {
     [RUN_FILES.report]: renderReport(view),
@@ -105,6 +107,14 @@ export async function runRecipe(recipePath: string, opts: RunOptions): Promise<R
     [RUN_FILES.predictions]: predictionsCsv(results, recipe.target_scale),
   });
   return { outDir, manifest, results, stepsOnThreads: execution.onThreads };
+}
+
+/** The modules that draw and render the report, loaded on demand; a failure to load is the awaiting caller's. */
+function reportCode(): Promise<typeof import('./plots.js') & typeof import('./render.js')> {
+  const loading = Promise.all([import('./plots.js'), import('./render.js')]).then(([plots, render]) => ({ ...plots, ...render }));
+  // a run that stops before rendering never awaits it: that must not become an unhandled rejection
+  loading.catch(() => undefined);
+  return loading;
 }
 
 /**

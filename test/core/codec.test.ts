@@ -20,6 +20,14 @@ describe('records', () => {
     expect(back.list).toEqual([1, 2, 3]);
   });
 
+  it('give a field that is most of the record as a view of it, and a small one as a copy', () => {
+    const body = encodeRecord({ model: 'm', bytes: new Uint8Array(1000).fill(3), small: Uint8Array.of(4) });
+    const back = decodeRecord(body) as { bytes: Uint8Array; small: Uint8Array };
+    expect(back.bytes.buffer).toBe(body.buffer);
+    expect(back.small.buffer).not.toBe(body.buffer);
+    expect([back.bytes.length, back.bytes[999], Array.from(back.small)]).toEqual([1000, 3, [4]]);
+  });
+
   it('pass through a cache entry unchanged', () => {
     const entry = unpackEntry('record', packEntry('record', { a: 1, b: Uint8Array.of(5, 6) }, [{ code: 'w', message: 'm', count: 1 }]));
     expect(entry.output).toEqual({ a: 1, b: Uint8Array.of(5, 6) });

@@ -50,3 +50,33 @@ describe('layers', () => {
     expect(crossing('runner', (t) => !t.startsWith('steps/') || t === 'steps/index')).toEqual([]);
   });
 });
+
+/**
+ * The modules a file loads before it runs: its static value imports (not `import type`, not
+ * `import()`), followed through relative paths; packages are named as they are imported.
+ */
+function staticallyLoaded(file: string): Set<string> {
+  const seen = new Set<string>();
+  const visit = (rel: string) => {
+    if (seen.has(rel)) return;
+    seen.add(rel);
+    const text = readFileSync(join(root, `${rel}.ts`), 'utf8');
+    for (const m of text.matchAll(/^import (?!type )[^;]*? from '([^']+)';/gms)) {
+      const spec = m[1];
+      if (spec.startsWith('.')) visit(relative(root, resolve(join(root, rel), '..', spec.replace(/\.js$/, ''))).split(sep).join('/'));
+      else seen.add(spec);
+    }
+  };
+  visit(file);
+  return seen;
+}
+
+describe('start-up', () => {
+  it('loads no report code (vega, vega-lite, handlebars) for commands that draw nothing: run imports it on demand', () => {
+    const loaded = staticallyLoaded('runner/cli');
+    // the walk does follow imports: the command line reaches the recipe reader and the YAML package
+    expect(loaded.has('runner/recipe')).toBe(true);
+    expect(loaded.has('yaml')).toBe(true);
+    expect([...loaded].filter((m) => /^(vega|vega-lite|handlebars)$|^runner\/(plots|render)$/.test(m))).toEqual([]);
+  });
+});
