@@ -3,7 +3,7 @@
  * cache's one folder per step kind, and the names older versions used (manifest.json, model.bin,
  * .dendrolog/cache), which are read or pointed out with a one-line note.
  */
-import { existsSync, mkdirSync, readdirSync, readFileSync, renameSync, writeFileSync } from 'node:fs';
+import { existsSync, mkdirSync, readdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import { messages } from '../../core/messages.js';
@@ -17,34 +17,27 @@ import { displayOf } from '../../runner/paths.js';
 import { cli, scenario } from '../hostile/harness.js';
 import { smallData } from '../helpers.js';
 
-/** Turns a run folder's model file into the headline-only layout 2 ("dendrolog model 2"), recorded as such. */
-function makeHeadlineOnly(out: string): void {
-  const model = Buffer.from(writeModelFile({ ...readModelFile(readFileSync(join(out, 'model.dendro'))), layout: 2 }));
+/**
+ * Rewrites a run folder as an older dendrolog left it: the model file in an older layout under
+ * `modelName`, the run record under `recordName`, both recorded in the record and the run marker.
+ */
+function makeOlder(out: string, layout: 1 | 2, recordName: string, modelName: 'model.dendro' | 'model.bin'): void {
+  const model = Buffer.from(writeModelFile({ ...readModelFile(readFileSync(join(out, 'model.dendro'))), layout }));
   const record = JSON.parse(readFileSync(join(out, 'run-record.json'), 'utf8')) as Manifest;
-  record.modelFile = { file: 'model.dendro', sha256: sha256(model), bytes: model.length };
+  record.modelFile = { file: modelName, sha256: sha256(model), bytes: model.length };
   const files: Record<string, string | Uint8Array> = {};
   for (const name of ['report.html', 'summary.md', 'predictions.csv']) files[name] = readFileSync(join(out, name));
-  files['run-record.json'] = JSON.stringify(record, null, 2) + '\n';
-  files['model.dendro'] = model;
+  files[recordName] = JSON.stringify(record, null, 2) + '\n';
+  files[modelName] = model;
+  for (const name of ['run-record.json', 'model.dendro']) rmSync(join(out, name));
   for (const [name, data] of Object.entries(files)) writeFileSync(join(out, name), data);
   writeFileSync(join(out, RUN_MARKER), runMarker(files));
 }
 
-/** Turns a run folder into the layout an older dendrolog wrote: manifest.json, and model.bin (layout 2 without its first line). */
-function makeOld(out: string): void {
-  const old = Buffer.from(writeModelFile({ ...readModelFile(readFileSync(join(out, 'model.dendro'))), layout: 1 }));
-  const record = JSON.parse(readFileSync(join(out, 'run-record.json'), 'utf8')) as Manifest;
-  record.modelFile = { file: 'model.bin', sha256: sha256(old), bytes: old.length };
-  const files: Record<string, string | Uint8Array> = {};
-  for (const name of ['report.html', 'summary.md', 'predictions.csv']) files[name] = readFileSync(join(out, name));
-  files['manifest.json'] = JSON.stringify(record, null, 2) + '\n';
-  files['model.bin'] = old;
-  renameSync(join(out, 'run-record.json'), join(out, 'manifest.json'));
-  renameSync(join(out, 'model.dendro'), join(out, 'model.bin'));
-  writeFileSync(join(out, 'manifest.json'), files['manifest.json']);
-  writeFileSync(join(out, 'model.bin'), old);
-  writeFileSync(join(out, RUN_MARKER), runMarker(files));
-}
+/** The headline-only layout 2 ("dendrolog model 2"), recorded as such. */
+const makeHeadlineOnly = (out: string) => makeOlder(out, 2, 'run-record.json', 'model.dendro');
+/** manifest.json, and model.bin (layout 2 without its first line). */
+const makeOld = (out: string) => makeOlder(out, 1, 'manifest.json', 'model.bin');
 
 describe('a run folder', () => {
   it("holds the report, the summary, the run record, the model file and the predictions under dendrolog's names", async () => {
