@@ -36,8 +36,8 @@ export interface PredictionSummary {
 
 /**
  * Applies a run's cleaning, features (with the values learned in training) and headline model (or
- * another model the run fitted, by name) to a new file shaped like the recipe's main source, and writes one line per input row, in input order:
- * the row's declared columns, the prediction, the predictors outside the training range, and, for a
+ * another model the run fitted, by name) to a new file shaped like the recipe's main source, and
+ * writes one line per input row, in input order: the row's declared columns, the prediction, the predictors outside the training range, and, for a
  * row that cleaning or a missing predictor removed, the reason instead of a prediction. Cleaning
  * steps that need the target run only when the file has the target's columns.
  *

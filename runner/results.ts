@@ -170,8 +170,11 @@ export function gatherResults(recipe: Recipe, plan: Plan, exec: Execution): Resu
   for (const w of [...exec.warnings, ...headline.warnings]) warnings.add(w.code, w.message, w.count);
   const best = headline.chosen;
   const bestScore = out(plan.models[best].score) as ScoreOutput;
-  const ids = plan.models[best].interval;
-  const headlineInterval = ids ? { output: out(ids.gather) as PredictionIntervalOutput, folds: ids.folds.map((id) => out(id) as IntervalFoldOutput) } : null;
+  const fitted: FittedModel[] = Object.values(plan.models).map((ids) => ({
+    fit: out(ids.fit) as FitOutput,
+    interval: ids.interval ? { output: out(ids.interval.gather) as PredictionIntervalOutput, folds: ids.interval.folds.map((id) => out(id) as IntervalFoldOutput) } : null,
+  }));
+  const headlineInterval = fitted[Object.keys(plan.models).indexOf(best)].interval;
   const bounds = headlineInterval?.output.holdout ?? null;
   const table = (out(plan.modelTable) as FrameOutput).frame;
   const targetValues = column(table, recipe.target).values as Float64Array;
@@ -194,10 +197,7 @@ export function gatherResults(recipe: Recipe, plan: Plan, exec: Execution): Resu
     chosenModel: best,
     warnings: warnings.list(),
     holdoutRows: { observed: bestScore.observed, predicted: bestScore.predictions, groups: bestScore.groups },
-    fitted: Object.values(plan.models).map((ids) => ({
-      fit: out(ids.fit) as FitOutput,
-      interval: ids.interval ? { output: out(ids.interval.gather) as PredictionIntervalOutput, folds: ids.interval.folds.map((id) => out(id) as IntervalFoldOutput) } : null,
-    })),
+    fitted,
     headlineInterval,
     splitMap: recipe.blocks ? splitMap(table, recipe.blocks, split, folds) : null,
     modelTable: { rows: table.rows, columns: profileFrame(table) },
