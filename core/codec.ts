@@ -11,19 +11,27 @@ import { parseJson } from './dict.js';
  * Example: `unpackEntry('json', packEntry('json', {a: 1}, [])).output` is `{a: 1}`.
  */
 export function packEntry(codec: OutputCodec, output: unknown, warnings: Warning[]): Uint8Array {
-  const body =
-    codec === 'frame'
-      ? encodeFrame((output as FrameOutput).frame, (output as FrameOutput).notes)
-      : codec === 'bytes'
-        ? (output as Uint8Array)
-        : codec === 'record'
-          ? encodeRecord(output)
+  // spaces after the warnings' JSON start the body at a multiple of 8, so a fitted model's arrays
+  // can be read in place (see encodeRecord)
+  const text = JSON.stringify(warnings);
+  const w = Buffer.from(text.padEnd(text.length + ((8 - ((4 + Buffer.byteLength(text)) % 8)) % 8)), 'utf8');
+  const prefix = 4 + w.length;
+  let out: Uint8Array;
+  if (codec === 'record') {
+    // written in place after the warnings: a fitted model's bytes are copied once, not twice
+    out = recordBytes(output, prefix);
+  } else {
+    const body =
+      codec === 'frame'
+        ? encodeFrame((output as FrameOutput).frame, (output as FrameOutput).notes)
+        : codec === 'bytes'
+          ? (output as Uint8Array)
           : new Uint8Array(Buffer.from(JSON.stringify(output), 'utf8'));
-  const w = Buffer.from(JSON.stringify(warnings), 'utf8');
-  const out = new Uint8Array(4 + w.length + body.length);
+    out = new Uint8Array(prefix + body.length);
+    out.set(body, prefix);
+  }
   new DataView(out.buffer).setUint32(0, w.length, true);
   out.set(w, 4);
-  out.set(body, 4 + w.length);
   return out;
 }
 
@@ -51,12 +59,18 @@ export function decodeOutput(codec: OutputCodec, body: Uint8Array): unknown {
 /**
  * A JSON value whose Uint8Array fields (a fitted model's bytes) travel as raw bytes rather than as
  * text: 4-byte length and the JSON, with null where each array was, then 4-byte length and the
- * list of those places (paths of keys and indexes), then the arrays one after another. Paths, not
+ * list of those places (paths of keys and indexes, padded with spaces so that the first array starts
+ * at a multiple of 8 bytes), then the arrays one after another. Paths, not
  * markers in the JSON, so no key or value from the data can be mistaken for one.
  *
  * Example: `decodeRecord(encodeRecord({model: 'm', bytes: Uint8Array.of(1, 2)})).bytes` is `Uint8Array [1, 2]`.
  */
 export function encodeRecord(value: unknown): Uint8Array {
+  return recordBytes(value, 0);
+}
+
+/** encodeRecord's bytes after `prefix` bytes left zero (where packEntry puts the warnings). */
+function recordBytes(value: unknown, prefix: number): Uint8Array {
   const places: { path: (string | number)[]; length: number }[] = [];
   const blobs: Uint8Array[] = [];
   const strip = (v: unknown, path: (string | number)[]): unknown => {
@@ -74,14 +88,19 @@ export function encodeRecord(value: unknown): Uint8Array {
     return v;
   };
   const json = Buffer.from(JSON.stringify(strip(value, [])), 'utf8');
-  const index = Buffer.from(JSON.stringify(places), 'utf8');
-  const total = 8 + json.length + index.length + blobs.reduce((n, b) => n + b.length, 0);
+  // spaces after the index start the first array at a multiple of 8 from the body's start: a fitted
+  // forest's arrays are then read as views of the entry (models/serialize.ts), not copied
+  const placesText = JSON.stringify(places);
+  const index = Buffer.from(placesText.padEnd(placesText.length + ((8 - ((8 + json.length + Buffer.byteLength(placesText)) % 8)) % 8)), 'utf8');
+  const total = prefix + 8 + json.length + index.length + blobs.reduce((n, b) => n + b.length, 0);
   const out = new Uint8Array(total);
   const view = new DataView(out.buffer);
-  view.setUint32(0, json.length, true);
-  out.set(json, 4);
-  view.setUint32(4 + json.length, index.length, true);
-  let at = 8 + json.length;
+  let at = prefix;
+  view.setUint32(at, json.length, true);
+  out.set(json, at + 4);
+  at += 4 + json.length;
+  view.setUint32(at, index.length, true);
+  at += 4;
   out.set(index, at);
   at += index.length;
   for (const b of blobs) {

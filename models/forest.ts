@@ -429,7 +429,8 @@ class BlockTotals {
     };
     if (scale !== 1) {
       const back = 1 / scale;
-      for (const t of forest.trees) for (let i = 0; i < t.value.length; i++) t.value[i] *= back;
+      // new arrays, not in place: a tree read from a step's output is a view of that output's bytes
+      forest.trees = forest.trees.map((t) => ({ ...t, thresholdOrValue: t.thresholdOrValue.map((v, i) => (t.feature[i] < 0 ? v * back : v)) }));
       for (let i = 0; i < forest.oob.predictions.length; i++) forest.oob.predictions[i] *= back;
       for (let f = 0; f < forest.impurityImportance.length; f++) forest.impurityImportance[f] *= back * back;
     }

@@ -39,8 +39,7 @@ export function forestPartialDependence(f: Forest, columns: number[], points: Ar
   let stackTo: Int32Array = new Int32Array(64);
   let stackWeight: Float64Array = new Float64Array(64);
   for (const tree of f.trees) {
-    const { feature, threshold, left, right, draws } = tree;
-    const leafValue = tree.value;
+    const { feature, thresholdOrValue: tv, right, draws } = tree;
     for (let g = 0; g < grid; g++) order[g] = g;
     perTree.fill(0);
     let top = 0;
@@ -57,11 +56,11 @@ export function forestPartialDependence(f: Forest, columns: number[], points: Ar
       for (;;) {
         const h = feature[node];
         if (h < 0) {
-          const v = weight * leafValue[node];
+          const v = weight * tv[node];
           for (let k = from; k < to; k++) perTree[order[k]] += v;
           break;
         }
-        const l = left[node];
+        const l = node + 1;
         const r = right[node];
         const m = slot[h];
         if (top + 2 >= stackNode.length) {
@@ -83,7 +82,7 @@ export function forestPartialDependence(f: Forest, columns: number[], points: Ar
           continue;
         }
         // the points whose value goes left first, then the rest
-        const t = threshold[node];
+        const t = tv[node];
         let split = from;
         for (let k = from; k < to; k++) {
           const g = order[k];

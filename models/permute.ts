@@ -47,16 +47,16 @@ export function predictPermuted(f: Forest, x: Matrix, permuted: number[], orders
   const stackMask = new Int32Array(32);
   const all = grouped ? (1 << repeats) - 1 : 0;
   for (const tree of f.trees) {
-    const { feature, threshold, left, right, value } = tree;
+    const { feature, thresholdOrValue: tv, right } = tree;
     for (let i = 0, base = 0; i < rows; i++, base += p) {
       let node = 0;
       let g = feature[0];
       while (g >= 0 && slot[g] < 0) {
-        node = block[base + g] <= threshold[node] ? left[node] : right[node];
+        node = block[base + g] <= tv[node] ? node + 1 : right[node];
         g = feature[node];
       }
       if (g < 0) {
-        const v = value[node];
+        const v = tv[node];
         for (let k = 0; k < repeats; k++) out[k][i] += v;
         continue;
       }
@@ -72,27 +72,27 @@ export function predictPermuted(f: Forest, x: Matrix, permuted: number[], orders
           for (;;) {
             const h = feature[n];
             if (h < 0) {
-              const v = value[n];
+              const v = tv[n];
               for (let k = 0; mask !== 0; k++, mask >>>= 1) if (mask & 1) out[k][i] += v;
               break;
             }
             const m = slot[h];
             if (m < 0) {
-              n = block[base + h] <= threshold[n] ? left[n] : right[n];
+              n = block[base + h] <= tv[n] ? n + 1 : right[n];
               continue;
             }
             // part the set: the repeats whose value goes left, and the rest
-            const t = threshold[n];
+            const t = tv[n];
             let goLeft = 0;
             for (let k = 0, rest = mask; rest !== 0; k++, rest >>>= 1) if (rest & 1 && moved[k][at + m] <= t) goLeft |= 1 << k;
             const goRight = mask & ~goLeft;
             if (goLeft === 0) n = right[n];
-            else if (goRight === 0) n = left[n];
+            else if (goRight === 0) n = n + 1;
             else {
               top++;
               stackNode[top] = right[n];
               stackMask[top] = goRight;
-              n = left[n];
+              n = n + 1;
               mask = goLeft;
             }
           }
@@ -105,10 +105,10 @@ export function predictPermuted(f: Forest, x: Matrix, permuted: number[], orders
         let h = g;
         while (h >= 0) {
           const m = slot[h];
-          n = (m >= 0 ? mine[at + m] : block[base + h]) <= threshold[n] ? left[n] : right[n];
+          n = (m >= 0 ? mine[at + m] : block[base + h]) <= tv[n] ? n + 1 : right[n];
           h = feature[n];
         }
-        out[k][i] += value[n];
+        out[k][i] += tv[n];
       }
     }
   }

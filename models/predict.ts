@@ -1,16 +1,14 @@
 /**
  * Forest prediction: the mean of the trees' leaf values, summed in tree order.
  *
- * For speed, rows are copied into row-major blocks (a row's values then share cache lines), and in a
- * tree numbered in preorder (every fitted or read tree) the left child is taken to be the next node
- * rather than read from `left`.
+ * For speed, rows are copied into row-major blocks (a row's values then share cache lines).
  *
  * Example: `predictUnchecked(forest, x.columns, x.rows)` after `checkPredictionMatrix(forest, x)`.
  */
 import { checkMatrix, type Matrix } from './checks.js';
 import { EngineInputError, engineMessages as msg } from './engine-errors.js';
 import type { Forest } from './forest.js';
-import { addTreePredictions, type Tree } from './tree.js';
+import type { Tree } from './tree.js';
 
 /** Throws unless `x` has the forest's feature names, in order, and only finite values. */
 export function checkPredictionMatrix(f: Forest, x: Matrix): void {
@@ -22,25 +20,6 @@ export function checkPredictionMatrix(f: Forest, x: Matrix): void {
 /** Rows per row-major block (a block of 10 features is 640 KiB). */
 const BLOCK_ROWS = 8192;
 
-const preorderTrees = new WeakMap<Tree, boolean>();
-
-/** Whether every internal node's left child is the next node (true of every fitted or read tree); cached. */
-function inPreorder(tree: Tree): boolean {
-  let known = preorderTrees.get(tree);
-  if (known === undefined) {
-    known = true;
-    const { feature, left } = tree;
-    for (let i = 0; i < feature.length; i++) {
-      if (feature[i] >= 0 && left[i] !== i + 1) {
-        known = false;
-        break;
-      }
-    }
-    preorderTrees.set(tree, known);
-  }
-  return known;
-}
-
 /**
  * Prediction without input checks, for callers that checked once (e.g. permutation importance).
  * `out`, if given, is overwritten and returned.
@@ -50,7 +29,6 @@ export function predictUnchecked(f: Forest, columns: Float64Array[], rows: numbe
   result.fill(0);
   const p = columns.length;
   const trees = f.trees;
-  const preorder = trees.map(inPreorder);
   const block = new Float64Array(Math.min(rows, BLOCK_ROWS) * p);
   for (let from = 0; from < rows; from += BLOCK_ROWS) {
     const to = Math.min(rows, from + BLOCK_ROWS);
@@ -58,10 +36,7 @@ export function predictUnchecked(f: Forest, columns: Float64Array[], rows: numbe
       const c = columns[j];
       for (let r = from, at = j; r < to; r++, at += p) block[at] = c[r];
     }
-    for (let t = 0; t < trees.length; t++) {
-      if (preorder[t]) addPreorder(trees[t], block, p, from, to, result);
-      else addTreePredictions(trees[t], columns, rows, result, from, to);
-    }
+    for (let t = 0; t < trees.length; t++) addLeafValues(trees[t], block, p, from, to, result);
   }
   const t = f.trees.length;
   if (t !== 1) for (let r = 0; r < rows; r++) result[r] /= t;
@@ -69,16 +44,16 @@ export function predictUnchecked(f: Forest, columns: Float64Array[], rows: numbe
 }
 
 /** Adds the leaf value of rows from..to-1 (row-major in `block`, starting at row `from`) to `out`. */
-function addPreorder(tree: Tree, block: Float64Array, p: number, from: number, to: number, out: Float64Array): void {
-  const { feature, threshold, right, value } = tree;
+function addLeafValues(tree: Tree, block: Float64Array, p: number, from: number, to: number, out: Float64Array): void {
+  const { feature, thresholdOrValue: tv, right } = tree;
   const root = feature[0];
   for (let r = from, base = 0; r < to; r++, base += p) {
     let node = 0;
     let f = root;
     while (f >= 0) {
-      node = block[base + f] <= threshold[node] ? node + 1 : right[node];
+      node = block[base + f] <= tv[node] ? node + 1 : right[node];
       f = feature[node];
     }
-    out[r] += value[node];
+    out[r] += tv[node];
   }
 }

@@ -145,10 +145,9 @@ export class TreeBuilder {
   private readonly mask: Int32Array;
   // Node arrays of the tree being grown.
   private nFeature: Int32Array;
-  private nThreshold: Float64Array;
-  private nLeft: Int32Array;
+  /** Threshold of an internal node, value of a leaf. */
+  private nSplit: Float64Array;
   private nRight: Int32Array;
-  private nValue: Float64Array;
   private nDraws: Int32Array;
   // Best split found by the last search. Fields that hold fractions start as non-integers, so V8 keeps
   // them as unboxed doubles from the start instead of changing their representation (and
@@ -186,10 +185,8 @@ export class TreeBuilder {
     this.mask = new Int32Array(this.mtry * 8);
     const cap = Math.max(16, Math.min(2 * Math.ceil(params.sampleSize / Math.max(1, params.minLeaf)) + 1, 1 << 20));
     this.nFeature = new Int32Array(cap);
-    this.nThreshold = new Float64Array(cap);
-    this.nLeft = new Int32Array(cap);
+    this.nSplit = new Float64Array(cap);
     this.nRight = new Int32Array(cap);
-    this.nValue = new Float64Array(cap);
     this.nDraws = new Int32Array(cap);
   }
 
@@ -318,11 +315,9 @@ export class TreeBuilder {
     const id = this.nodes++;
     if (id >= this.nFeature.length) this.growNodes2x();
     this.nDraws[id] = W;
+    // a left child is the node after its parent (preorder); a right child is recorded
     const parent = this.sParent[slot];
-    if (parent >= 0) {
-      if (parent & 1) this.nRight[parent >> 1] = id;
-      else this.nLeft[parent >> 1] = id;
-    }
+    if (parent >= 0 && parent & 1) this.nRight[parent >> 1] = id;
 
     this.bestF = -1;
     this.bestG = -Infinity;
@@ -359,8 +354,7 @@ export class TreeBuilder {
     const binMax = d.binMax;
     const thr = midpoint(binMax[off + lo], d.binMin[off + hi]);
     this.nFeature[id] = f;
-    this.nThreshold[id] = thr;
-    this.nValue[id] = NaN;
+    this.nSplit[id] = thr;
     const start = this.sStart[slot];
     const end = this.sEnd[slot];
     const W = this.sW[slot];
@@ -492,10 +486,8 @@ export class TreeBuilder {
   private finish(nodes: number, m: number, importance: Float64Array): GrownTree {
     const tree: Tree = {
       feature: this.nFeature.slice(0, nodes),
-      threshold: this.nThreshold.slice(0, nodes),
-      left: this.nLeft.slice(0, nodes),
+      thresholdOrValue: this.nSplit.slice(0, nodes),
       right: this.nRight.slice(0, nodes),
-      value: this.nValue.slice(0, nodes),
       draws: this.nDraws.slice(0, nodes),
     };
     const rootW = this.rootW;
@@ -677,12 +669,10 @@ export class TreeBuilder {
       if (v !== y0) same = false;
     }
     this.nFeature[id] = -1;
-    this.nThreshold[id] = NaN;
-    this.nLeft[id] = -1;
     this.nRight[id] = -1;
     // Equal targets give exactly that target, which a rounded mean need not.
     const value = same ? y0 : s / sw;
-    this.nValue[id] = value;
+    this.nSplit[id] = value;
     this.oobVal.fill(value, os, oe);
   }
 
@@ -762,17 +752,11 @@ export class TreeBuilder {
     f.set(this.nFeature);
     this.nFeature = f;
     const t = new Float64Array(cap);
-    t.set(this.nThreshold);
-    this.nThreshold = t;
-    const l = new Int32Array(cap);
-    l.set(this.nLeft);
-    this.nLeft = l;
+    t.set(this.nSplit);
+    this.nSplit = t;
     const r = new Int32Array(cap);
     r.set(this.nRight);
     this.nRight = r;
-    const v = new Float64Array(cap);
-    v.set(this.nValue);
-    this.nValue = v;
     const w = new Int32Array(cap);
     w.set(this.nDraws);
     this.nDraws = w;

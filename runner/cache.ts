@@ -127,7 +127,10 @@ export class Cache {
       return { status: 'discarded', ...problem };
     }
     const { bytes } = entry as { bytes: Buffer };
-    return { status: 'hit', bytes: new Uint8Array(bytes.buffer, bytes.byteOffset, bytes.byteLength) };
+    // the output starts after header lines of varying length: moved to a multiple of 8 bytes, where a
+    // fitted forest's arrays can be read in place (models/serialize.ts) instead of copied for good
+    const output = new Uint8Array(bytes.buffer, bytes.byteOffset, bytes.byteLength);
+    return { status: 'hit', bytes: bytes.byteOffset % 8 === 0 ? output : output.slice() };
   }
 
   /**

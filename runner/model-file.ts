@@ -99,10 +99,11 @@ export function writeModelFile(bundle: Omit<ModelBundle, 'layout'> & { layout?: 
   const layout = bundle.layout ?? 3;
   const models = layout === 3 ? bundle.models : bundle.models.filter((m) => m.model === bundle.headline);
   if (models.length === 0) throw new Error(`internal: the headline model ${bundle.headline} is not among the models to write`);
-  const blobs: Buffer[] = [];
+  // the models' bytes as they are, not copied: a large forest's are most of a run's memory
+  const blobs: Uint8Array[] = [];
   const entries = models.map((m) => {
-    const bytes = Buffer.from(m.bytes);
-    const folds = m.interval ? m.interval.folds.map((f) => Buffer.from(f.bytes)) : [];
+    const bytes = m.bytes;
+    const folds = m.interval ? m.interval.folds.map((f) => f.bytes) : [];
     blobs.push(bytes, ...folds);
     const { bytes: _b, interval, ...fields } = m;
     const stored = interval ? { level: interval.level, unitKind: interval.unitKind, table: interval.table, folds: interval.folds.map((f, k) => ({ design: f.design, bytesLength: folds[k].length })) } : null;
@@ -138,11 +139,18 @@ export function writeModelFile(bundle: Omit<ModelBundle, 'layout'> & { layout?: 
   const json = Buffer.from(JSON.stringify(header), 'utf8');
   const len = Buffer.alloc(4);
   len.writeUInt32LE(json.length, 0);
-  // layout 3: Huffman coding alone (no search for repeats, which floating-point bytes rarely have):
-  // half the time of level 1 for a file 2% larger; the older layouts as they were, byte for byte
-  const body = gzipSync(Buffer.concat([Buffer.from(MAGIC, 'latin1'), len, json, ...blobs]), layout === 3 ? { level: 1, strategy: constants.Z_HUFFMAN_ONLY } : { level: 1 });
+  const head = Buffer.concat([Buffer.from(MAGIC, 'latin1'), len, json]);
+  if (layout === 3) {
+    // Huffman coding alone (no search for repeats, which floating-point bytes rarely have): half the
+    // time of level 1 for a file 2% larger. One gzip member per part, one after another (a gzip
+    // reader reads them as one stream), so the parts are never first copied into one buffer.
+    const members = [head, ...blobs].map((part) => gzipSync(part, { level: 1, strategy: constants.Z_HUFFMAN_ONLY }));
+    return new Uint8Array(Buffer.concat([Buffer.from(MODEL_FILE_LINE, 'latin1'), ...members]));
+  }
+  // the older layouts as they were, byte for byte
+  const body = gzipSync(Buffer.concat([head, ...blobs]), { level: 1 });
   if (layout === 1) return new Uint8Array(body);
-  return new Uint8Array(Buffer.concat([Buffer.from(layout === 3 ? MODEL_FILE_LINE : HEADLINE_ONLY_LINE, 'latin1'), body]));
+  return new Uint8Array(Buffer.concat([Buffer.from(HEADLINE_ONLY_LINE, 'latin1'), body]));
 }
 
 /**
@@ -189,7 +197,7 @@ export function readModelFile(data: Uint8Array): ModelBundle {
   }
   // layouts 1 and 2: one model; without an interval, its bytes are all that follows the header
   const { format: _f, target, run, ...model } = header as StoredModel & { format: number; target: string; run?: ModelBundle['run'] };
-  const blobs = model.interval ? cut(body, [model.bytesLength ?? 0, ...model.interval.folds.map((f) => f.bytesLength)]) : [new Uint8Array(body)];
+  const blobs = model.interval ? cut(body, [model.bytesLength ?? 0, ...model.interval.folds.map((f) => f.bytesLength)]) : [new Uint8Array(body.buffer, body.byteOffset, body.length)];
   return { layout, target, run, headline: model.model, models: [storedModel(model, blobs)] };
 }
 
@@ -197,8 +205,13 @@ export function readModelFile(data: Uint8Array): ModelBundle {
 function cut(body: Buffer, lengths: number[]): Uint8Array[] {
   const total = lengths.reduce((a, b) => a + b, 0);
   if (total !== body.length) throw new Error(`the model header lists ${total} bytes of models, but ${body.length} follow it`);
-  let at = 0;
-  return lengths.map((len) => new Uint8Array(body.subarray(at, (at += len))));
+  let at = body.byteOffset;
+  // views of the file's bytes, not copies
+  return lengths.map((len) => {
+    const blob = new Uint8Array(body.buffer, at, len);
+    at += len;
+    return blob;
+  });
 }
 
 /** A model from its header entry, taking its bytes (and its fold models') from the front of blobs. */

@@ -28,6 +28,20 @@ describe('records', () => {
     expect([back.bytes.length, back.bytes[999], Array.from(back.small)]).toEqual([1000, 3, [4]]);
   });
 
+  it('start the first binary field, and an entry its body, at a multiple of 8 bytes, whatever the texts before them', () => {
+    // so a fitted forest's f64 and i32 arrays can be views of the entry (models/serialize.ts)
+    for (let n = 0; n < 9; n++) {
+      const warnings = [{ code: 'w', message: 'é'.repeat(n), count: 1 }];
+      const payload = packEntry('record', { name: 'x'.repeat(n), model: new Uint8Array(4096).fill(2) }, warnings);
+      const entry = unpackEntry('record', payload);
+      expect(entry.body.byteOffset % 8).toBe(0);
+      const model = (entry.output as { model: Uint8Array }).model;
+      expect(model.buffer).toBe(payload.buffer);
+      expect(model.byteOffset % 8).toBe(0);
+      expect(entry.stepWarnings).toEqual(warnings);
+    }
+  });
+
   it('pass through a cache entry unchanged', () => {
     const entry = unpackEntry('record', packEntry('record', { a: 1, b: Uint8Array.of(5, 6) }, [{ code: 'w', message: 'm', count: 1 }]));
     expect(entry.output).toEqual({ a: 1, b: Uint8Array.of(5, 6) });

@@ -56,7 +56,7 @@ describe('forest edge cases', () => {
     // Two bins per feature: at most one threshold per feature in all the trees.
     for (let j = 0; j < 10; j++) {
       const th = new Set<number>();
-      for (const t of f.trees) t.feature.forEach((feat, i) => feat === j && th.add(t.threshold[i]));
+      for (const t of f.trees) t.feature.forEach((feat, i) => feat === j && th.add(t.thresholdOrValue[i]));
       expect(th.size).toBeLessThanOrEqual(1);
     }
     const g = rngFor('wide', 'x');

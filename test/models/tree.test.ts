@@ -30,7 +30,7 @@ describe('decision tree', () => {
     const tree = await fitDecisionTree(column('x', xs), y, { maxDepth: 1, minLeaf: 1, seed: 's' });
     const t = tree.trees[0];
     expect(t.feature[0]).toBe(0);
-    expect(t.threshold[0]).toBe(5);
+    expect(t.thresholdOrValue[0]).toBe(5);
     expect(Array.from(predictForest(tree, column('x', [4.99, 5, 5.01])))).toEqual([1, 1, 5]);
   });
 
@@ -51,7 +51,7 @@ describe('decision tree', () => {
     const counts = new Map<number, number>();
     for (let r = 0; r < x.rows; r++) {
       let node = 0;
-      while (t.feature[node] >= 0) node = x.columns[t.feature[node]][r] <= t.threshold[node] ? t.left[node] : t.right[node];
+      while (t.feature[node] >= 0) node = x.columns[t.feature[node]][r] <= t.thresholdOrValue[node] ? node + 1 : t.right[node];
       counts.set(node, (counts.get(node) ?? 0) + 1);
     }
     expect(Math.min(...counts.values())).toBeGreaterThanOrEqual(7);
@@ -64,6 +64,6 @@ describe('decision tree', () => {
       seed: 's',
     });
     expect(tree.trees[0].feature.length).toBe(1);
-    expect(tree.trees[0].value[0]).toBe(0.1);
+    expect(tree.trees[0].thresholdOrValue[0]).toBe(0.1);
   });
 });

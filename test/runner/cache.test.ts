@@ -30,6 +30,17 @@ describe('cache', () => {
     expect(readdirSync(join(dir, kind))).toEqual([key]);
   });
 
+  it('gives the bytes of a hit at a multiple of 8 in memory, whatever the codec line before them', () => {
+    // so a fitted forest in the entry is read in place (models/serialize.ts)
+    const cache = new Cache(makeFolder({}));
+    const big = new Uint8Array(100_000).map((_, i) => i % 251);
+    for (const codec of ['json', 'frame', 'bytes', 'record'] as const) {
+      cache.put({ kind, key, codec }, big);
+      const got = cache.get({ kind, key, codec });
+      expect(got.status === 'hit' && [got.bytes.byteOffset % 8, got.bytes.length, got.bytes[99_999]]).toEqual([0, 100_000, 99_999 % 251]);
+    }
+  });
+
   it('heads each entry with its format, key, codec and checksum', () => {
     const dir = makeFolder({});
     new Cache(dir).put({ kind, key, codec: 'frame' }, bytes);
