@@ -5,8 +5,8 @@ import { parseJson } from './dict.js';
 /**
  * A step's output as cache bytes: 4-byte length, the step's warnings as JSON, then the output in
  * its codec (frame binary, JSON, bytes as they are, or a record: JSON whose binary fields follow it
- * as raw bytes, see encodeRecord). The same bytes go to the cache and between
- * threads.
+ * as raw bytes, see encodeRecord). The same bytes go to the cache and between threads; a large
+ * entry (SHARED_ENTRY_BYTES on) is made in shared memory, so the threads it goes to share it.
  *
  * Example: `unpackEntry('json', packEntry('json', {a: 1}, [])).output` is `{a: 1}`.
  */
@@ -27,12 +27,39 @@ export function packEntry(codec: OutputCodec, output: unknown, warnings: Warning
         : codec === 'bytes'
           ? (output as Uint8Array)
           : new Uint8Array(Buffer.from(JSON.stringify(output), 'utf8'));
-    out = new Uint8Array(prefix + body.length);
+    out = entryMemory(prefix + body.length);
     out.set(body, prefix);
   }
   new DataView(out.buffer).setUint32(0, w.length, true);
   out.set(w, 4);
   return out;
+}
+
+/** Entries from this size on are kept in shared memory (packEntry, placeEntry). */
+export const SHARED_ENTRY_BYTES = 1 << 20;
+
+/** Zeroed memory for an entry of `size` bytes: shared from SHARED_ENTRY_BYTES on (see placeEntry). */
+function entryMemory(size: number): Uint8Array {
+  return new Uint8Array(size >= SHARED_ENTRY_BYTES ? new SharedArrayBuffer(size) : new ArrayBuffer(size));
+}
+
+/**
+ * A packed entry placed for reading in place: a large one (a fitted model) in shared memory, so
+ * every thread it is sent to (a step on the pool, that step's helpers) reads the one copy instead of
+ * receiving its own; a small one at a multiple of 8 bytes (an entry read from a cache file starts
+ * after header lines of any length), where a forest's arrays are views rather than copies
+ * (models/serialize.ts). Returns `payload` itself when it is placed so already.
+ *
+ * Example: `unpackEntry(codec, placeEntry(cache.get(address).bytes))`
+ */
+export function placeEntry(payload: Uint8Array): Uint8Array {
+  if (payload.length >= SHARED_ENTRY_BYTES) {
+    if (payload.buffer instanceof SharedArrayBuffer && payload.byteOffset % 8 === 0) return payload;
+    const shared = new Uint8Array(new SharedArrayBuffer(payload.length));
+    shared.set(payload);
+    return shared;
+  }
+  return payload.byteOffset % 8 === 0 ? payload : payload.slice();
 }
 
 /** Inverse of packEntry; `body` is the encoded output alone, whose SHA-256 the manifest records. */
@@ -57,8 +84,42 @@ export function decodeOutput(codec: OutputCodec, body: Uint8Array): unknown {
 }
 
 /**
- * A JSON value whose Uint8Array fields (a fitted model's bytes) travel as raw bytes rather than as
- * text: 4-byte length and the JSON, with null where each array was, then 4-byte length and the
+ * A binary field of a record that writes itself into the record's bytes instead of being copied
+ * there from an array of its own: a fitted forest's bytes go straight into its step's entry, so
+ * they are never held twice. Decoded, the field is a Uint8Array like any other.
+ *
+ * Example: `new BytesWriter(3, (into) => into.set([1, 2, 3])).bytes()` is `Uint8Array [1, 2, 3]`.
+ */
+export class BytesWriter {
+  constructor(
+    readonly length: number,
+    private readonly writeInto: (into: Uint8Array) => void,
+  ) {}
+
+  /** Writes the bytes into `into`, which is `length` long. */
+  write(into: Uint8Array): void {
+    this.writeInto(into);
+  }
+
+  /** The bytes in an array of their own, for a caller that needs one. */
+  bytes(): Uint8Array {
+    const out = new Uint8Array(this.length);
+    this.writeInto(out);
+    return out;
+  }
+}
+
+/** Bytes as an array, or to be written where they go. */
+export type Bytes = Uint8Array | BytesWriter;
+
+/** The bytes as an array (made, for a writer). */
+export function bytesOf(b: Bytes): Uint8Array {
+  return b instanceof BytesWriter ? b.bytes() : b;
+}
+
+/**
+ * A JSON value whose Uint8Array (or BytesWriter) fields (a fitted model's bytes) travel as raw bytes
+ * rather than as text: 4-byte length and the JSON, with null where each array was, then 4-byte length and the
  * list of those places (paths of keys and indexes, padded with spaces so that the first array starts
  * at a multiple of 8 bytes), then the arrays one after another. Paths, not
  * markers in the JSON, so no key or value from the data can be mistaken for one.
@@ -72,9 +133,9 @@ export function encodeRecord(value: unknown): Uint8Array {
 /** encodeRecord's bytes after `prefix` bytes left zero (where packEntry puts the warnings). */
 function recordBytes(value: unknown, prefix: number): Uint8Array {
   const places: { path: (string | number)[]; length: number }[] = [];
-  const blobs: Uint8Array[] = [];
+  const blobs: Bytes[] = [];
   const strip = (v: unknown, path: (string | number)[]): unknown => {
-    if (v instanceof Uint8Array) {
+    if (v instanceof Uint8Array || v instanceof BytesWriter) {
       places.push({ path, length: v.length });
       blobs.push(v);
       return null;
@@ -93,7 +154,7 @@ function recordBytes(value: unknown, prefix: number): Uint8Array {
   const placesText = JSON.stringify(places);
   const index = Buffer.from(placesText.padEnd(placesText.length + ((8 - ((8 + json.length + Buffer.byteLength(placesText)) % 8)) % 8)), 'utf8');
   const total = prefix + 8 + json.length + index.length + blobs.reduce((n, b) => n + b.length, 0);
-  const out = new Uint8Array(total);
+  const out = prefix > 0 ? entryMemory(total) : new Uint8Array(total);
   const view = new DataView(out.buffer);
   let at = prefix;
   view.setUint32(at, json.length, true);
@@ -104,7 +165,8 @@ function recordBytes(value: unknown, prefix: number): Uint8Array {
   out.set(index, at);
   at += index.length;
   for (const b of blobs) {
-    out.set(b, at);
+    if (b instanceof BytesWriter) b.write(out.subarray(at, at + b.length));
+    else out.set(b, at);
     at += b.length;
   }
   return out;

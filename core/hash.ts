@@ -24,8 +24,12 @@ function sortKeys(value: unknown): unknown {
 }
 
 /** SHA-256 of bytes or a string, as lowercase hex. Example: `sha256('')` starts with `e3b0c442`. */
-export function sha256(data: string | Uint8Array): string {
-  return createHash('sha256').update(data).digest('hex');
+export function sha256(data: string | Uint8Array | Uint8Array[]): string {
+  const h = createHash('sha256');
+  // chunks (a file written in parts) hash as the bytes they make one after another
+  if (Array.isArray(data)) for (const chunk of data) h.update(chunk);
+  else h.update(data);
+  return h.digest('hex');
 }
 
 /** SHA-256 of the canonical JSON of a value. */

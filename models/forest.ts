@@ -505,4 +505,4 @@ export function impurityImportance(f: Forest): Float64Array {
   return f.impurityImportance.slice();
 }
 
-export { serializeForest, deserializeForest, serializeBlocks, deserializeBlocks } from './serialize.js';
+export { serializeForest, forestWriter, deserializeForest, serializeBlocks, deserializeBlocks } from './serialize.js';

@@ -26,21 +26,30 @@ const BLOCK_ROWS = 8192;
  */
 export function predictUnchecked(f: Forest, columns: Float64Array[], rows: number, out?: Float64Array): Float64Array {
   const result = out ?? new Float64Array(rows);
-  result.fill(0);
+  predictRows(f, columns, 0, rows, result);
+  return result;
+}
+
+/**
+ * Writes the predictions of rows from..to-1 into `out[from..to)`, each the sum of its leaf values in
+ * tree order divided by the tree count: a row's prediction does not depend on the range it is
+ * predicted in (predict-pool.ts splits rows over threads).
+ */
+export function predictRows(f: Forest, columns: ArrayLike<number>[], from: number, to: number, out: Float64Array): void {
   const p = columns.length;
   const trees = f.trees;
-  const block = new Float64Array(Math.min(rows, BLOCK_ROWS) * p);
-  for (let from = 0; from < rows; from += BLOCK_ROWS) {
-    const to = Math.min(rows, from + BLOCK_ROWS);
+  const t = trees.length;
+  const block = new Float64Array(Math.max(0, Math.min(to - from, BLOCK_ROWS)) * p);
+  for (let start = from; start < to; start += BLOCK_ROWS) {
+    const end = Math.min(to, start + BLOCK_ROWS);
+    out.fill(0, start, end);
     for (let j = 0; j < p; j++) {
       const c = columns[j];
-      for (let r = from, at = j; r < to; r++, at += p) block[at] = c[r];
+      for (let r = start, at = j; r < end; r++, at += p) block[at] = c[r];
     }
-    for (let t = 0; t < trees.length; t++) addLeafValues(trees[t], block, p, from, to, result);
+    for (let k = 0; k < t; k++) addLeafValues(trees[k], block, p, start, end, out);
+    if (t !== 1) for (let r = start; r < end; r++) out[r] /= t;
   }
-  const t = f.trees.length;
-  if (t !== 1) for (let r = 0; r < rows; r++) result[r] /= t;
-  return result;
 }
 
 /** Adds the leaf value of rows from..to-1 (row-major in `block`, starting at row `from`) to `out`. */

@@ -50,6 +50,18 @@ const aligned = (at: number): number => (at + 7) & ~7;
 
 /** Serializes a fitted forest to bytes. */
 export function serializeForest(f: Forest): Uint8Array {
+  const w = forestWriter(f);
+  const out = new Uint8Array(w.length);
+  w.write(out);
+  return out;
+}
+
+/**
+ * serializeForest in two parts: the length of the forest's bytes, and a function writing them into
+ * a place of that length that starts at a multiple of 8 bytes in memory (a step's entry, so the
+ * bytes are never first made apart from it).
+ */
+export function forestWriter(f: Forest): { length: number; write(into: Uint8Array): void } {
   const p = f.featureNames.length;
   const o = f.options;
   // Keys in a fixed order, so equal forests give equal bytes.
@@ -75,21 +87,25 @@ export function serializeForest(f: Forest): Uint8Array {
   const start = aligned(16 + headerBytes.length);
   let size = start + 8 * p + 8 + 8 * f.trainingRows + 8;
   for (const t of f.trees) size += treeSize(t);
-  const out = new Uint8Array(size);
-  const view = new DataView(out.buffer);
-  for (let i = 0; i < 8; i++) out[i] = MAGIC.charCodeAt(i);
-  view.setUint32(8, FOREST_FORMAT_VERSION, true);
-  view.setUint32(12, headerBytes.length, true);
-  out.set(headerBytes, 16);
-  let at = start;
-  for (let j = 0; j < p; j++, at += 8) view.setFloat64(at, f.impurityImportance[j], true);
-  view.setFloat64(at, f.oob.r2 ?? NaN, true);
-  at += 8;
-  for (let r = 0; r < f.trainingRows; r++, at += 8) view.setFloat64(at, f.oob.predictions[r], true);
-  view.setUint32(at, f.trees.length, true);
-  at += 8;
-  for (const t of f.trees) at = writeTree(view, at, t);
-  return out;
+  const write = (out: Uint8Array): void => {
+    if (out.length !== size) throw new Error(`internal: a forest of ${size} bytes written into ${out.length}`);
+    out.fill(0, 0, start);
+    const view = new DataView(out.buffer, out.byteOffset, out.byteLength);
+    for (let i = 0; i < 8; i++) out[i] = MAGIC.charCodeAt(i);
+    view.setUint32(8, FOREST_FORMAT_VERSION, true);
+    view.setUint32(12, headerBytes.length, true);
+    out.set(headerBytes, 16);
+    let at = start;
+    for (let j = 0; j < p; j++, at += 8) view.setFloat64(at, f.impurityImportance[j], true);
+    view.setFloat64(at, f.oob.r2 ?? NaN, true);
+    at += 8;
+    for (let r = 0; r < f.trainingRows; r++, at += 8) view.setFloat64(at, f.oob.predictions[r], true);
+    view.setUint32(at, f.trees.length, true);
+    view.setUint32(at + 4, 0, true);
+    at += 8;
+    for (const t of f.trees) at = writeTree(view, at, t);
+  };
+  return { length: size, write };
 }
 
 /** Reads bytes written by serializeForest (this version or version 2); throws EngineInputError for anything else. */
@@ -193,6 +209,7 @@ function treeSize(t: Tree): number {
 function writeTree(view: DataView, at: number, t: Tree): number {
   const count = t.feature.length;
   view.setUint32(at, count, true);
+  view.setUint32(at + 4, 0, true);
   at += 8;
   for (let i = 0; i < count; i++, at += 8) view.setFloat64(at, t.thresholdOrValue[i], true);
   for (let i = 0; i < count; i++, at += 4) view.setInt32(at, t.feature[i], true);

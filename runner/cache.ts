@@ -47,7 +47,8 @@ export type CacheWrite = { stored: true } | { stored: false; code: string; detai
 /** The file operations the cache uses; tests replace some to simulate a full or read-only disk. */
 export interface CacheIo {
   readFileSync(path: string): Buffer;
-  writeFileSync(path: string, data: Uint8Array): void;
+  /** Writes the chunks one after another as the file's content (an entry's header, then its output, never joined in memory). */
+  writeChunksSync(path: string, chunks: Uint8Array[]): void;
   renameSync(from: string, to: string): void;
   mkdirSync(path: string, opts: { recursive: true }): unknown;
   rmSync(path: string, opts: { force: true }): void;
@@ -55,7 +56,14 @@ export interface CacheIo {
 
 const nodeIo: CacheIo = {
   readFileSync: (p) => fs.readFileSync(p),
-  writeFileSync: (p, d) => fs.writeFileSync(p, d),
+  writeChunksSync: (p, chunks) => {
+    const fd = fs.openSync(p, 'w');
+    try {
+      for (const c of chunks) for (let at = 0; at < c.length; ) at += fs.writeSync(fd, c, at, c.length - at);
+    } finally {
+      fs.closeSync(fd);
+    }
+  },
   renameSync: (a, b) => fs.renameSync(a, b),
   mkdirSync: (p, o) => fs.mkdirSync(p, o),
   rmSync: (p, o) => fs.rmSync(p, o),
@@ -127,10 +135,7 @@ export class Cache {
       return { status: 'discarded', ...problem };
     }
     const { bytes } = entry as { bytes: Buffer };
-    // the output starts after header lines of varying length: moved to a multiple of 8 bytes, where a
-    // fitted forest's arrays can be read in place (models/serialize.ts) instead of copied for good
-    const output = new Uint8Array(bytes.buffer, bytes.byteOffset, bytes.byteLength);
-    return { status: 'hit', bytes: bytes.byteOffset % 8 === 0 ? output : output.slice() };
+    return { status: 'hit', bytes: new Uint8Array(bytes.buffer, bytes.byteOffset, bytes.byteLength) };
   }
 
   /**
@@ -250,7 +255,7 @@ export class Cache {
     let placed = false;
     try {
       this.io.mkdirSync(this.folderOf(kind), { recursive: true });
-      this.io.writeFileSync(tmp, encodeEntry(key, codec, bytes));
+      this.io.writeChunksSync(tmp, entryChunks(key, codec, bytes));
       this.io.renameSync(tmp, p);
       placed = true;
       return { stored: true };
@@ -280,11 +285,11 @@ export class Cache {
   }
 }
 
-/** The bytes of one entry file: header lines, then the output. */
-export function encodeEntry(key: string, codec: OutputCodec, bytes: Uint8Array): Buffer {
+/** The bytes of one entry file: header lines, then the output (not copied: a fitted forest's may be most of the memory). */
+function entryChunks(key: string, codec: OutputCodec, bytes: Uint8Array): Uint8Array[] {
   const head = Buffer.from(`${FORMAT}\nkey ${key}\ncodec ${codec}\n`, 'latin1');
   const sum = entrySum(head, bytes);
-  return Buffer.concat([head, Buffer.from(`sha256 ${sum}\n`, 'latin1'), bytes]);
+  return [Buffer.concat([head, Buffer.from(`sha256 ${sum}\n`, 'latin1')]), bytes];
 }
 
 /** SHA-256 over the header lines before the checksum and the output, without copying the output. */

@@ -1,6 +1,6 @@
 import { stepRegistry } from '../steps/index.js';
 import type { Cache } from './cache.js';
-import { packEntry, unpackEntry } from '../core/codec.js';
+import { packEntry, placeEntry, unpackEntry } from '../core/codec.js';
 import { sha256 } from '../core/hash.js';
 import { DendrologError, messages } from '../core/messages.js';
 import type { Progress } from './progress.js';
@@ -54,8 +54,9 @@ export interface LocalExecutorOptions {
  * run and stored; an entry that fails any of these is discarded with a warning and recomputed. A
  * cache that refuses a write is warned about once and not written again in this run. Consecutive
  * steps marked `parallel` that do not depend on one another (grid cells, final fits, explanations)
- * run side by side on a pool of `workers` threads, one step per thread; every other step runs here,
- * and a forest fit there spreads its trees over the threads instead. Outputs handed downstream are
+ * run side by side on a pool of `workers` threads, one step per thread, each free to spread its own
+ * work (a forest's trees) over `workers` threads as well; every other step runs here, spreading its
+ * trees, predictions and permutations over the threads. Outputs handed downstream are
  * always the decoded bytes, so a warm and a cold run, and any number of threads, compute on equal
  * values.
  */
@@ -83,7 +84,7 @@ export function localExecutor(opts: LocalExecutorOptions): Executor {
         const got = cache.get({ kind: step.kind, key: step.key, codec });
         if (got.status === 'hit') {
           try {
-            return unpackEntry(codec, got.bytes);
+            return unpackEntry(codec, placeEntry(got.bytes));
           } catch (e) {
             // bytes that pass their checksum yet do not decode would otherwise stop every later run
             cache.discard(step);
@@ -112,7 +113,7 @@ export function localExecutor(opts: LocalExecutorOptions): Executor {
             cacheWarning('cache-unwritable', messages.cacheUnwritable(displayOf(opts.cache.dir), written.code));
           }
         }
-        return unpackEntry(codec, payload);
+        return unpackEntry(codec, placeEntry(payload));
       };
       const outputHash = new Map<string, string>();
       /** The instance with the contents of its inputs in its seedKey, as it runs (see seededBy). */
@@ -245,6 +246,12 @@ export function localExecutor(opts: LocalExecutorOptions): Executor {
             settle(step, hits[k] ?? store(step, r.payload!), hits[k] ? 'cached' : 'ran', r.seconds);
           });
           i += batch.length;
+          // the threads go with their batch: an idle thread never collects its garbage (a fold's
+          // forest, most of a large run's memory), and a new batch starts them afresh in a blink
+          if (pool) {
+            await (pool as StepPool).close();
+            pool = null;
+          }
         }
       } finally {
         if (pool) await (pool as StepPool).close();

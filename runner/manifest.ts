@@ -57,7 +57,7 @@ export interface Manifest {
 
 /**
  * The run's reproducibility record. Everything outside `timing` is identical across reruns of the
- * same recipe, data and software. `modelBin` is the model file written beside it.
+ * same recipe, data and software. `modelBin` is the model file written beside it, in its parts.
  */
 export function buildManifest(
   recipe: Recipe,
@@ -66,7 +66,7 @@ export function buildManifest(
   results: Results,
   timing: { started: Date; seconds: number },
   outDir: string,
-  modelBin: Uint8Array,
+  modelBin: Uint8Array[],
 ): Manifest {
   const headlineModel = results.models.find((m) => m.name === results.chosenModel)!;
   return {
@@ -111,7 +111,7 @@ export function buildManifest(
     },
     holdoutPredictionsSha256: holdoutPredictionsSha256(results),
     split: splitRecord(results),
-    modelFile: { file: RUN_FILES.model, sha256: sha256(modelBin), bytes: modelBin.length },
+    modelFile: { file: RUN_FILES.model, sha256: sha256(modelBin), bytes: modelBin.reduce((n, c) => n + c.length, 0) },
     environment: { ...environment(), fingerprint: softwareFingerprint() },
     git: gitState(origin.dir),
     warnings: results.warnings,

@@ -96,6 +96,11 @@ export function modelEntry({ fit, interval }: FittedModel): ModelFile {
  * Example: `readModelFile(writeModelFile(bundle)).headline === bundle.headline`
  */
 export function writeModelFile(bundle: Omit<ModelBundle, 'layout'> & { layout?: ModelBundle['layout'] }): Uint8Array {
+  return new Uint8Array(Buffer.concat(modelFileChunks(bundle)));
+}
+
+/** writeModelFile's bytes as the parts they are made in, to be written one after another without first being joined in memory. */
+export function modelFileChunks(bundle: Omit<ModelBundle, 'layout'> & { layout?: ModelBundle['layout'] }): Uint8Array[] {
   const layout = bundle.layout ?? 3;
   const models = layout === 3 ? bundle.models : bundle.models.filter((m) => m.model === bundle.headline);
   if (models.length === 0) throw new Error(`internal: the headline model ${bundle.headline} is not among the models to write`);
@@ -145,20 +150,21 @@ export function writeModelFile(bundle: Omit<ModelBundle, 'layout'> & { layout?: 
     // time of level 1 for a file 2% larger. One gzip member per part, one after another (a gzip
     // reader reads them as one stream), so the parts are never first copied into one buffer.
     const members = [head, ...blobs].map((part) => gzipSync(part, { level: 1, strategy: constants.Z_HUFFMAN_ONLY }));
-    return new Uint8Array(Buffer.concat([Buffer.from(MODEL_FILE_LINE, 'latin1'), ...members]));
+    return [Buffer.from(MODEL_FILE_LINE, 'latin1'), ...members];
   }
   // the older layouts as they were, byte for byte
   const body = gzipSync(Buffer.concat([head, ...blobs]), { level: 1 });
-  if (layout === 1) return new Uint8Array(body);
-  return new Uint8Array(Buffer.concat([Buffer.from(HEADLINE_ONLY_LINE, 'latin1'), body]));
+  if (layout === 1) return [body];
+  return [Buffer.from(HEADLINE_ONLY_LINE, 'latin1'), body];
 }
 
 /**
  * The model file of a run: every model it fitted, the chosen one named as the headline. A layout
  * below 3 (headline only) is written only to compare a rerun with a run folder an older version wrote.
+ * In parts (see modelFileChunks): a large forest's file is never joined in memory.
  */
-export function runModelFile(recipe: Recipe, results: Results, layout: ModelBundle['layout'] = 3): Uint8Array {
-  return writeModelFile({
+export function runModelFile(recipe: Recipe, results: Results, layout: ModelBundle['layout'] = 3): Uint8Array[] {
+  return modelFileChunks({
     layout,
     target: recipe.target,
     run: { holdoutPredictionsSha256: holdoutPredictionsSha256(results) },

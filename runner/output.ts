@@ -1,5 +1,5 @@
 import { randomBytes } from 'node:crypto';
-import { lstatSync, mkdirSync, mkdtempSync, readdirSync, renameSync, rmdirSync, rmSync, writeFileSync, writeSync } from 'node:fs';
+import { closeSync, lstatSync, mkdirSync, mkdtempSync, openSync, readdirSync, renameSync, rmdirSync, rmSync, writeFileSync, writeSync } from 'node:fs';
 import { hostname } from 'node:os';
 import { basename, dirname, join } from 'node:path';
 import { DendrologError, messages } from '../core/messages.js';
@@ -49,7 +49,7 @@ const HOST = hostname().replace(/[^A-Za-z0-9.-]/g, '').slice(0, 64) || 'host';
  *
  * Example: `writeFolderAtomically('out/lake', {'report.html': html})`
  */
-export function writeFolderAtomically(target: string, files: Record<string, string | Uint8Array>): void {
+export function writeFolderAtomically(target: string, files: Record<string, string | Uint8Array | Uint8Array[]>): void {
   const parent = dirname(target);
   mkdirSync(parent, { recursive: true });
   prepareRunFolder(target);
@@ -61,7 +61,10 @@ export function writeFolderAtomically(target: string, files: Record<string, stri
   try {
     // the marker comes first, so a staging folder a kill leaves behind is recognisably dendrolog's
     writeFileSync(join(staging, RUN_MARKER), runMarker(files));
-    for (const [name, content] of Object.entries(files)) writeFileSync(join(staging, name), content);
+    for (const [name, content] of Object.entries(files)) {
+      if (Array.isArray(content)) writeChunks(join(staging, name), content);
+      else writeFileSync(join(staging, name), content);
+    }
     if (exists(target)) {
       renameSync(target, old);
       movedAside = true;
@@ -74,6 +77,16 @@ export function writeFolderAtomically(target: string, files: Record<string, stri
     if (movedAside && !exists(target)) renameSync(old, target);
     rmSync(staging, { recursive: true, force: true });
     throw e;
+  }
+}
+
+/** Writes a file given in parts (a model file), one after another, without joining them in memory. */
+function writeChunks(path: string, chunks: Uint8Array[]): void {
+  const fd = openSync(path, 'wx');
+  try {
+    for (const c of chunks) for (let at = 0; at < c.length; ) at += writeSync(fd, c, at, c.length - at);
+  } finally {
+    closeSync(fd);
   }
 }
 

@@ -5,7 +5,7 @@
  * step's output, which is bit for bit what running the step whole gives, and then removes the part
  * entries it no longer needs. Where a step ran and in how many parts never enters its key.
  */
-import { packEntry, unpackEntry } from '../core/codec.js';
+import { packEntry, placeEntry, unpackEntry } from '../core/codec.js';
 import { sha256 } from '../core/hash.js';
 import { DendrologError, messages } from '../core/messages.js';
 import { makeContext, type PartDivision, type StepInstance } from '../core/step-types.js';
@@ -55,7 +55,7 @@ export async function mergeParts(step: StepInstance, parts: TaskStep[], inputs: 
   const bytes = parts.map((p) => {
     const got = cache.get(p);
     if (got.status !== 'hit') throw new DendrologError(messages.clusterPartUnreadable(p.id, p.key, got.status), 1);
-    return unpackEntry(p.codec, got.bytes).output as Uint8Array;
+    return unpackEntry(p.codec, placeEntry(got.bytes)).output as Uint8Array;
   });
   const warnings = new WarningLog();
   const ctx = makeContext(step, { warn: (code, message) => warnings.add(code, message), workers });

@@ -59,7 +59,7 @@ const UNMARKED_RUN_FILES = new Set<string>([...Object.values(OLD_FILES), ...Obje
  *
  * Example: `runMarker({'report.html': html})` → `{"dendrolog_run_folder": 1, "files": ["report.html"], "sha256": {...}}`
  */
-export function runMarker(files: Record<string, string | Uint8Array>): string {
+export function runMarker(files: Record<string, string | Uint8Array | Uint8Array[]>): string {
   const names = Object.keys(files).sort();
   const sums = Object.fromEntries(names.map((n) => [n, sha256(files[n])]));
   return JSON.stringify({ dendrolog_run_folder: MARKER_FORMAT, files: names, sha256: sums }, null, 2) + '\n';

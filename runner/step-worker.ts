@@ -20,6 +20,8 @@ export interface StepJob {
   seedKey: string;
   locator: Record<string, string>;
   inputs: { codec: OutputCodec; body: Uint8Array }[];
+  /** Threads the step's own work may use (a forest's trees): the pool's size. */
+  threads: number;
 }
 
 /** What comes back: the packed output, or the error to rethrow in the main thread. */
@@ -31,11 +33,15 @@ if (port) {
     try {
       const def = stepRegistry[job.kind];
       const warnings = new WarningLog();
-      // cells already run side by side, one per thread; trees inside stay on this thread
-      const ctx = makeContext(job, { warn: (code, message) => warnings.add(code, message), workers: 1 });
+      // steps already run side by side, one per thread, yet each may spread its trees over every
+      // thread too: when a batch's last step runs alone (the fifth of five folds on two threads), the
+      // other cores then help it instead of idling; meanwhile the system shares the cores out
+      const ctx = makeContext(job, { warn: (code, message) => warnings.add(code, message), workers: job.threads });
       const output = await def.run(job.inputs.map((i) => decodeOutput(i.codec, i.body)), job.params as never, ctx);
       const payload = packEntry(def.codec, output, warnings.list());
-      port.postMessage({ id: job.id, payload } satisfies StepReply, [payload.buffer as ArrayBuffer]);
+      // a large payload is in shared memory, which is shared rather than moved
+      const shared = payload.buffer instanceof SharedArrayBuffer;
+      port.postMessage({ id: job.id, payload } satisfies StepReply, shared ? [] : [payload.buffer as ArrayBuffer]);
     } catch (e) {
       const err = e as Error;
       const exitCode = e instanceof DendrologError ? e.exitCode : null;

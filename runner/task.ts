@@ -7,7 +7,7 @@
 import { readFileSync, writeFileSync } from 'node:fs';
 import { dirname, join } from 'node:path';
 import { Cache } from './cache.js';
-import { packEntry, unpackEntry } from '../core/codec.js';
+import { packEntry, placeEntry, unpackEntry } from '../core/codec.js';
 import { dict, parseJson } from '../core/dict.js';
 import { DendrologError } from '../core/messages.js';
 import { makeContext } from '../core/step-types.js';
@@ -37,7 +37,7 @@ export async function runTask(batchFile: string, index: number): Promise<number>
       const inputs = step.inputs.map((input) => {
         const got = cache.get(input);
         if (got.status !== 'hit') throw new DendrologError(`an input of step ${step.id} (key ${input.key}) is not in the cache ${batch.cache} as seen from this node; is the cache on a file system every node shares?`, 1);
-        return unpackEntry(input.codec, got.bytes).output;
+        return unpackEntry(input.codec, placeEntry(got.bytes)).output;
       });
       const def = stepRegistry[step.kind];
       const warnings = new WarningLog();

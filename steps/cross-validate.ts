@@ -6,6 +6,7 @@ import { column, type Frame } from '../core/frame.js';
 import { DendrologError, messages } from '../core/messages.js';
 import type { HoldoutOutput } from './holdout.js';
 import { cellLabel, engineFor, type Cell } from './model-kinds.js';
+import { bytesOf } from '../core/codec.js';
 
 export interface CrossValidateParams {
   model: string;
@@ -64,7 +65,7 @@ export const cvFold: StepDefinition<CrossValidateParams & { fold: number }, CvFo
     const folds = inputs[2] as FoldsOutput;
     const f = params.fold;
     const where = `cross-validation fold ${f + 1} of ${folds.k}, ${cellLabel(params.cell)}`;
-    const fold = await fitFold(inputs, params, params.cell, f, ctx.seedFor('fit', f), ctx.workers, where);
+    const fold = await fitFold(inputs, params, params.cell, f, ctx.seedFor('fit', f), ctx.workers, where, 'memory');
     const testAt = fold.testAt;
     const p = await fold.predict(fold.testRows, where);
     const bad = p.findIndex((v) => !Number.isFinite(v));
@@ -72,7 +73,7 @@ export const cvFold: StepDefinition<CrossValidateParams & { fold: number }, CvFo
       fold: f,
       tested: testAt,
       predictions: Array.from(p, (v) => (Number.isFinite(v) ? v : null)),
-      used: fold.fitted.used,
+      used: fold.used,
       learned: fold.design,
       nonFinite: bad >= 0 ? messages.predictionNotFinite(p[bad], `cross-validation fold ${f + 1}`) : null,
     };
@@ -83,9 +84,20 @@ export const cvFold: StepDefinition<CrossValidateParams & { fold: number }, CvFo
 /**
  * Fits one cell on every fold of the training rows but fold `f` (inputs: the model table, the
  * holdout, the folds), with the learned feature steps fitted on those rows only; says which
- * training positions the fold tests and predicts any rows with the fold's own design.
+ * training positions the fold tests and predicts any rows with the fold's own design. The fitted
+ * model's bytes come back only when `keep` is 'bytes'; with 'memory' a forest stays in memory and
+ * is never written as bytes (which would hold it twice while they are written).
  */
-export async function fitFold(inputs: unknown[], params: Omit<CrossValidateParams, 'cell'>, cell: Cell, f: number, seed: string, workers: number, where: string) {
+export async function fitFold(
+  inputs: unknown[],
+  params: Omit<CrossValidateParams, 'cell'>,
+  cell: Cell,
+  f: number,
+  seed: string,
+  workers: number,
+  where: string,
+  keep: 'bytes' | 'memory',
+) {
   const frame = (inputs[0] as FrameOutput).frame;
   const split = inputs[1] as HoldoutOutput;
   const folds = inputs[2] as FoldsOutput;
@@ -98,14 +110,23 @@ export async function fitFold(inputs: unknown[], params: Omit<CrossValidateParam
   const fitRows = fitAt.map((k) => split.train[k]);
   const design = learnDesign(frame, fitRows, params.features, params.predictors);
   const engine = engineFor(params.kind, params.model);
-  const fitted = await engine.fit(applyDesign(design, frame, fitRows), targetOf(frame, params.target, fitRows), cell, { seed, workers }, where);
+  const x = applyDesign(design, frame, fitRows);
+  const y = targetOf(frame, params.target, fitRows);
+  const model =
+    keep === 'bytes'
+      ? await engine.fit(x, y, cell, { seed, workers }, where).then(async (fitted) => {
+          const bytes = bytesOf(fitted.bytes);
+          return { ...(await engine.load(bytes, where)), used: fitted.used, bytes };
+        })
+      : { ...(await engine.fitToPredict(x, y, cell, { seed, workers }, where)), bytes: null };
   return {
     testAt,
     testRows: testAt.map((k) => split.train[k]),
     design,
-    fitted,
+    used: model.used,
+    bytes: model.bytes,
     /** The fold model's predictions for some rows of the model table. */
-    predict: (rows: number[], at: string) => engine.predict(fitted.bytes, applyDesign(design, frame, rows), at),
+    predict: (rows: number[], at: string) => model.predict(applyDesign(design, frame, rows), at),
   };
 }
 

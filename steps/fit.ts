@@ -7,6 +7,7 @@ import { applyDesign, learnDesign, targetOf, type LearnedDesign } from './design
 import type { HoldoutOutput } from './holdout.js';
 import { engineFor, type Cell, type FittedModel } from './model-kinds.js';
 import { dict } from '../core/dict.js';
+import type { Bytes } from '../core/codec.js';
 
 export interface FitParams {
   model: string;
@@ -35,6 +36,12 @@ export interface FitOutput {
   ranges: Record<string, { min: number; max: number }>;
 }
 
+/**
+ * The output as the step makes it: the model's bytes may be a writer (a forest's, written straight
+ * into the step's entry: see BytesWriter). Steps downstream read it decoded, as FitOutput.
+ */
+export type FitMade = Omit<FitOutput, 'bytes'> & { bytes: Bytes };
+
 const WHERE = 'final fit on all training rows';
 
 /**
@@ -57,7 +64,7 @@ function prepare(inputs: unknown[], params: FitParams) {
 }
 
 /** The step's output from the fitted model. */
-function output(p: ReturnType<typeof prepare>, params: FitParams, fitted: FittedModel): FitOutput {
+function output(p: ReturnType<typeof prepare>, params: FitParams, fitted: FittedModel): FitMade {
   return {
     model: params.model,
     kind: params.kind,
@@ -83,7 +90,7 @@ function blocksOf(params: FitParams) {
  * the same rows. A forest's fit divides into blocks of trees that the Slurm executor may grow as
  * separate tasks; merged, they give the bytes of the whole fit.
  */
-export const fit: StepDefinition<FitParams, FitOutput> = {
+export const fit: StepDefinition<FitParams, FitMade> = {
   kind: 'fit',
   // (the version is in the seed of its draws: the switch to the record codec, which changed no
   // number, kept 4) 4: seeded from the training table, the split and the chosen cell only (seedInputs), so an

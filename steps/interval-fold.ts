@@ -55,7 +55,7 @@ export const intervalFold: StepDefinition<IntervalFoldParams, IntervalFoldOutput
     const cell = params.cell ?? chosenCell(inputs[3] as ChooseOutput);
     const f = params.fold;
     const where = `prediction-interval fold ${f + 1} of ${folds.k}, ${cellLabel(cell)}`;
-    const fold = await fitFold(inputs, params, cell, f, ctx.seedFor(`interval fold ${canonicalJson(cell)}`, f), ctx.workers, where);
+    const fold = await fitFold(inputs, params, cell, f, ctx.seedFor(`interval fold ${canonicalJson(cell)}`, f), ctx.workers, where, 'bytes');
     const tested = await fold.predict(fold.testRows, where);
     const observed = targetOf(frame, params.target, fold.testRows);
     const holdout = await fold.predict(split.test, where);
@@ -67,7 +67,7 @@ export const intervalFold: StepDefinition<IntervalFoldParams, IntervalFoldOutput
       residuals: Array.from(tested, (p, i) => Math.abs(observed[i] - p)),
       holdout: Array.from(holdout),
       design: fold.design,
-      bytes: fold.fitted.bytes,
+      bytes: fold.bytes!,
       nonFinite: bad === undefined ? null : messages.predictionNotFinite(bad, where),
     };
   },

@@ -5,13 +5,15 @@ import { deserializeMean, fitMean, predictMean, serializeMean } from '../models/
 import { DEFAULT_MIN_LEAF, DEFAULT_REPLACE, DEFAULT_SAMPLE_FRACTION, DEFAULT_TREES, TREE_BLOCK } from '../models/defaults.js';
 import type { Forest, ForestOptions } from '../models/forest.js';
 import { dictOf } from '../core/dict.js';
+import { BytesWriter, bytesOf, type Bytes } from '../core/codec.js';
 import type { Matrix } from './design.js';
 
 /** One grid cell: a value for each hyperparameter of the model kind. */
 export type Cell = Record<string, number | boolean | null>;
 
 export interface FittedModel {
-  bytes: Uint8Array;
+  /** A forest's are a writer (see BytesWriter): written straight into the fit's entry, never held twice. */
+  bytes: Bytes;
   /** Hyperparameters as the engine used them, defaults resolved (for example mtry as a count). */
   used: Record<string, unknown>;
   /** Out-of-bag R² where the model has one (training-data based, never a headline). */
@@ -48,6 +50,12 @@ export interface ModelKindAdapter {
   /** Whether permutation importance and partial dependence can say anything about the kind (a constant cannot). */
   explained: boolean;
   fit(x: Matrix, y: Float64Array, cell: Cell, opts: FitOptions): Promise<FittedModel>;
+  /**
+   * For kinds whose bytes are large (a forest): the fit kept in memory and never written as bytes,
+   * for a model that only predicts and is then dropped (a cross-validation fold). Its predictions
+   * equal those of the model read from fit()'s bytes.
+   */
+  fitLoaded?(x: Matrix, y: Float64Array, cell: Cell, opts: FitOptions): Promise<{ used: Record<string, unknown>; model: LoadedModel }>;
   /** The model from its bytes, read once, to predict as often as needed (permutation importance predicts many times). */
   load(bytes: Uint8Array): Promise<LoadedModel>;
   /** For kinds whose fit divides into blocks grown apart (a forest's trees); see ModelBlocks. */
@@ -57,6 +65,8 @@ export interface ModelKindAdapter {
 /** A fitted model read from its bytes. */
 export interface LoadedModel {
   predict(x: Matrix): Float64Array;
+  /** For kinds that can: the same predictions, with the rows spread over up to `threads` threads. */
+  predictOnThreads?(x: Matrix, threads: number): Promise<Float64Array>;
   /**
    * For each job, predictions with the job's matrix columns read through each of its orders (row i
    * takes row order[i]'s values), one array per order; equal to predicting each permuted matrix,
@@ -131,6 +141,11 @@ export const modelKinds: Record<string, ModelKindAdapter> = dictOf<ModelKindAdap
       const { fitForest } = await forestEngine();
       return forestFitted(await fitForest(x, y, forestOptions(cell, opts)), cell);
     },
+    async fitLoaded(x, y, cell, opts) {
+      const { fitForest } = await forestEngine();
+      const forest = await fitForest(x, y, forestOptions(cell, opts));
+      return { used: { ...cell, mtry: forest.options.mtry }, model: await loadedForest(forest, null) };
+    },
     load: loadForest,
     blocks: {
       divide(cell, rows) {
@@ -201,13 +216,25 @@ export const modelKinds: Record<string, ModelKindAdapter> = dictOf<ModelKindAdap
 
 /** A forest or tree read from its bytes. */
 async function loadForest(bytes: Uint8Array): Promise<LoadedModel> {
-  const { deserializeForest, predictForest } = await forestEngine();
-  const forest = deserializeForest(bytes);
+  const { deserializeForest } = await forestEngine();
+  return loadedForest(deserializeForest(bytes), bytes);
+}
+
+/**
+ * A forest or tree as a loaded model; with its bytes, which the helper threads of prediction and
+ * permutation importance read it from, else on this thread alone.
+ */
+async function loadedForest(forest: Forest, bytes: Uint8Array | null): Promise<LoadedModel> {
+  const { predictForest } = await forestEngine();
   const { permutedOnThreads } = await import('../models/permute-pool.js');
+  const { predictOnThreads } = await import('../models/predict-pool.js');
   const { forestPartialDependence } = await import('../models/partial-dependence.js');
   return {
     predict: (x) => predictForest(forest, x),
-    permuted: (x, jobs, orders, threads) => permutedOnThreads(forest, bytes, x, jobs, orders, threads),
+    ...(bytes && {
+      predictOnThreads: (x: Matrix, threads: number) => predictOnThreads(forest, bytes, x, threads),
+      permuted: (x: Matrix, jobs: { columns: number[] }[], orders: ArrayLike<number>[][], threads: number) => permutedOnThreads(forest, bytes, x, jobs, orders, threads),
+    }),
     partialDependence: (columns, points) => forestPartialDependence(forest, columns, points),
   };
 }
@@ -227,22 +254,29 @@ function forestOptions(cell: Cell, opts: FitOptions): ForestOptions {
   };
 }
 
-/** A fitted forest as the runner keeps it: its bytes, the hyperparameters used and its OOB R². */
+/** A fitted forest as the runner keeps it: its bytes (as a writer), the hyperparameters used and its OOB R². */
 async function forestFitted(forest: Forest, cell: Cell): Promise<FittedModel> {
-  const { oob, serializeForest } = await forestEngine();
-  return { bytes: serializeForest(forest), used: { ...cell, mtry: forest.options.mtry }, oobR2: oob(forest).r2 };
+  const { oob, forestWriter } = await forestEngine();
+  const w = forestWriter(forest);
+  return { bytes: new BytesWriter(w.length, w.write), used: { ...cell, mtry: forest.options.mtry }, oobR2: oob(forest).r2 };
 }
 
 /** A model of the recipe, fitted and applied through its kind's adapter, with engine errors as messages. */
 export interface ModelEngine {
   fit(x: Matrix, y: Float64Array, cell: Cell, opts: FitOptions, where: string): Promise<FittedModel>;
+  /**
+   * A fit that only predicts (a cross-validation fold): kept in memory where the kind can
+   * (ModelKindAdapter.fitLoaded), else fitted and read back from its bytes.
+   */
+  fitToPredict(x: Matrix, y: Float64Array, cell: Cell, opts: FitOptions, where: string): Promise<{ used: Record<string, unknown>; predict(x: Matrix, where: string): Promise<Float64Array> }>;
   predict(bytes: Uint8Array, x: Matrix, where: string): Promise<Float64Array>;
   /** The model read once; its predictions go through the same boundary, with `where`. */
   load(
     bytes: Uint8Array,
     where: string,
   ): Promise<{
-    predict(x: Matrix, where: string): Promise<Float64Array>;
+    /** Predictions, on up to `threads` threads (default 1) where the kind can spread them. */
+    predict(x: Matrix, where: string, threads?: number): Promise<Float64Array>;
     permuted(x: Matrix, jobs: { columns: number[] }[], orders: ArrayLike<number>[][], threads: number, where: string): Promise<Float64Array[][]>;
     /** Present when the kind has its own (see LoadedModel.partialDependence). */
     partialDependence?(columns: number[], points: ArrayLike<number>[], where: string): Promise<Float64Array>;
@@ -275,11 +309,19 @@ export function engineFor(kind: string, model: string): ModelEngine {
   const blocks = adapter.blocks;
   return {
     fit: (x, y, cell, opts, where) => guarded(where, () => adapter.fit(x, y, cell, opts)),
+    async fitToPredict(x, y, cell, opts, where) {
+      const { used, model } = await guarded(where, async () => {
+        if (adapter.fitLoaded) return adapter.fitLoaded(x, y, cell, opts);
+        const fitted = await adapter.fit(x, y, cell, opts);
+        return { used: fitted.used, model: await adapter.load(bytesOf(fitted.bytes)) };
+      });
+      return { used, predict: (rows, at) => guarded(at, async () => model.predict(rows)) };
+    },
     predict: (bytes, x, where) => guarded(where, async () => (await adapter.load(bytes)).predict(x)),
     async load(bytes, where) {
       const model = await guarded(where, () => adapter.load(bytes));
       return {
-        predict: (x, at) => guarded(at, async () => model.predict(x)),
+        predict: (x, at, threads = 1) => guarded(at, async () => (threads > 1 && model.predictOnThreads ? model.predictOnThreads(x, threads) : model.predict(x))),
         permuted: (x, jobs, orders, threads, at) => guarded(at, async () => (model.permuted ?? permutedByCopy(model))(x, jobs, orders, threads)),
         ...(model.partialDependence && {
           partialDependence: (columns: number[], points: ArrayLike<number>[], at: string) =>

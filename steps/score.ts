@@ -61,14 +61,15 @@ export const score: StepDefinition<ScoreParams, ScoreOutput> = {
   // table and the split only; 4: stable metric sums; R² undefined for a negligible spread
   version: 6,
   codec: 'json',
-  async run(inputs, params) {
+  async run(inputs, params, ctx) {
     const frame = (inputs[0] as FrameOutput).frame;
     const split = inputs[1] as HoldoutOutput;
     const fitted = inputs[2] as FitOutput;
     const model = await engineFor(fitted.kind, fitted.model).load(fitted.bytes, 'reading the fitted model');
     const y = targetOf(frame, params.target, split.test);
-    const pred = await model.predict(applyDesign(fitted.design, frame, split.test), 'prediction of the holdout rows');
-    const trainPred = await model.predict(applyDesign(fitted.design, frame, split.train), 'prediction of the training rows');
+    // rows spread over the threads the step may use: the numbers are the same for any count
+    const pred = await model.predict(applyDesign(fitted.design, frame, split.test), 'prediction of the holdout rows', ctx.workers);
+    const trainPred = await model.predict(applyDesign(fitted.design, frame, split.train), 'prediction of the training rows', ctx.workers);
     const units: number[][] = [];
     if (params.units) {
       const g = column(frame, params.units).values;

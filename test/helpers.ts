@@ -54,7 +54,8 @@ export function smallData(): string {
 
 import type { Frame } from '../core/frame.js';
 import { DendrologError } from '../core/messages.js';
-import { makeContext, type FrameOutput, type StepContext } from '../core/step-types.js';
+import { makeContext, type FrameOutput, type OutputCodec, type StepContext } from '../core/step-types.js';
+import { packEntry, unpackEntry } from '../core/codec.js';
 import { crossValidate, cvFold, type CrossValidateOutput, type CrossValidateParams, type CvFoldOutput } from '../steps/cross-validate.js';
 import type { FoldsOutput } from '../steps/folds.js';
 import type { HoldoutOutput } from '../steps/holdout.js';
@@ -65,6 +66,11 @@ export function stepContext(warnings: string[] = [], seed = 1): StepContext {
 }
 
 /** Wraps a frame as a step output. */
+/** A step's output as the steps after it see it: through its codec, as the executor hands it on. */
+export function decoded<O>(codec: OutputCodec, output: unknown): O {
+  return unpackEntry(codec, packEntry(codec, output, [])).output as O;
+}
+
 export function asOutput(frame: Frame): FrameOutput {
   return { frame, notes: { rowsIn: frame.rows, rowsOut: frame.rows, detail: '' } };
 }

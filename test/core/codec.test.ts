@@ -1,6 +1,6 @@
 /** The record codec: JSON whose binary fields travel as raw bytes, found again by their paths. */
 import { describe, expect, it } from 'vitest';
-import { decodeRecord, encodeRecord, packEntry, unpackEntry } from '../../core/codec.js';
+import { BytesWriter, SHARED_ENTRY_BYTES, bytesOf, decodeRecord, encodeRecord, packEntry, placeEntry, unpackEntry } from '../../core/codec.js';
 import { parseJson } from '../../core/dict.js';
 
 describe('records', () => {
@@ -40,6 +40,29 @@ describe('records', () => {
       expect(model.byteOffset % 8).toBe(0);
       expect(entry.stepWarnings).toEqual(warnings);
     }
+  });
+
+  it('write a writer field into the record exactly as the array it makes would be copied there', () => {
+    const array = Uint8Array.from({ length: 300 }, (_, i) => (i * 7) % 256);
+    const writer = new BytesWriter(array.length, (into) => into.set(array));
+    const value = { name: 'm', folds: [{ bytes: Uint8Array.of(1, 2) }], bytes: writer };
+    const fromArray = packEntry('record', { ...value, bytes: array }, []);
+    expect(Buffer.from(packEntry('record', value, [])).equals(fromArray)).toBe(true);
+    expect(Buffer.from(encodeRecord(value)).equals(encodeRecord({ ...value, bytes: array }))).toBe(true);
+    const back = unpackEntry('record', fromArray).output as { bytes: Uint8Array };
+    expect(back.bytes).toEqual(array);
+    expect([bytesOf(writer), bytesOf(array)]).toEqual([array, array]);
+  });
+
+  it('make a large entry in shared memory, which placing for reading keeps as it is', () => {
+    const big = packEntry('record', { model: new Uint8Array(SHARED_ENTRY_BYTES) }, []);
+    expect(big.buffer).toBeInstanceOf(SharedArrayBuffer);
+    expect(placeEntry(big)).toBe(big);
+    const bytes = packEntry('bytes', new Uint8Array(SHARED_ENTRY_BYTES), []);
+    expect(bytes.buffer).toBeInstanceOf(SharedArrayBuffer);
+    const small = packEntry('record', { model: new Uint8Array(100) }, []);
+    expect(small.buffer).not.toBeInstanceOf(SharedArrayBuffer);
+    expect(placeEntry(small)).toBe(small);
   });
 
   it('pass through a cache entry unchanged', () => {

@@ -184,9 +184,9 @@ describe('a full disk under the cache', () => {
     let writes = 0;
     const full = new Cache(s.cache, {
       // the disk fills during the third entry: a partial temporary file, then ENOSPC
-      writeFileSync: (p, data) => {
-        if (++writes < 3) return writeFileSync(p, data);
-        writeFileSync(p, data.subarray(0, 7));
+      writeChunksSync: (p, chunks) => {
+        if (++writes < 3) return writeFileSync(p, Buffer.concat(chunks));
+        writeFileSync(p, chunks[0].subarray(0, 7));
         throw Object.assign(new Error('ENOSPC: no space left on device, write'), { code: 'ENOSPC' });
       },
     });

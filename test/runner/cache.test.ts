@@ -2,6 +2,7 @@ import { copyFileSync, existsSync, mkdirSync, readFileSync, readdirSync, symlink
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import { Cache } from '../../runner/cache.js';
+import { placeEntry } from '../../core/codec.js';
 import { cachePrune } from '../../runner/cache-admin.js';
 import { sha256 } from '../../core/hash.js';
 import { makeFolder } from '../helpers.js';
@@ -30,14 +31,20 @@ describe('cache', () => {
     expect(readdirSync(join(dir, kind))).toEqual([key]);
   });
 
-  it('gives the bytes of a hit at a multiple of 8 in memory, whatever the codec line before them', () => {
-    // so a fitted forest in the entry is read in place (models/serialize.ts)
+  it('placed for reading, gives the bytes of a hit at a multiple of 8, a large one in shared memory', () => {
+    // so a fitted forest in the entry is read in place (models/serialize.ts) by every thread it goes to
     const cache = new Cache(makeFolder({}));
-    const big = new Uint8Array(100_000).map((_, i) => i % 251);
+    const big = new Uint8Array(2_000_000).map((_, i) => i % 251);
     for (const codec of ['json', 'frame', 'bytes', 'record'] as const) {
       cache.put({ kind, key, codec }, big);
       const got = cache.get({ kind, key, codec });
-      expect(got.status === 'hit' && [got.bytes.byteOffset % 8, got.bytes.length, got.bytes[99_999]]).toEqual([0, 100_000, 99_999 % 251]);
+      if (got.status !== 'hit') throw new Error('a miss');
+      for (const placed of [placeEntry(got.bytes), placeEntry(got.bytes.subarray(0, 1000))]) {
+        expect([placed.byteOffset % 8, placed[999]]).toEqual([0, 999 % 251]);
+      }
+      expect(placeEntry(got.bytes).buffer).toBeInstanceOf(SharedArrayBuffer);
+      expect(placeEntry(got.bytes).length).toBe(2_000_000);
+      expect(placeEntry(got.bytes.subarray(0, 1000)).buffer).not.toBeInstanceOf(SharedArrayBuffer);
     }
   });
 
@@ -121,8 +128,8 @@ describe('cache on a full or read-only disk', () => {
   it('reports ENOSPC from a write that got halfway, and removes the partial temporary file', () => {
     const dir = makeFolder({});
     const cache = new Cache(dir, {
-      writeFileSync: (p, data) => {
-        writeFileSync(p, data.subarray(0, 3));
+      writeChunksSync: (p, chunks) => {
+        writeFileSync(p, chunks[0].subarray(0, 3));
         throw fsError('ENOSPC');
       },
     });
@@ -151,8 +158,8 @@ describe('cache on a full or read-only disk', () => {
   it('rethrows an error that is not the file system’s, still without a temporary file', () => {
     const dir = makeFolder({});
     const cache = new Cache(dir, {
-      writeFileSync: (p, data) => {
-        writeFileSync(p, data);
+      writeChunksSync: (p, chunks) => {
+        writeFileSync(p, Buffer.concat(chunks));
         throw new TypeError('a bug');
       },
     });

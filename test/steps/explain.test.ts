@@ -8,7 +8,7 @@ import { explain, type ExplainOutput, type ExplainParams } from '../../steps/exp
 import { fit, type FitOutput } from '../../steps/fit.js';
 import { engineFor } from '../../steps/model-kinds.js';
 import type { HoldoutOutput } from '../../steps/holdout.js';
-import { asOutput, errorOf, stepContext, NO_UNITS } from '../helpers.js';
+import { asOutput, decoded, errorOf, stepContext, NO_UNITS } from '../helpers.js';
 import { FRIEDMAN_NAMES, friedman1 } from '../bench/friedman.js';
 
 /**
@@ -40,7 +40,7 @@ const chosen: ChooseOutput = {
 };
 
 async function fitted(kind: ModelKind, cell: Record<string, unknown> = {}): Promise<FitOutput> {
-  return (await fit.run([asOutput(frame), split, { ...chosen, cells: [{ ...chosen.cells[0], cell }] }], { model: kind, kind, target: 'y', predictors: ['x1', 'x2'], features: [] }, stepContext())) as FitOutput;
+  return decoded<FitOutput>('record', await fit.run([asOutput(frame), split, { ...chosen, cells: [{ ...chosen.cells[0], cell }] }], { model: kind, kind, target: 'y', predictors: ['x1', 'x2'], features: [] }, stepContext()));
 }
 
 const PARAMS: ExplainParams = { target: 'y', repeats: 5, top: 1, points: 3, sampleRows: 100 };
@@ -122,7 +122,7 @@ describe('explain', () => {
     };
     const s: HoldoutOutput = { train: [...Array(600).keys()], test: Array.from({ length: 300 }, (_, k) => 600 + k), by: 'random', trainGroups: 0, testGroups: 0, cutoff: null, gapRows: 0, units: NO_UNITS };
     const cell = { trees: 100, max_depth: null, min_leaf: 3, mtry: null, sample_fraction: 1, replace: true };
-    const forest = (await fit.run([asOutput(f), s, { ...chosen, cells: [{ ...chosen.cells[0], cell }] }], { model: 'forest', kind: 'random_forest', target: 'y', predictors: FRIEDMAN_NAMES, features: [] }, stepContext())) as FitOutput;
+    const forest = decoded<FitOutput>('record', await fit.run([asOutput(f), s, { ...chosen, cells: [{ ...chosen.cells[0], cell }] }], { model: 'forest', kind: 'random_forest', target: 'y', predictors: FRIEDMAN_NAMES, features: [] }, stepContext()));
     const out = (await explain.run([asOutput(f), s, forest], { ...PARAMS, repeats: 3, top: 0 }, stepContext())) as ExplainOutput;
     const rise = (p: string) => out.importance.find((i) => i.predictor === p)!.mean;
     const noise = Math.max(...['x6', 'x7', 'x8', 'x9', 'x10'].map(rise));

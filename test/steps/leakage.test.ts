@@ -6,6 +6,7 @@ import { applyDesign, learnDesign, targetOf } from '../../steps/design.js';
 import { foldRows, type FoldsOutput } from '../../steps/folds.js';
 import type { HoldoutOutput } from '../../steps/holdout.js';
 import { modelKinds } from '../../steps/model-kinds.js';
+import { bytesOf } from '../../core/codec.js';
 import { asOutput, crossValidateCell, NO_UNITS } from '../helpers.js';
 
 /**
@@ -50,7 +51,7 @@ async function leakyPredictions(frame: Frame, split: HoldoutOutput, folds: Folds
   for (let f = 0; f < folds.k; f++) {
     const { fit, test } = foldRows(folds, f, () => NaN);
     const model = await modelKinds.linear.fit(applyDesign(everywhere, frame, fit), targetOf(frame, 'y', fit), {}, { seed: 's', workers: 1 });
-    const p = (await modelKinds.linear.load(model.bytes)).predict(applyDesign(everywhere, frame, test));
+    const p = (await modelKinds.linear.load(bytesOf(model.bytes))).predict(applyDesign(everywhere, frame, test));
     test.forEach((k, j) => (out[k] = p[j]));
   }
   return out;

@@ -2,6 +2,7 @@ import { describe, expect, it } from 'vitest';
 import { DendrologError, messages } from '../../core/messages.js';
 import { engineMessages } from '../../models/engine-errors.js';
 import { engineFor, modelKinds } from '../../steps/model-kinds.js';
+import { bytesOf } from '../../core/codec.js';
 
 /** 40 rows × p columns of small integers, and a target that depends on the first two. */
 function matrix(p: number) {
@@ -33,7 +34,7 @@ describe('the engine boundary', () => {
     const engine = engineFor('random_forest', 'forest');
     const fitted = await engine.fit(x, y, { ...cell, mtry: null }, { seed: 's', workers: 1 }, 'a fit');
     const renamed = { ...x, names: [...x.names].reverse() };
-    const e = (await engine.predict(fitted.bytes, renamed, 'prediction of the new rows').catch((err: unknown) => err)) as DendrologError;
+    const e = (await engine.predict(bytesOf(fitted.bytes), renamed, 'prediction of the new rows').catch((err: unknown) => err)) as DendrologError;
     expect(e).toBeInstanceOf(DendrologError);
     expect([e.message, e.exitCode]).toEqual([messages.modelEngineFailed('forest', 'prediction of the new rows', engineMessages.namesDiffer(x.names, renamed.names)), 1]);
   });
@@ -47,7 +48,7 @@ describe('the engine boundary', () => {
     // a call no caller should make (no matrix at all) is a bug, not an input error: it passes through as it is
     const forest = engineFor('random_forest', 'forest');
     const fitted = await forest.fit(x, y, { ...cell, mtry: null }, { seed: 's', workers: 1 }, 'a fit');
-    const bug = (await forest.predict(fitted.bytes, null as never, 'here').catch((err: unknown) => err)) as Error;
+    const bug = (await forest.predict(bytesOf(fitted.bytes), null as never, 'here').catch((err: unknown) => err)) as Error;
     expect(bug).toBeInstanceOf(TypeError);
   });
 });

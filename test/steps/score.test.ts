@@ -8,7 +8,7 @@ import { fit, type FitOutput } from '../../steps/fit.js';
 import type { HoldoutOutput } from '../../steps/holdout.js';
 import type { ModelKind } from '../../core/recipe-types.js';
 import { score, type ScoreOutput, type ScoreParams } from '../../steps/score.js';
-import { asOutput, errorOf, stepContext, NO_UNITS } from '../helpers.js';
+import { asOutput, decoded, errorOf, stepContext, NO_UNITS } from '../helpers.js';
 
 /**
  * 12 rows in 6 sites of 2, y = 2·x1 − x2 exactly; rows 0–7 train, 8–11 are held out (sites S4, S5).
@@ -42,7 +42,7 @@ const chosen: ChooseOutput = {
 
 /** The final fit of a model on the training rows, by the fit step. */
 async function fitted(kind: ModelKind, f: Frame = frame): Promise<FitOutput> {
-  return (await fit.run([asOutput(f), split, chosen], { model: kind, kind, target: 'y', predictors: ['x1', 'x2'], features: [] }, stepContext())) as FitOutput;
+  return decoded<FitOutput>('record', await fit.run([asOutput(f), split, chosen], { model: kind, kind, target: 'y', predictors: ['x1', 'x2'], features: [] }, stepContext()));
 }
 
 const PARAMS: ScoreParams = { target: 'y', targetScale: null, groups: 'site', units: null };
