@@ -144,7 +144,7 @@ export const modelKinds: Record<string, ModelKindAdapter> = dictOf<ModelKindAdap
     async fitLoaded(x, y, cell, opts) {
       const { fitForest } = await forestEngine();
       const forest = await fitForest(x, y, forestOptions(cell, opts));
-      return { used: { ...cell, mtry: forest.options.mtry }, model: await loadedForest(forest, null) };
+      return { used: forestUsed(forest, cell), model: await loadedForest(forest, null) };
     },
     load: loadForest,
     blocks: {
@@ -258,7 +258,12 @@ function forestOptions(cell: Cell, opts: FitOptions): ForestOptions {
 async function forestFitted(forest: Forest, cell: Cell): Promise<FittedModel> {
   const { oob, forestWriter } = await forestEngine();
   const w = forestWriter(forest);
-  return { bytes: new BytesWriter(w.length, w.write), used: { ...cell, mtry: forest.options.mtry }, oobR2: oob(forest).r2 };
+  return { bytes: new BytesWriter(w.length, w.write), used: forestUsed(forest, cell), oobR2: oob(forest).r2 };
+}
+
+/** The hyperparameters a forest was fitted with: the cell, with mtry as the count the engine resolved. */
+function forestUsed(forest: Forest, cell: Cell): Record<string, unknown> {
+  return { ...cell, mtry: forest.options.mtry };
 }
 
 /** A model of the recipe, fitted and applied through its kind's adapter, with engine errors as messages. */
