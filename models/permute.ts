@@ -1,12 +1,14 @@
 /**
  * Forest predictions with some features' values taken from other rows, for every permutation of
- * permutation importance at once. A row follows its own path through a tree until the first node
- * that splits on a permuted feature; only from there does each permutation go its own way, so the
- * shared part of the path is walked once instead of once per repeat, and a row whose path never
- * meets a permuted feature adds the same leaf to every repeat.
+ * permutation importance at once. Each row walks its own path down a tree once; a job (one
+ * predictor's columns) whose columns no node of that path splits on gives every repeat the path's
+ * leaf, and only from the first node that splits on a job's column does each repeat of that job go
+ * its own way. Repeats still walk together below it until a split on the job's column parts them.
+ * So the shared part of a path is walked once for all jobs and repeats, not once per repeat.
  *
  * The sums run in tree order per row and are divided by the tree count at the end, as
- * predictUnchecked does, so each result equals predicting the permuted matrix bit for bit.
+ * predictUnchecked does, so each result equals predicting the permuted matrix bit for bit, and a
+ * row's results do not depend on the rows computed with it (permute-pool.ts splits rows over threads).
  *
  * Example: `predictPermuted(forest, x, [3], [order1, order2])[1][i]` is the prediction of row i with
  * feature 3 read from row `order2[i]`.
@@ -15,104 +17,161 @@ import type { Matrix } from './checks.js';
 import type { Forest } from './forest.js';
 import { checkPredictionMatrix } from './predict.js';
 
+/** One job's permuted predictions: every repeat of one set of columns. */
 export function predictPermuted(f: Forest, x: Matrix, permuted: number[], orders: ArrayLike<number>[]): Float64Array[] {
   checkPredictionMatrix(f, x);
+  const out = orders.map(() => new Float64Array(x.rows));
+  predictPermutedRows(f, x, [{ columns: permuted }], [orders], 0, x.rows, [out]);
+  return out;
+}
+
+/**
+ * Writes `out[job][k][i]`, the prediction of row i with job `job`'s columns read from row
+ * `orders[job][k][i]`, for rows from..to-1 and every job and repeat (inputs checked by the caller;
+ * the jobs' columns must not overlap).
+ */
+export function predictPermutedRows(
+  f: Forest,
+  x: Matrix,
+  jobs: { columns: number[] }[],
+  orders: ArrayLike<number>[][],
+  from: number,
+  to: number,
+  out: Float64Array[][],
+): void {
   const p = x.columns.length;
-  const rows = x.rows;
-  const repeats = orders.length;
-  // slot[f] is feature f's place among the permuted columns, -1 when it is not permuted
-  const slot = new Int32Array(p).fill(-1);
-  permuted.forEach((c, m) => (slot[c] = m));
-  const width = permuted.length;
+  const n = to - from;
+  // jobOf[f] is the job permuting feature f, -1 for none; slotOf[f] its place among the job's columns
+  const jobOf = new Int32Array(p).fill(-1);
+  const slotOf = new Int32Array(p);
+  jobs.forEach((job, m) =>
+    job.columns.forEach((c, s) => {
+      jobOf[c] = m;
+      slotOf[c] = s;
+    }),
+  );
   // row-major, so a row's values share cache lines
-  const block = new Float64Array(rows * p);
+  const block = new Float64Array(n * p);
   for (let j = 0; j < p; j++) {
     const c = x.columns[j];
-    for (let r = 0, at = j; r < rows; r++, at += p) block[at] = c[r];
+    for (let r = from, at = j; r < to; r++, at += p) block[at] = c[r];
   }
-  // per repeat, the permuted values gathered into row order once, so a traversal reads them in
+  // per job and repeat, the permuted values gathered into row order once, so a walk reads them in
   // sequence instead of jumping to another row for each
-  const moved = orders.map((order) => {
-    const v = new Float64Array(rows * width);
-    for (let i = 0; i < rows; i++) for (let m = 0; m < width; m++) v[i * width + m] = x.columns[permuted[m]][order[i]];
-    return v;
-  });
-  const out = orders.map(() => new Float64Array(rows));
-  // Below a node that does not split on a permuted feature, every repeat of a row goes the same way
-  // (they differ only in the permuted values), so the repeats walk down together as one set and part
-  // only where a node splits on a permuted feature: a set of repeats per pending branch, as a bit mask.
-  const grouped = repeats <= 30;
-  // pending sets are disjoint and never empty, so there are never more of them than repeats
-  const stackNode = new Int32Array(32);
-  const stackMask = new Int32Array(32);
-  const all = grouped ? (1 << repeats) - 1 : 0;
+  const moved = jobs.map((job, m) =>
+    orders[m].map((order) => {
+      const w = job.columns.length;
+      const v = new Float64Array(n * w);
+      for (let i = 0; i < n; i++) for (let s = 0; s < w; s++) v[i * w + s] = x.columns[job.columns[s]][order[from + i]];
+      return v;
+    }),
+  );
+  for (const o of out) for (const a of o) a.fill(0, from, to);
+  const walker = new RepeatWalker();
+  // per job, the first node of the row's path that splits on one of its columns (-1: none)
+  const first = new Int32Array(jobs.length);
   for (const tree of f.trees) {
     const { feature, thresholdOrValue: tv, right } = tree;
-    for (let i = 0, base = 0; i < rows; i++, base += p) {
+    for (let i = 0; i < n; i++) {
+      const base = i * p;
+      first.fill(-1);
       let node = 0;
       let g = feature[0];
-      while (g >= 0 && slot[g] < 0) {
+      while (g >= 0) {
+        const m = jobOf[g];
+        if (m >= 0 && first[m] < 0) first[m] = node;
         node = block[base + g] <= tv[node] ? node + 1 : right[node];
         g = feature[node];
       }
-      if (g < 0) {
-        const v = tv[node];
-        for (let k = 0; k < repeats; k++) out[k][i] += v;
-        continue;
-      }
-      const at = i * width;
-      if (grouped) {
-        let top = 0;
-        stackNode[0] = node;
-        stackMask[0] = all;
-        while (top >= 0) {
-          let n = stackNode[top];
-          let mask = stackMask[top];
-          top--;
-          for (;;) {
-            const h = feature[n];
-            if (h < 0) {
-              const v = tv[n];
-              for (let k = 0; mask !== 0; k++, mask >>>= 1) if (mask & 1) out[k][i] += v;
-              break;
-            }
-            const m = slot[h];
-            if (m < 0) {
-              n = block[base + h] <= tv[n] ? n + 1 : right[n];
-              continue;
-            }
-            // part the set: the repeats whose value goes left, and the rest
-            const t = tv[n];
-            let goLeft = 0;
-            for (let k = 0, rest = mask; rest !== 0; k++, rest >>>= 1) if (rest & 1 && moved[k][at + m] <= t) goLeft |= 1 << k;
-            const goRight = mask & ~goLeft;
-            if (goLeft === 0) n = right[n];
-            else if (goRight === 0) n = n + 1;
-            else {
-              top++;
-              stackNode[top] = right[n];
-              stackMask[top] = goRight;
-              n = n + 1;
-              mask = goLeft;
-            }
-          }
-        }
-        continue;
-      }
-      for (let k = 0; k < repeats; k++) {
-        const mine = moved[k];
-        let n = node;
-        let h = g;
-        while (h >= 0) {
-          const m = slot[h];
-          n = (m >= 0 ? mine[at + m] : block[base + h]) <= tv[n] ? n + 1 : right[n];
-          h = feature[n];
-        }
-        out[k][i] += tv[n];
+      const leaf = tv[node];
+      for (let m = 0; m < jobs.length; m++) {
+        const o = out[m];
+        if (first[m] < 0) {
+          for (let k = 0; k < o.length; k++) o[k][from + i] += leaf;
+        } else walker.walk(tree, block, base, jobOf, slotOf, m, moved[m], jobs[m].columns.length, i, first[m], o, from + i);
       }
     }
   }
   const t = f.trees.length;
-  if (t !== 1) for (const o of out) for (let i = 0; i < rows; i++) o[i] /= t;
-  return out;
+  if (t !== 1) for (const o of out) for (const a of o) for (let r = from; r < to; r++) a[r] /= t;
+}
+
+/** Walks one row's repeats of one job down a tree from a node, adding each repeat's leaf value. */
+class RepeatWalker {
+  // pending sets are disjoint and never empty, so there are never more of them than repeats
+  private stackNode = new Int32Array(32);
+  private stackMask = new Int32Array(32);
+
+  walk(
+    tree: Forest['trees'][number],
+    block: Float64Array,
+    base: number,
+    jobOf: Int32Array,
+    slotOf: Int32Array,
+    job: number,
+    moved: Float64Array[],
+    width: number,
+    i: number,
+    start: number,
+    out: Float64Array[],
+    at: number,
+  ): void {
+    const { feature, thresholdOrValue: tv, right } = tree;
+    const repeats = moved.length;
+    const vi = i * width;
+    if (repeats > 30) {
+      // too many repeats for a bit mask: each walks alone
+      for (let k = 0; k < repeats; k++) {
+        const mine = moved[k];
+        let n = start;
+        let h = feature[n];
+        while (h >= 0) {
+          n = (jobOf[h] === job ? mine[vi + slotOf[h]] : block[base + h]) <= tv[n] ? n + 1 : right[n];
+          h = feature[n];
+        }
+        out[k][at] += tv[n];
+      }
+      return;
+    }
+    // Below a node that does not split on the job's columns every repeat of the row goes the same way
+    // (they differ only in those columns), so the repeats walk down together as one set and part
+    // only where a node splits on one of them: a set of repeats per pending branch, as a bit mask.
+    const stackNode = this.stackNode;
+    const stackMask = this.stackMask;
+    let top = 0;
+    stackNode[0] = start;
+    stackMask[0] = repeats === 0 ? 0 : (1 << repeats) - 1;
+    while (top >= 0) {
+      let n = stackNode[top];
+      let mask = stackMask[top];
+      top--;
+      for (;;) {
+        const h = feature[n];
+        if (h < 0) {
+          const v = tv[n];
+          for (let k = 0; mask !== 0; k++, mask >>>= 1) if (mask & 1) out[k][at] += v;
+          break;
+        }
+        if (jobOf[h] !== job) {
+          n = block[base + h] <= tv[n] ? n + 1 : right[n];
+          continue;
+        }
+        // part the set: the repeats whose value goes left, and the rest
+        const t = tv[n];
+        const s = vi + slotOf[h];
+        let goLeft = 0;
+        for (let k = 0, rest = mask; rest !== 0; k++, rest >>>= 1) if (rest & 1 && moved[k][s] <= t) goLeft |= 1 << k;
+        const goRight = mask & ~goLeft;
+        if (goLeft === 0) n = right[n];
+        else if (goRight === 0) n = n + 1;
+        else {
+          top++;
+          stackNode[top] = right[n];
+          stackMask[top] = goRight;
+          n = n + 1;
+          mask = goLeft;
+        }
+      }
+    }
+  }
 }

@@ -61,5 +61,41 @@ describe('permutation importance on threads', () => {
     const one = await permutedOnThreads(forest, serializeForest(forest), x, jobs, orders, 1);
     const two = await permutedOnThreads(forest, serializeForest(forest), x, jobs, orders, 2);
     expect(two.map((j) => j.map((p) => Array.from(p)))).toEqual(one.map((j) => j.map((p) => Array.from(p))));
+    // every job at once (one walk of a row's path for all) equals each job on its own
+    jobs.forEach((job, m) => expect(one[m].map((p) => Array.from(p))).toEqual(predictPermuted(forest, x, job.columns, orders[m]).map((p) => Array.from(p))));
+  }, 60_000);
+
+  it('gives each job of several columns what predicting its permuted matrix gives, on three threads', async () => {
+    const { permutedOnThreads, MIN_PERMUTE_WORK_FOR_THREADS } = await import('../../models/permute-pool.js');
+    const { serializeForest } = await import('../../models/forest.js');
+    const { x, y } = friedman1(4000, 'permute-groups');
+    const forest = await fitForest(x, y, { trees: 80, maxDepth: 12, minLeaf: 5, mtry: 3, seed: 'groups' });
+    const rand = seedrandom('group orders');
+    const rows = [...Array(x.rows).keys()];
+    // columns permuted together, as a one-hot predictor's are; some columns in no job
+    const jobs = [{ columns: [0, 5] }, { columns: [3] }, { columns: [7, 8, 9] }];
+    // repeats of different counts, one more than a walk carries together (31)
+    const orders = [12, 31, 30].map((repeats) => Array.from({ length: repeats }, () => Int32Array.from(shuffle([...rows], rand))));
+    expect(x.rows * 80 * (12 + 31 + 30)).toBeGreaterThanOrEqual(MIN_PERMUTE_WORK_FOR_THREADS);
+    const got = await permutedOnThreads(forest, serializeForest(forest), x, jobs, orders, 3);
+    jobs.forEach((job, m) =>
+      [0, 11].forEach((k) => {
+        const moved = x.columns.slice();
+        for (const c of job.columns) moved[c] = Float64Array.from(orders[m][k], (r) => x.columns[c][r]);
+        expect(Array.from(got[m][k])).toEqual(Array.from(predictForest(forest, { ...x, columns: moved })));
+      }),
+    );
+  }, 60_000);
+
+  it('says a worker failed, and why, instead of returning what the other threads computed', async () => {
+    const { permutedOnThreads } = await import('../../models/permute-pool.js');
+    const { x, y } = friedman1(2500, 'permute-fail');
+    const forest = await fitForest(x, y, { trees: 80, maxDepth: 6, minLeaf: 5, mtry: 3, seed: 'fail' });
+    const rows = [...Array(x.rows).keys()];
+    const jobs = x.names.map((_, j) => ({ columns: [j] }));
+    const orders = jobs.map(() => Array.from({ length: 10 }, () => rows));
+    await expect(permutedOnThreads(forest, new TextEncoder().encode('not a forest at all'), x, jobs, orders, 2)).rejects.toThrow(
+      /permutation importance failed in a worker thread: EngineInputError: these bytes are not a dendrolog forest/,
+    );
   }, 60_000);
 });
