@@ -6,7 +6,6 @@ import { column, type Frame } from '../core/frame.js';
 import { DendrologError, messages } from '../core/messages.js';
 import type { HoldoutOutput } from './holdout.js';
 import { cellLabel, engineFor, type Cell } from './model-kinds.js';
-import { bytesOf } from '../core/codec.js';
 
 export interface CrossValidateParams {
   model: string;
@@ -65,7 +64,7 @@ export const cvFold: StepDefinition<CrossValidateParams & { fold: number }, CvFo
     const folds = inputs[2] as FoldsOutput;
     const f = params.fold;
     const where = `cross-validation fold ${f + 1} of ${folds.k}, ${cellLabel(params.cell)}`;
-    const fold = await fitFold(inputs, params, params.cell, f, ctx.seedFor('fit', f), ctx.workers, where, 'memory');
+    const fold = await fitFold(inputs, params, params.cell, f, ctx.seedFor('fit', f), ctx.workers, where);
     const testAt = fold.testAt;
     const p = await fold.predict(fold.testRows, where);
     const bad = p.findIndex((v) => !Number.isFinite(v));
@@ -84,20 +83,11 @@ export const cvFold: StepDefinition<CrossValidateParams & { fold: number }, CvFo
 /**
  * Fits one cell on every fold of the training rows but fold `f` (inputs: the model table, the
  * holdout, the folds), with the learned feature steps fitted on those rows only; says which
- * training positions the fold tests and predicts any rows with the fold's own design. The fitted
- * model's bytes come back only when `keep` is 'bytes'; with 'memory' a forest stays in memory and
- * is never written as bytes (which would hold it twice while they are written).
+ * training positions the fold tests and predicts any rows with the fold's own design. A forest
+ * predicts from memory, and its bytes come as a writer: made only when an output keeps them, and
+ * then straight into the step's entry.
  */
-export async function fitFold(
-  inputs: unknown[],
-  params: Omit<CrossValidateParams, 'cell'>,
-  cell: Cell,
-  f: number,
-  seed: string,
-  workers: number,
-  where: string,
-  keep: 'bytes' | 'memory',
-) {
+export async function fitFold(inputs: unknown[], params: Omit<CrossValidateParams, 'cell'>, cell: Cell, f: number, seed: string, workers: number, where: string) {
   const frame = (inputs[0] as FrameOutput).frame;
   const split = inputs[1] as HoldoutOutput;
   const folds = inputs[2] as FoldsOutput;
@@ -112,13 +102,7 @@ export async function fitFold(
   const engine = engineFor(params.kind, params.model);
   const x = applyDesign(design, frame, fitRows);
   const y = targetOf(frame, params.target, fitRows);
-  const model =
-    keep === 'bytes'
-      ? await engine.fit(x, y, cell, { seed, workers }, where).then(async (fitted) => {
-          const bytes = bytesOf(fitted.bytes);
-          return { ...(await engine.load(bytes, where)), used: fitted.used, bytes };
-        })
-      : { ...(await engine.fitToPredict(x, y, cell, { seed, workers }, where)), bytes: null };
+  const model = await engine.fitToPredict(x, y, cell, { seed, workers }, where);
   return {
     testAt,
     testRows: testAt.map((k) => split.train[k]),

@@ -10,6 +10,7 @@ import type { HoldoutOutput } from './holdout.js';
 import { cellLabel, type Cell } from './model-kinds.js';
 import { targetOf } from './design.js';
 import type { FrameOutput } from '../core/step-types.js';
+import type { Bytes } from '../core/codec.js';
 
 /** `cell` as for a fit: present when the model's grid has only that cell, and then there is no choose input. */
 export type IntervalFoldParams = Omit<CrossValidateParams, 'cell'> & { fold: number; cell?: Cell };
@@ -33,12 +34,18 @@ export interface IntervalFoldOutput {
 }
 
 /**
+ * The output as the step makes it: a forest's bytes are a writer, written straight into the step's
+ * entry (see BytesWriter). Steps downstream read it decoded, as IntervalFoldOutput.
+ */
+export type IntervalFoldMade = Omit<IntervalFoldOutput, 'bytes'> & { bytes: Bytes };
+
+/**
  * Fits a model's chosen cell on every fold but one, like cross-validation does, and keeps the fold
  * model: its residuals on the fold it left out and its predictions of the holdout rows are what the
  * CV+ prediction intervals are made of (see models/conformal.ts). Seeded from the table, the split,
  * the folds and the chosen cell, so an unchosen grid value changes nothing here.
  */
-export const intervalFold: StepDefinition<IntervalFoldParams, IntervalFoldOutput> = {
+export const intervalFold: StepDefinition<IntervalFoldParams, IntervalFoldMade> = {
   kind: 'interval_fold',
   // the version is in the seed of its draws: the switch to the record codec, which changed no number, kept 1
   version: 1,
@@ -55,7 +62,7 @@ export const intervalFold: StepDefinition<IntervalFoldParams, IntervalFoldOutput
     const cell = params.cell ?? chosenCell(inputs[3] as ChooseOutput);
     const f = params.fold;
     const where = `prediction-interval fold ${f + 1} of ${folds.k}, ${cellLabel(cell)}`;
-    const fold = await fitFold(inputs, params, cell, f, ctx.seedFor(`interval fold ${canonicalJson(cell)}`, f), ctx.workers, where, 'bytes');
+    const fold = await fitFold(inputs, params, cell, f, ctx.seedFor(`interval fold ${canonicalJson(cell)}`, f), ctx.workers, where);
     const tested = await fold.predict(fold.testRows, where);
     const observed = targetOf(frame, params.target, fold.testRows);
     const holdout = await fold.predict(split.test, where);
@@ -67,7 +74,7 @@ export const intervalFold: StepDefinition<IntervalFoldParams, IntervalFoldOutput
       residuals: Array.from(tested, (p, i) => Math.abs(observed[i] - p)),
       holdout: Array.from(holdout),
       design: fold.design,
-      bytes: fold.bytes!,
+      bytes: fold.bytes,
       nonFinite: bad === undefined ? null : messages.predictionNotFinite(bad, where),
     };
   },

@@ -51,11 +51,12 @@ export interface ModelKindAdapter {
   explained: boolean;
   fit(x: Matrix, y: Float64Array, cell: Cell, opts: FitOptions): Promise<FittedModel>;
   /**
-   * For kinds whose bytes are large (a forest): the fit kept in memory and never written as bytes,
-   * for a model that only predicts and is then dropped (a cross-validation fold). Its predictions
-   * equal those of the model read from fit()'s bytes.
+   * For kinds whose bytes are large (a forest): the fit kept in memory, predicting without being
+   * read back from bytes, and its bytes as a writer, made only if an output keeps them (an interval
+   * fold's do, a cross-validation fold's do not). Its predictions equal those of the model read
+   * from fit()'s bytes.
    */
-  fitLoaded?(x: Matrix, y: Float64Array, cell: Cell, opts: FitOptions): Promise<{ used: Record<string, unknown>; model: LoadedModel }>;
+  fitLoaded?(x: Matrix, y: Float64Array, cell: Cell, opts: FitOptions): Promise<{ used: Record<string, unknown>; model: LoadedModel; bytes: Bytes }>;
   /** The model from its bytes, read once, to predict as often as needed (permutation importance predicts many times). */
   load(bytes: Uint8Array): Promise<LoadedModel>;
   /** For kinds whose fit divides into blocks grown apart (a forest's trees); see ModelBlocks. */
@@ -144,7 +145,8 @@ export const modelKinds: Record<string, ModelKindAdapter> = dictOf<ModelKindAdap
     async fitLoaded(x, y, cell, opts) {
       const { fitForest } = await forestEngine();
       const forest = await fitForest(x, y, forestOptions(cell, opts));
-      return { used: forestUsed(forest, cell), model: await loadedForest(forest, null) };
+      const w = (await forestEngine()).forestWriter(forest);
+      return { used: forestUsed(forest, cell), model: await loadedForest(forest, null), bytes: new BytesWriter(w.length, w.write) };
     },
     load: loadForest,
     blocks: {
@@ -270,10 +272,17 @@ function forestUsed(forest: Forest, cell: Cell): Record<string, unknown> {
 export interface ModelEngine {
   fit(x: Matrix, y: Float64Array, cell: Cell, opts: FitOptions, where: string): Promise<FittedModel>;
   /**
-   * A fit that only predicts (a cross-validation fold): kept in memory where the kind can
-   * (ModelKindAdapter.fitLoaded), else fitted and read back from its bytes.
+   * A fit that predicts at once (a fold): kept in memory where the kind can
+   * (ModelKindAdapter.fitLoaded), else fitted and read back from its bytes; with its bytes, as a
+   * writer where the kind has one, for an output that keeps them.
    */
-  fitToPredict(x: Matrix, y: Float64Array, cell: Cell, opts: FitOptions, where: string): Promise<{ used: Record<string, unknown>; predict(x: Matrix, where: string): Promise<Float64Array> }>;
+  fitToPredict(
+    x: Matrix,
+    y: Float64Array,
+    cell: Cell,
+    opts: FitOptions,
+    where: string,
+  ): Promise<{ used: Record<string, unknown>; bytes: Bytes; predict(x: Matrix, where: string): Promise<Float64Array> }>;
   predict(bytes: Uint8Array, x: Matrix, where: string): Promise<Float64Array>;
   /** The model read once; its predictions go through the same boundary, with `where`. */
   load(
@@ -315,12 +324,13 @@ export function engineFor(kind: string, model: string): ModelEngine {
   return {
     fit: (x, y, cell, opts, where) => guarded(where, () => adapter.fit(x, y, cell, opts)),
     async fitToPredict(x, y, cell, opts, where) {
-      const { used, model } = await guarded(where, async () => {
+      const { used, model, bytes } = await guarded(where, async () => {
         if (adapter.fitLoaded) return adapter.fitLoaded(x, y, cell, opts);
         const fitted = await adapter.fit(x, y, cell, opts);
-        return { used: fitted.used, model: await adapter.load(bytesOf(fitted.bytes)) };
+        const made = bytesOf(fitted.bytes);
+        return { used: fitted.used, model: await adapter.load(made), bytes: made };
       });
-      return { used, predict: (rows, at) => guarded(at, async () => model.predict(rows)) };
+      return { used, bytes, predict: (rows, at) => guarded(at, async () => model.predict(rows)) };
     },
     predict: (bytes, x, where) => guarded(where, async () => (await adapter.load(bytes)).predict(x)),
     async load(bytes, where) {
