@@ -1,9 +1,8 @@
 /**
- * Permutation importance of many predictors over threads: chunks of rows claimed from a shared
- * counter by this thread and `threads - 1` workers, each computing every predictor's repeats for
- * its rows (predictPermutedRows: one walk of a row's path serves every predictor) into shared
- * results. A row's numbers do not depend on the thread or the rows computed with it, so the results
- * are the same for any thread count.
+ * Permutation importance of many predictors over threads (row-pool.ts): each thread computes every
+ * predictor's repeats for the chunks of rows it claims (predictPermutedRows: one walk of a row's
+ * path serves every predictor) into shared results. A row's numbers do not depend on the thread or
+ * the rows computed with it, so the results are the same for any thread count.
  *
  * Example: `await permutedOnThreads(forest, bytes, x, [{columns: [0]}, {columns: [1]}], orders, 2)`
  */
@@ -11,9 +10,9 @@ import type { Matrix } from './checks.js';
 import type { Forest } from './forest.js';
 import { checkPredictionMatrix } from './predict.js';
 import { predictPermutedRows } from './permute.js';
-import { startModuleWorker } from './worker-start.js';
+import { rowsOnThreads, sharedFloat64, type RowJob } from './row-pool.js';
 
-export interface PermuteJob {
+export interface PermuteJob extends RowJob {
   forest: Uint8Array;
   x: Matrix;
   jobs: { columns: number[] }[];
@@ -21,8 +20,6 @@ export interface PermuteJob {
   orders: Int32Array[][];
   /** Per job, one result per repeat, over shared memory. */
   out: Float64Array[][];
-  counter: Int32Array;
-  chunk: number;
 }
 
 /** Below this much work (rows × trees × repeats × predictors) a worker's start costs more than it saves. */
@@ -47,50 +44,25 @@ export async function permutedOnThreads(
     predictPermutedRows(forest, x, jobs, orders, 0, x.rows, out);
     return out;
   }
-  const sharedCopy = <T extends Int32Array | Float64Array>(a: ArrayLike<number>, make: (b: SharedArrayBuffer) => T, bytesPer: number): T => {
-    const s = make(new SharedArrayBuffer(bytesPer * a.length));
-    s.set(a);
-    return s;
-  };
-  const shared: PermuteJob = {
+  const job: PermuteJob = {
     forest: bytes,
-    x: { ...x, columns: x.columns.map((c) => (c.buffer instanceof SharedArrayBuffer ? c : sharedCopy(c, (b) => new Float64Array(b), 8))) },
+    x: { ...x, columns: x.columns.map(sharedFloat64) },
     jobs,
-    orders: orders.map((list) => list.map((o) => sharedCopy(o, (b) => new Int32Array(b), 4))),
+    orders: orders.map((list) =>
+      list.map((o) => {
+        const s = new Int32Array(new SharedArrayBuffer(4 * o.length));
+        s.set(o);
+        return s;
+      }),
+    ),
     out: orders.map((list) => list.map(() => new Float64Array(new SharedArrayBuffer(8 * x.rows)))),
+    rows: x.rows,
     counter: new Int32Array(new SharedArrayBuffer(4)),
     chunk: PERMUTE_CHUNK_ROWS,
   };
-  let failure: Error | null = null;
-  const workers = Array.from({ length: helpers }, () => startModuleWorker(new URL('./permute-worker.js', import.meta.url), import.meta.url));
-  const finished = workers.map(
-    (w) =>
-      new Promise<void>((resolve) => {
-        w.on('message', (reply: { error?: string }) => {
-          if (reply.error !== undefined) failure ??= new Error(`permutation importance failed in a worker thread: ${reply.error}`);
-        });
-        w.on('error', (e) => {
-          failure ??= e;
-          resolve();
-        });
-        w.on('exit', (code) => {
-          if (code !== 0) failure ??= new Error(`a permutation worker thread exited with code ${code}`);
-          resolve();
-        });
-      }),
+  await rowsOnThreads(new URL('./permute-worker.js', import.meta.url), import.meta.url, job, helpers, 'permutation importance', (from, to) =>
+    predictPermutedRows(forest, job.x, jobs, job.orders, from, to, job.out),
   );
-  try {
-    for (const w of workers) w.postMessage(shared);
-    const { counter, chunk, out } = shared;
-    for (let c = Atomics.add(counter, 0, 1); c < chunks; c = Atomics.add(counter, 0, 1)) {
-      predictPermutedRows(forest, shared.x, jobs, shared.orders, c * chunk, Math.min(x.rows, (c + 1) * chunk), out);
-    }
-    // a worker ends (exits) once no chunk is left, or on its first error
-    await Promise.all(finished);
-    if (failure !== null) throw failure;
-    // out of shared memory: the caller owns ordinary arrays
-    return out.map((list) => list.map((a) => a.slice()));
-  } finally {
-    for (const w of workers) void w.terminate();
-  }
+  // out of shared memory: the caller owns ordinary arrays
+  return job.out.map((list) => list.map((a) => a.slice()));
 }
