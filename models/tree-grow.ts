@@ -68,6 +68,8 @@ export interface GrowParams {
   denseMinWeight?: number;
   /** Smallest node weight that may be split (besides 2 × minLeaf); ranger's rule is min.node.size + 1. */
   minSplit?: number;
+  /** Follow out-of-bag rows to their leaves (default true); false leaves GrownTree's out-of-bag lists empty. */
+  outOfBag?: boolean;
 }
 
 /** One grown tree with what the forest combines across trees. */
@@ -75,7 +77,7 @@ export interface GrownTree {
   tree: Tree;
   /** Per feature: decrease in in-bag squared error from its splits, divided by the tree's in-bag weight. */
   importance: Float64Array;
-  /** Out-of-bag rows (grouped by leaf) and this tree's prediction for each. */
+  /** Out-of-bag rows (grouped by leaf) and this tree's prediction for each; empty when not followed. */
   oobRows: Int32Array;
   oobValues: Float64Array;
 }
@@ -113,6 +115,8 @@ export class TreeBuilder {
   private readonly denseMin: number;
   private readonly totalBins: number;
   private readonly mtry: number;
+  /** 1: out-of-bag rows are followed to their leaves; 0: they are not listed at all. */
+  private readonly outOfBag: number;
   private readonly counts: Int32Array;
   /** In-bag rows of the current nodes in [0, rows); [rows, 2 rows) is scratch for stable partitioning. */
   private readonly idx: Int32Array;
@@ -164,6 +168,8 @@ export class TreeBuilder {
   /** Pending nodes on the stack, and nodes numbered so far, in the tree being grown. */
   private top = 0;
   private nodes = 0;
+  /** Out-of-bag rows listed in `oidx` for the tree being grown. */
+  private nOob = 0;
 
   constructor(data: GrowData, params: GrowParams) {
     this.d = data;
@@ -172,6 +178,7 @@ export class TreeBuilder {
     this.minSplit = Math.max(2 * params.minLeaf, params.minSplit ?? 0);
     this.totalBins = data.offsets[data.features];
     this.mtry = params.mtry;
+    this.outOfBag = params.outOfBag === false ? 0 : 1;
     this.denseMin = params.denseMinWeight ?? defaultDenseMinWeight(this.totalBins, params.mtry);
     const n = data.rows;
     this.counts = new Int32Array(n);
@@ -196,7 +203,7 @@ export class TreeBuilder {
     const inBag = this.sample(rng);
     const importance = new Float64Array(this.d.features);
     const nodes = this.growNodes(rng, inBag, importance);
-    return this.finish(nodes, inBag, importance);
+    return this.finish(nodes, importance);
   }
 
   /**
@@ -245,8 +252,8 @@ export class TreeBuilder {
   }
 
   /**
-   * From `counts`: in-bag rows into `idx`, out-of-bag rows into `oidx`, and `wwy`. Returns the number
-   * of in-bag rows. (Nothing follows the loop but the return: code compiled while a loop runs, on-stack
+   * From `counts`: in-bag rows into `idx`, out-of-bag rows into `oidx` (when followed; their count
+   * into nOob), and `wwy`. Returns the number of in-bag rows. (Nothing follows the loop but the return: code compiled while a loop runs, on-stack
    * replacement, has seen nothing after it yet and would be thrown away on reaching it.)
    */
   private listRows(): number {
@@ -256,6 +263,7 @@ export class TreeBuilder {
     const idx = this.idx;
     const oidx = this.oidx;
     const wwy = this.wwy;
+    const listOob = this.outOfBag;
     let m = 0;
     let o = 0;
     for (let r = 0; r < n; r++) {
@@ -264,8 +272,9 @@ export class TreeBuilder {
         idx[m++] = r;
         wwy[2 * r] = c * yc[r];
         wwy[2 * r + 1] = c;
-      } else oidx[o++] = r;
+      } else if (listOob === 1) oidx[o++] = r;
     }
+    this.nOob = o;
     return m;
   }
 
@@ -293,7 +302,7 @@ export class TreeBuilder {
         this.accumulateDense(this.bufs[rootBuf], 0, m);
       }
     }
-    this.setSlot(0, 0, m, 0, d.rows - m, 0, -1, rootW, this.rootS, rootBuf, rootSplits);
+    this.setSlot(0, 0, m, 0, this.nOob, 0, -1, rootW, this.rootS, rootBuf, rootSplits);
 
     this.top = 1;
     this.nodes = 0;
@@ -483,7 +492,7 @@ export class TreeBuilder {
   }
 
   /** Exact-size tree, importance per in-bag weight, and the out-of-bag rows with their leaf values. */
-  private finish(nodes: number, m: number, importance: Float64Array): GrownTree {
+  private finish(nodes: number, importance: Float64Array): GrownTree {
     const tree: Tree = {
       feature: this.nFeature.slice(0, nodes),
       thresholdOrValue: this.nSplit.slice(0, nodes),
@@ -492,7 +501,7 @@ export class TreeBuilder {
     };
     const rootW = this.rootW;
     for (let f = 0; f < importance.length; f++) importance[f] /= rootW;
-    const nOob = this.d.rows - m;
+    const nOob = this.nOob;
     return { tree, importance, oobRows: this.oidx.slice(0, nOob), oobValues: this.oobVal.slice(0, nOob) };
   }
 

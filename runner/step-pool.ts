@@ -27,7 +27,7 @@ export class StepPool {
    * Runs one job on the next free thread; resolves with the packed output and the seconds it took on
    * that thread (time spent waiting for a free thread not counted), or rejects with its error.
    */
-  async run(job: Omit<StepJob, 'id' | 'threads'>): Promise<{ payload: Uint8Array; seconds: number }> {
+  async run(job: Omit<StepJob, 'id'>): Promise<{ payload: Uint8Array; seconds: number }> {
     const worker = this.idle.pop() ?? (await new Promise<Worker>((resolve) => this.waiting.push(resolve)));
     const id = this.next++;
     const t0 = performance.now();
@@ -47,7 +47,7 @@ export class StepPool {
         };
         worker.on('message', onMessage);
         worker.once('error', onError);
-        worker.postMessage({ ...job, id, threads: this.all.length } satisfies StepJob);
+        worker.postMessage({ ...job, id } satisfies StepJob);
       });
       return { payload, seconds: (performance.now() - t0) / 1000 };
     } finally {

@@ -20,7 +20,7 @@ export interface StepJob {
   seedKey: string;
   locator: Record<string, string>;
   inputs: { codec: OutputCodec; body: Uint8Array }[];
-  /** Threads the step's own work may use (a forest's trees): the pool's size. */
+  /** Threads the step's own work may use (a forest's trees): 1, or the pool's size for a batch's last steps. */
   threads: number;
 }
 
@@ -33,9 +33,6 @@ if (port) {
     try {
       const def = stepRegistry[job.kind];
       const warnings = new WarningLog();
-      // steps already run side by side, one per thread, yet each may spread its trees over every
-      // thread too: when a batch's last step runs alone (the fifth of five folds on two threads), the
-      // other cores then help it instead of idling; meanwhile the system shares the cores out
       const ctx = makeContext(job, { warn: (code, message) => warnings.add(code, message), workers: job.threads });
       const output = await def.run(job.inputs.map((i) => decodeOutput(i.codec, i.body)), job.params as never, ctx);
       const payload = packEntry(def.codec, output, warnings.list());

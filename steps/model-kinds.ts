@@ -54,7 +54,8 @@ export interface ModelKindAdapter {
    * For kinds whose bytes are large (a forest): the fit kept in memory, predicting without being
    * read back from bytes, and its bytes as a writer, made only if an output keeps them (an interval
    * fold's do, a cross-validation fold's do not). Its predictions equal those of the model read
-   * from fit()'s bytes.
+   * from fit()'s bytes; what only a final model reports may be left out (a forest's out-of-bag
+   * predictions: see ForestOptions.outOfBag).
    */
   fitLoaded?(x: Matrix, y: Float64Array, cell: Cell, opts: FitOptions): Promise<{ used: Record<string, unknown>; model: LoadedModel; bytes: Bytes }>;
   /** The model from its bytes, read once, to predict as often as needed (permutation importance predicts many times). */
@@ -144,7 +145,8 @@ export const modelKinds: Record<string, ModelKindAdapter> = dictOf<ModelKindAdap
     },
     async fitLoaded(x, y, cell, opts) {
       const { fitForest } = await forestEngine();
-      const forest = await fitForest(x, y, forestOptions(cell, opts));
+      // a fold's forest predicts other rows, so its out-of-bag rows need not be followed
+      const forest = await fitForest(x, y, { ...forestOptions(cell, opts), outOfBag: false });
       const w = (await forestEngine()).forestWriter(forest);
       return { used: forestUsed(forest, cell), model: await loadedForest(forest, null), bytes: new BytesWriter(w.length, w.write) };
     },

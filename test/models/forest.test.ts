@@ -86,6 +86,28 @@ describe('out-of-bag estimates', () => {
     expect(none.reason).toMatch(/no row was ever out of bag/);
   });
 
+  it('can be skipped: the same trees, importances and predictions, and an oob that says it was not followed', async () => {
+    for (const workers of [1, 2]) {
+      const big = friedman1(10000, 'forest-no-oob');
+      const opts = { ...base, trees: Math.ceil(MIN_DRAWS_FOR_THREADS / big.x.rows), seed: 'skip', workers };
+      const followed = await fitForest(big.x, big.y, opts);
+      const skipped = await fitForest(big.x, big.y, { ...opts, outOfBag: false });
+      expect(skipped.trees.length).toBe(followed.trees.length);
+      skipped.trees.forEach((t, i) => {
+        expect(sameBits(t.thresholdOrValue, followed.trees[i].thresholdOrValue)).toBe(true);
+        expect(sameBits(t.feature, followed.trees[i].feature)).toBe(true);
+      });
+      expect(sameBits(impurityImportance(skipped), impurityImportance(followed))).toBe(true);
+      expect(sameBits(predictForest(skipped, heldOut.x), predictForest(followed, heldOut.x))).toBe(true);
+      expect(oob(followed).r2).not.toBeNull();
+      const o = oob(skipped);
+      expect(o.r2).toBeNull();
+      expect(o.rowsExcluded).toBe(big.x.rows);
+      expect(o.predictions.every((v) => Number.isNaN(v))).toBe(true);
+      expect(o.reason).toMatch(/out-of-bag rows were not followed/);
+    }
+  });
+
   it('give an R² close to the held-out R² on Friedman #1', async () => {
     // Source: Breiman (2001), "Random Forests", sec. 3.1: the OOB estimate is about as accurate as a
     // test set of the same size.
