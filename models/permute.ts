@@ -56,17 +56,19 @@ export function predictPermutedRows(
     const c = x.columns[j];
     for (let r = from, at = j; r < to; r++, at += p) block[at] = c[r];
   }
-  // per job and repeat, the permuted values gathered into row order once, so a walk reads them in
-  // sequence instead of jumping to another row for each
-  const moved = jobs.map((job, m) =>
-    orders[m].map((order) => {
-      const w = job.columns.length;
-      const v = new Float64Array(n * w);
-      for (let i = 0; i < n; i++) for (let s = 0; s < w; s++) v[i * w + s] = x.columns[job.columns[s]][order[from + i]];
-      return v;
-    }),
-  );
-  for (const o of out) for (const a of o) a.fill(0, from, to);
+  // per job, the permuted values gathered once into row order, a row's repeats side by side
+  // ([row][repeat][column]), so a walk reads them in sequence instead of jumping between arrays
+  const moved = jobs.map((job, m) => {
+    const w = job.columns.length;
+    const reps = orders[m].length;
+    const v = new Float64Array(n * reps * w);
+    orders[m].forEach((order, k) => {
+      for (let i = 0; i < n; i++) for (let s = 0; s < w; s++) v[(i * reps + k) * w + s] = x.columns[job.columns[s]][order[from + i]];
+    });
+    return v;
+  });
+  // per job, the sums of a row's repeats side by side ([row][repeat]), copied out at the end
+  const sums = jobs.map((_, m) => new Float64Array(n * orders[m].length));
   const walker = new RepeatWalker();
   // per job, the first node of the row's path that splits on one of its columns (-1: none)
   const first = new Int32Array(jobs.length);
@@ -85,23 +87,33 @@ export function predictPermutedRows(
       }
       const leaf = tv[node];
       for (let m = 0; m < jobs.length; m++) {
-        const o = out[m];
+        const reps = orders[m].length;
+        const sum = sums[m];
         if (first[m] < 0) {
-          for (let k = 0; k < o.length; k++) o[k][from + i] += leaf;
-        } else walker.walk(tree, block, base, jobOf, slotOf, m, moved[m], jobs[m].columns.length, i, first[m], o, from + i);
+          for (let k = 0, at = i * reps; k < reps; k++, at++) sum[at] += leaf;
+        } else walker.walk(tree, block, base, jobOf, slotOf, m, moved[m], reps, jobs[m].columns.length, i, first[m], sum);
       }
     }
   }
   const t = f.trees.length;
-  if (t !== 1) for (const o of out) for (const a of o) for (let r = from; r < to; r++) a[r] /= t;
+  sums.forEach((sum, m) => {
+    const reps = orders[m].length;
+    out[m].forEach((o, k) => {
+      for (let i = 0; i < n; i++) o[from + i] = t === 1 ? sum[i * reps + k] : sum[i * reps + k] / t;
+    });
+  });
 }
 
-/** Walks one row's repeats of one job down a tree from a node, adding each repeat's leaf value. */
+/** Walks one row's repeats of one job down a tree from a node, adding each repeat's leaf value to its sum. */
 class RepeatWalker {
   // pending sets are disjoint and never empty, so there are never more of them than repeats
   private stackNode = new Int32Array(32);
   private stackMask = new Int32Array(32);
 
+  /**
+   * `moved` holds the job's permuted values as [row][repeat][column] (`width` columns), `sums` the
+   * sums as [row][repeat]; row `i` walks from node `start`.
+   */
   walk(
     tree: Forest['trees'][number],
     block: Float64Array,
@@ -109,27 +121,26 @@ class RepeatWalker {
     jobOf: Int32Array,
     slotOf: Int32Array,
     job: number,
-    moved: Float64Array[],
+    moved: Float64Array,
+    repeats: number,
     width: number,
     i: number,
     start: number,
-    out: Float64Array[],
-    at: number,
+    sums: Float64Array,
   ): void {
     const { feature, thresholdOrValue: tv, right } = tree;
-    const repeats = moved.length;
-    const vi = i * width;
+    const at = i * repeats;
     if (repeats > 30) {
       // too many repeats for a bit mask: each walks alone
       for (let k = 0; k < repeats; k++) {
-        const mine = moved[k];
+        const mine = (at + k) * width;
         let n = start;
         let h = feature[n];
         while (h >= 0) {
-          n = (jobOf[h] === job ? mine[vi + slotOf[h]] : block[base + h]) <= tv[n] ? n + 1 : right[n];
+          n = (jobOf[h] === job ? moved[mine + slotOf[h]] : block[base + h]) <= tv[n] ? n + 1 : right[n];
           h = feature[n];
         }
-        out[k][at] += tv[n];
+        sums[at + k] += tv[n];
       }
       return;
     }
@@ -149,7 +160,7 @@ class RepeatWalker {
         const h = feature[n];
         if (h < 0) {
           const v = tv[n];
-          for (let k = 0; mask !== 0; k++, mask >>>= 1) if (mask & 1) out[k][at] += v;
+          for (let k = at; mask !== 0; k++, mask >>>= 1) if (mask & 1) sums[k] += v;
           break;
         }
         if (jobOf[h] !== job) {
@@ -158,9 +169,10 @@ class RepeatWalker {
         }
         // part the set: the repeats whose value goes left, and the rest
         const t = tv[n];
-        const s = vi + slotOf[h];
         let goLeft = 0;
-        for (let k = 0, rest = mask; rest !== 0; k++, rest >>>= 1) if (rest & 1 && moved[k][s] <= t) goLeft |= 1 << k;
+        // branch-free: whether a repeat goes left is a coin toss the processor cannot predict
+        for (let k = 0, s = at * width + slotOf[h]; k < repeats; k++, s += width) goLeft |= +(moved[s] <= t) << k;
+        goLeft &= mask;
         const goRight = mask & ~goLeft;
         if (goLeft === 0) n = right[n];
         else if (goRight === 0) n = n + 1;
