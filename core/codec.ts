@@ -118,6 +118,23 @@ export function bytesOf(b: Bytes): Uint8Array {
 }
 
 /**
+ * Numbers as a record's binary field: the bytes of the array, not a copy (this machine's byte order,
+ * little-endian on every platform Node.js runs on here).
+ *
+ * Example: `float64sOf(float64Bytes(Float64Array.of(1.5)))[0]` is 1.5.
+ */
+export function float64Bytes(values: Float64Array): Uint8Array {
+  return new Uint8Array(values.buffer, values.byteOffset, values.byteLength);
+}
+
+/** The numbers float64Bytes made, as a view where the bytes sit at a multiple of 8, else copied. */
+export function float64sOf(bytes: Uint8Array): Float64Array {
+  if (bytes.length % 8 !== 0) throw new Error(`${bytes.length} bytes are not a whole number of 8-byte numbers`);
+  if (bytes.byteOffset % 8 === 0) return new Float64Array(bytes.buffer, bytes.byteOffset, bytes.length / 8);
+  return new Float64Array(bytes.slice().buffer);
+}
+
+/**
  * A JSON value whose Uint8Array (or BytesWriter) fields (a fitted model's bytes) travel as raw bytes
  * rather than as text: 4-byte length and the JSON, with null where each array was, then 4-byte length and the
  * list of those places (paths of keys and indexes, padded with spaces so that the first array starts

@@ -42,6 +42,7 @@ export const engineMessages = {
   sampleFraction: (value: unknown): string =>
     `sample_fraction must be a number greater than 0 and at most 1, got ${String(value)}`,
   replace: (value: unknown): string => `replace must be true or false, got ${String(value)}`,
+  fitted: (value: unknown): string => `fitted must be true or false, got ${String(value)}`,
   seed: (value: unknown): string => `seed must be a string, got ${typeof value}`,
   namesDiffer: (expected: string[], got: string[]): string =>
     `the prediction matrix has columns [${got.join(', ')}] but the forest was fitted on [${expected.join(', ')}]; ` +

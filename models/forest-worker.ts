@@ -18,7 +18,7 @@ port.once('message', ({ data, params, trees, counter }: WorkerJob) => {
       const grown = builder.grow(tree);
       const t = grown.tree;
       // Freshly allocated (never shared) buffers, so they can be moved rather than copied.
-      const buffers = [t.feature, t.thresholdOrValue, t.right, t.draws, grown.importance, grown.oobRows, grown.oobValues];
+      const buffers = [t.feature, t.thresholdOrValue, t.right, t.draws, grown.importance, grown.oobRows, grown.oobValues, ...(grown.fitted ? [grown.fitted] : [])];
       port.postMessage({ tree, grown }, buffers.map((a) => a.buffer as ArrayBuffer));
     } catch (e) {
       const err = e as Error;

@@ -72,6 +72,12 @@ export interface ForestOptions {
    * then has no predictions, an r2 of null and a reason saying so. The trees are the same either way.
    */
   outOfBag?: boolean;
+  /**
+   * Keep the forest's predictions of its own training rows (Forest.fitted), gathered while the trees
+   * grow instead of by walking every row down every tree afterwards; the same, bit for bit, as
+   * predictForest(forest, x). Default false. Out-of-bag rows are then followed whatever outOfBag says.
+   */
+  fitted?: boolean;
 }
 
 /** The settings a forest was fitted with, resolved (mtry as a count, defaults filled in). */
@@ -111,6 +117,11 @@ export interface Forest {
   oob: OobResult;
   /** See impurityImportance(). */
   impurityImportance: Float64Array;
+  /**
+   * With ForestOptions.fitted: the forest's predictions of its training rows (in-sample, so not a
+   * measure of skill). Not serialized.
+   */
+  fitted?: Float64Array;
 }
 
 /**
@@ -129,7 +140,9 @@ export const MIN_DRAWS_FOR_THREADS = 1_000_000;
 export async function fitForest(x: Matrix, y: Float64Array, opts: ForestOptions): Promise<Forest> {
   const settings = resolveSettings(x, y, opts);
   const workers = checkInteger('workers', opts.workers ?? DEFAULT_WORKERS, 1);
-  return fitResolved(x, y, settings, 'random_forest', workers, opts.outOfBag ?? true);
+  const fitted = opts.fitted ?? false;
+  if (typeof fitted !== 'boolean') throw new EngineInputError(msg.fitted(fitted));
+  return fitResolved(x, y, settings, 'random_forest', workers, fitted || (opts.outOfBag ?? true), fitted);
 }
 
 /**
@@ -154,7 +167,7 @@ export async function fitDecisionTree(
     seed: opts.seed,
     maxBins: opts.maxBins,
   });
-  return fitResolved(x, y, settings, 'decision_tree', 1, true);
+  return fitResolved(x, y, settings, 'decision_tree', 1, true, false);
 }
 
 /** Checks everything the engine needs; throws EngineInputError with the fix otherwise. */
@@ -218,7 +231,7 @@ export async function growForestBlocks(x: Matrix, y: Float64Array, opts: ForestO
     throw new EngineInputError(msg.blockRange(first, end, blocks));
   }
   const out: ForestBlock[] = [];
-  await growBlocks(x, y, settings, workers, true, first, end, (b) => out.push(b));
+  await growBlocks(x, y, settings, workers, true, null, first, end, (b) => out.push(b));
   return out;
 }
 
@@ -235,10 +248,34 @@ export function assembleForest(x: Matrix, y: Float64Array, opts: ForestOptions, 
   return totals.forest(x, y, settings, 'random_forest');
 }
 
-async function fitResolved(x: Matrix, y: Float64Array, s: ForestSettings, kind: Forest['kind'], workers: number, outOfBag: boolean): Promise<Forest> {
+async function fitResolved(
+  x: Matrix,
+  y: Float64Array,
+  s: ForestSettings,
+  kind: Forest['kind'],
+  workers: number,
+  outOfBag: boolean,
+  fitted: boolean,
+): Promise<Forest> {
   const totals = new BlockTotals(s.trees, x.rows, x.columns.length, outOfBag);
-  await growBlocks(x, y, s, workers, outOfBag, 0, treeBlocks(s.trees), (b) => totals.add(b));
-  return totals.forest(x, y, s, kind);
+  const fittedSum = fitted ? new Float64Array(x.rows) : null;
+  await growBlocks(x, y, s, workers, outOfBag, fittedSum, 0, treeBlocks(s.trees), (b) => totals.add(b));
+  const forest = totals.forest(x, y, s, kind);
+  if (fittedSum) forest.fitted = fittedMean(forest, x, y, fittedSum);
+  return forest;
+}
+
+/**
+ * The forest's predictions of its training rows from the sums of their leaf values, which were added
+ * in tree order, as prediction adds them, and are divided by the tree count as it does. A target grown
+ * at another scale (targetScale) had its leaf values scaled back after growth; its rows are
+ * predicted instead, so that the numbers are prediction's own.
+ */
+function fittedMean(forest: Forest, x: Matrix, y: Float64Array, sums: Float64Array): Float64Array {
+  if (targetScale(y) !== 1) return predictUnchecked(forest, x.columns, x.rows);
+  const t = forest.trees.length;
+  if (t !== 1) for (let r = 0; r < sums.length; r++) sums[r] /= t;
+  return sums;
 }
 
 /** Grows the trees of blocks first..end-1 on up to `workers` threads, handing each block over, in order, as it completes. */
@@ -248,6 +285,8 @@ async function growBlocks(
   s: ForestSettings,
   workers: number,
   outOfBag: boolean,
+  /** Per training row, the sum of its leaf values over the trees, added in tree order; null: not kept. */
+  fittedSum: Float64Array | null,
   first: number,
   end: number,
   onBlock: (block: ForestBlock) => void,
@@ -258,8 +297,8 @@ async function growBlocks(
   // Worker threads start first, so their start-up overlaps the binning below.
   const pool = threaded ? ForestPool.start(Math.min(workers, to - from)) : null;
   try {
-    const { data, params } = growInputs(x, target, s, pool !== null, outOfBag);
-    const combiner = new TreeCombiner(from, to, x.rows, x.columns.length, onBlock);
+    const { data, params } = growInputs(x, target, s, pool !== null, outOfBag, fittedSum !== null);
+    const combiner = new TreeCombiner(from, to, x.rows, x.columns.length, fittedSum, onBlock);
     if (pool !== null) {
       await pool.grow(data, params, from, to, (i, g) => combiner.add(i, g));
     } else {
@@ -272,7 +311,14 @@ async function growBlocks(
 }
 
 /** The binned data and growth settings the tree builder needs (over shared memory when threaded). */
-function growInputs(x: Matrix, target: Float64Array, s: ForestSettings, threaded: boolean, outOfBag: boolean): { data: GrowData; params: GrowParams } {
+function growInputs(
+  x: Matrix,
+  target: Float64Array,
+  s: ForestSettings,
+  threaded: boolean,
+  outOfBag: boolean,
+  fitted: boolean,
+): { data: GrowData; params: GrowParams } {
   // Split gains are sums of squared target values: above about 1e154 they overflow and every split
   // looks worthless. Growing on the target times a power of two, then scaling leaf values, out-of-bag
   // predictions and importances back (BlockTotals.forest), is exact in floating point, so ordinary
@@ -319,6 +365,7 @@ function growInputs(x: Matrix, target: Float64Array, s: ForestSettings, threaded
     replace: s.replace,
     seed: s.seed,
     outOfBag,
+    fitted,
   };
   return { data, params };
 }
@@ -355,6 +402,8 @@ class TreeCombiner {
     private readonly to: number,
     private readonly rows: number,
     private readonly features: number,
+    /** Per row, the sum of its leaf values over the trees so far, in tree order; null: not kept. */
+    private readonly fittedSum: Float64Array | null,
     private readonly onBlock: (block: ForestBlock) => void,
   ) {
     this.pending = new Array<GrownTree | undefined>(to - from);
@@ -381,6 +430,9 @@ class TreeCombiner {
         b.oobCount[rows[k]]++;
       }
       for (let f = 0; f < this.features; f++) b.impSum[f] += g.importance[f];
+      const sum = this.fittedSum;
+      const leafValues = g.fitted;
+      if (sum && leafValues) for (let r = 0; r < sum.length; r++) sum[r] += leafValues[r];
       if (this.next % TREE_BLOCK === 0 || this.next === this.to) {
         this.block = null;
         this.onBlock(b);

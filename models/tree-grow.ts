@@ -70,6 +70,8 @@ export interface GrowParams {
   minSplit?: number;
   /** Follow out-of-bag rows to their leaves (default true); false leaves GrownTree's out-of-bag lists empty. */
   outOfBag?: boolean;
+  /** Give every training row its leaf's value (GrownTree.fitted; default false); out-of-bag rows are then followed too. */
+  fitted?: boolean;
 }
 
 /** One grown tree with what the forest combines across trees. */
@@ -80,6 +82,8 @@ export interface GrownTree {
   /** Out-of-bag rows (grouped by leaf) and this tree's prediction for each; empty when not followed. */
   oobRows: Int32Array;
   oobValues: Float64Array;
+  /** With GrowParams.fitted: per training row, the value of the leaf it falls in (the tree's prediction of it). */
+  fitted?: Float64Array;
 }
 
 /**
@@ -117,6 +121,8 @@ export class TreeBuilder {
   private readonly mtry: number;
   /** 1: out-of-bag rows are followed to their leaves; 0: they are not listed at all. */
   private readonly outOfBag: number;
+  /** Per training row, the value of its leaf in the tree being grown; null unless GrowParams.fitted. */
+  private readonly rowValue: Float64Array | null;
   private readonly counts: Int32Array;
   /** In-bag rows of the current nodes in [0, rows); [rows, 2 rows) is scratch for stable partitioning. */
   private readonly idx: Int32Array;
@@ -178,7 +184,8 @@ export class TreeBuilder {
     this.minSplit = Math.max(2 * params.minLeaf, params.minSplit ?? 0);
     this.totalBins = data.offsets[data.features];
     this.mtry = params.mtry;
-    this.outOfBag = params.outOfBag === false ? 0 : 1;
+    this.outOfBag = params.outOfBag === false && params.fitted !== true ? 0 : 1;
+    this.rowValue = params.fitted === true ? new Float64Array(data.rows) : null;
     this.denseMin = params.denseMinWeight ?? defaultDenseMinWeight(this.totalBins, params.mtry);
     const n = data.rows;
     this.counts = new Int32Array(n);
@@ -502,7 +509,9 @@ export class TreeBuilder {
     const rootW = this.rootW;
     for (let f = 0; f < importance.length; f++) importance[f] /= rootW;
     const nOob = this.nOob;
-    return { tree, importance, oobRows: this.oidx.slice(0, nOob), oobValues: this.oobVal.slice(0, nOob) };
+    const grown: GrownTree = { tree, importance, oobRows: this.oidx.slice(0, nOob), oobValues: this.oobVal.slice(0, nOob) };
+    if (this.rowValue) grown.fitted = this.rowValue.slice();
+    return grown;
   }
 
   private splittable(depth: number, W: number): boolean {
@@ -683,6 +692,19 @@ export class TreeBuilder {
     const value = same ? y0 : s / sw;
     this.nSplit[id] = value;
     this.oobVal.fill(value, os, oe);
+    if (this.rowValue) this.giveLeafValue(this.rowValue, value, start, end, os, oe);
+  }
+
+  /**
+   * Gives the leaf's value to its in-bag rows idx[start..end) and out-of-bag rows oidx[os..oe). The
+   * rows were routed by their bins, and every bin lies wholly on one side of the thresholds they met
+   * (straddling bins of out-of-bag rows compared raw values), so each is the leaf prediction finds.
+   */
+  private giveLeafValue(rowValue: Float64Array, value: number, start: number, end: number, os: number, oe: number): void {
+    const idx = this.idx;
+    const oidx = this.oidx;
+    for (let i = start; i < end; i++) rowValue[idx[i]] = value;
+    for (let i = os; i < oe; i++) rowValue[oidx[i]] = value;
   }
 
   private setSlot(

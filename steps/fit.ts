@@ -7,7 +7,7 @@ import { applyDesign, learnDesign, targetOf, type LearnedDesign } from './design
 import type { HoldoutOutput } from './holdout.js';
 import { engineFor, type Cell, type FittedModel } from './model-kinds.js';
 import { dict } from '../core/dict.js';
-import type { Bytes } from '../core/codec.js';
+import { bytesOf, float64Bytes, type Bytes } from '../core/codec.js';
 
 export interface FitParams {
   model: string;
@@ -28,6 +28,12 @@ export interface FitOutput {
   cell: Cell;
   used: Record<string, unknown>;
   design: LearnedDesign;
+  /**
+   * The model's predictions of the training rows, in the holdout's train order, as the bytes of a
+   * Float64Array (read them with float64sOf): in-sample, so never a measure of skill. A forest
+   * gathers them as it grows, which spares the score step predicting every training row.
+   */
+  trainingPredictions: Uint8Array;
   /** The serialized engine model (kept as raw bytes by the record codec, not as text). */
   bytes: Uint8Array;
   oobR2: number | null;
@@ -63,14 +69,17 @@ function prepare(inputs: unknown[], params: FitParams) {
   return { frame, split, cell, design, x, y };
 }
 
-/** The step's output from the fitted model. */
-function output(p: ReturnType<typeof prepare>, params: FitParams, fitted: FittedModel): FitMade {
+/** The step's output from the fitted model, with its predictions of the training rows (made here when the fit has none). */
+async function output(p: ReturnType<typeof prepare>, params: FitParams, fitted: FittedModel): Promise<FitMade> {
+  const trainingPredictions = fitted.trainingPredictions ?? (await engineFor(params.kind, params.model).predict(bytesOf(fitted.bytes), p.x, WHERE));
   return {
     model: params.model,
     kind: params.kind,
     cell: p.cell,
     used: fitted.used,
     design: p.design,
+    // before the model's bytes: 8 bytes a row, so the model's arrays stay at a multiple of 8 (views, not copies)
+    trainingPredictions: float64Bytes(trainingPredictions),
     bytes: fitted.bytes,
     oobR2: fitted.oobR2 ?? null,
     trainingRows: p.split.train.length,

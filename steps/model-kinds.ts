@@ -18,6 +18,11 @@ export interface FittedModel {
   used: Record<string, unknown>;
   /** Out-of-bag R² where the model has one (training-data based, never a headline). */
   oobR2?: number | null;
+  /**
+   * The model's predictions of its training rows where the fit has them at hand (a forest gathers
+   * them as its trees grow); equal, bit for bit, to predicting those rows with the model.
+   */
+  trainingPredictions?: Float64Array;
 }
 
 /** A value a grid may hold for one hyperparameter. */
@@ -141,7 +146,7 @@ export const modelKinds: Record<string, ModelKindAdapter> = dictOf<ModelKindAdap
     explained: true,
     async fit(x, y, cell, opts) {
       const { fitForest } = await forestEngine();
-      return forestFitted(await fitForest(x, y, forestOptions(cell, opts)), cell);
+      return forestFitted(await fitForest(x, y, { ...forestOptions(cell, opts), fitted: true }), cell, x);
     },
     async fitLoaded(x, y, cell, opts) {
       const { fitForest } = await forestEngine();
@@ -165,7 +170,7 @@ export const modelKinds: Record<string, ModelKindAdapter> = dictOf<ModelKindAdap
       },
       async assemble(x, y, cell, opts, parts) {
         const { assembleForest, deserializeBlocks } = await forestEngine();
-        return forestFitted(assembleForest(x, y, forestOptions(cell, opts), parts.flatMap(deserializeBlocks)), cell);
+        return forestFitted(assembleForest(x, y, forestOptions(cell, opts), parts.flatMap(deserializeBlocks)), cell, x);
       },
     },
   },
@@ -258,11 +263,20 @@ function forestOptions(cell: Cell, opts: FitOptions): ForestOptions {
   };
 }
 
-/** A fitted forest as the runner keeps it: its bytes (as a writer), the hyperparameters used and its OOB R². */
-async function forestFitted(forest: Forest, cell: Cell): Promise<FittedModel> {
-  const { oob, forestWriter } = await forestEngine();
+/**
+ * A fitted forest as the runner keeps it: its bytes (as a writer), the hyperparameters used, its
+ * OOB R² and its predictions of the training rows `x` (gathered by the engine, or else predicted:
+ * a forest assembled from blocks grown apart).
+ */
+async function forestFitted(forest: Forest, cell: Cell, x: Matrix): Promise<FittedModel> {
+  const { oob, forestWriter, predictForest } = await forestEngine();
   const w = forestWriter(forest);
-  return { bytes: new BytesWriter(w.length, w.write), used: forestUsed(forest, cell), oobR2: oob(forest).r2 };
+  return {
+    bytes: new BytesWriter(w.length, w.write),
+    used: forestUsed(forest, cell),
+    oobR2: oob(forest).r2,
+    trainingPredictions: forest.fitted ?? predictForest(forest, x),
+  };
 }
 
 /** The hyperparameters a forest was fitted with: the cell, with mtry as the count the engine resolved. */

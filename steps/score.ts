@@ -9,6 +9,7 @@ import type { FitOutput } from './fit.js';
 import type { HoldoutOutput } from './holdout.js';
 import { engineFor } from './model-kinds.js';
 import { dict } from '../core/dict.js';
+import { float64sOf } from '../core/codec.js';
 
 export interface ScoreParams {
   target: string;
@@ -69,7 +70,8 @@ export const score: StepDefinition<ScoreParams, ScoreOutput> = {
     const y = targetOf(frame, params.target, split.test);
     // rows spread over the threads the step may use: the numbers are the same for any count
     const pred = await model.predict(applyDesign(fitted.design, frame, split.test), 'prediction of the holdout rows', ctx.workers);
-    const trainPred = await model.predict(applyDesign(fitted.design, frame, split.train), 'prediction of the training rows', ctx.workers);
+    // the fit's own predictions of its training rows, the same as predicting them anew
+    const trainPred = float64sOf(fitted.trainingPredictions);
     const units: number[][] = [];
     if (params.units) {
       const g = column(frame, params.units).values;

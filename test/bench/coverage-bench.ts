@@ -16,6 +16,7 @@ import seedrandom from 'seedrandom';
 import { fitForest, predictForest, serializeForest, type Matrix } from '../../models/forest.js';
 import { metrics } from '../../models/metrics.js';
 import { makeContext } from '../../core/step-types.js';
+import { float64Bytes } from '../../core/codec.js';
 import type { FitOutput } from '../../steps/fit.js';
 import type { HoldoutOutput } from '../../steps/holdout.js';
 import { score, type ScoreOutput } from '../../steps/score.js';
@@ -146,6 +147,7 @@ async function main() {
         cell: {},
         used: {},
         design: { predictors: NAMES, names: NAMES, impute: {}, standardize: {}, oneHot: {} },
+        trainingPredictions: float64Bytes(predictForest(forest, matrix(data, train))),
         bytes: serializeForest(forest),
         oobR2: null,
         trainingRows: train.length,

@@ -1,6 +1,6 @@
 /** The record codec: JSON whose binary fields travel as raw bytes, found again by their paths. */
 import { describe, expect, it } from 'vitest';
-import { BytesWriter, SHARED_ENTRY_BYTES, bytesOf, decodeRecord, encodeRecord, packEntry, placeEntry, unpackEntry } from '../../core/codec.js';
+import { BytesWriter, SHARED_ENTRY_BYTES, bytesOf, decodeRecord, encodeRecord, float64Bytes, float64sOf, packEntry, placeEntry, unpackEntry } from '../../core/codec.js';
 import { parseJson } from '../../core/dict.js';
 
 describe('records', () => {
@@ -52,6 +52,20 @@ describe('records', () => {
     const back = unpackEntry('record', fromArray).output as { bytes: Uint8Array };
     expect(back.bytes).toEqual(array);
     expect([bytesOf(writer), bytesOf(array)]).toEqual([array, array]);
+  });
+
+  it('carry numbers as a binary field, read back as a view where aligned and as a copy elsewhere', () => {
+    const numbers = Float64Array.of(1.5, -0, Number.MIN_VALUE, 1e300, Math.PI);
+    const back = unpackEntry('record', packEntry('record', { numbers: float64Bytes(numbers), rest: Uint8Array.of(1, 2, 3) }, [])).output as { numbers: Uint8Array };
+    expect(Object.is(float64sOf(back.numbers)[1], -0)).toBe(true);
+    expect(Array.from(float64sOf(back.numbers))).toEqual(Array.from(numbers));
+    const shifted = new Uint8Array(41);
+    shifted.set(float64Bytes(numbers), 1);
+    const unaligned = float64sOf(shifted.subarray(1));
+    expect(Array.from(unaligned)).toEqual(Array.from(numbers));
+    const aligned = float64Bytes(numbers);
+    expect(float64sOf(aligned).buffer).toBe(numbers.buffer);
+    expect(() => float64sOf(new Uint8Array(12))).toThrow('12 bytes are not a whole number of 8-byte numbers');
   });
 
   it('make a large entry in shared memory, which placing for reading keeps as it is', () => {

@@ -108,6 +108,31 @@ describe('out-of-bag estimates', () => {
     }
   });
 
+  it('come with the training rows’ predictions when asked, equal bit for bit to predicting them', async () => {
+    const big = friedman1(10000, 'forest-fitted');
+    const trees = Math.ceil(MIN_DRAWS_FOR_THREADS / big.x.rows);
+    for (const workers of [1, 2]) {
+      for (const outOfBag of [true, false]) {
+        const f = await fitForest(big.x, big.y, { ...base, trees, seed: 'fitted', workers, fitted: true, outOfBag });
+        expect(sameBits(f.fitted!, predictForest(f, big.x))).toBe(true);
+        // asked for the fitted values, the out-of-bag rows are followed anyway
+        expect(oob(f).r2).not.toBeNull();
+      }
+    }
+    // one tree (no division), a tree grown without bootstrap, and a target far beyond 2^400 (grown scaled)
+    const one = await fitForest(train.x, train.y, { ...base, trees: 1, seed: 'one', fitted: true });
+    expect(sameBits(one.fitted!, predictForest(one, train.x))).toBe(true);
+    const whole = await fitForest(train.x, train.y, { ...base, trees: 3, replace: false, seed: 'whole', fitted: true });
+    expect(sameBits(whole.fitted!, predictForest(whole, train.x))).toBe(true);
+    const huge = train.y.map((v) => v * 2 ** 500);
+    const scaled = await fitForest(train.x, huge, { ...base, trees: 5, seed: 'huge', fitted: true });
+    expect(sameBits(scaled.fitted!, predictForest(scaled, train.x))).toBe(true);
+    expect(await fitForest(train.x, train.y, { ...base, trees: 2, seed: 'none' })).not.toHaveProperty('fitted');
+    await expect(fitForest(train.x, train.y, { ...base, trees: 2, seed: 'bad', fitted: 'yes' as unknown as boolean })).rejects.toThrow(
+      'fitted must be true or false, got yes',
+    );
+  });
+
   it('give an R² close to the held-out R² on Friedman #1', async () => {
     // Source: Breiman (2001), "Random Forests", sec. 3.1: the OOB estimate is about as accurate as a
     // test set of the same size.

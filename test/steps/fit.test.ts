@@ -11,9 +11,9 @@ import type { CrossValidateOutput } from '../../steps/cross-validate.js';
 import { choose } from '../../steps/choose.js';
 import { fit, type FitOutput, type FitParams } from '../../steps/fit.js';
 import type { HoldoutOutput } from '../../steps/holdout.js';
-import type { Cell } from '../../steps/model-kinds.js';
+import { engineFor, type Cell } from '../../steps/model-kinds.js';
 import { asOutput, crossValidateCell, decoded, errorOf, stepContext, NO_UNITS } from '../helpers.js';
-import { packEntry } from '../../core/codec.js';
+import { float64Bytes, float64sOf, packEntry } from '../../core/codec.js';
 
 /**
  * 12 rows, y = 2·x1 − x2 exactly; rows 0–7 train, 8–11 are held out. Training x1 spans 1..8 and
@@ -116,6 +116,24 @@ describe('fit', () => {
     const gap: Frame = { ...frame, columns: frame.columns.map((c) => (c.name === 'x1' ? { ...c, values: Float64Array.from(X1.map((v, i) => (i === 3 ? NaN : v))) } : c)) };
     const e = await errorOf(() => run(chose([{}], 0), { kind: 'linear' }, gap));
     expect([e.message, e.exitCode]).toEqual([messages.missingInPredictor('x1', 1), 1]);
+  });
+});
+
+describe('the predictions of the training rows', () => {
+  it('are, for every kind, what the fitted model predicts for those rows, bit for bit', async () => {
+    const kinds: [FitParams['kind'], Cell][] = [
+      ['mean', {}],
+      ['linear', {}],
+      ['decision_tree', { max_depth: 2, min_leaf: 1 }],
+      ['random_forest', { trees: 7, max_depth: null, min_leaf: 1, mtry: 1, sample_fraction: 1, replace: true }],
+    ];
+    const x = { columns: [Float64Array.from(X1.slice(0, 8)), Float64Array.from(X2.slice(0, 8))], names: ['x1', 'x2'], rows: 8 };
+    for (const [kind, cell] of kinds) {
+      const out = await run(chose([cell], 0), { kind });
+      const model = await engineFor(kind, 'm').load(out.bytes, 'test');
+      const predicted = await model.predict(x, 'test');
+      expect(Buffer.from(float64Bytes(float64sOf(out.trainingPredictions))).equals(float64Bytes(predicted))).toBe(true);
+    }
   });
 });
 

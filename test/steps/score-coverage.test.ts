@@ -7,7 +7,8 @@
 import seedrandom from 'seedrandom';
 import { describe, expect, it } from 'vitest';
 import type { Frame } from '../../core/frame.js';
-import { fitLinear, serializeLinear } from '../../models/linear.js';
+import { fitLinear, predictLinear, serializeLinear } from '../../models/linear.js';
+import { float64Bytes } from '../../core/codec.js';
 import type { FitOutput } from '../../steps/fit.js';
 import type { HoldoutOutput } from '../../steps/holdout.js';
 import { score, type ScoreOutput } from '../../steps/score.js';
@@ -42,7 +43,8 @@ async function coverage(heldGroups: number, replicates: number): Promise<{ r2: n
     }
     const test = [...Array(heldGroups * ROWS_PER_GROUP).keys()];
     const train = [...Array(y.length - test.length).keys()].map((i) => i + test.length);
-    const model = fitLinear({ columns: [Float64Array.from(train, (i) => x1[i]), Float64Array.from(train, (i) => x2[i])], names: ['x1', 'x2'], rows: train.length }, Float64Array.from(train, (i) => y[i]));
+    const xTrain = { columns: [Float64Array.from(train, (i) => x1[i]), Float64Array.from(train, (i) => x2[i])], names: ['x1', 'x2'], rows: train.length };
+    const model = fitLinear(xTrain, Float64Array.from(train, (i) => y[i]));
     const mse = (model.intercept - A) ** 2 + (model.coefficients[0] - B[0]) ** 2 + (model.coefficients[1] - B[1]) ** 2 + SD_GROUP ** 2 + SD_ROW ** 2;
     const truth = { r2: 1 - mse / (B[0] ** 2 + B[1] ** 2 + SD_GROUP ** 2 + SD_ROW ** 2), rmse: Math.sqrt(mse) };
     const frame: Frame = {
@@ -60,6 +62,7 @@ async function coverage(heldGroups: number, replicates: number): Promise<{ r2: n
       cell: {},
       used: {},
       design: { predictors: ['x1', 'x2'], names: ['x1', 'x2'], impute: {}, standardize: {}, oneHot: {} },
+      trainingPredictions: float64Bytes(predictLinear(model, xTrain)),
       bytes: serializeLinear(model),
       oobR2: null,
       trainingRows: train.length,
