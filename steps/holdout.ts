@@ -130,7 +130,8 @@ export const holdout: StepDefinition<HoldoutParams, HoldoutOutput> = {
     }
     const unitsOf = (rows: number[]) => (unitCol ? [...rowsByGroup(frame, unitCol, rows).keys()] : rows.map((r) => sha256(rowIds()[r]).slice(0, 16)));
     const kind = params.by === 'blocks' ? ('block' as const) : unitCol ? ('group' as const) : ('row' as const);
-    const units = { kind, holdout: unitsOf(test).sort(), training: unitsOf(train).length };
+    // the training side is only counted: rows are their own units, so no need to name each
+    const units = { kind, holdout: unitsOf(test).sort(), training: unitCol ? rowsByGroup(frame, unitCol, train).size : train.length };
     return { train, test, by: params.by, testGroups: groupCount(test), trainGroups: groupCount(train), cutoff, gapRows, units };
   },
   summary: (o) => `${o.train.length.toLocaleString('en')} training rows, ${o.test.length.toLocaleString('en')} holdout rows`,

@@ -142,6 +142,26 @@ describe('folds', () => {
   });
 });
 
+describe('row identities', () => {
+  it('are the JSON text of the key columns’ values, by column name, for awkward values too', () => {
+    // the text is what each row's draw hashes: any change to it would move rows between folds
+    const values = [0.1, -0, 1e21, 1e-7, -123.456e-300, Number.MAX_VALUE, 5e-324, NaN, 42];
+    const f: Frame = {
+      rows: values.length,
+      columns: [
+        { name: 'y', type: 'number', values: Float64Array.from(values) },
+        { name: 'lake "A"\\é\n', type: 'string', values: ['a', 'say "hi"', 'tab\there', 'ünï', '\u2028', null, '', '0', 'a'] },
+        { name: 'day', type: 'date', values: Float64Array.from(values, (_, i) => 1_700_000_000_000 + i * 86_400_000) },
+      ],
+    };
+    const all = [...Array(f.rows).keys()];
+    const keys = ['y', 'lake "A"\\é\n', 'day'];
+    const byName = [...f.columns].sort((a, b) => (a.name < b.name ? -1 : a.name > b.name ? 1 : 0));
+    const reference = all.map((r) => JSON.stringify(byName.map((c) => [c.name, Number.isNaN(c.values[r] as number) || c.values[r] === null ? null : c.values[r]])));
+    expect(rowIdentities(f, all, keys)).toEqual(reference);
+  });
+});
+
 /**
  * Which units (sites for group splits, row identities for random ones) land on each side: the
  * holdout as `test`/`train`, and each training unit's fold.
