@@ -411,6 +411,11 @@ class TreeCombiner {
   }
 
   add(index: number, grown: GrownTree): void {
+    // a tree that must wait for earlier ones keeps a copy of values its builder will overwrite
+    if (index !== this.next && grown.fitted && grown.fittedScratch) {
+      grown.fitted = grown.fitted.slice();
+      grown.fittedScratch = false;
+    }
     this.pending[index - this.from] = grown;
     for (let g = this.pending[this.next - this.from]; g !== undefined; g = this.pending[this.next - this.from]) {
       this.pending[this.next - this.from] = undefined;
@@ -433,6 +438,7 @@ class TreeCombiner {
       const sum = this.fittedSum;
       const leafValues = g.fitted;
       if (sum && leafValues) for (let r = 0; r < sum.length; r++) sum[r] += leafValues[r];
+      g.release?.();
       if (this.next % TREE_BLOCK === 0 || this.next === this.to) {
         this.block = null;
         this.onBlock(b);

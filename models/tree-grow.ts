@@ -82,8 +82,15 @@ export interface GrownTree {
   /** Out-of-bag rows (grouped by leaf) and this tree's prediction for each; empty when not followed. */
   oobRows: Int32Array;
   oobValues: Float64Array;
-  /** With GrowParams.fitted: per training row, the value of the leaf it falls in (the tree's prediction of it). */
+  /**
+   * With GrowParams.fitted: per training row, the value of the leaf it falls in (the tree's
+   * prediction of it). From TreeBuilder.grow it is the builder's own scratch (`fittedScratch`), good
+   * only until the builder grows its next tree: whoever keeps it longer copies it.
+   */
   fitted?: Float64Array;
+  fittedScratch?: boolean;
+  /** Set where `fitted` is a view of memory to be handed back once the values are used (see forest-pool.ts). */
+  release?: () => void;
 }
 
 /**
@@ -510,7 +517,11 @@ export class TreeBuilder {
     for (let f = 0; f < importance.length; f++) importance[f] /= rootW;
     const nOob = this.nOob;
     const grown: GrownTree = { tree, importance, oobRows: this.oidx.slice(0, nOob), oobValues: this.oobVal.slice(0, nOob) };
-    if (this.rowValue) grown.fitted = this.rowValue.slice();
+    if (this.rowValue) {
+      // not copied: a row's values per tree would be megabytes of garbage a tree at a million rows
+      grown.fitted = this.rowValue;
+      grown.fittedScratch = true;
+    }
     return grown;
   }
 

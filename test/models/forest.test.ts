@@ -16,6 +16,7 @@ import {
   serializeForest,
 } from '../../models/forest.js';
 import { r2 } from '../../models/metrics.js';
+import { fittedSlotSettings } from '../../models/forest-pool.js';
 import { friedman1 } from '../bench/friedman.js';
 import { sameBits } from './forest-helpers.js';
 
@@ -118,6 +119,14 @@ describe('out-of-bag estimates', () => {
         // asked for the fitted values, the out-of-bag rows are followed anyway
         expect(oob(f).r2).not.toBeNull();
       }
+    }
+    // with no shared slot to leave them in, a worker sends its trees' values as copies
+    fittedSlotSettings.perWorker = 0;
+    try {
+      const copied = await fitForest(big.x, big.y, { ...base, trees, seed: 'fitted', workers: 2, fitted: true });
+      expect(sameBits(copied.fitted!, predictForest(copied, big.x))).toBe(true);
+    } finally {
+      fittedSlotSettings.perWorker = 2;
     }
     // one tree (no division), a tree grown without bootstrap, and a target far beyond 2^400 (grown scaled)
     const one = await fitForest(train.x, train.y, { ...base, trees: 1, seed: 'one', fitted: true });
