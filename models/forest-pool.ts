@@ -40,10 +40,11 @@ export interface WorkerJob {
 /**
  * Shared room where worker threads leave a tree's fitted values (a value per training row) for the
  * calling thread, instead of sending each tree a new array: at a million rows that is 8 MB a tree,
- * which the garbage collector took long enough to free that a run's peak memory grew by hundreds of
+ * and memory freed that way went back to the system so slowly that a run's peak grew by hundreds of
  * megabytes. A worker takes a free slot (compare-and-swap on `free`), writes the values and names
- * the slot; the calling thread frees it once the values are added. With no slot free a worker sends
- * a copy as before, so nothing ever waits for a slot.
+ * the slot; the calling thread frees it once the values are added, and keeps the values of its own
+ * trees that must wait for earlier ones in a slot too (ForestPool.keep). With no slot free a copy is
+ * made as before, so nothing ever waits for a slot.
  */
 export interface FittedSlots {
   rows: number;
@@ -54,10 +55,11 @@ export interface FittedSlots {
 }
 
 /**
- * Slots per worker thread: two, one being added up by the calling thread while the worker fills the
- * other. A setting only so that tests can take them away and check the copies sent instead.
+ * Slots per thread growing trees (the calling thread included): three, so that while the calling
+ * thread adds up one tree's values a worker can fill another and a finished tree can wait for an
+ * earlier one. A setting only so that tests can take them away and check the copies made instead.
  */
-export const fittedSlotSettings = { perWorker: 2 };
+export const fittedSlotSettings = { perThread: 3 };
 
 /** Takes a free slot (its number), or -1 when none is free. */
 export function takeSlot(slots: FittedSlots): number {
@@ -80,6 +82,8 @@ export class ForestPool {
   private onReply: (reply: Reply) => void = () => {};
   private wake: (() => void) | null = null;
   private closed = false;
+  /** The current grow's shared slots for fitted values, if it keeps them. */
+  private slots: FittedSlots | null = null;
 
   private constructor(workers: number) {
     for (let k = 0; k < workers; k++) {
@@ -114,9 +118,10 @@ export class ForestPool {
       }
       this.notify();
     };
-    const count = fittedSlotSettings.perWorker * this.workers.length;
+    const count = fittedSlotSettings.perThread * (this.workers.length + 1);
     const slots: FittedSlots | null =
       params.fitted === true && count > 0 ? { rows: data.rows, values: sharedFloat64(count * data.rows), free: new Int32Array(new SharedArrayBuffer(4 * count)).fill(1) } : null;
+    this.slots = slots;
     this.onReply = (reply) => {
       if (reply.error !== undefined || reply.grown === undefined) {
         this.fail(new Error(`growing tree ${reply.tree} failed in a worker thread: ${reply.error ?? 'no result'}`), counter, trees);
@@ -145,6 +150,19 @@ export class ForestPool {
       });
     }
     if (this.failure !== null) throw this.failure;
+  }
+
+  /**
+   * Fitted values of this thread's tree that must wait for earlier trees (the builder will overwrite
+   * them): copied into a free slot, freed by `release`, else into an array of their own.
+   */
+  keep(values: Float64Array): { values: Float64Array; release?: () => void } {
+    const slots = this.slots;
+    const slot = slots ? takeSlot(slots) : -1;
+    if (!slots || slot < 0) return { values: values.slice() };
+    const view = slots.values.subarray(slot * slots.rows, (slot + 1) * slots.rows);
+    view.set(values);
+    return { values: view, release: () => Atomics.store(slots.free, slot, 1) };
   }
 
   /** Ends the worker threads. */

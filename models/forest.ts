@@ -298,7 +298,8 @@ async function growBlocks(
   const pool = threaded ? ForestPool.start(Math.min(workers, to - from)) : null;
   try {
     const { data, params } = growInputs(x, target, s, pool !== null, outOfBag, fittedSum !== null);
-    const combiner = new TreeCombiner(from, to, x.rows, x.columns.length, fittedSum, onBlock);
+    const keep = pool ? (values: Float64Array) => pool.keep(values) : (values: Float64Array) => ({ values: values.slice() });
+    const combiner = new TreeCombiner(from, to, x.rows, x.columns.length, fittedSum, onBlock, keep);
     if (pool !== null) {
       await pool.grow(data, params, from, to, (i, g) => combiner.add(i, g));
     } else {
@@ -405,6 +406,8 @@ class TreeCombiner {
     /** Per row, the sum of its leaf values over the trees so far, in tree order; null: not kept. */
     private readonly fittedSum: Float64Array | null,
     private readonly onBlock: (block: ForestBlock) => void,
+    /** Keeps a waiting tree's fitted values, which its builder will overwrite (see ForestPool.keep). */
+    private readonly keep: (values: Float64Array) => { values: Float64Array; release?: () => void },
   ) {
     this.pending = new Array<GrownTree | undefined>(to - from);
     this.next = from;
@@ -413,7 +416,9 @@ class TreeCombiner {
   add(index: number, grown: GrownTree): void {
     // a tree that must wait for earlier ones keeps a copy of values its builder will overwrite
     if (index !== this.next && grown.fitted && grown.fittedScratch) {
-      grown.fitted = grown.fitted.slice();
+      const kept = this.keep(grown.fitted);
+      grown.fitted = kept.values;
+      grown.release = kept.release;
       grown.fittedScratch = false;
     }
     this.pending[index - this.from] = grown;

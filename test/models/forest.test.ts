@@ -120,13 +120,14 @@ describe('out-of-bag estimates', () => {
         expect(oob(f).r2).not.toBeNull();
       }
     }
-    // with no shared slot to leave them in, a worker sends its trees' values as copies
-    fittedSlotSettings.perWorker = 0;
+    // with no shared slot to leave them in, a worker sends its trees' values as copies, and this
+    // thread copies those of its own trees that wait for earlier ones
+    fittedSlotSettings.perThread = 0;
     try {
       const copied = await fitForest(big.x, big.y, { ...base, trees, seed: 'fitted', workers: 2, fitted: true });
       expect(sameBits(copied.fitted!, predictForest(copied, big.x))).toBe(true);
     } finally {
-      fittedSlotSettings.perWorker = 2;
+      fittedSlotSettings.perThread = 3;
     }
     // one tree (no division), a tree grown without bootstrap, and a target far beyond 2^400 (grown scaled)
     const one = await fitForest(train.x, train.y, { ...base, trees: 1, seed: 'one', fitted: true });
