@@ -29,6 +29,15 @@ export interface Execution {
   onThreads: number;
 }
 
+/**
+ * A parallel step whose work (StepParts.divide: parts × work of a part; for a forest, rows drawn ×
+ * trees) is at least `work` runs on a thread of its own even when no other step runs beside it: the
+ * thread ends with the step and takes its garbage along (a million-row forest's trees, a gigabyte,
+ * which the collector otherwise frees at its own pace while the next steps allocate). Smaller steps
+ * run here, sparing the thread's start. A setting only so that tests can lower it.
+ */
+export const isolateSettings = { work: 50_000_000 };
+
 /** A step's output as decoded from its packed bytes, fresh or cached. */
 type Decoded = ReturnType<typeof unpackEntry>;
 
@@ -233,7 +242,14 @@ export function localExecutor(opts: LocalExecutorOptions): Executor {
             // looked up before the progress line starts, so a cache warning gets a line of its own
             const hit = lookup(step);
             opts.progress.start(step.id);
-            const entry = hit ?? store(step, await runHere(step));
+            let entry = hit;
+            if (!entry && batch.length === 1 && opts.workers > 1 && heavy(step, (id) => outputs.get(id))) {
+              const r = await runOnPool(step, 0, 1);
+              await (pool as StepPool | null)?.close();
+              pool = null;
+              entry = store(step, r.payload);
+            }
+            entry ??= store(step, await runHere(step));
             settle(step, entry, hit ? 'cached' : 'ran', (performance.now() - t0) / 1000);
             i++;
             continue;
@@ -270,6 +286,14 @@ export function localExecutor(opts: LocalExecutorOptions): Executor {
       return { outputs, records, warnings: warnings.list(), onThreads };
     },
   };
+}
+
+/** Whether a parallel step's work reaches isolateSettings.work (steps that do not divide have none to measure). */
+function heavy(step: StepInstance, outputOf: (id: string) => unknown): boolean {
+  const def = stepRegistry[step.kind];
+  if (!def.parallel || !def.parts) return false;
+  const d = def.parts.divide(step.inputs.map(outputOf), step.params as never);
+  return d.count * d.work >= isolateSettings.work;
 }
 
 /** The steps from `start` on that may run side by side: consecutive, parallel, not feeding each other. */

@@ -9,6 +9,7 @@ import { displayOf } from '../../runner/recipe.js';
 import { readManifest } from '../../runner/run-folder.js';
 import type { Manifest } from '../../runner/manifest.js';
 import { runRecipe } from '../../runner/run.js';
+import { isolateSettings } from '../../runner/execute.js';
 import { verifyRun } from '../../runner/verify.js';
 import { sha256 } from '../../core/hash.js';
 import { makeFolder, SMALL_RECIPE, smallData } from '../helpers.js';
@@ -63,6 +64,25 @@ describe('determinism', () => {
     expect(noTiming(readManifest(two.outDir))).toEqual(noTiming(readManifest(one.outDir)));
     const strip = (s: string) => s.replace(/"timing": \{[\s\S]*\}\n\}\n$/, '');
     expect(strip(readFileSync(join(two.outDir, 'run-record.json'), 'utf8'))).toBe(strip(readFileSync(join(one.outDir, 'run-record.json'), 'utf8')));
+  });
+});
+
+describe('a heavy step alone on a thread of its own', () => {
+  it('gives the same run record as in the main thread, and only the heavy step moves', async () => {
+    // one model and no prediction intervals: its final fit has no other step beside it
+    const alone = SMALL_RECIPE.replace('  linear: {kind: linear}\n', '')
+      .replace('mean: {kind: mean}', 'forest: {kind: random_forest, grid: {trees: 20, mtry: 1}}')
+      .replace('  folds: {k: 3}\n', '  folds: {k: 3}\n  prediction_interval: false\n');
+    const here = await run(alone, {}, 2);
+    isolateSettings.work = 1;
+    try {
+      const isolated = await run(alone, {}, 2);
+      // the final fit divides into blocks, so it alone has work to measure
+      expect(isolated.stepsOnThreads).toBe(here.stepsOnThreads + 1);
+      expect(noTiming(readManifest(isolated.outDir))).toEqual(noTiming(readManifest(here.outDir)));
+    } finally {
+      isolateSettings.work = 50_000_000;
+    }
   });
 });
 
