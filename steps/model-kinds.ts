@@ -225,9 +225,20 @@ export const modelKinds: Record<string, ModelKindAdapter> = dictOf<ModelKindAdap
 
 /** A forest or tree read from its bytes. */
 async function loadForest(bytes: Uint8Array): Promise<LoadedModel> {
+  const known = loadedForests.get(bytes);
+  if (known) return known;
   const { deserializeForest } = await forestEngine();
-  return loadedForest(deserializeForest(bytes), bytes);
+  const loaded = loadedForest(deserializeForest(bytes), bytes);
+  loadedForests.set(bytes, loaded);
+  return loaded;
 }
+
+/**
+ * Forests read from bytes, by those bytes: the score and explain steps read the same fit output, so
+ * they share one reading (a forest's rebuilt right children are 4 bytes a node, 200 MB at a million
+ * rows). Bytes are read-only step outputs, so equal bytes give an equal forest; the entry goes with them.
+ */
+const loadedForests = new WeakMap<Uint8Array, Promise<LoadedModel>>();
 
 /**
  * A forest or tree as a loaded model; with its bytes, which the helper threads of prediction and
