@@ -43,6 +43,7 @@ export const engineMessages = {
     `sample_fraction must be a number greater than 0 and at most 1, got ${String(value)}`,
   replace: (value: unknown): string => `replace must be true or false, got ${String(value)}`,
   fitted: (value: unknown): string => `fitted must be true or false, got ${String(value)}`,
+  outOfBag: (value: unknown): string => `outOfBag must be true or false, got ${String(value)}`,
   seed: (value: unknown): string => `seed must be a string, got ${typeof value}`,
   namesDiffer: (expected: string[], got: string[]): string =>
     `the prediction matrix has columns [${got.join(', ')}] but the forest was fitted on [${expected.join(', ')}]; ` +

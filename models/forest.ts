@@ -142,7 +142,9 @@ export async function fitForest(x: Matrix, y: Float64Array, opts: ForestOptions)
   const workers = checkInteger('workers', opts.workers ?? DEFAULT_WORKERS, 1);
   const fitted = opts.fitted ?? false;
   if (typeof fitted !== 'boolean') throw new EngineInputError(msg.fitted(fitted));
-  return fitResolved(x, y, settings, 'random_forest', workers, fitted || (opts.outOfBag ?? true), fitted);
+  const outOfBag = opts.outOfBag ?? true;
+  if (typeof outOfBag !== 'boolean') throw new EngineInputError(msg.outOfBag(outOfBag));
+  return fitResolved(x, y, settings, 'random_forest', workers, fitted || outOfBag, fitted);
 }
 
 /**

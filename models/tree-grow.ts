@@ -267,8 +267,9 @@ export class TreeBuilder {
 
   /**
    * From `counts`: in-bag rows into `idx`, out-of-bag rows into `oidx` (when followed; their count
-   * into nOob), and `wwy`. Returns the number of in-bag rows. (Nothing follows the loop but the return: code compiled while a loop runs, on-stack
-   * replacement, has seen nothing after it yet and would be thrown away on reaching it.)
+   * into nOob), and `wwy`. Returns the number of in-bag rows. (Nothing follows the loop but the
+   * return: code compiled while a loop runs, on-stack replacement, has seen nothing after it yet and
+   * would be thrown away on reaching it.)
    */
   private listRows(): number {
     const n = this.d.rows;

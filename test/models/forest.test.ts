@@ -107,6 +107,9 @@ describe('out-of-bag estimates', () => {
       expect(o.predictions.every((v) => Number.isNaN(v))).toBe(true);
       expect(o.reason).toMatch(/out-of-bag rows were not followed/);
     }
+    await expect(fitForest(train.x, train.y, { ...base, trees: 2, seed: 'bad', outOfBag: 0 as unknown as boolean })).rejects.toThrow(
+      'outOfBag must be true or false, got 0',
+    );
   });
 
   it('come with the training rows’ predictions when asked, equal bit for bit to predicting them', async () => {
