@@ -1,4 +1,3 @@
-import * as aq from 'arquero';
 import type { ColumnType } from './recipe-types.js';
 import { dict, has, parseJson } from './dict.js';
 
@@ -65,22 +64,6 @@ export function takeRows(frame: Frame, rows: ArrayLike<number>): Frame {
  * expressions that read or make one (messages.expressionReservedColumn).
  */
 export const ARQUERO_UNSAFE_NAMES: ReadonlySet<string> = new Set(['__proto__']);
-
-/** Converts to an arquero table for expressions: missing as null, dates as Date objects. */
-export function toArquero(frame: Frame): aq.ColumnTable {
-  const data = dict<unknown[]>();
-  for (const c of frame.columns) {
-    if (ARQUERO_UNSAFE_NAMES.has(c.name)) continue;
-    const out = new Array<unknown>(frame.rows);
-    for (let i = 0; i < frame.rows; i++) {
-      const v = c.values[i];
-      if (typeof v === 'number') out[i] = Number.isNaN(v) ? null : c.type === 'date' ? new Date(v) : v;
-      else out[i] = v;
-    }
-    data[c.name] = out;
-  }
-  return aq.table(data);
-}
 
 /**
  * Reads an arquero column back into a typed column. Numbers that are not finite become missing

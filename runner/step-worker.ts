@@ -4,7 +4,7 @@
  * the cache: the main thread reads and writes it, so the cache stays the single place outputs live.
  */
 import { parentPort } from 'node:worker_threads';
-import { stepRegistry } from '../steps/index.js';
+import { poolKinds } from '../steps/pool-kinds.js';
 import { decodeOutput, packEntry } from '../core/codec.js';
 import { DendrologError } from '../core/messages.js';
 import { makeContext, type OutputCodec } from '../core/step-types.js';
@@ -31,7 +31,9 @@ const port = parentPort;
 if (port) {
   port.on('message', async (job: StepJob) => {
     try {
-      const def = stepRegistry[job.kind];
+      const load = poolKinds.get(job.kind);
+      if (!load) throw new Error(`internal: step kind ${job.kind} does not run on pool threads (steps/pool-kinds.ts)`);
+      const def = await load();
       const warnings = new WarningLog();
       const ctx = makeContext(job, { warn: (code, message) => warnings.add(code, message), workers: job.threads });
       const output = await def.run(job.inputs.map((i) => decodeOutput(i.codec, i.body)), job.params as never, ctx);

@@ -1,4 +1,5 @@
-import { columnFromValues, toArquero, type Frame } from '../core/frame.js';
+import { toArquero } from '../core/arquero-table.js';
+import { columnFromValues, type Frame } from '../core/frame.js';
 import { messages } from '../core/messages.js';
 import type { FrameOutput, StepDefinition } from '../core/step-types.js';
 import { assertRowWise, checkTextSize, expressionSite, missingInputs, referencedColumns, withinBudget, withMissingInputs } from './expressions.js';

@@ -1,4 +1,5 @@
-import { takeRows, toArquero } from '../core/frame.js';
+import { toArquero } from '../core/arquero-table.js';
+import { takeRows } from '../core/frame.js';
 import { DendrologError, messages } from '../core/messages.js';
 import type { FrameOutput, StepDefinition } from '../core/step-types.js';
 import { assertRowWise, expressionSite, missingInputs, referencedColumns, withinBudget, withMissingInputs } from './expressions.js';
