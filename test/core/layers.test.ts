@@ -46,8 +46,8 @@ describe('layers', () => {
     expect(crossing('steps', (t) => !t.startsWith('runner/'))).toEqual([]);
   });
 
-  it('let runner/ reach steps/ only through the registry', () => {
-    expect(crossing('runner', (t) => !t.startsWith('steps/') || t === 'steps/index')).toEqual([]);
+  it('let runner/ reach steps/ only through the registry (and the pool threads through their list of kinds)', () => {
+    expect(crossing('runner', (t) => !t.startsWith('steps/') || t === 'steps/index' || t === 'steps/pool-kinds')).toEqual([]);
   });
 });
 
@@ -78,5 +78,18 @@ describe('start-up', () => {
     expect(loaded.has('runner/recipe')).toBe(true);
     expect(loaded.has('yaml')).toBe(true);
     expect([...loaded].filter((m) => /^(vega|vega-lite|handlebars)$|^runner\/(plots|render)$/.test(m))).toEqual([]);
+  });
+
+  it('loads no step kind, file reader or arquero in a pool thread before it has a job: kinds come on demand', () => {
+    const loaded = staticallyLoaded('runner/step-worker');
+    // the walk reaches the worker's own imports
+    expect(loaded.has('steps/pool-kinds')).toBe(true);
+    expect([...loaded].filter((m) => /^arquero|^hyparquet|^netcdfjs|^steps\/(?!pool-kinds)/.test(m))).toEqual([]);
+  });
+
+  it('loads no arquero and no file-format package for the steps that grow and explain forests', () => {
+    for (const kind of ['steps/cross-validate', 'steps/fit', 'steps/interval-fold', 'steps/explain']) {
+      expect([...staticallyLoaded(kind)].filter((m) => /^(arquero|hyparquet|netcdfjs)/.test(m)), kind).toEqual([]);
+    }
   });
 });
