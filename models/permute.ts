@@ -3,8 +3,9 @@
  * permutation importance at once. Each row walks its own path down a tree once; a job (one
  * predictor's columns) whose columns no node of that path splits on gives every repeat the path's
  * leaf, and only from the first node that splits on a job's column does each repeat of that job go
- * its own way. Repeats still walk together below it until a split on the job's column parts them.
- * So the shared part of a path is walked once for all jobs and repeats, not once per repeat.
+ * its own way. Repeats still walk together below it until a split on the job's column parts them,
+ * and those that keep to the row's path follow its recorded nodes to its leaf without walking them
+ * again. So the shared part of a path is walked once for all jobs and repeats, not once per repeat.
  *
  * The sums run in tree order per row and are divided by the tree count at the end, as
  * predictUnchecked does, so each result equals predicting the permuted matrix bit for bit, and a
@@ -70,28 +71,39 @@ export function predictPermutedRows(
   // per job, the sums of a row's repeats side by side ([row][repeat]), copied out at the end
   const sums = jobs.map((_, m) => new Float64Array(n * orders[m].length));
   const walker = new RepeatWalker();
-  // per job, the first node of the row's path that splits on one of its columns (-1: none)
+  // the row's path (its nodes from the root to its leaf), and per job the places on it of the first
+  // and the last node that split on one of the job's columns (-1: none)
+  let path: Int32Array = new Int32Array(64);
   const first = new Int32Array(jobs.length);
+  const last = new Int32Array(jobs.length);
   for (const tree of f.trees) {
     const { feature, thresholdOrValue: tv, right } = tree;
     for (let i = 0; i < n; i++) {
       const base = i * p;
       first.fill(-1);
       let node = 0;
+      let depth = 0;
       let g = feature[0];
       while (g >= 0) {
+        if (depth + 1 >= path.length) path = grown(path);
+        path[depth] = node;
         const m = jobOf[g];
-        if (m >= 0 && first[m] < 0) first[m] = node;
+        if (m >= 0) {
+          if (first[m] < 0) first[m] = depth;
+          last[m] = depth;
+        }
         node = block[base + g] <= tv[node] ? node + 1 : right[node];
         g = feature[node];
+        depth++;
       }
+      path[depth] = node;
       const leaf = tv[node];
       for (let m = 0; m < jobs.length; m++) {
         const reps = orders[m].length;
         const sum = sums[m];
         if (first[m] < 0) {
           for (let k = 0, at = i * reps; k < reps; k++, at++) sum[at] += leaf;
-        } else walker.walk(tree, block, base, jobOf, slotOf, m, moved[m], reps, jobs[m].columns.length, i, first[m], sum);
+        } else walker.walk(tree, block, base, jobOf, slotOf, m, moved[m], reps, jobs[m].columns.length, i, path, first[m], last[m], leaf, sum);
       }
     }
   }
@@ -104,7 +116,15 @@ export function predictPermutedRows(
   });
 }
 
-/** Walks one row's repeats of one job down a tree from a node, adding each repeat's leaf value to its sum. */
+/**
+ * Walks one row's repeats of one job down a tree, adding each repeat's leaf value to its sum.
+ *
+ * The repeats start together on the row's own path, at its first split on the job's columns, and
+ * follow the path (read from the recorded list of its nodes, not walked again) as long as their
+ * values go the row's way. At each split on the job's columns the repeats that go the other way
+ * leave it as a set, which walks its own subtree (walkSets). Past the path's last such split nothing
+ * can part the repeats still on it, so they end in the row's leaf.
+ */
 class RepeatWalker {
   // pending sets are disjoint and never empty, so there are never more of them than repeats
   private stackNode = new Int32Array(32);
@@ -112,7 +132,8 @@ class RepeatWalker {
 
   /**
    * `moved` holds the job's permuted values as [row][repeat][column] (`width` columns), `sums` the
-   * sums as [row][repeat]; row `i` walks from node `start`.
+   * sums as [row][repeat]; `path` is row i's path, `start` and `end` the places on it of its first
+   * and last split on the job's columns, `leaf` the path's leaf value.
    */
   walk(
     tree: Forest['trees'][number],
@@ -125,7 +146,10 @@ class RepeatWalker {
     repeats: number,
     width: number,
     i: number,
+    path: Int32Array,
     start: number,
+    end: number,
+    leaf: number,
     sums: Float64Array,
   ): void {
     const { feature, thresholdOrValue: tv, right } = tree;
@@ -134,7 +158,7 @@ class RepeatWalker {
       // too many repeats for a bit mask: each walks alone
       for (let k = 0; k < repeats; k++) {
         const mine = (at + k) * width;
-        let n = start;
+        let n = path[start];
         let h = feature[n];
         while (h >= 0) {
           n = (jobOf[h] === job ? moved[mine + slotOf[h]] : block[base + h]) <= tv[n] ? n + 1 : right[n];
@@ -144,14 +168,53 @@ class RepeatWalker {
       }
       return;
     }
-    // Below a node that does not split on the job's columns every repeat of the row goes the same way
-    // (they differ only in those columns), so the repeats walk down together as one set and part
-    // only where a node splits on one of them: a set of repeats per pending branch, as a bit mask.
+    let mask = repeats === 0 ? 0 : (1 << repeats) - 1;
+    for (let q = start; q <= end; q++) {
+      const n = path[q];
+      const h = feature[n];
+      if (jobOf[h] !== job) continue;
+      const t = tv[n];
+      let goLeft = 0;
+      // branch-free: whether a repeat goes left is a coin toss the processor cannot predict
+      for (let k = 0, s = at * width + slotOf[h]; k < repeats; k++, s += width) goLeft |= +(moved[s] <= t) << k;
+      const ownLeft = path[q + 1] === n + 1;
+      const off = mask & (ownLeft ? ~goLeft : goLeft);
+      if (off !== 0) {
+        this.walkSets(tree, block, base, jobOf, slotOf, job, moved, repeats, width, at, ownLeft ? right[n] : n + 1, off, sums);
+        mask &= ~off;
+        if (mask === 0) return;
+      }
+    }
+    for (let k = at; mask !== 0; k++, mask >>>= 1) if (mask & 1) sums[k] += leaf;
+  }
+
+  /**
+   * Walks a set of repeats (a bit mask) from a node. Below a node that does not split on the job's
+   * columns every repeat of the row goes the same way (they differ only in those columns), so the
+   * repeats walk down together as one set and part only where a node splits on one of them: a set
+   * of repeats per pending branch.
+   */
+  private walkSets(
+    tree: Forest['trees'][number],
+    block: Float64Array,
+    base: number,
+    jobOf: Int32Array,
+    slotOf: Int32Array,
+    job: number,
+    moved: Float64Array,
+    repeats: number,
+    width: number,
+    at: number,
+    start: number,
+    all: number,
+    sums: Float64Array,
+  ): void {
+    const { feature, thresholdOrValue: tv, right } = tree;
     const stackNode = this.stackNode;
     const stackMask = this.stackMask;
     let top = 0;
     stackNode[0] = start;
-    stackMask[0] = repeats === 0 ? 0 : (1 << repeats) - 1;
+    stackMask[0] = all;
     while (top >= 0) {
       let n = stackNode[top];
       let mask = stackMask[top];
@@ -170,7 +233,6 @@ class RepeatWalker {
         // part the set: the repeats whose value goes left, and the rest
         const t = tv[n];
         let goLeft = 0;
-        // branch-free: whether a repeat goes left is a coin toss the processor cannot predict
         for (let k = 0, s = at * width + slotOf[h]; k < repeats; k++, s += width) goLeft |= +(moved[s] <= t) << k;
         goLeft &= mask;
         const goRight = mask & ~goLeft;
@@ -186,4 +248,10 @@ class RepeatWalker {
       }
     }
   }
+}
+
+function grown(a: Int32Array): Int32Array {
+  const b = new Int32Array(a.length * 2);
+  b.set(a);
+  return b;
 }

@@ -5,6 +5,7 @@
 import { describe, expect, it } from 'vitest';
 import { fitForest, predictForest } from '../../models/forest.js';
 import { predictPermuted } from '../../models/permute.js';
+import { rightChildren, treeDepth } from '../../models/tree.js';
 import { shuffle } from '../../core/rng.js';
 import seedrandom from 'seedrandom';
 import { friedman1 } from '../bench/friedman.js';
@@ -37,6 +38,32 @@ describe('permuted forest predictions', () => {
       const moved = x.columns.slice();
       moved[1] = Float64Array.from(orders[k], (r) => x.columns[1][r]);
       expect(Array.from(got[k])).toEqual(Array.from(predictForest(forest, { ...x, columns: moved })));
+    }
+  });
+
+  it('equal predicting the permuted matrix down paths deeper than 64 nodes', async () => {
+    // a hand-made chain: split k (on feature k % 2, threshold 1 - k / 200) sends rows at or below it
+    // on to split k + 1, the rest to a leaf of their own, so a row of small values goes 100 deep
+    const splits = 100;
+    const feature = Int32Array.from({ length: 2 * splits + 1 }, (_, i) => (i < splits ? i % 2 : -1));
+    const right = rightChildren(feature) as Int32Array;
+    const thresholdOrValue = Float64Array.from({ length: 2 * splits + 1 }, (_, i) => (i < splits ? 1 - i / 200 : i));
+    const chain = { feature, thresholdOrValue, right, draws: new Int32Array(feature.length).fill(1) };
+    expect(treeDepth(chain)).toBe(splits);
+    const rand = seedrandom('deep');
+    const n = 200;
+    const x = { rows: n, names: ['a', 'b'], columns: [Float64Array.from({ length: n }, () => rand() ** 3), Float64Array.from({ length: n }, () => rand() ** 3)] };
+    const base = await fitForest(x, Float64Array.from({ length: n }, () => rand()), { trees: 1, maxDepth: 1, minLeaf: 1, mtry: null, seed: 'deep' });
+    const forest = { ...base, trees: [chain, base.trees[0]] };
+    const rows = [...Array(n).keys()];
+    const orders = [shuffle([...rows], rand), shuffle([...rows], rand)];
+    for (const columns of [[0], [1]]) {
+      const got = predictPermuted(forest, x, columns, orders);
+      orders.forEach((order, k) => {
+        const moved = x.columns.slice();
+        for (const c of columns) moved[c] = Float64Array.from(order, (r) => x.columns[c][r]);
+        expect(Array.from(got[k])).toEqual(Array.from(predictForest(forest, { ...x, columns: moved })));
+      });
     }
   });
 
