@@ -176,7 +176,7 @@ class RepeatWalker {
       const t = tv[n];
       let goLeft = 0;
       // branch-free: whether a repeat goes left is a coin toss the processor cannot predict
-      for (let k = 0, s = at * width + slotOf[h]; k < repeats; k++, s += width) goLeft |= +(moved[s] <= t) << k;
+      for (let k = lowest(mask), end = highest(mask), s = (at + k) * width + slotOf[h]; k < end; k++, s += width) goLeft |= +(moved[s] <= t) << k;
       const ownLeft = path[q + 1] === n + 1;
       const off = mask & (ownLeft ? ~goLeft : goLeft);
       if (off !== 0) {
@@ -185,7 +185,7 @@ class RepeatWalker {
         if (mask === 0) return;
       }
     }
-    for (let k = at; mask !== 0; k++, mask >>>= 1) if (mask & 1) sums[k] += leaf;
+    addToSet(sums, at, mask, leaf);
   }
 
   /**
@@ -223,7 +223,7 @@ class RepeatWalker {
         const h = feature[n];
         if (h < 0) {
           const v = tv[n];
-          for (let k = at; mask !== 0; k++, mask >>>= 1) if (mask & 1) sums[k] += v;
+          addToSet(sums, at, mask, v);
           break;
         }
         if (jobOf[h] !== job) {
@@ -233,7 +233,7 @@ class RepeatWalker {
         // part the set: the repeats whose value goes left, and the rest
         const t = tv[n];
         let goLeft = 0;
-        for (let k = 0, s = at * width + slotOf[h]; k < repeats; k++, s += width) goLeft |= +(moved[s] <= t) << k;
+        for (let k = lowest(mask), end = highest(mask), s = (at + k) * width + slotOf[h]; k < end; k++, s += width) goLeft |= +(moved[s] <= t) << k;
         goLeft &= mask;
         const goRight = mask & ~goLeft;
         if (goLeft === 0) n = right[n];
@@ -254,4 +254,27 @@ function grown(a: Int32Array): Int32Array {
   const b = new Int32Array(a.length * 2);
   b.set(a);
   return b;
+}
+
+/** The place of a mask's lowest set bit (the mask is not 0). */
+function lowest(mask: number): number {
+  return 31 - Math.clz32(mask & -mask);
+}
+
+/** One past the place of a mask's highest set bit. */
+function highest(mask: number): number {
+  return 32 - Math.clz32(mask);
+}
+
+/**
+ * Adds `v` to the sums of the repeats in `mask` (`sums[at + k]` for each set bit k), without a branch
+ * per repeat: a repeat outside the set adds 0 × v, which leaves its sum as it was (a sum starts at +0
+ * and so is never -0). Not for a value that is not finite, where 0 × v would be NaN.
+ */
+function addToSet(sums: Float64Array, at: number, mask: number, v: number): void {
+  if (!Number.isFinite(v)) {
+    for (let k = at; mask !== 0; k++, mask >>>= 1) if (mask & 1) sums[k] += v;
+    return;
+  }
+  for (let k = lowest(mask), end = highest(mask); k < end; k++) sums[at + k] += ((mask >>> k) & 1) * v;
 }

@@ -67,6 +67,26 @@ describe('permuted forest predictions', () => {
     }
   });
 
+  it('equal predicting the permuted matrix when a leaf holds a value that is not finite', async () => {
+    // a hand-made stump whose left leaf is infinite: repeats that miss it must not pick up 0 × ∞
+    const feature = Int32Array.of(0, -1, -1);
+    const stump = { feature, thresholdOrValue: Float64Array.of(0.5, Infinity, 1), right: rightChildren(feature) as Int32Array, draws: Int32Array.of(2, 1, 1) };
+    const rand = seedrandom('infinite');
+    const n = 50;
+    const x = { rows: n, names: ['a', 'b'], columns: [Float64Array.from({ length: n }, () => rand()), Float64Array.from({ length: n }, () => rand())] };
+    const base = await fitForest(x, Float64Array.from({ length: n }, () => rand()), { trees: 1, maxDepth: 2, minLeaf: 1, mtry: null, seed: 'inf' });
+    const forest = { ...base, trees: [base.trees[0], stump] };
+    const rows = [...Array(n).keys()];
+    const orders = [shuffle([...rows], rand), shuffle([...rows], rand), shuffle([...rows], rand)];
+    const got = predictPermuted(forest, x, [0], orders);
+    orders.forEach((order, k) => {
+      const moved = [Float64Array.from(order, (r) => x.columns[0][r]), x.columns[1]];
+      const want = predictForest(forest, { ...x, columns: moved });
+      expect(want.some((v) => v === Infinity) && want.some(Number.isFinite)).toBe(true);
+      expect(Array.from(got[k])).toEqual(Array.from(want));
+    });
+  });
+
   it('refuses a matrix that is not the forest’s, like predict does', async () => {
     const { x, y } = friedman1(100, 'permute-names');
     const forest = await fitForest(x, y, { trees: 3, maxDepth: 3, minLeaf: 5, mtry: null, seed: 's' });
