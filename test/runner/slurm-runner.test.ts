@@ -3,7 +3,7 @@
  * that run each array task's script on this machine: what it submits, what it retries, how it
  * reports a failed task. The real scheduler is exercised in test/e2e/slurm.test.ts.
  */
-import { mkdtempSync, readFileSync, readdirSync, symlinkSync } from 'node:fs';
+import { mkdtempSync, readFileSync, readdirSync, rmSync, symlinkSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
@@ -26,6 +26,7 @@ beforeEach(() => {
 });
 
 afterEach(() => {
+  rmSync(state, { recursive: true, force: true });
   process.env.PATH = saved.PATH;
   if (saved.plan === undefined) delete process.env.FAKE_SLURM_PLAN;
   if (saved.dir === undefined) delete process.env.FAKE_SLURM_DIR;
@@ -164,6 +165,7 @@ describe('the Slurm executor (stand-in commands)', () => {
     expect(readFileSync(join(state, 'cancelled'), 'utf8')).toContain('101');
     process.env.PATH = '/nonexistent';
     await expectOutcome(s.dir, ['run', s.recipe, '--cache', s.cache, '--executor', 'slurm'], { code: 2, err: messages.clusterCommandMissing('sbatch', 'ENOENT') });
+    rmSync(onlySbatch, { recursive: true, force: true });
   });
 
   it('cancels and says so when Slurm will never start the tasks as asked, instead of waiting forever', async () => {
