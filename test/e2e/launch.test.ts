@@ -17,7 +17,7 @@ describe('allocatorEnvironment', () => {
   it('adds the settings for the commands that grow or use forests, on Linux', () => {
     for (const command of ['run', 'predict', 'task']) {
       const env = allocatorEnvironment([command, 'x.yaml'], { PATH: '/bin' }, 'linux');
-      expect(env).toEqual({ PATH: '/bin', MALLOC_ARENA_MAX: '2', MALLOC_MMAP_THRESHOLD_: '131072' });
+      expect(env).toEqual({ PATH: '/bin', MALLOC_ARENA_MAX: '2', MALLOC_MMAP_THRESHOLD_: '1048576' });
     }
   });
 
@@ -78,7 +78,7 @@ describe.runIf(process.platform === 'linux')('the launcher on Linux (built bin/d
     const child = await firstChild(p.pid!);
     const environ = readFileSync(`/proc/${child}/environ`, 'utf8').split('\0');
     expect(environ).toContain('MALLOC_ARENA_MAX=2');
-    expect(environ).toContain('MALLOC_MMAP_THRESHOLD_=131072');
+    expect(environ).toContain('MALLOC_MMAP_THRESHOLD_=1048576');
     expect(readFileSync(`/proc/${child}/cmdline`, 'utf8').split('\0')).toEqual(expect.arrayContaining([bin, 'run', 'lake/lake-chlorophyll.yaml']));
     p.kill('SIGTERM');
     expect(await ended(p)).toEqual({ code: null, signal: 'SIGTERM' });
