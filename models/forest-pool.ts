@@ -67,6 +67,11 @@ export function takeSlot(slots: FittedSlots): number {
   return -1;
 }
 
+/** A taken slot's values, and the function that frees it once they are used. */
+function slotView(slots: FittedSlots, slot: number): { values: Float64Array; release: () => void } {
+  return { values: slots.values.subarray(slot * slots.rows, (slot + 1) * slots.rows), release: () => Atomics.store(slots.free, slot, 1) };
+}
+
 interface Reply {
   tree: number;
   grown?: GrownTree;
@@ -130,8 +135,9 @@ export class ForestPool {
       const grown = reply.grown;
       const slot = reply.slot;
       if (slots !== null && slot !== undefined) {
-        grown.fitted = slots.values.subarray(slot * slots.rows, (slot + 1) * slots.rows);
-        grown.release = () => Atomics.store(slots.free, slot, 1);
+        const view = slotView(slots, slot);
+        grown.fitted = view.values;
+        grown.release = view.release;
       }
       deliver(reply.tree, grown);
     };
@@ -160,9 +166,9 @@ export class ForestPool {
     const slots = this.slots;
     const slot = slots ? takeSlot(slots) : -1;
     if (!slots || slot < 0) return { values: values.slice() };
-    const view = slots.values.subarray(slot * slots.rows, (slot + 1) * slots.rows);
-    view.set(values);
-    return { values: view, release: () => Atomics.store(slots.free, slot, 1) };
+    const view = slotView(slots, slot);
+    view.values.set(values);
+    return view;
   }
 
   /** Ends the worker threads. */

@@ -173,14 +173,11 @@ class RepeatWalker {
       const n = path[q];
       const h = feature[n];
       if (jobOf[h] !== job) continue;
-      const t = tv[n];
-      let goLeft = 0;
-      // branch-free: whether a repeat goes left is a coin toss the processor cannot predict
-      for (let k = lowest(mask), end = highest(mask), s = (at + k) * width + slotOf[h]; k < end; k++, s += width) goLeft |= +(moved[s] <= t) << k;
+      const goLeft = goingLeft(moved, at, width, slotOf[h], mask, tv[n]);
       const ownLeft = path[q + 1] === n + 1;
       const off = mask & (ownLeft ? ~goLeft : goLeft);
       if (off !== 0) {
-        this.walkSets(tree, block, base, jobOf, slotOf, job, moved, repeats, width, at, ownLeft ? right[n] : n + 1, off, sums);
+        this.walkSets(tree, block, base, jobOf, slotOf, job, moved, width, at, ownLeft ? right[n] : n + 1, off, sums);
         mask &= ~off;
         if (mask === 0) return;
       }
@@ -202,7 +199,6 @@ class RepeatWalker {
     slotOf: Int32Array,
     job: number,
     moved: Float64Array,
-    repeats: number,
     width: number,
     at: number,
     start: number,
@@ -222,8 +218,7 @@ class RepeatWalker {
       for (;;) {
         const h = feature[n];
         if (h < 0) {
-          const v = tv[n];
-          addToSet(sums, at, mask, v);
+          addToSet(sums, at, mask, tv[n]);
           break;
         }
         if (jobOf[h] !== job) {
@@ -231,10 +226,7 @@ class RepeatWalker {
           continue;
         }
         // part the set: the repeats whose value goes left, and the rest
-        const t = tv[n];
-        let goLeft = 0;
-        for (let k = lowest(mask), end = highest(mask), s = (at + k) * width + slotOf[h]; k < end; k++, s += width) goLeft |= +(moved[s] <= t) << k;
-        goLeft &= mask;
+        const goLeft = goingLeft(moved, at, width, slotOf[h], mask, tv[n]);
         const goRight = mask & ~goLeft;
         if (goLeft === 0) n = right[n];
         else if (goRight === 0) n = n + 1;
@@ -254,6 +246,17 @@ function grown(a: Int32Array): Int32Array {
   const b = new Int32Array(a.length * 2);
   b.set(a);
   return b;
+}
+
+/**
+ * The repeats of `mask` whose value (`moved[(at + k) * width + slot]` for repeat k) goes left at a
+ * threshold `t`, as a mask. Branch-free: whether a repeat goes left is a coin toss the processor
+ * cannot predict. Reads only the repeats from the mask's lowest to its highest.
+ */
+function goingLeft(moved: Float64Array, at: number, width: number, slot: number, mask: number, t: number): number {
+  let left = 0;
+  for (let k = lowest(mask), stop = highest(mask), s = (at + k) * width + slot; k < stop; k++, s += width) left |= +(moved[s] <= t) << k;
+  return left & mask;
 }
 
 /** The place of a mask's lowest set bit (the mask is not 0). */
@@ -276,5 +279,5 @@ function addToSet(sums: Float64Array, at: number, mask: number, v: number): void
     for (let k = at; mask !== 0; k++, mask >>>= 1) if (mask & 1) sums[k] += v;
     return;
   }
-  for (let k = lowest(mask), end = highest(mask); k < end; k++) sums[at + k] += ((mask >>> k) & 1) * v;
+  for (let k = lowest(mask), stop = highest(mask); k < stop; k++) sums[at + k] += ((mask >>> k) & 1) * v;
 }

@@ -99,6 +99,15 @@ describe.runIf(process.platform === 'linux')('the launcher on Linux (built bin/d
     expect(r.stderr).toMatch(/no-such-recipe\.yaml/);
   });
 
+  it('says what to do when Node cannot be started again, and exits 1', () => {
+    const launch = join(root, 'dist', 'runner', 'launch.js');
+    const code = `process.execPath = '/nonexistent/node'; import(${JSON.stringify(launch)}).then((m) => m.relaunch('x.js', ['run'], {}));`;
+    const r = spawnSync(process.execPath, ['--input-type=module', '-e', code], { encoding: 'utf8' });
+    expect(r.status).toBe(1);
+    expect(r.stderr).toContain('could not start /nonexistent/node again for the command');
+    expect(r.stderr).toContain('set MALLOC_ARENA_MAX in the environment to run without a second process');
+  });
+
   it("starts no second process when the user set an allocator variable, and keeps the user's value", async () => {
     const p = spawn(process.execPath, runArgs(), { cwd: work, env: { ...plainEnv(), MALLOC_ARENA_MAX: '4' }, stdio: 'ignore' });
     // the run itself is this process: its environment is the user's, and no child runs bin/dendrolog.js

@@ -3,12 +3,26 @@
  * bit: the shortcut must not change a permutation importance.
  */
 import { describe, expect, it } from 'vitest';
-import { fitForest, predictForest } from '../../models/forest.js';
+import type { Matrix } from '../../models/checks.js';
+import { fitForest, predictForest, type Forest } from '../../models/forest.js';
 import { predictPermuted } from '../../models/permute.js';
 import { rightChildren, treeDepth } from '../../models/tree.js';
 import { shuffle } from '../../core/rng.js';
 import seedrandom from 'seedrandom';
 import { friedman1 } from '../bench/friedman.js';
+
+/** `x` with the values of `columns` in row i read from row `order[i]`. */
+function permutedMatrix(x: Matrix, columns: number[], order: ArrayLike<number>): Matrix {
+  const moved = x.columns.slice();
+  for (const c of columns) moved[c] = Float64Array.from(order, (r) => x.columns[c][r]);
+  return { ...x, columns: moved };
+}
+
+/** predictPermuted gives, for each repeat in `repeats` (all by default), what predicting its permuted matrix gives, bit for bit. */
+function expectAsPredicted(forest: Forest, x: Matrix, columns: number[], orders: ArrayLike<number>[], repeats: number[] = [...orders.keys()]): void {
+  const got = predictPermuted(forest, x, columns, orders);
+  for (const k of repeats) expect(Array.from(got[k])).toEqual(Array.from(predictForest(forest, permutedMatrix(x, columns, orders[k]))));
+}
 
 describe('permuted forest predictions', () => {
   it('equal predicting the permuted matrix, for one column, two columns and the identity order', async () => {
@@ -17,14 +31,7 @@ describe('permuted forest predictions', () => {
     const rand = seedrandom('orders');
     const rows = [...Array(x.rows).keys()];
     const orders = [shuffle([...rows], rand), shuffle([...rows], rand), rows];
-    for (const columns of [[0], [3, 7]]) {
-      const got = predictPermuted(forest, x, columns, orders);
-      orders.forEach((order, k) => {
-        const moved = x.columns.slice();
-        for (const c of columns) moved[c] = Float64Array.from(order, (r) => x.columns[c][r]);
-        expect(Array.from(got[k])).toEqual(Array.from(predictForest(forest, { ...x, columns: moved })));
-      });
-    }
+    for (const columns of [[0], [3, 7]]) expectAsPredicted(forest, x, columns, orders);
   });
 
   it('equal predicting the permuted matrix with more repeats than one walk carries together (31)', async () => {
@@ -33,12 +40,7 @@ describe('permuted forest predictions', () => {
     const rand = seedrandom('many-orders');
     const rows = [...Array(x.rows).keys()];
     const orders = Array.from({ length: 31 }, () => shuffle([...rows], rand));
-    const got = predictPermuted(forest, x, [1], orders);
-    for (const k of [0, 17, 30]) {
-      const moved = x.columns.slice();
-      moved[1] = Float64Array.from(orders[k], (r) => x.columns[1][r]);
-      expect(Array.from(got[k])).toEqual(Array.from(predictForest(forest, { ...x, columns: moved })));
-    }
+    expectAsPredicted(forest, x, [1], orders, [0, 17, 30]);
   });
 
   it('equal predicting the permuted matrix down paths deeper than 64 nodes', async () => {
@@ -57,14 +59,7 @@ describe('permuted forest predictions', () => {
     const forest = { ...base, trees: [chain, base.trees[0]] };
     const rows = [...Array(n).keys()];
     const orders = [shuffle([...rows], rand), shuffle([...rows], rand)];
-    for (const columns of [[0], [1]]) {
-      const got = predictPermuted(forest, x, columns, orders);
-      orders.forEach((order, k) => {
-        const moved = x.columns.slice();
-        for (const c of columns) moved[c] = Float64Array.from(order, (r) => x.columns[c][r]);
-        expect(Array.from(got[k])).toEqual(Array.from(predictForest(forest, { ...x, columns: moved })));
-      });
-    }
+    for (const columns of [[0], [1]]) expectAsPredicted(forest, x, columns, orders);
   });
 
   it('equal predicting the permuted matrix when a leaf holds a value that is not finite', async () => {
@@ -78,13 +73,11 @@ describe('permuted forest predictions', () => {
     const forest = { ...base, trees: [base.trees[0], stump] };
     const rows = [...Array(n).keys()];
     const orders = [shuffle([...rows], rand), shuffle([...rows], rand), shuffle([...rows], rand)];
-    const got = predictPermuted(forest, x, [0], orders);
-    orders.forEach((order, k) => {
-      const moved = [Float64Array.from(order, (r) => x.columns[0][r]), x.columns[1]];
-      const want = predictForest(forest, { ...x, columns: moved });
+    for (const order of orders) {
+      const want = predictForest(forest, permutedMatrix(x, [0], order));
       expect(want.some((v) => v === Infinity) && want.some(Number.isFinite)).toBe(true);
-      expect(Array.from(got[k])).toEqual(Array.from(want));
-    });
+    }
+    expectAsPredicted(forest, x, [0], orders);
   });
 
   it('refuses a matrix that is not the forest’s, like predict does', async () => {
