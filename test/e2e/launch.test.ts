@@ -49,13 +49,22 @@ function childrenOf(pid: number): number[] {
   }
 }
 
-async function firstChild(pid: number): Promise<number> {
+/** A process's first child once it runs `program` (between fork and exec its environment is not yet the new one). */
+async function firstChild(pid: number, program = bin): Promise<number> {
   for (let i = 0; i < 500; i++) {
-    const c = childrenOf(pid);
-    if (c.length > 0) return c[0];
+    const c = childrenOf(pid)[0];
+    if (c !== undefined && commandLine(c).includes(program)) return c;
     await new Promise((r) => setTimeout(r, 10));
   }
-  throw new Error(`process ${pid} started no child within 5 s`);
+  throw new Error(`process ${pid} started no child running ${program} within 5 s`);
+}
+
+function commandLine(pid: number): string[] {
+  try {
+    return readFileSync(`/proc/${pid}/cmdline`, 'utf8').split('\0');
+  } catch {
+    return [];
+  }
 }
 
 function ended(p: ChildProcess): Promise<{ code: number | null; signal: NodeJS.Signals | null }> {
