@@ -15,7 +15,7 @@
  * Example: `allocatorEnvironment(['run', 'lake.yaml'], process.env, 'linux')` is the environment to
  * start the run with, or null to run in this process.
  */
-import { spawn } from 'node:child_process';
+import { spawn, type ChildProcess } from 'node:child_process';
 
 /**
  * What dendrolog sets: two arenas, and blocks of 1 MiB and more always mapped, so freed, they go back
@@ -44,12 +44,15 @@ const FORWARDED: NodeJS.Signals[] = ['SIGINT', 'SIGTERM', 'SIGHUP'];
  * options; ends this process as the child ended: with its exit code, or by the same signal.
  */
 export function relaunch(script: string, args: readonly string[], env: NodeJS.ProcessEnv): void {
-  const child = spawn(process.execPath, [...process.execArgv, script, ...args], { stdio: 'inherit', env });
+  // listening before the child starts: a signal that comes meanwhile must not end this process alone
+  let child: ChildProcess | null = null;
   const pass = (signal: NodeJS.Signals) => {
-    child.kill(signal);
+    child?.kill(signal);
   };
   for (const s of FORWARDED) process.on(s, pass);
+  child = spawn(process.execPath, [...process.execArgv, script, ...args], { stdio: 'inherit', env });
   child.on('error', (e) => {
+    for (const s of FORWARDED) process.removeListener(s, pass);
     process.stderr.write(`error: could not start ${process.execPath} again for the command: ${e.message}; set MALLOC_ARENA_MAX in the environment to run without a second process\n`);
     process.exitCode = 1;
   });

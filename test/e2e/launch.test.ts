@@ -67,6 +67,12 @@ function commandLine(pid: number): string[] {
   }
 }
 
+/** Whether a process is gone within 5 s (an orphan is reaped by init, a moment later). */
+async function gone(pid: number): Promise<boolean> {
+  for (let i = 0; i < 500 && existsSync(`/proc/${pid}`); i++) await new Promise((r) => setTimeout(r, 10));
+  return !existsSync(`/proc/${pid}`);
+}
+
 function ended(p: ChildProcess): Promise<{ code: number | null; signal: NodeJS.Signals | null }> {
   return new Promise((done) => p.on('exit', (code, signal) => done({ code, signal })));
 }
@@ -91,7 +97,7 @@ describe.runIf(process.platform === 'linux')('the launcher on Linux (built bin/d
     expect(readFileSync(`/proc/${child}/cmdline`, 'utf8').split('\0')).toEqual(expect.arrayContaining([bin, 'run', 'lake/lake-chlorophyll.yaml']));
     p.kill('SIGTERM');
     expect(await ended(p)).toEqual({ code: null, signal: 'SIGTERM' });
-    expect(existsSync(`/proc/${child}`)).toBe(false);
+    expect(await gone(child)).toBe(true);
   });
 
   it('ends by SIGINT when a terminal sends it to the whole process group', async () => {
@@ -99,7 +105,7 @@ describe.runIf(process.platform === 'linux')('the launcher on Linux (built bin/d
     const child = await firstChild(p.pid!);
     process.kill(-p.pid!, 'SIGINT');
     expect(await ended(p)).toEqual({ code: null, signal: 'SIGINT' });
-    expect(existsSync(`/proc/${child}`)).toBe(false);
+    expect(await gone(child)).toBe(true);
   });
 
   it("passes on the child's exit code and messages", () => {
